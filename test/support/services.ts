@@ -1,0 +1,39 @@
+/**
+ * Which server-backed test suites can run here.
+ *
+ * With HEATLEDGER_REQUIRE_SERVICES=1 (set by .ci/run) a missing server is a
+ * test failure; without it, a suite whose server is unreachable is skipped and
+ * says so plainly in the output.
+ */
+import net from 'node:net';
+
+export const requireServices = process.env.HEATLEDGER_REQUIRE_SERVICES === '1';
+export const testDatabaseUrl =
+  process.env.HEATLEDGER_TEST_DATABASE_URL ?? 'postgres://postgres@127.0.0.1:5432/test';
+export const testRedisUrl = process.env.HEATLEDGER_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';
+
+function reachable(url: string, defaultPort: number): Promise<boolean> {
+  const u = new URL(url);
+  const port = Number(u.port || defaultPort);
+  return new Promise((resolve) => {
+    const socket = net.connect({ host: u.hostname, port, timeout: 1500 });
+    socket.once('connect', () => { socket.destroy(); resolve(true); });
+    socket.once('timeout', () => { socket.destroy(); resolve(false); });
+    socket.once('error', () => resolve(false));
+  });
+}
+
+/**
+ * Resolve whether a server suite should run. Throws when services are
+ * required but unreachable; logs a plain "skipped" line otherwise.
+ */
+export async function serviceAvailable(name: 'postgres' | 'redis', suite: string): Promise<boolean> {
+  const url = name === 'postgres' ? testDatabaseUrl : testRedisUrl;
+  const ok = await reachable(url, name === 'postgres' ? 5432 : 6379);
+  if (ok) return true;
+  if (requireServices) {
+    throw new Error(`${suite}: ${name} at ${url} is unreachable and HEATLEDGER_REQUIRE_SERVICES=1`);
+  }
+  console.log(`SKIPPED ${suite}: no ${name} server at ${url} (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+  return false;
+}

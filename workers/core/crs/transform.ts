@@ -1,0 +1,119 @@
+/**
+ * Reprojection of points, MultiPolygon coordinates and bounding boxes with proj4.
+ * Coordinates are always easting/longitude first.
+ */
+import proj4, { type Converter } from 'proj4';
+import { InputError } from '../errors.js';
+import type { BBox } from '../raster/affine.js';
+
+/** A point transformer: (x, y) in the source CRS -> [x, y] in the target CRS. */
+export type PointTransformer = (x: number, y: number) => [number, number];
+
+/** MultiPolygon coordinates: polygons -> rings -> positions [x, y]. */
+export type MultiPolygonCoordinates = number[][][][];
+
+/**
+ * True when a proj4 definition is geographic (degrees of longitude/latitude),
+ * false for a projected CRS.
+ * @example isGeographic('+proj=longlat +datum=WGS84 +no_defs') // true
+ */
+export function isGeographic(def: string): boolean {
+  return /\+proj=(longlat|latlong|lonlat|latlon)(\s|$)/.test(def);
+}
+
+const transformers = new Map<string, PointTransformer>();
+
+/**
+ * A cached point transformer between two proj4 definitions.
+ *
+ * @param fromDef proj4 string of the source CRS (units of its own: degrees or metres)
+ * @param toDef proj4 string of the target CRS
+ * @returns (x, y) => [x, y]; throws InputError for a point outside the
+ *   projection's domain (non-finite result) instead of returning NaN.
+ * @throws InputError when a definition cannot be parsed.
+ * @example makeTransformer(crsDefinitionForEpsg(4326), crsDefinitionForEpsg(32633))(15, 0) // [500000, 0]
+ */
+export function makeTransformer(fromDef: string, toDef: string): PointTransformer {
+  const key = `${fromDef}\u0000${toDef}`;
+  const cached = transformers.get(key);
+  if (cached) return cached;
+  let converter: Converter;
+  try {
+    converter = proj4(fromDef, toDef);
+  } catch (e) {
+    throw new InputError(`cannot build a transformation from "${fromDef}" to "${toDef}": ${(e as Error).message}`);
+  }
+  const identity = fromDef === toDef;
+  const transform: PointTransformer = (x, y) => {
+    if (identity) return [x, y];
+    let out: number[] | undefined;
+    if (Number.isFinite(x) && Number.isFinite(y)) {
+      try {
+        out = converter.forward([x, y]);
+      } catch {
+        out = undefined;
+      }
+    }
+    if (!out || !Number.isFinite(out[0]) || !Number.isFinite(out[1])) {
+      throw new InputError(`point (${x}, ${y}) cannot be reprojected to "${toDef}": outside the projection's domain`);
+    }
+    return [out[0], out[1]];
+  };
+  transformers.set(key, transform);
+  return transform;
+}
+
+/**
+ * Reproject MultiPolygon coordinates vertex by vertex (no densification: edges
+ * stay straight in the target CRS, fine for district-sized polygons).
+ *
+ * @param geometry polygons -> rings -> [x, y] in `fromDef` units
+ * @param source optional file name for error messages
+ * @returns a new array in `toDef` units; input is not modified.
+ */
+export function reprojectGeometry(
+  geometry: MultiPolygonCoordinates,
+  fromDef: string,
+  toDef: string,
+  source?: string,
+): MultiPolygonCoordinates {
+  const t = makeTransformer(fromDef, toDef);
+  try {
+    return geometry.map((polygon) => polygon.map((ring) => ring.map(([x, y]) => t(x, y))));
+  } catch (e) {
+    if (source && e instanceof InputError && e.source === undefined) throw new InputError(e.message, source);
+    throw e;
+  }
+}
+
+/**
+ * Bounding box of a box after reprojection: each edge is sampled at
+ * `pointsPerEdge` points, since straight edges curve under most projections.
+ *
+ * @param bbox [minX, minY, maxX, maxY] in `fromDef` units
+ * @returns [minX, minY, maxX, maxY] in `toDef` units (no antimeridian handling:
+ *   a box crossing +-180 degrees in the target comes back as the wide box).
+ * @example reprojectBBox([14, 50, 16, 52], wgs84Def, utm33Def)
+ */
+export function reprojectBBox(bbox: BBox, fromDef: string, toDef: string, pointsPerEdge = 21): BBox {
+  const [x0, y0, x1, y1] = bbox;
+  if (![x0, y0, x1, y1].every(Number.isFinite) || x1 < x0 || y1 < y0) {
+    throw new InputError(`bounding box [${bbox.join(', ')}] is not [minX, minY, maxX, maxY] of finite numbers`);
+  }
+  const t = makeTransformer(fromDef, toDef);
+  const n = Math.max(2, Math.floor(pointsPerEdge));
+  let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
+  const add = (x: number, y: number): void => {
+    const [px, py] = t(x, y);
+    minX = Math.min(minX, px); maxX = Math.max(maxX, px);
+    minY = Math.min(minY, py); maxY = Math.max(maxY, py);
+  };
+  for (let i = 0; i < n; i++) {
+    const f = i / (n - 1);
+    add(x0 + f * (x1 - x0), y0);
+    add(x0 + f * (x1 - x0), y1);
+    add(x0, y0 + f * (y1 - y0));
+    add(x1, y0 + f * (y1 - y0));
+  }
+  return [minX, minY, maxX, maxY];
+}

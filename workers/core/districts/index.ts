@@ -1,0 +1,8 @@
+/** District GeoJSON parsing and validation, areas, rural ring and adjacency. */
+export type { District, LonLatBBox } from './types.js';
+export { parseDistricts, readDistricts, type ParseDistrictsOptions } from './parse.js';
+export { ellipsoidalAreaSquareMetres, signedRingAreaSquareMetres } from './area.js';
+export { orientPolygon, orientMultiPolygon } from './orient.js';
+export { districtsBBox } from './bbox.js';
+export { ruralRing } from './rural.js';
+export { adjacency, type AdjacencyOptions } from './adjacency.js';

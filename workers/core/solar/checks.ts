@@ -1,0 +1,40 @@
+import { InputError } from '../errors.js';
+
+/**
+ * Argument checks for the solar functions. Each failure is an InputError whose
+ * source is the calling function and whose message names the argument.
+ */
+/** The value as a finite number, else InputError naming `name`. */
+export function requireFiniteNumber(value: unknown, name: string, source: string): number {
+  if (typeof value !== 'number' || !Number.isFinite(value)) {
+    throw new InputError(`${name} must be a finite number, got ${describe(value)}.`, source);
+  }
+  return value;
+}
+
+/** A finite number within [min, max], else InputError. */
+export function requireInRange(value: unknown, name: string, min: number, max: number, source: string): number {
+  const v = requireFiniteNumber(value, name, source);
+  if (v < min || v > max) {
+    throw new InputError(`${name} must be between ${min} and ${max}, got ${v}.`, source);
+  }
+  return v;
+}
+
+/** A Date holding a valid instant, else InputError. */
+export function requireDate(value: unknown, name: string, source: string): Date {
+  if (!(value instanceof Date) || !Number.isFinite(value.getTime())) {
+    throw new InputError(`${name} must be a valid Date, got ${describe(value)}.`, source);
+  }
+  return value;
+}
+
+/** Short printable form of any value for error messages. */
+export function describe(value: unknown): string {
+  if (value instanceof Date) return Number.isFinite(value.getTime()) ? value.toISOString() : 'an invalid Date';
+  if (typeof value === 'string') return JSON.stringify(value.length > 40 ? `${value.slice(0, 40)}...` : value);
+  if (typeof value === 'number' || typeof value === 'boolean' || typeof value === 'bigint') return String(value);
+  if (value === null) return 'null';
+  if (value === undefined) return 'undefined';
+  return typeof value;
+}

@@ -1,0 +1,42 @@
+/** Thermal-band decoding, Planck inversion, emissivity, single-channel LST, ATI and thermal inertia. */
+export {
+  TIRS_CONSTANTS,
+  TIRS_B10_CENTRE_MICROMETRES,
+  LANDSAT_C2_ST,
+  MODIS_LST,
+  tirsConstants,
+  radianceFromDn,
+  brightnessTemperatureKelvin,
+  landsatL1BrightnessKelvin,
+  decodeLandsatC2StKelvin,
+  decodeModisLstKelvin,
+  modisLstStatus,
+  modisViewTimeHours,
+  type LandsatSpacecraft,
+  type TirsBand,
+  type TirsBandConstants,
+  type ModisDnStatus,
+} from './sensors.js';
+export { ndvi, vegetationFraction, emissivityNdviThreshold, type NdviThresholdOptions } from './emissivity.js';
+export {
+  lstFromBrightnessTemperature,
+  PLANCK_J_S,
+  SPEED_OF_LIGHT_M_PER_S,
+  BOLTZMANN_J_PER_K,
+  RHO_METRE_KELVIN,
+  RHO_MICROMETRE_KELVIN,
+  RHO_ROUNDED_MICROMETRE_KELVIN,
+} from './lst.js';
+export {
+  thermalInertia,
+  thermalDiffusivity,
+  apparentThermalInertia,
+  atiWithReason,
+  insolationShapeFactors,
+  type ThermalProperties,
+  type AtiInput,
+  type AtiResult,
+  type AtiNullReason,
+  type InsolationShapeFactors,
+} from './inertia.js';
+export { MATERIALS, SPECIFIC_HEAT_J_PER_KG_K, material, type MaterialRow } from './materials.js';

@@ -1,0 +1,139 @@
+/**
+ * Polygon geometry moved into pixel space: the space in which cell (col, row)
+ * is the unit square [col, col + 1) x [row, row + 1) and its centre is
+ * (col + 0.5, row + 0.5). Both coverage rules work there, so a rotated
+ * geotransform needs no special case.
+ */
+import type { Affine } from '../raster/affine.js';
+import { InputError } from '../errors.js';
+
+/** One polygon in pixel space: all rings' vertices back to back (closing vertex dropped). */
+export interface PixelPolygon {
+  /** Column coordinate of each vertex (pixel units, fractional). */
+  readonly xs: Float64Array;
+  /** Row coordinate of each vertex (pixel units, fractional). */
+  readonly ys: Float64Array;
+  /** Start index of ring k in xs/ys; ring k ends where ring k + 1 starts. Length rings + 1. */
+  readonly ringStarts: Uint32Array;
+}
+
+/** A geometry in pixel space with its bounding box (pixel units). */
+export interface PixelGeometry {
+  readonly polygons: PixelPolygon[];
+  readonly minX: number;
+  readonly minY: number;
+  readonly maxX: number;
+  readonly maxY: number;
+}
+
+/**
+ * Inverse of a geotransform, written the way GDAL's GDALInvGeoTransform is
+ * (from memory): the unrotated case inverts each axis on its own (1 / a), so
+ * a vertex that lies exactly on a pixel centre in map units lands exactly on
+ * x.5 in pixel units, as it does in GDAL's rasterizer.
+ */
+export function inverseGeoTransform(t: Affine, source?: string): Affine {
+  const finite = [t.a, t.b, t.c, t.d, t.e, t.f].every(Number.isFinite);
+  if (finite && t.b === 0 && t.d === 0 && t.a !== 0 && t.e !== 0) {
+    return { a: 1 / t.a, b: 0, c: -t.c / t.a, d: 0, e: 1 / t.e, f: -t.f / t.e };
+  }
+  const det = t.a * t.e - t.b * t.d;
+  const magnitude = Math.max(Math.abs(t.a), Math.abs(t.b), Math.abs(t.d), Math.abs(t.e));
+  if (!finite || !Number.isFinite(det) || Math.abs(det) <= 1e-10 * magnitude * magnitude) {
+    throw new InputError('the raster geotransform is singular or not finite, so polygons cannot be placed on its pixels', source);
+  }
+  const inv = 1 / det;
+  return {
+    a: t.e * inv,
+    b: -t.b * inv,
+    c: (t.b * t.f - t.c * t.e) * inv,
+    d: -t.d * inv,
+    e: t.a * inv,
+    f: (-t.a * t.f + t.c * t.d) * inv,
+  };
+}
+
+function describe(p: number, r: number): string {
+  return `ring ${r + 1} of polygon ${p + 1}`;
+}
+
+/**
+ * Validates polygon/multipolygon coordinates (map units of the raster CRS)
+ * and maps every vertex to pixel space with the inverse geotransform.
+ *
+ * Rings may be open or closed (a closing vertex equal to the first is
+ * dropped); each needs at least 3 distinct positions. Throws InputError
+ * naming `source` for anything that is not a list of polygons of rings of
+ * finite [x, y] positions.
+ *
+ * @param geometry MultiPolygon coordinates: polygons -> rings -> positions -> [x, y]
+ * @param transform raster geotransform (may be rotated)
+ * @returns vertices in pixel units and their bounding box; null for an empty geometry
+ */
+export function toPixelSpace(geometry: unknown, transform: Affine, source?: string): PixelGeometry | null {
+  if (!Array.isArray(geometry)) {
+    throw new InputError('geometry coordinates are not a list of polygons', source);
+  }
+  const inv = inverseGeoTransform(transform, source);
+  const polygons: PixelPolygon[] = [];
+  let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
+  for (let p = 0; p < geometry.length; p++) {
+    const rings: unknown = geometry[p];
+    if (!Array.isArray(rings)) throw new InputError(`polygon ${p + 1} is not a list of rings`, source);
+    if (rings.length === 0) continue;
+    let total = 0;
+    for (let r = 0; r < rings.length; r++) {
+      const ring: unknown = rings[r];
+      if (!Array.isArray(ring)) throw new InputError(`${describe(p, r)} is not a list of positions`, source);
+      total += ring.length;
+    }
+    const xs = new Float64Array(total);
+    const ys = new Float64Array(total);
+    const ringStarts = new Uint32Array(rings.length + 1);
+    let n = 0;
+    for (let r = 0; r < rings.length; r++) {
+      const ring = rings[r] as unknown[];
+      ringStarts[r] = n;
+      const start = n;
+      for (let i = 0; i < ring.length; i++) {
+        const pos: unknown = ring[i];
+        if (!Array.isArray(pos) || pos.length < 2) {
+          throw new InputError(`position ${i + 1} of ${describe(p, r)} is not an [x, y] pair`, source);
+        }
+        const x = pos[0], y = pos[1];
+        if (typeof x !== 'number' || typeof y !== 'number' || !Number.isFinite(x) || !Number.isFinite(y)) {
+          throw new InputError(`position ${i + 1} of ${describe(p, r)} has a coordinate that is not a finite number`, source);
+        }
+        // Pixel space; same operation order as GDAL's GDALApplyGeoTransform.
+        const px = inv.c + x * inv.a + y * inv.b;
+        const py = inv.f + x * inv.d + y * inv.e;
+        // Drop repeated consecutive vertices: they add zero-length edges only.
+        if (n > start && xs[n - 1] === px && ys[n - 1] === py) continue;
+        xs[n] = px;
+        ys[n] = py;
+        n++;
+      }
+      if (n - start > 1 && xs[n - 1] === xs[start] && ys[n - 1] === ys[start]) n--; // closing vertex
+      if (n - start < 3) {
+        throw new InputError(`${describe(p, r)} has fewer than 3 distinct positions`, source);
+      }
+      for (let i = start; i < n; i++) {
+        if (xs[i] < minX) minX = xs[i];
+        if (xs[i] > maxX) maxX = xs[i];
+        if (ys[i] < minY) minY = ys[i];
+        if (ys[i] > maxY) maxY = ys[i];
+      }
+    }
+    ringStarts[rings.length] = n;
+    polygons.push({ xs: xs.subarray(0, n), ys: ys.subarray(0, n), ringStarts });
+  }
+  if (polygons.length === 0) return null;
+  return { polygons, minX, minY, maxX, maxY };
+}
+
+/** Raster size check shared by both mask builders. */
+export function checkRasterSize(width: number, height: number, source?: string): void {
+  if (!Number.isInteger(width) || !Number.isInteger(height) || width <= 0 || height <= 0) {
+    throw new InputError(`raster size ${width} x ${height} is not a positive whole number of pixels`, source);
+  }
+}

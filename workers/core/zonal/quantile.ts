@@ -1,0 +1,86 @@
+/**
+ * Sample quantiles, Hyndman & Fan (1996, Am. Stat. 50:361-365) type 7 — the
+ * default of R's quantile() and NumPy's 'linear' method — and its weighted
+ * generalisation used for coverage-fraction statistics.
+ */
+
+/**
+ * Linear interpolation the way NumPy's `_lerp` does it (from memory): from
+ * the upper end when t >= 0.5, so results stay within [a, b] and match
+ * numpy.quantile to the last bit.
+ */
+export function lerp(a: number, b: number, t: number): number {
+  const diff = b - a;
+  return t >= 0.5 ? b - diff * (1 - t) : a + diff * t;
+}
+
+/**
+ * Type-7 quantile of an ascending-sorted array: h = (n - 1) p (0-based),
+ * Q = x[floor h] + (h - floor h) (x[floor h + 1] - x[floor h]).
+ *
+ * @param sorted ascending values; only the first `n` are used
+ * @param p probability in [0, 1]
+ * @example type7Sorted(Float64Array.of(1,2,3,4,5,6,7,8,9,10), 10, 0.25) // 3.25
+ */
+export function type7Sorted(sorted: ArrayLike<number>, n: number, p: number): number {
+  if (n <= 0) return NaN;
+  const h = (n - 1) * p;
+  const lo = Math.floor(h);
+  if (lo >= n - 1) return sorted[n - 1];
+  if (lo < 0) return sorted[0];
+  return lerp(sorted[lo], sorted[lo + 1], h - lo);
+}
+
+/**
+ * Weighted type-7 quantiles over runs of equal values.
+ *
+ * Definition (ours; it reduces exactly to type 7 when every weight is 1):
+ * distinct values v_1 < ... < v_m, run j holding n_j cells of total weight
+ * W_j. Each cell of run j is given the run's mean weight w_j = W_j / n_j (so
+ * the result does not depend on how tied cells are ordered) and sits at the
+ * midpoint of its weight interval on the cumulative-weight axis. The first
+ * cell of run j is at A_j = S_(j-1) + w_j/2, the last at B_j = S_j - w_j/2
+ * (S_j = W_1 + ... + W_j). With t = A_1 + p (B_m - A_1): Q = v_j for
+ * A_j <= t <= B_j, and linear between v_j and v_(j+1) for B_j < t < A_(j+1).
+ * With unit weights A_j - A_1 = C_(j-1) and B_j - A_1 = C_j - 1 (C = cumulative
+ * counts), which is type 7's h = (n - 1) p on 0-based ranks. The rule is
+ * symmetric: reversing the order maps p to 1 - p, as type 7 does.
+ *
+ * @param values ascending distinct run values
+ * @param counts cells per run (> 0)
+ * @param weights weight sum per run (> 0)
+ * @param m number of runs
+ * @param ps probabilities in [0, 1]
+ * @returns one quantile per entry of ps (NaN when m = 0)
+ */
+export function runQuantiles(
+  values: ArrayLike<number>,
+  counts: ArrayLike<number>,
+  weights: ArrayLike<number>,
+  m: number,
+  ps: readonly number[],
+): number[] {
+  if (m === 0) return ps.map(() => NaN);
+  if (m === 1) return ps.map(() => values[0]);
+  const half1 = weights[0] / counts[0] / 2;
+  let total = 0;
+  for (let j = 0; j < m; j++) total += weights[j];
+  // Length of the axis from A_1 to B_m.
+  const L = total - weights[m - 1] / counts[m - 1] / 2 - half1;
+  return ps.map((p) => {
+    const t = p * L;
+    let before = 0; // S_(j-1)
+    let prevB = 0; // B_(j-1) - A_1
+    for (let j = 0; j < m; j++) {
+      const halfJ = weights[j] / counts[j] / 2;
+      const A = before - half1 + halfJ;
+      const S = before + weights[j];
+      const B = S - halfJ - half1;
+      if (t < A && j > 0) return lerp(values[j - 1], values[j], (t - prevB) / (A - prevB));
+      if (t <= B) return values[j];
+      before = S;
+      prevB = B;
+    }
+    return values[m - 1];
+  });
+}

@@ -1,0 +1,400 @@
+/**
+ * Zonal statistics of one scene: every target's mask is built first, then
+ * the raster's blocks under the targets are decoded once each and poured
+ * straight into per-target accumulators. No whole-raster array is made.
+ */
+import { InputError } from '../errors.js';
+import { centreMask, fractionMask, inverseGeoTransform, type CentreMask, type FractionMask } from '../coverage/index.js';
+import { intersectWindows, unionWindows, type Affine, type Window } from '../raster/affine.js';
+import type { RasterBlock, RasterFile, TypedArray } from '../raster/index.js';
+import { FloatAccumulator } from './float.js';
+import { IntegerAccumulator, type IntegerKind } from './integer.js';
+import { emptyStats, type ValueSummary, type ZonalCounts, type ZonalStats } from './types.js';
+
+/** Hard-reject window for LST, K: observed satellite skin-temperature extremes with margin (METHODS.md section 8). */
+export const DEFAULT_PLAUSIBLE_KELVIN: readonly [number, number] = [170, 360];
+
+/** A district (or any zone) with its geometry already in the raster's CRS. */
+export interface ZonalTarget {
+  id: string;
+  /** MultiPolygon coordinates in the raster CRS, map units. */
+  geometry: number[][][][];
+}
+
+export interface ZonalSceneOptions {
+  /** 'centre': cells whose centre is inside; 'fraction': area-weighted by exact coverage. */
+  coverage: 'centre' | 'fraction';
+  /** Values (K, after scale/offset) outside [min, max] are invalid; null keeps all finite values. Default [170, 360]. */
+  plausibleKelvin?: readonly [number, number] | null;
+  /** Quality raster on the same grid: a cell is masked when (qa & maskBits) != 0 or qa is one of maskValues. */
+  qa?: { raster: RasterFile; maskBits?: number; maskValues?: number[] };
+  /** 0-based band of the LST raster (default 0), as in RasterFile.blocks. */
+  band?: number;
+}
+
+export interface ZonalSceneResult {
+  id: string;
+  stats: ZonalStats;
+  counts: ZonalCounts;
+}
+
+// Cell classes in the lookup tables; tally slots use the same numbers.
+const VALID = 0, NODATA = 1, MASKED = 2, IMPLAUSIBLE = 3, VALID_WEIGHT = 4;
+
+function integerKind(sampleFormat: string, bits: number): IntegerKind | null {
+  if ((sampleFormat === 'uint' || sampleFormat === 'int') && (bits === 8 || bits === 16)) {
+    return { bits, signed: sampleFormat === 'int' };
+  }
+  return null;
+}
+
+/** The typed array the reader hands out for an integer kind (Buffer passes as a Uint8Array). */
+function isExpectedArray(data: TypedArray, kind: IntegerKind): boolean {
+  if (kind.bits === 8) return kind.signed ? data instanceof Int8Array : data instanceof Uint8Array;
+  return kind.signed ? data instanceof Int16Array : data instanceof Uint16Array;
+}
+
+function sameGrid(p: Affine, q: Affine): boolean {
+  const scale = Math.max(Math.abs(p.a), Math.abs(p.b), Math.abs(p.d), Math.abs(p.e));
+  for (const k of ['a', 'b', 'c', 'd', 'e', 'f'] as const) {
+    const tol = 1e-9 * Math.max(Math.abs(p[k]), Math.abs(q[k]), scale);
+    if (!(Math.abs(p[k] - q[k]) <= tol)) return false;
+  }
+  return true;
+}
+
+/** Per-block QA mask (1 = masked), by lookup table for 8/16-bit QA and by test otherwise. */
+class QaMasker {
+  private buffer = new Uint8Array(0);
+  private readonly lut: Uint8Array | null;
+  private readonly bias: number;
+  private readonly bits: number;
+  private readonly values: Set<number>;
+
+  constructor(readonly raster: RasterFile, maskBits: number, maskValues: number[]) {
+    const h = raster.header;
+    this.bits = maskBits;
+    this.values = new Set(maskValues);
+    const kind = integerKind(h.sampleFormat, h.bitsPerSample);
+    if (kind !== null) {
+      const bins = 2 ** kind.bits;
+      this.bias = kind.signed ? bins / 2 : 0;
+      this.lut = new Uint8Array(bins);
+      for (let b = 0; b < bins; b++) {
+        const q = b - this.bias;
+        this.lut[b] = (q & maskBits) !== 0 || this.values.has(q) ? 1 : 0;
+      }
+    } else {
+      this.bias = 0;
+      this.lut = null;
+    }
+  }
+
+  async maskFor(window: Window): Promise<Uint8Array> {
+    const n = window.width * window.height;
+    const q: TypedArray = await this.raster.readWindow(window);
+    if (q.length !== n) throw new Error(`QA reader returned ${q.length} values for a ${window.width} x ${window.height} window`);
+    if (this.buffer.length < n) this.buffer = new Uint8Array(n);
+    const out = this.buffer;
+    if (this.lut !== null) {
+      const lut = this.lut, bias = this.bias;
+      for (let i = 0; i < n; i++) out[i] = lut[q[i] + bias];
+    } else {
+      const bits = this.bits, values = this.values, useValues = values.size > 0;
+      for (let i = 0; i < n; i++) {
+        const v = q[i];
+        out[i] = (v & bits) !== 0 || (useValues && values.has(v)) ? 1 : 0;
+      }
+    }
+    return out;
+  }
+}
+
+interface TargetState {
+  id: string;
+  window: Window | null;
+  centre: CentreMask | null;
+  fraction: FractionMask | null;
+  pixels: number;
+  int: IntegerAccumulator | null;
+  float: FloatAccumulator | null;
+  /** [valid, nodata, masked, implausible, valid weight] */
+  tally: Float64Array;
+}
+
+// ---- hot loops: one per (coverage rule, value path); qa is null or a per-block mask ----
+
+function centreInteger(block: RasterBlock, m: CentreMask, hist: Float64Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
+  const { window: bw, data, stride } = block;
+  const mw = m.window, offs = m.rowOffsets, spans = m.spans;
+  const r0 = Math.max(bw.rowOff, mw.rowOff), r1 = Math.min(bw.rowOff + bw.height, mw.rowOff + mw.height);
+  const c0 = bw.colOff, c1 = bw.colOff + bw.width;
+  let nodata = 0, masked = 0, implausible = 0, valid = 0;
+  for (let r = r0; r < r1; r++) {
+    const i = r - mw.rowOff;
+    const base = (r - bw.rowOff) * stride - c0;
+    const qBase = (r - bw.rowOff) * bw.width - c0;
+    for (let k = offs[i]; k < offs[i + 1]; k++) {
+      const cs = spans[2 * k] > c0 ? spans[2 * k] : c0;
+      const ce = spans[2 * k + 1] < c1 ? spans[2 * k + 1] : c1;
+      if (qa === null) {
+        for (let c = cs; c < ce; c++) {
+          const b = data[base + c] + bias;
+          const cls = classes[b];
+          if (cls === VALID) { hist[b]++; valid++; } else if (cls === NODATA) nodata++; else implausible++;
+        }
+      } else {
+        for (let c = cs; c < ce; c++) {
+          const b = data[base + c] + bias;
+          const cls = classes[b];
+          if (cls === NODATA) nodata++;
+          else if (qa[qBase + c] !== 0) masked++;
+          else if (cls === VALID) { hist[b]++; valid++; } else implausible++;
+        }
+      }
+    }
+  }
+  tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
+}
+
+function centreFloat(block: RasterBlock, m: CentreMask, acc: FloatAccumulator, nodataValue: number, scale: number, offset: number, lo: number, hi: number, qa: Uint8Array | null, tally: Float64Array): void {
+  const { window: bw, data, stride } = block;
+  const mw = m.window, offs = m.rowOffsets, spans = m.spans;
+  const r0 = Math.max(bw.rowOff, mw.rowOff), r1 = Math.min(bw.rowOff + bw.height, mw.rowOff + mw.height);
+  const c0 = bw.colOff, c1 = bw.colOff + bw.width;
+  let nodata = 0, masked = 0, implausible = 0, valid = 0;
+  for (let r = r0; r < r1; r++) {
+    const i = r - mw.rowOff;
+    const base = (r - bw.rowOff) * stride - c0;
+    const qBase = (r - bw.rowOff) * bw.width - c0;
+    for (let k = offs[i]; k < offs[i + 1]; k++) {
+      const cs = spans[2 * k] > c0 ? spans[2 * k] : c0;
+      const ce = spans[2 * k + 1] < c1 ? spans[2 * k + 1] : c1;
+      for (let c = cs; c < ce; c++) {
+        const v = data[base + c];
+        if (v !== v || v === nodataValue) { nodata++; continue; }
+        if (qa !== null && qa[qBase + c] !== 0) { masked++; continue; }
+        const kelvin = v * scale + offset;
+        if (kelvin >= lo && kelvin <= hi) { acc.add(kelvin); valid++; } else implausible++;
+      }
+    }
+  }
+  tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
+}
+
+function fractionInteger(block: RasterBlock, m: FractionMask, hist: Float64Array, weights: Float64Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
+  const { window: bw, data, stride } = block;
+  const mw = m.window, fr = m.fractions;
+  const win = intersectWindows(bw, mw);
+  if (win === null) return;
+  let nodata = 0, masked = 0, implausible = 0, valid = 0, validWeight = 0;
+  for (let r = win.rowOff; r < win.rowOff + win.height; r++) {
+    const fBase = (r - mw.rowOff) * mw.width - mw.colOff;
+    const base = (r - bw.rowOff) * stride - bw.colOff;
+    const qBase = (r - bw.rowOff) * bw.width - bw.colOff;
+    for (let c = win.colOff; c < win.colOff + win.width; c++) {
+      const f = fr[fBase + c];
+      if (f === 0) continue;
+      const b = data[base + c] + bias;
+      const cls = classes[b];
+      if (cls === NODATA) nodata++;
+      else if (qa !== null && qa[qBase + c] !== 0) masked++;
+      else if (cls === VALID) { hist[b]++; weights[b] += f; valid++; validWeight += f; } else implausible++;
+    }
+  }
+  tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
+  tally[VALID_WEIGHT] += validWeight;
+}
+
+function fractionFloat(block: RasterBlock, m: FractionMask, acc: FloatAccumulator, nodataValue: number, scale: number, offset: number, lo: number, hi: number, qa: Uint8Array | null, tally: Float64Array): void {
+  const { window: bw, data, stride } = block;
+  const mw = m.window, fr = m.fractions;
+  const win = intersectWindows(bw, mw);
+  if (win === null) return;
+  let nodata = 0, masked = 0, implausible = 0, valid = 0, validWeight = 0;
+  for (let r = win.rowOff; r < win.rowOff + win.height; r++) {
+    const fBase = (r - mw.rowOff) * mw.width - mw.colOff;
+    const base = (r - bw.rowOff) * stride - bw.colOff;
+    const qBase = (r - bw.rowOff) * bw.width - bw.colOff;
+    for (let c = win.colOff; c < win.colOff + win.width; c++) {
+      const f = fr[fBase + c];
+      if (f === 0) continue;
+      const v = data[base + c];
+      if (v !== v || v === nodataValue) { nodata++; continue; }
+      if (qa !== null && qa[qBase + c] !== 0) { masked++; continue; }
+      const kelvin = v * scale + offset;
+      if (kelvin >= lo && kelvin <= hi) { acc.addWeighted(kelvin, f); valid++; validWeight += f; } else implausible++;
+    }
+  }
+  tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
+  tally[VALID_WEIGHT] += validWeight;
+}
+
+function checkOptions(raster: RasterFile, options: ZonalSceneOptions): { band: number; lo: number; hi: number } {
+  const h = raster.header;
+  if (options.coverage !== 'centre' && options.coverage !== 'fraction') {
+    throw new InputError(`coverage rule ${JSON.stringify(options.coverage)} is not 'centre' or 'fraction'`, h.path);
+  }
+  const band = options.band ?? 0;
+  if (!Number.isInteger(band) || band < 0 || band >= h.bands) {
+    throw new InputError(`band ${band} does not exist (the file has bands 0..${h.bands - 1})`, h.path);
+  }
+  if (!Number.isFinite(h.scale) || !Number.isFinite(h.offset)) {
+    throw new InputError(`scale ${h.scale} / offset ${h.offset} are not finite numbers`, h.path);
+  }
+  inverseGeoTransform(h.transform, h.path);
+  const range = options.plausibleKelvin === undefined ? DEFAULT_PLAUSIBLE_KELVIN : options.plausibleKelvin;
+  if (range === null) return { band, lo: -Number.MAX_VALUE, hi: Number.MAX_VALUE };
+  if (!Array.isArray(range) || range.length !== 2 || !Number.isFinite(range[0]) || !Number.isFinite(range[1]) || !(range[0] < range[1])) {
+    throw new InputError(`plausible LST range ${JSON.stringify(range)} is not [min, max] in Kelvin with min < max`);
+  }
+  return { band, lo: range[0], hi: range[1] };
+}
+
+function prepareQa(raster: RasterFile, qa: NonNullable<ZonalSceneOptions['qa']>): QaMasker {
+  const h = raster.header, q = qa.raster.header;
+  if (q.width !== h.width || q.height !== h.height) {
+    throw new InputError(`QA raster is ${q.width} x ${q.height} pixels but ${h.path} is ${h.width} x ${h.height}; they must share one grid`, q.path);
+  }
+  if (!sameGrid(q.transform, h.transform)) {
+    throw new InputError(`QA raster's geotransform differs from that of ${h.path}; they must share one grid`, q.path);
+  }
+  const bits = qa.maskBits ?? 0;
+  if (!Number.isInteger(bits) || bits < 0 || bits > 0xffffffff) {
+    throw new InputError(`QA mask bits ${qa.maskBits} are not a whole number from 0 to 2^32 - 1`, q.path);
+  }
+  const values = qa.maskValues ?? [];
+  if (!Array.isArray(values) || !values.every((v) => typeof v === 'number' && Number.isFinite(v))) {
+    throw new InputError('QA mask values are not a list of finite numbers', q.path);
+  }
+  if (bits === 0 && values.length === 0) {
+    throw new InputError('QA raster given without mask bits or mask values, so it would mask nothing', q.path);
+  }
+  if (bits !== 0 && q.sampleFormat === 'float') {
+    throw new InputError('QA raster holds floating-point samples, which have no bits to test against mask bits', q.path);
+  }
+  return new QaMasker(qa.raster, bits, values);
+}
+
+/**
+ * Zonal statistics of one LST scene for many targets.
+ *
+ * Values are Kelvin after the header's scale/offset (K = DN * scale + offset).
+ * A cell is dropped, and counted once in this order, when it is nodata
+ * (header nodata, or NaN in float data; tested before scale/offset), masked
+ * by the QA raster, or implausible (outside `plausibleKelvin`, default
+ * [170, 360] K). 8- and 16-bit integer rasters use the exact histogram
+ * accumulator, everything else the float accumulator.
+ *
+ * Only the blocks meeting the union of the targets' windows are decoded,
+ * each once; each block goes to every target whose window it meets.
+ *
+ * @param raster the scene (RasterFile contract of workers/core/raster)
+ * @param targets zones with MultiPolygon coordinates in the raster's CRS
+ * @param options coverage rule, plausible range, QA raster, band (0-based)
+ * @returns one entry per target, in input order; targets off the raster get
+ *   pixels 0 and null statistics
+ * @example
+ * const rows = await zonalScene(raster, [{ id: 'north', geometry }], { coverage: 'centre' });
+ * rows[0].stats.mean // K
+ */
+export async function zonalScene(
+  raster: RasterFile,
+  targets: readonly ZonalTarget[],
+  options: ZonalSceneOptions,
+): Promise<ZonalSceneResult[]> {
+  const h = raster.header;
+  if (!Array.isArray(targets)) throw new InputError('zonal targets are not a list', h.path);
+  const { band, lo, hi } = checkOptions(raster, options ?? ({} as ZonalSceneOptions));
+  const qa = options.qa ? prepareQa(raster, options.qa) : null;
+  const fraction = options.coverage === 'fraction';
+  const kind = integerKind(h.sampleFormat, h.bitsPerSample);
+  const { scale, offset } = h;
+
+  // Class of every DN (integer path): nodata and plausibility decided once per bin.
+  let classes: Uint8Array | null = null, bias = 0;
+  if (kind !== null) {
+    const bins = 2 ** kind.bits;
+    bias = kind.signed ? bins / 2 : 0;
+    classes = new Uint8Array(bins);
+    for (let b = 0; b < bins; b++) {
+      const dn = b - bias;
+      const kelvin = dn * scale + offset;
+      classes[b] = h.nodata !== null && dn === h.nodata ? NODATA : kelvin >= lo && kelvin <= hi ? VALID : IMPLAUSIBLE;
+    }
+  }
+  // Float data: the nodata value as the array holds it (float32 rounding).
+  const nodataValue = h.nodata === null ? NaN : h.sampleFormat === 'float' && h.bitsPerSample === 32 ? Math.fround(h.nodata) : h.nodata;
+
+  const states: TargetState[] = targets.map((t) => {
+    if (t === null || typeof t !== 'object' || typeof t.id !== 'string') {
+      throw new InputError('a zonal target has no string id', h.path);
+    }
+    const source = `target ${JSON.stringify(t.id)}`;
+    let window: Window | null = null, centre: CentreMask | null = null, frac: FractionMask | null = null, pixels = 0;
+    if (fraction) {
+      frac = fractionMask(t.geometry, h.transform, h.width, h.height, source);
+      if (frac !== null) {
+        for (let i = 0; i < frac.fractions.length; i++) if (frac.fractions[i] > 0) pixels++;
+        window = frac.window;
+      }
+    } else {
+      centre = centreMask(t.geometry, h.transform, h.width, h.height, source);
+      if (centre !== null && centre.count > 0) { pixels = centre.count; window = centre.window; }
+    }
+    if (pixels === 0) window = null;
+    return {
+      id: t.id, window, centre, fraction: frac, pixels,
+      int: window !== null && kind !== null ? new IntegerAccumulator(kind, { weighted: fraction }) : null,
+      float: window !== null && kind === null ? new FloatAccumulator({ capacity: pixels, weighted: fraction }) : null,
+      tally: new Float64Array(5),
+    };
+  });
+
+  const active = states.filter((s) => s.window !== null);
+  const union = unionWindows(active.map((s) => s.window!));
+  if (union !== null) {
+    const hits: TargetState[] = [];
+    for await (const block of raster.blocks(union, band)) {
+      hits.length = 0;
+      for (const s of active) if (intersectWindows(block.window, s.window!) !== null) hits.push(s);
+      if (hits.length === 0) continue;
+      if (kind !== null && !isExpectedArray(block.data, kind)) {
+        throw new Error(`reader returned ${block.data.constructor.name} for ${h.sampleFormat}${h.bitsPerSample} data`);
+      }
+      const qaMask = qa === null ? null : await qa.maskFor(block.window);
+      for (const s of hits) {
+        if (s.int !== null) {
+          if (fraction) fractionInteger(block, s.fraction!, s.int.counts, s.int.weights!, bias, classes!, qaMask, s.tally);
+          else centreInteger(block, s.centre!, s.int.counts, bias, classes!, qaMask, s.tally);
+        } else if (fraction) {
+          fractionFloat(block, s.fraction!, s.float!, nodataValue, scale, offset, lo, hi, qaMask, s.tally);
+        } else {
+          centreFloat(block, s.centre!, s.float!, nodataValue, scale, offset, lo, hi, qaMask, s.tally);
+        }
+      }
+    }
+  }
+
+  return states.map((s) => {
+    const counts: ZonalCounts = { nodata: s.tally[NODATA], masked: s.tally[MASKED], implausible: s.tally[IMPLAUSIBLE] };
+    if (s.pixels === 0) return { id: s.id, stats: emptyStats(0), counts };
+    const summary: ValueSummary | null = s.int !== null ? s.int.summarize(scale, offset) : s.float!.summarize();
+    const valid = s.tally[VALID];
+    const validFraction = fraction ? s.tally[VALID_WEIGHT] / s.fraction!.sum : valid / s.pixels;
+    if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), valid_fraction: 0 }, counts };
+    const stats: ZonalStats = {
+      pixels: s.pixels,
+      valid,
+      valid_fraction: validFraction,
+      mean: summary.mean,
+      std: summary.std,
+      min: summary.min,
+      max: summary.max,
+      median: summary.median,
+      p10: summary.p10,
+      p90: summary.p90,
+    };
+    return { id: s.id, stats, counts };
+  });
+}

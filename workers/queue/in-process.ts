@@ -1,0 +1,300 @@
+/**
+ * The embedded runner: runs a job tree inside this process, independent jobs
+ * in parallel — jobs named in `threadedJobs` on worker threads, the rest on
+ * the main thread. The repository stays in the main thread; threaded jobs
+ * reach it through a proxy (see repo-proxy.ts).
+ *
+ * It behaves like the BullMQ runner: same retries and back-off, InputError
+ * permanent, a failed child does not block its parent, results handed on as
+ * JSON, and a job id that completed (with its whole subtree) during this
+ * runner's life is not run again.
+ */
+import os from 'node:os';
+import path from 'node:path';
+import { existsSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+import { MessageChannel, Worker } from 'node:worker_threads';
+import { isInputError, ServiceError } from '../core/errors.js';
+import { loadProcessors, runAttempt, sortedRecord, type JobAttempt } from './execute.js';
+import { reviveError, serveRepo, type SerializedError } from './repo-proxy.js';
+import { DEFAULT_ATTEMPTS, DEFAULT_BACKOFF_MS, backoffDelayMs } from './settings.js';
+import { asJsonValue, describeError, flattenTree, reusableIds, type FlatNode } from './tree.js';
+import type { FlowResult, JobFailure, JobSpec, ProcessorsModule, Runner, RunFlowOptions } from './types.js';
+
+export interface InProcessRunnerOptions {
+  /** File URL (or absolute path) of the processors registry module (compiled JavaScript). */
+  processorsModule: string | URL;
+  /** Worker threads for threaded jobs; default os.availableParallelism(). */
+  threads?: number;
+  /** Processor names run on worker threads; the rest run on the main thread. */
+  threadedJobs?: string[];
+  /** The persistence object handed to processors (ctx.repo); proxied to threads. */
+  repo: object;
+  /** Main-thread jobs running at once; default = threads. */
+  concurrency?: number;
+  /** Tries per job, first included; default 5. */
+  attempts?: number;
+  /** First retry delay in ms, doubling after each retry; default 1000. */
+  backoffMs?: number;
+}
+
+function moduleHref(m: string | URL): string {
+  if (m instanceof URL) return m.href;
+  return m.startsWith('file:') ? m : new URL(`file://${path.resolve(m)}`).href;
+}
+
+/** The compiled thread entry: beside this file, or under dist/ when running from TypeScript sources. */
+function threadEntryPath(): string {
+  const here = path.dirname(fileURLToPath(import.meta.url));
+  const beside = path.join(here, 'thread-entry.js');
+  if (existsSync(beside)) return beside;
+  const compiled = path.resolve(here, '../../dist/workers/queue/thread-entry.js');
+  if (existsSync(compiled)) return compiled;
+  throw new ServiceError(`worker-thread entry not found at ${beside} or ${compiled}; run \`npm run build\``);
+}
+
+type Outcome = { ok: true; value: unknown } | { ok: false; error: Error };
+
+interface Slot {
+  worker: Worker;
+  ready: Promise<void>;
+  busy: { jobId: string; settle(o: Outcome): void; log(line: string): void } | null;
+  stopRepo: () => void;
+  dead: boolean;
+}
+
+/** A fixed-size pool of worker threads, each running one job at a time. */
+class ThreadPool {
+  private slots: Slot[] = [];
+  private waiting: { attempt: JobAttempt; settle(o: Outcome): void; log(line: string): void }[] = [];
+  private closed = false;
+  constructor(private size: number, private moduleHref: string, private repo: object) {}
+
+  run(attempt: JobAttempt, log: (line: string) => void): Promise<Outcome> {
+    return new Promise((settle) => {
+      this.waiting.push({ attempt, settle, log });
+      this.pump();
+    });
+  }
+
+  private spawn(): Slot {
+    const { port1, port2 } = new MessageChannel();
+    const worker = new Worker(threadEntryPath(), {
+      workerData: { processorsModule: this.moduleHref, repoPort: port2 },
+      transferList: [port2],
+    });
+    worker.unref();
+    const stopRepo = serveRepo(port1, this.repo);
+    let markReady!: () => void;
+    let failReady!: (e: Error) => void;
+    const slot: Slot = {
+      worker, busy: null, stopRepo, dead: false,
+      ready: new Promise<void>((res, rej) => { markReady = res; failReady = rej; }),
+    };
+    slot.ready.catch(() => undefined);
+    worker.on('message', (msg: { kind: string; jobId?: string; ok?: boolean; value?: unknown; error?: SerializedError; line?: string }) => {
+      if (msg.kind === 'ready') markReady();
+      else if (msg.kind === 'log' && slot.busy) slot.busy.log(msg.line ?? '');
+      else if (msg.kind === 'done' && slot.busy) {
+        const b = slot.busy;
+        slot.busy = null;
+        worker.unref();
+        b.settle(msg.ok ? { ok: true, value: msg.value } : { ok: false, error: reviveError(msg.error!) });
+        this.pump();
+      }
+    });
+    const die = (err: Error) => {
+      if (slot.dead) return;
+      slot.dead = true;
+      stopRepo();
+      failReady(err);
+      this.slots = this.slots.filter((s) => s !== slot);
+      if (slot.busy) {
+        const b = slot.busy;
+        slot.busy = null;
+        b.settle({ ok: false, error: err });
+      }
+      this.pump();
+    };
+    worker.on('error', (e) => die(e instanceof Error ? e : new Error(String(e))));
+    worker.on('exit', (code) => die(new Error(`worker thread exited with code ${code}`)));
+    this.slots.push(slot);
+    return slot;
+  }
+
+  private pump(): void {
+    if (this.closed) return;
+    while (this.waiting.length > 0) {
+      let slot = this.slots.find((s) => !s.busy && !s.dead);
+      if (!slot) {
+        if (this.slots.length >= this.size) return;
+        slot = this.spawn();
+      }
+      const task = this.waiting.shift()!;
+      const s = slot;
+      s.busy = { jobId: task.attempt.jobId, settle: task.settle, log: task.log };
+      s.worker.ref();
+      s.ready.then(
+        () => { if (!s.dead) s.worker.postMessage({ kind: 'run', attempt: task.attempt }); },
+        () => undefined, // die() already settled the task
+      );
+    }
+  }
+
+  async close(): Promise<void> {
+    this.closed = true;
+    for (const t of this.waiting) t.settle({ ok: false, error: new ServiceError('the runner was closed') });
+    this.waiting = [];
+    const slots = this.slots;
+    this.slots = [];
+    await Promise.all(slots.map(async (s) => { s.dead = true; s.stopRepo(); await s.worker.terminate(); }));
+  }
+}
+
+/**
+ * Create the embedded runner.
+ * @example
+ * const runner = createInProcessRunner({ processorsModule: new URL('./jobs/registry.js', import.meta.url), repo: store, threadedJobs: ['zonal'] });
+ * const { results, failures } = await runner.runFlow(tree);
+ * await runner.close();
+ */
+export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
+  const threads = Math.max(1, options.threads ?? os.availableParallelism());
+  const concurrency = Math.max(1, options.concurrency ?? threads);
+  const attempts = Math.max(1, options.attempts ?? DEFAULT_ATTEMPTS);
+  const backoffMs = options.backoffMs ?? DEFAULT_BACKOFF_MS;
+  const threaded = new Set(options.threadedJobs ?? []);
+  const href = moduleHref(options.processorsModule);
+  const repo = options.repo;
+  let modPromise: Promise<ProcessorsModule> | null = null;
+  let pool: ThreadPool | null = null;
+  let closed = false;
+  // Results of jobs completed during this runner's life (idempotence by id).
+  const completed = new Map<string, unknown>();
+  const timers = new Set<NodeJS.Timeout>();
+  const aborts = new Set<(e: Error) => void>();
+
+  // Main-thread jobs wait here for a free slot.
+  let mainRunning = 0;
+  const mainWaiting: (() => void)[] = [];
+  const acquireMain = () => new Promise<void>((res) => {
+    if (mainRunning < concurrency) { mainRunning++; res(); } else mainWaiting.push(() => { mainRunning++; res(); });
+  });
+  const releaseMain = () => { mainRunning--; const next = mainWaiting.shift(); if (next) next(); };
+
+  async function attemptOnce(a: JobAttempt, log: (l: string) => void): Promise<Outcome> {
+    if (threaded.has(a.name)) {
+      pool ??= new ThreadPool(threads, href, repo);
+      return pool.run(a, log);
+    }
+    const mod = await (modPromise ??= loadProcessors(href));
+    await acquireMain();
+    try {
+      const value = await runAttempt(mod.processors, a, repo, log);
+      return { ok: true, value: asJsonValue(value) };
+    } catch (e) {
+      return { ok: false, error: e instanceof Error ? e : new Error(String(e)) };
+    } finally {
+      releaseMain();
+    }
+  }
+
+  async function runFlow(root: JobSpec, opts: RunFlowOptions = {}): Promise<FlowResult> {
+    if (closed) throw new ServiceError('the in-process runner is closed');
+    const nodes = flattenTree(root);
+    const byId = new Map<string, FlatNode>(nodes.map((n) => [n.spec.id, n]));
+    const reusable = reusableIds(nodes, (id) => completed.has(id));
+    // Load the module up front so a broken registry fails the call, not every job.
+    await (modPromise ??= loadProcessors(href));
+
+    const values = new Map<string, unknown>();
+    const failed = new Map<string, string>();
+    const pendingChildren = new Map<string, number>();
+    let running = 0;
+    const total = nodes.length;
+    const report = () => opts.onProgress?.({ done: values.size, failed: failed.size, total, running });
+
+    for (const n of nodes) {
+      if (reusable.has(n.spec.id)) values.set(n.spec.id, completed.get(n.spec.id));
+    }
+    for (const n of nodes) {
+      if (!reusable.has(n.spec.id)) pendingChildren.set(n.spec.id, n.childIds.filter((c) => !reusable.has(c)).length);
+    }
+
+    return new Promise<FlowResult>((resolve, reject) => {
+      let finished = false;
+      const abort = (e: Error) => { if (!finished) { finished = true; reject(e); } };
+      aborts.add(abort);
+
+      const finish = () => {
+        if (finished) return;
+        finished = true;
+        aborts.delete(abort);
+        const results = new Map<string, unknown>();
+        const failures: JobFailure[] = [];
+        for (const n of nodes) {
+          if (values.has(n.spec.id)) results.set(n.spec.id, values.get(n.spec.id));
+          else failures.push({ id: n.spec.id, name: n.spec.name, error: failed.get(n.spec.id) ?? 'Error: job did not run' });
+        }
+        resolve({ results, failures });
+      };
+
+      const settleNode = (n: FlatNode) => {
+        report();
+        if (n.parentId === null) { finish(); return; }
+        const left = pendingChildren.get(n.parentId)! - 1;
+        pendingChildren.set(n.parentId, left);
+        if (left === 0) start(byId.get(n.parentId)!, 1);
+      };
+
+      const start = (n: FlatNode, attempt: number) => {
+        if (finished) return;
+        const childrenValues: Record<string, unknown> = {};
+        const failedChildren: string[] = [];
+        for (const c of n.childIds) {
+          if (values.has(c)) childrenValues[c] = values.get(c);
+          else failedChildren.push(c);
+        }
+        const a: JobAttempt = {
+          jobId: n.spec.id, name: n.spec.name, data: n.spec.data,
+          childrenValues: sortedRecord(childrenValues), failedChildren: failedChildren.sort(), attempt,
+        };
+        if (attempt === 1) { running++; report(); }
+        attemptOnce(a, () => undefined).then((o) => {
+          if (finished) return;
+          if (o.ok) {
+            running--;
+            values.set(n.spec.id, o.value);
+            completed.set(n.spec.id, o.value);
+            settleNode(n);
+          } else if (!isInputError(o.error) && attempt < attempts) {
+            const t = setTimeout(() => { timers.delete(t); start(n, attempt + 1); }, backoffDelayMs(attempt, backoffMs));
+            timers.add(t);
+          } else {
+            running--;
+            completed.delete(n.spec.id);
+            failed.set(n.spec.id, describeError(o.error));
+            settleNode(n);
+          }
+        }, (e) => abort(e instanceof Error ? e : new Error(String(e))));
+      };
+
+      report();
+      if (reusable.has(root.id)) { finish(); return; }
+      for (const n of nodes) if (pendingChildren.get(n.spec.id) === 0) start(n, 1);
+    });
+  }
+
+  return {
+    runFlow,
+    async close() {
+      closed = true;
+      for (const t of timers) clearTimeout(t);
+      timers.clear();
+      for (const a of aborts) a(new ServiceError('the in-process runner was closed while a run was in progress'));
+      aborts.clear();
+      if (pool) await pool.close();
+      pool = null;
+    },
+  };
+}

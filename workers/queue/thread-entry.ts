@@ -1,0 +1,27 @@
+/**
+ * Worker-thread side of the in-process runner: imports the processors module
+ * itself, runs the jobs it is sent, and reaches the repository through a proxy
+ * to the main thread (the embedded database lives only there).
+ */
+import { parentPort, workerData, type MessagePort } from 'node:worker_threads';
+import { loadProcessors, runAttempt, type JobAttempt } from './execute.js';
+import { createRepoProxy, serializeError } from './repo-proxy.js';
+
+interface ThreadInit { processorsModule: string; repoPort: MessagePort }
+
+const init = workerData as ThreadInit;
+const port = parentPort!;
+const mod = await loadProcessors(init.processorsModule);
+const repo = createRepoProxy(init.repoPort);
+
+port.on('message', async (msg: { kind: 'run'; attempt: JobAttempt }) => {
+  if (msg?.kind !== 'run') return;
+  const a = msg.attempt;
+  try {
+    const value = await runAttempt(mod.processors, a, repo, (line) => port.postMessage({ kind: 'log', jobId: a.jobId, line }));
+    port.postMessage({ kind: 'done', jobId: a.jobId, ok: true, value: value === undefined ? null : JSON.parse(JSON.stringify(value) ?? 'null') });
+  } catch (e) {
+    port.postMessage({ kind: 'done', jobId: a.jobId, ok: false, error: serializeError(e) });
+  }
+});
+port.postMessage({ kind: 'ready' });

@@ -1,0 +1,49 @@
+/**
+ * Decoder registry keyed by TIFF compression code. The reader never switches
+ * on compression itself: it asks here, and a caller may register another.
+ */
+import { deflateDecode } from './deflate.js';
+import { lzwDecode } from './lzw.js';
+import { packbitsDecode } from './packbits.js';
+import { zstdDecode } from './zstd.js';
+
+export { CorruptBlockError } from './errors.js';
+
+/** Decompress one block to at most `maxBytes` bytes. */
+export type BlockDecoder = (input: Uint8Array, maxBytes: number) => Uint8Array | Promise<Uint8Array>;
+
+interface Entry { readonly name: string; readonly decode: BlockDecoder }
+
+const registry = new Map<number, Entry>([
+  [1, { name: 'none', decode: (input) => input }],
+  [5, { name: 'LZW', decode: lzwDecode }],
+  [8, { name: 'DEFLATE', decode: deflateDecode }],
+  [32946, { name: 'DEFLATE', decode: deflateDecode }],
+  [32773, { name: 'PackBits', decode: packbitsDecode }],
+  [50000, { name: 'ZSTD', decode: zstdDecode }],
+]);
+
+/** Well-known names of codes we do not decode, for a clear error message. */
+const KNOWN_NAMES: Record<number, string> = {
+  2: 'CCITT RLE', 3: 'CCITT Group 3', 4: 'CCITT Group 4', 6: 'old-style JPEG', 7: 'JPEG',
+  34712: 'JPEG 2000', 34887: 'LERC', 34925: 'LZMA', 50001: 'WebP', 50002: 'JPEG XL',
+};
+
+/**
+ * Register (or replace) the decoder for a TIFF compression code.
+ * @example registerDecoder(34925, 'LZMA', myLzmaDecoder)
+ */
+export function registerDecoder(code: number, name: string, decode: BlockDecoder): void {
+  registry.set(code, { name, decode });
+}
+
+/** The decoder for a compression code, or null when none is registered. */
+export function decoderFor(code: number): BlockDecoder | null {
+  return registry.get(code)?.decode ?? null;
+}
+
+/** Human-readable name of a compression code, e.g. "LZW (5)". */
+export function compressionName(code: number): string {
+  const name = registry.get(code)?.name ?? KNOWN_NAMES[code] ?? 'unknown';
+  return `${name} (${code})`;
+}

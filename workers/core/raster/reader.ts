@@ -1,0 +1,229 @@
+/**
+ * Block reader: reads the compressed bytes of tiles/strips with a file handle,
+ * decodes them with the decoder registry, undoes byte order and predictor,
+ * and hands out single-band typed arrays.
+ */
+import { open, type FileHandle } from 'node:fs/promises';
+import { InputError } from '../errors.js';
+import { intersectWindows, type Window } from './affine.js';
+import { CorruptBlockError, compressionName, decoderFor } from './decoders/index.js';
+import { swapBytes, undoFloatingPoint, undoHorizontal } from './decoders/predictor.js';
+import { readRasterHeader, type BlockLayout, type RasterHeader } from './header.js';
+import { readExactly } from './tiff.js';
+
+export type TypedArray = Uint8Array | Int8Array | Uint16Array | Int16Array | Uint32Array | Int32Array | Float32Array | Float64Array;
+
+/** One decoded tile/strip, clipped to the image. */
+export interface RasterBlock {
+  /** Absolute pixel window of the valid part. */
+  window: Window;
+  /** Single band; pixel (r, c) of the window at data[r * stride + c]. */
+  data: TypedArray;
+  stride: number;
+}
+
+export interface RasterFile {
+  readonly header: RasterHeader;
+  /** Blocks meeting the window (clamped to the image), each once, in row-major block order. `band` is 0-based. */
+  blocks(window: Window, band?: number): AsyncIterable<RasterBlock>;
+  /** Row-major pixels of the window clamped to the image (see {@link clampWindow}). `band` is 0-based. */
+  readWindow(window: Window, band?: number): Promise<TypedArray>;
+  close(): Promise<void>;
+}
+
+type ArrayCtor = new (buffer: ArrayBufferLike, byteOffset: number, length: number) => TypedArray;
+type AllocCtor = new (length: number) => TypedArray;
+
+function arrayType(h: RasterHeader): ArrayCtor & AllocCtor {
+  const key = `${h.sampleFormat}${h.bitsPerSample}`;
+  switch (key) {
+    case 'uint8': return Uint8Array as never;
+    case 'uint16': return Uint16Array as never;
+    case 'uint32': return Uint32Array as never;
+    case 'int8': return Int8Array as never;
+    case 'int16': return Int16Array as never;
+    case 'int32': return Int32Array as never;
+    case 'float32': return Float32Array as never;
+    default: return Float64Array as never;
+  }
+}
+
+/**
+ * The part of `window` inside an image of `width` x `height`, or null when it
+ * lies wholly outside. Throws InputError for windows that are not whole,
+ * non-negative sizes.
+ * @example clampWindow({colOff: -5, rowOff: 0, width: 10, height: 10}, 100, 100, 'a.tif') // {colOff: 0, rowOff: 0, width: 5, height: 10}
+ */
+export function clampWindow(window: Window, width: number, height: number, path: string): Window | null {
+  const { colOff, rowOff } = window;
+  if (![colOff, rowOff, window.width, window.height].every(Number.isSafeInteger) || window.width < 0 || window.height < 0) {
+    throw new InputError(`read window ${JSON.stringify(window)} is not whole pixels with non-negative size`, path);
+  }
+  return intersectWindows(window, { colOff: 0, rowOff: 0, width, height });
+}
+
+/** A private copy (Buffer#slice would only make a view). */
+function copyBytes(x: Uint8Array): Uint8Array {
+  const c = new Uint8Array(x.length);
+  c.set(x);
+  return c;
+}
+
+class GeoTiffFile implements RasterFile {
+  readonly header: RasterHeader;
+  private readonly layout: BlockLayout;
+  private fh: FileHandle | null;
+  private readBuffer = new Uint8Array(0);
+  private readonly ctor: ArrayCtor & AllocCtor;
+
+  constructor(fh: FileHandle, header: RasterHeader, layout: BlockLayout) {
+    this.fh = fh;
+    this.header = header;
+    this.layout = layout;
+    this.ctor = arrayType(header);
+  }
+
+  private checkBand(band: number): void {
+    if (!Number.isInteger(band) || band < 0 || band >= this.header.bands) {
+      throw new InputError(`band ${band} does not exist (the file has bands 0..${this.header.bands - 1})`, this.header.path);
+    }
+  }
+
+  async *blocks(window: Window, band = 0): AsyncIterable<RasterBlock> {
+    const h = this.header;
+    this.checkBand(band);
+    const w = clampWindow(window, h.width, h.height, h.path);
+    if (!w) return;
+    const bw = h.blockWidth, bh = h.blockHeight;
+    const c0 = Math.floor(w.colOff / bw), c1 = Math.floor((w.colOff + w.width - 1) / bw);
+    const r0 = Math.floor(w.rowOff / bh), r1 = Math.floor((w.rowOff + w.height - 1) / bh);
+    for (let br = r0; br <= r1; br++) {
+      for (let bc = c0; bc <= c1; bc++) {
+        yield await this.readBlock(br, bc, band);
+      }
+    }
+  }
+
+  /** Decode block (row br, column bc) of `band`. */
+  private async readBlock(br: number, bc: number, band: number): Promise<RasterBlock> {
+    const h = this.header, L = this.layout;
+    if (!this.fh) throw new InputError('raster file is already closed', h.path);
+    const bw = h.blockWidth, bh = h.blockHeight;
+    const colOff = bc * bw, rowOff = br * bh;
+    const window: Window = { colOff, rowOff, width: Math.min(bw, h.width - colOff), height: Math.min(bh, h.height - rowOff) };
+    const chunky = L.planar === 1 ? L.samplesPerPixel : 1;
+    const plane = L.planar === 2 ? band : 0;
+    const index = plane * L.blocksPerBand + br * L.blocksAcross + bc;
+    // Tiles are always stored whole; a last strip may hold only the rows left (TIFF 6.0, RowsPerStrip).
+    const storedRows = h.tiled ? bh : window.height;
+    const rowSamples = bw * chunky;
+    const fullBytes = bh * rowSamples * L.bytesPerSample;
+    const needBytes = storedRows * rowSamples * L.bytesPerSample;
+    const offset = L.offsets[index], count = L.byteCounts[index];
+    const where = `${h.tiled ? 'tile' : 'strip'} ${index}`;
+
+    let raw: Uint8Array;
+    if (offset === 0 && count === 0) {
+      // Sparse block (GDAL SPARSE_OK): GDAL reads it as nodata, or 0 without nodata.
+      const fill = new this.ctor(bw * bh);
+      const nd = h.nodata;
+      if (nd !== null && nd !== 0) fill.fill(nd as never);
+      return { window, data: fill, stride: bw };
+    }
+    if (h.compression === 1) {
+      if (count < needBytes) throw new InputError(`${where} holds ${count} bytes, fewer than the ${needBytes} its size needs`, h.path);
+      const take = Math.min(count, fullBytes);
+      raw = await readExactly(this.fh, h.path, offset, take, where, new Uint8Array(take));
+    } else {
+      if (this.readBuffer.length < count) this.readBuffer = new Uint8Array(Math.max(count, this.readBuffer.length * 2));
+      const input = await readExactly(this.fh, h.path, offset, count, where, this.readBuffer);
+      try {
+        raw = await decoderFor(h.compression)!(input, fullBytes);
+      } catch (e) {
+        if (e instanceof CorruptBlockError) throw new InputError(`${where} is corrupt: ${e.message}`, h.path);
+        throw e;
+      }
+      if (raw.buffer === this.readBuffer.buffer) raw = copyBytes(raw);
+    }
+    if (raw.length < needBytes) {
+      throw new InputError(`${where} decodes to ${raw.length} bytes but ${compressionName(h.compression)} data of a ${bw} x ${storedRows} block needs ${needBytes}`, h.path);
+    }
+    // Work on an aligned private copy only when needed (the decoders return fresh buffers).
+    const bps = L.bytesPerSample;
+    if (raw.byteOffset % bps !== 0) raw = copyBytes(raw);
+    raw = raw.subarray(0, needBytes);
+
+    try {
+      if (h.predictor === 3) {
+        undoFloatingPoint(raw, bps, rowSamples, chunky, storedRows);
+      } else {
+        if (!L.littleEndian && bps > 1) swapBytes(raw, bps);
+        if (h.predictor === 2) undoHorizontal(raw, bps, rowSamples, chunky, storedRows);
+      }
+    } catch (e) {
+      if (e instanceof CorruptBlockError) throw new InputError(`${where}: ${e.message}`, h.path);
+      throw e;
+    }
+
+    const all = new this.ctor(raw.buffer, raw.byteOffset, storedRows * rowSamples);
+    if (chunky === 1) return { window, data: all, stride: bw };
+    // Interleaved samples: pull out the requested band.
+    const n = storedRows * bw;
+    const data = new this.ctor(n);
+    for (let i = 0, j = band; i < n; i++, j += chunky) data[i] = all[j];
+    return { window, data, stride: bw };
+  }
+
+  async readWindow(window: Window, band = 0): Promise<TypedArray> {
+    const h = this.header;
+    this.checkBand(band);
+    const w = clampWindow(window, h.width, h.height, h.path);
+    if (!w) return new this.ctor(0);
+    const out = new this.ctor(w.width * w.height);
+    for await (const b of this.blocks(w, band)) {
+      const part = intersectWindows(b.window, w)!;
+      for (let r = 0; r < part.height; r++) {
+        const src = (part.rowOff - b.window.rowOff + r) * b.stride + (part.colOff - b.window.colOff);
+        const dst = (part.rowOff - w.rowOff + r) * w.width + (part.colOff - w.colOff);
+        out.set(b.data.subarray(src, src + part.width) as never, dst);
+      }
+    }
+    return out;
+  }
+
+  async close(): Promise<void> {
+    const fh = this.fh;
+    this.fh = null;
+    if (fh) await fh.close();
+  }
+}
+
+/**
+ * Open a local GeoTIFF or COG and read its header (no pixels yet).
+ * @param path file path
+ * @returns the open raster; call `close()` when done (try/finally)
+ * @throws InputError naming the path for a missing, unreadable or malformed file
+ * @example
+ * const r = await openRaster('scene.tif');
+ * try { for await (const b of r.blocks({colOff: 0, rowOff: 0, width: 256, height: 256})) use(b); }
+ * finally { await r.close(); }
+ */
+export async function openRaster(path: string): Promise<RasterFile> {
+  let fh: FileHandle;
+  try {
+    fh = await open(path, 'r');
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    throw new InputError(code === 'ENOENT' ? 'file does not exist' : `cannot open file (${code ?? (e as Error).message})`, path);
+  }
+  try {
+    const { header, layout } = await readRasterHeader(fh, path);
+    return new GeoTiffFile(fh, header, layout);
+  } catch (e) {
+    await fh.close();
+    if (e instanceof InputError) throw e;
+    const code = (e as NodeJS.ErrnoException).code;
+    if (code === 'EISDIR') throw new InputError('is a directory, not a GeoTIFF', path);
+    throw e;
+  }
+}

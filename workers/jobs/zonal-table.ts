@@ -1,0 +1,126 @@
+/**
+ * Zonal statistics of one raster for a district file (and an optional rural
+ * reference): the computation behind `heatledger zonal`.
+ */
+import { readFile } from 'node:fs/promises';
+import { InputError } from '../core/errors.js';
+import { openRaster, type RasterFile } from '../core/raster/index.js';
+import { parseDistricts, readDistricts, type District } from '../core/districts/index.js';
+import { crsDefinitionForEpsg, reprojectGeometry } from '../core/crs/index.js';
+import { windowOfBounds, type BBox } from '../core/raster/affine.js';
+import { zonalScene, type ZonalStats, type ZonalCounts } from '../core/zonal/index.js';
+
+export interface ZonalTableOptions {
+  rasterPath: string;
+  districtsPath: string;
+  ruralPath?: string;
+  idField?: string;
+  nameField?: string;
+  qaPath?: string;
+  qaMask?: number;
+  qaValues?: number[];
+  coverage?: 'centre' | 'fraction';
+  /** Plausible LST range [min, max] in Kelvin; values outside are invalid. Null disables. */
+  plausibleKelvin?: [number, number] | null;
+}
+
+export type ZonalRow = { district: string } & ZonalStats;
+export interface ZonalTableResult {
+  rows: ZonalRow[];
+  counts: Array<{ district: string } & ZonalCounts>;
+}
+
+/** Field order of a zonal row; CSV and JSON follow it. */
+export const ZONAL_FIELDS = ['district', 'pixels', 'valid', 'valid_fraction', 'mean', 'std', 'min', 'max', 'median', 'p10', 'p90'] as const;
+
+/** The WGS 84 lon/lat definition GeoJSON coordinates are in (RFC 7946). */
+export const GEOJSON_CRS = crsDefinitionForEpsg(4326);
+
+/**
+ * Read a rural reference file: any polygons, ids optional; merged into one
+ * MultiPolygon district with id "rural".
+ */
+export async function readRuralReference(path: string): Promise<District> {
+  let text: string;
+  try {
+    text = await readFile(path, 'utf8');
+  } catch (e) {
+    throw new InputError(`cannot read the rural reference file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+  }
+  let doc: unknown;
+  try {
+    doc = JSON.parse(text);
+  } catch {
+    throw new InputError('is not JSON, so not a GeoJSON rural reference', path);
+  }
+  if (doc && typeof doc === 'object' && (doc as { type?: unknown }).type === 'FeatureCollection' && Array.isArray((doc as { features?: unknown }).features)) {
+    (doc as { features: unknown[] }).features.forEach((f, i) => {
+      if (f && typeof f === 'object') {
+        const feat = f as { properties?: Record<string, unknown> | null };
+        feat.properties = { ...(feat.properties ?? {}), id: `rural-${i + 1}` };
+      }
+    });
+  }
+  const parts = parseDistricts(JSON.stringify(doc), path, { idField: 'id' });
+  if (parts.length === 0) throw new InputError('holds no rural reference polygon', path);
+  return {
+    id: 'rural',
+    name: 'rural reference',
+    geometry: parts.flatMap((p) => p.geometry),
+    properties: { role: 'rural' },
+    areaSquareMetres: parts.reduce((s, p) => s + p.areaSquareMetres, 0),
+  };
+}
+
+/** Bounding box of MultiPolygon coordinates. */
+export function geometryBBox(geometry: number[][][][]): BBox {
+  let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
+  for (const poly of geometry) for (const ring of poly) for (const [x, y] of ring) {
+    if (x < x0) x0 = x;
+    if (x > x1) x1 = x;
+    if (y < y0) y0 = y;
+    if (y > y1) y1 = y;
+  }
+  return [x0, y0, x1, y1];
+}
+
+/** The raster's CRS definition, or an InputError naming the file. */
+export function rasterCrs(raster: RasterFile): string {
+  const h = raster.header;
+  if (h.crsDefinition) return h.crsDefinition;
+  if (h.epsg != null) return crsDefinitionForEpsg(h.epsg);
+  throw new InputError('has no coordinate reference system (no GeoKeys); assign one, e.g. with an EPSG code', h.path);
+}
+
+/** Compute the table. Throws InputError for bad files or a raster that misses every district. */
+export async function zonalTable(options: ZonalTableOptions): Promise<ZonalTableResult> {
+  const districts = await readDistricts(options.districtsPath, { idField: options.idField, nameField: options.nameField });
+  const rural = options.ruralPath ? await readRuralReference(options.ruralPath) : null;
+  if (rural && districts.some((d) => d.id === 'rural')) {
+    throw new InputError('a district is called "rural", which is reserved for the rural reference row', options.districtsPath);
+  }
+  const raster = await openRaster(options.rasterPath);
+  let qa: RasterFile | null = null;
+  try {
+    const crs = rasterCrs(raster);
+    const all = rural ? [...districts, rural] : districts;
+    const targets = all.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) }));
+    const { width, height, transform } = raster.header;
+    if (targets.every((t) => windowOfBounds(transform, geometryBBox(t.geometry), width, height) === null)) {
+      throw new InputError(`does not overlap any district of ${options.districtsPath}`, options.rasterPath);
+    }
+    if (options.qaPath) qa = await openRaster(options.qaPath);
+    const results = await zonalScene(raster, targets, {
+      coverage: options.coverage ?? 'centre',
+      plausibleKelvin: options.plausibleKelvin === undefined ? [170, 360] : options.plausibleKelvin,
+      qa: qa ? { raster: qa, maskBits: options.qaMask, maskValues: options.qaValues } : undefined,
+    });
+    return {
+      rows: results.map((r) => ({ district: r.id, ...r.stats })),
+      counts: results.map((r) => ({ district: r.id, ...r.counts })),
+    };
+  } finally {
+    await raster.close();
+    if (qa) await qa.close();
+  }
+}

@@ -1,0 +1,121 @@
+/**
+ * Store on the embedded engine (PGlite: PostgreSQL compiled to WebAssembly),
+ * the default for a single machine. Its data directory holds one database and
+ * belongs to one process at a time.
+ */
+import fs from 'node:fs';
+import path from 'node:path';
+import { PGlite, type Transaction as PgliteTransaction } from '@electric-sql/pglite';
+import { ServiceError } from '../core/errors.js';
+import { TransactionGuard } from './guard.js';
+import { sqlHead, type Store, type Transaction } from './store.js';
+import { SCALAR_PARSERS } from './types.js';
+
+export interface PgliteStoreOptions {
+  /** Data directory, created if missing; ignored when `memory` is true. */
+  dataDir: string;
+  memory: boolean;
+}
+
+function queryError(e: unknown, where: string, sql: string): ServiceError {
+  if (e instanceof ServiceError) return e;
+  const err = e as { message?: string; code?: string };
+  const state = typeof err?.code === 'string' ? ` (SQLSTATE ${err.code})` : '';
+  return new ServiceError(`embedded database query failed at ${where}: ${err?.message ?? String(e)}${state} in "${sqlHead(sql)}"`, { cause: e });
+}
+
+/** PGlite runs arrays through the element parser, so scalar parsers suffice. */
+const parsers = Object.fromEntries(Object.entries(SCALAR_PARSERS).map(([oid, f]) => [oid, (text: string) => f(text)]));
+
+/**
+ * Open (creating if needed) the embedded database. Throws ServiceError naming
+ * the data directory when it cannot be created or opened.
+ */
+export async function openPgliteStore(options: PgliteStoreOptions): Promise<Store> {
+  const where = options.memory ? 'memory' : path.resolve(options.dataDir);
+  let db: PGlite;
+  try {
+    if (!options.memory) fs.mkdirSync(where, { recursive: true });
+    db = await PGlite.create(options.memory ? { parsers } : { dataDir: where, parsers });
+    await db.exec("SET TimeZone = 'UTC'; SET DateStyle = 'ISO, YMD';");
+  } catch (e) {
+    throw new ServiceError(`cannot open the embedded database at ${where}: ${(e as Error)?.message ?? String(e)}`, { cause: e });
+  }
+  return new PgliteStore(db, where);
+}
+
+function wrapTx(tx: PgliteTransaction, where: string): Transaction {
+  return {
+    async query<R>(sql: string, params?: unknown[]): Promise<R[]> {
+      try {
+        return (await tx.query<R>(sql, params)).rows;
+      } catch (e) {
+        throw queryError(e, where, sql);
+      }
+    },
+    async exec(sql: string): Promise<void> {
+      try {
+        await tx.exec(sql);
+      } catch (e) {
+        throw queryError(e, where, sql);
+      }
+    },
+  };
+}
+
+class PgliteStore implements Store {
+  readonly kind = 'pglite' as const;
+  private readonly guard = new TransactionGuard();
+  private lockChain: Promise<unknown> = Promise.resolve();
+  private closed = false;
+
+  constructor(private readonly db: PGlite, private readonly where: string) {}
+
+  async query<T = Record<string, unknown>>(sql: string, params?: unknown[]): Promise<T[]> {
+    this.guard.check('query()');
+    try {
+      return (await this.db.query<T>(sql, params)).rows;
+    } catch (e) {
+      throw queryError(e, this.where, sql);
+    }
+  }
+
+  async exec(sql: string): Promise<void> {
+    this.guard.check('exec()');
+    try {
+      await this.db.exec(sql);
+    } catch (e) {
+      throw queryError(e, this.where, sql);
+    }
+  }
+
+  async transaction<T>(fn: (tx: Transaction) => Promise<T>): Promise<T> {
+    this.guard.check('transaction()');
+    let fromFn = false;
+    try {
+      return await this.db.transaction((tx) =>
+        this.guard.run(() => fn(wrapTx(tx, this.where))).catch((e: unknown) => {
+          fromFn = true;
+          throw e;
+        }),
+      );
+    } catch (e) {
+      // Errors from fn pass through unchanged; BEGIN/COMMIT failures become ServiceError.
+      if (fromFn) throw e;
+      throw queryError(e, this.where, 'COMMIT');
+    }
+  }
+
+  /** One process owns the data directory, so an in-process queue is the whole lock. */
+  withLock<T>(_key: string, fn: () => Promise<T>): Promise<T> {
+    const next = this.lockChain.then(fn, fn);
+    this.lockChain = next.catch(() => undefined);
+    return next;
+  }
+
+  async close(): Promise<void> {
+    if (this.closed) return;
+    this.closed = true;
+    await this.db.close();
+  }
+}

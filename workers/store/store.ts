@@ -1,0 +1,85 @@
+/**
+ * The one database interface of heatledger. Two implementations sit behind it:
+ * the PostgreSQL server through `pg` (distributed mode, `DATABASE_URL`) and the
+ * embedded engine PGlite (the default, a data directory on disk). Both run the
+ * same SQL and return the same JavaScript values (see ./types.ts).
+ */
+import { ServiceError } from '../core/errors.js';
+import { migrate } from './migrate.js';
+
+/** Anything that runs one parameterised SQL statement ($1, $2, ...) and returns its rows. */
+export interface Queryable {
+  query<T = Record<string, unknown>>(sql: string, params?: unknown[]): Promise<T[]>;
+}
+
+/** The handle inside `Store.transaction`: one connection, one open transaction. */
+export interface Transaction extends Queryable {
+  /** Run several `;`-separated statements without parameters. */
+  exec(sql: string): Promise<void>;
+}
+
+export interface Store extends Queryable {
+  readonly kind: 'pg' | 'pglite';
+  /** Run several `;`-separated statements without parameters. */
+  exec(sql: string): Promise<void>;
+  /**
+   * Run `fn` inside BEGIN … COMMIT on one connection; any throw rolls back and
+   * is re-thrown. Inside `fn` use `tx`, never the store itself (that would see
+   * other data on the server, or wait forever on the embedded engine — both
+   * stores throw instead).
+   */
+  transaction<T>(fn: (tx: Transaction) => Promise<T>): Promise<T>;
+  /**
+   * Run `fn` while holding a lock named `key` that other processes on the same
+   * database also respect (a PostgreSQL advisory lock on the server; the
+   * embedded engine has one process, so a local mutex). Used by the migrations runner.
+   */
+  withLock?<T>(key: string, fn: () => Promise<T>): Promise<T>;
+  close(): Promise<void>;
+}
+
+export interface OpenStoreOptions {
+  /** postgres://user@host:port/db — when given, use the PostgreSQL server. */
+  databaseUrl?: string;
+  /** Embedded data directory, created if missing. Default `./.heatledger` (relative to the working directory). */
+  dataDir?: string;
+  /** Embedded engine in memory only (tests); ignores `dataDir`. */
+  memory?: boolean;
+}
+
+/** Default embedded data directory, relative to the working directory. */
+export const DEFAULT_DATA_DIR = './.heatledger';
+
+/**
+ * Open the store the options describe and bring its schema up to date
+ * (sql/migrations). A server URL selects PostgreSQL; otherwise the embedded
+ * engine on `dataDir` (or in memory).
+ * Throws `ServiceError` when the database cannot be reached or opened.
+ *
+ * @example
+ *   const store = await openStore({ databaseUrl: process.env.DATABASE_URL });
+ *   try { await store.query('select 1') } finally { await store.close() }
+ */
+export async function openStore(options: OpenStoreOptions = {}): Promise<Store> {
+  let store: Store;
+  if (options.databaseUrl) {
+    const { openPgStore } = await import('./pg.js');
+    store = await openPgStore(options.databaseUrl);
+  } else {
+    const { openPgliteStore } = await import('./pglite.js');
+    store = await openPgliteStore({ dataDir: options.dataDir ?? DEFAULT_DATA_DIR, memory: options.memory ?? false });
+  }
+  try {
+    await migrate(store);
+  } catch (e) {
+    await store.close().catch(() => undefined);
+    throw e instanceof ServiceError ? e : new ServiceError(`cannot migrate the ${store.kind} database: ${(e as Error).message}`, { cause: e });
+  }
+  return store;
+}
+
+/** First line of a statement, for error messages. */
+export function sqlHead(sql: string): string {
+  const line = sql.trim().split('\n').find((l) => l.trim() !== '' && !l.trim().startsWith('--')) ?? '';
+  return line.length > 120 ? `${line.slice(0, 117)}...` : line.trim();
+}

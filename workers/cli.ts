@@ -10,6 +10,7 @@ import { Command, CommanderError, Option } from 'commander';
 import { isInputError } from './core/errors.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
+import { DEFAULT_DATA_DIR, ENV } from './config.js';
 
 const CAUTION =
   'LST is land-surface (skin) temperature, not air temperature. Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
@@ -64,6 +65,92 @@ export function buildProgram(): Command {
     .action(async (raster: string, opts) => {
       const { runZonalCommand } = await import('./commands/zonal.js');
       await runZonalCommand(raster, opts);
+    });
+
+  const dataDirOption = () =>
+    new Option('--data-dir <dir>', 'embedded database folder (ignored when DATABASE_URL is set)').env(ENV.dataDir).default(DEFAULT_DATA_DIR);
+
+  program
+    .command('ingest')
+    .description(
+      'Process a scene archive: register scenes, compute district statistics, pair day/night passes, derive ATI and SUHI, store them.\n' +
+        'Embedded (in-process, PGlite in --data-dir) unless REDIS_URL and DATABASE_URL are set (then jobs go to `heatledger worker` processes).',
+    )
+    .argument('<inputs...>', 'LST GeoTIFF files or folders (searched recursively)')
+    .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
+    .option('--rural <file>', 'rural reference polygon(s), GeoJSON (default: a ring around the districts)')
+    .option('--rural-inner <metres>', 'inner edge of the default rural ring, metres outside the districts', parseNumber('--rural-inner'), 2000)
+    .option('--rural-outer <metres>', 'outer edge of the default rural ring, metres outside the districts', parseNumber('--rural-outer'), 10000)
+    .option('--water <file>', 'water polygons (GeoJSON) to leave out of the default rural ring')
+    .option('--albedo <rasters...>', 'albedo rasters or folders; one raster without a date serves the whole archive')
+    .option('--manifest <file>', 'CSV or JSON listing path, kind (lst|albedo|qa), acquired_at (UTC ISO 8601), sensor for files that lack them')
+    .option('--id-field <name>', 'feature property holding the district id', 'id')
+    .option('--name-field <name>', 'feature property holding the district name', 'name')
+    .addOption(new Option('--coverage <rule>', 'pixel rule: centre or fraction').choices(['centre', 'fraction']).default('centre'))
+    .option('--plausible <min,max>', 'plausible LST range in Kelvin', '170,360')
+    .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), 0.5)
+    .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), 18)
+    .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), 32)
+    .option('--threads <n>', 'worker threads in embedded mode (default: CPU cores)', parseInteger('--threads'))
+    .addOption(dataDirOption())
+    .option('--json', 'print the run summary as JSON')
+    .option('--no-progress', 'no progress bar')
+    .action(async (inputs: string[], opts) => {
+      const { runIngestCommand } = await import('./commands/ingest.js');
+      await runIngestCommand(inputs, opts);
+    });
+
+  program
+    .command('status')
+    .description('Scenes in the store by state, and failed scenes with their reasons.')
+    .addOption(dataDirOption())
+    .addOption(formatOption('table'))
+    .action(async (opts) => {
+      const { runStatusCommand } = await import('./commands/status.js');
+      await runStatusCommand(opts);
+    });
+
+  program
+    .command('table')
+    .description('The district table: per district and date (or year) mean day and night LST (K), SUHI day and night (K), ATI (1/K) and scene counts.')
+    .addOption(new Option('--level <level>', 'one row per district and date, or per district and year').choices(['date', 'year']).default('date'))
+    .option('--year <year>', 'only this year', parseInteger('--year'))
+    .addOption(formatOption('table'))
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runTableCommand } = await import('./commands/table.js');
+      await runTableCommand(opts);
+    });
+
+  program
+    .command('worker')
+    .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
+    .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency'), Number(process.env[ENV.concurrency] ?? 1))
+    .action(async (opts) => {
+      const { runWorkerCommand } = await import('./commands/worker.js');
+      await runWorkerCommand(opts);
+    });
+
+  program
+    .command('demo')
+    .description('Generate an invented city and its multi-year scene archive (first run only), run the whole pipeline and print the hottest districts.')
+    .option('--archive <dir>', 'where the demo archive is (generated when missing)')
+    .option('--threads <n>', 'worker threads', parseInteger('--threads'))
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runDemoCommand } = await import('./commands/demo.js');
+      await runDemoCommand(opts);
+    });
+
+  program
+    .command('serve')
+    .description('HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).')
+    .option('--port <port>', `port (default ${'$'}{ENV.apiPort} or 8080)`, parseInteger('--port'))
+    .option('--host <host>', `address to listen on (default ${'$'}{ENV.apiHost} or 127.0.0.1)`)
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runServeCommand } = await import('./commands/serve.js');
+      await runServeCommand(opts);
     });
 
   return program;

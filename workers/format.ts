@@ -4,7 +4,7 @@
  * key order of the first row (or `columns` when given).
  */
 export type Cell = string | number | boolean | null | undefined;
-export type Row = Record<string, Cell>;
+export type Row = { readonly [key: string]: Cell };
 export type OutputFormat = 'json' | 'csv' | 'table';
 
 export const OUTPUT_FORMATS: readonly OutputFormat[] = ['json', 'csv', 'table'];

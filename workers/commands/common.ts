@@ -1,0 +1,18 @@
+/** Pieces the store-using commands share. */
+import { runtimeConfig, type RuntimeConfig } from '../config.js';
+import type { Store } from '../store/index.js';
+
+/** Open the configured store (embedded PGlite in --data-dir, or DATABASE_URL), run `fn`, close. */
+export async function withStore<T>(opts: { dataDir?: string }, fn: (store: Store, config: RuntimeConfig) => Promise<T>): Promise<T> {
+  const config = runtimeConfig({ dataDir: opts.dataDir });
+  const { openConfiguredStore } = await import('../pipeline.js');
+  const store = await openConfiguredStore(config);
+  try {
+    return await fn(store, config);
+  } finally {
+    await store.close();
+  }
+}
+
+export const CAUTION_SHORT =
+  'LST is surface (skin) temperature, not air temperature; these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';

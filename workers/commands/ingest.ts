@@ -1,0 +1,105 @@
+import { InputError } from '../core/errors.js';
+import { runtimeConfig } from '../config.js';
+import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
+
+export interface IngestCommandOptions {
+  districts: string;
+  rural?: string;
+  ruralInner: number;
+  ruralOuter: number;
+  water?: string;
+  albedo?: string[];
+  manifest?: string;
+  idField: string;
+  nameField: string;
+  coverage: 'centre' | 'fraction';
+  plausible: string;
+  minValidFraction: number;
+  pairingWindow: number;
+  albedoWindow: number;
+  threads?: number;
+  dataDir?: string;
+  json?: boolean;
+  progress: boolean;
+}
+
+export function parsePlausible(text: string): [number, number] | null {
+  if (text === 'none') return null;
+  const parts = text.split(',').map((s) => Number(s.trim()));
+  if (parts.length !== 2 || !parts.every(Number.isFinite) || parts[0] >= parts[1]) {
+    throw new InputError(`--plausible needs "min,max" in Kelvin with min < max (or "none"), got "${text}"`);
+  }
+  return [parts[0], parts[1]];
+}
+
+export function summaryLines(s: PipelineSummary): string[] {
+  const lines = [
+    `run ${s.runId} (${s.mode}): ${s.scenes} scene file(s) in ${s.seconds.toFixed(1)} s` +
+      (s.derive ? `; ${s.derive.rows} district-date rows derived (${s.derive.ok} complete)` : ''),
+  ];
+  if (s.failures.length) {
+    lines.push(`${s.failures.length} job(s) failed; the rest were processed:`);
+    for (const f of s.failures.slice(0, 20)) lines.push(`  ${f.name}: ${f.error}`);
+    if (s.failures.length > 20) lines.push(`  ... and ${s.failures.length - 20} more (see \`heatledger status\`)`);
+  }
+  return lines;
+}
+
+export async function runIngestCommand(inputs: string[], opts: IngestCommandOptions): Promise<void> {
+  if (!(opts.minValidFraction >= 0 && opts.minValidFraction <= 1)) throw new InputError(`--min-valid-fraction must be between 0 and 1, got ${opts.minValidFraction}`);
+  if (!(opts.pairingWindow > 0)) throw new InputError(`--pairing-window must be positive hours, got ${opts.pairingWindow}`);
+  if (!(opts.albedoWindow > 0)) throw new InputError(`--albedo-window must be positive days, got ${opts.albedoWindow}`);
+  const { runPipeline } = await import('../pipeline.js');
+  const config = runtimeConfig({ dataDir: opts.dataDir });
+  let bar: { update(v: number, p?: object): void; setTotal(t: number): void; stop(): void } | null = null;
+  const showBar = opts.progress && !opts.json;
+  if (showBar) {
+    const { SingleBar, Presets } = await import('cli-progress');
+    bar = new SingleBar(
+      {
+        format: 'jobs {bar} {value}/{total} | failed {failed} | remaining {remaining} | {rate} jobs/s',
+        noTTYOutput: !process.stderr.isTTY,
+        notTTYSchedule: 5000,
+        stream: process.stderr,
+        hideCursor: true,
+      },
+      Presets.shades_classic,
+    );
+  }
+  let started = false;
+  const options: PipelineOptions = {
+    inputs,
+    districtsPath: opts.districts,
+    idField: opts.idField,
+    nameField: opts.nameField,
+    ruralPath: opts.rural,
+    ruralInnerMetres: opts.ruralInner,
+    ruralOuterMetres: opts.ruralOuter,
+    waterPath: opts.water,
+    albedoInputs: opts.albedo,
+    manifestPath: opts.manifest,
+    coverage: opts.coverage,
+    plausibleKelvin: parsePlausible(opts.plausible),
+    derive: { minValidFraction: opts.minValidFraction, pairingWindowHours: opts.pairingWindow, albedoWindowDays: opts.albedoWindow },
+    threads: opts.threads,
+    dataDir: opts.dataDir,
+    onProgress: bar
+      ? (p) => {
+          const payload = { failed: p.failed, remaining: p.total - p.done - p.failed, rate: ((p.done + p.failed) / Math.max(p.elapsedSeconds, 1e-3)).toFixed(1) };
+          if (!started) { (bar as unknown as { start(t: number, v: number, p: object): void }).start(p.total, p.done + p.failed, payload); started = true; }
+          bar!.update(p.done + p.failed, payload);
+        }
+      : undefined,
+  };
+  let summary: PipelineSummary;
+  try {
+    summary = await runPipeline(options, config);
+  } finally {
+    if (bar && started) bar.stop();
+  }
+  if (opts.json) {
+    process.stdout.write(JSON.stringify(summary, null, 2) + '\n');
+  } else {
+    process.stdout.write(summaryLines(summary).join('\n') + '\n');
+  }
+}

@@ -1,0 +1,43 @@
+/**
+ * The processors registry: what runners (in-process threads, BullMQ worker
+ * processes) import to find the processors and make their repository.
+ */
+import { existsSync } from 'node:fs';
+import { fileURLToPath } from 'node:url';
+import type { Processor } from '../queue/types.js';
+import { ENV } from '../config.js';
+import { projectPath } from '../paths.js';
+import { ingest } from './ingest.js';
+import { zonal } from './zonal.js';
+import { derive } from './derive.js';
+
+export const processors: Record<string, Processor> = {
+  ingest: ingest as Processor,
+  zonal: zonal as Processor,
+  derive: derive as Processor,
+};
+
+/** Jobs worth a worker thread in embedded mode (CPU-bound decoding and statistics). */
+export const THREADED_JOBS = ['zonal'];
+
+/** A repository for a worker process: the PostgreSQL server named by DATABASE_URL. */
+export async function createRepo(env: Record<string, string | undefined>) {
+  const { openStore } = await import('../store/index.js');
+  const { createPipelineRepo } = await import('./repo.js');
+  const url = env[ENV.databaseUrl];
+  if (!url) {
+    const { InputError } = await import('../core/errors.js');
+    throw new InputError(`a worker needs ${ENV.databaseUrl} (a PostgreSQL server shared by all workers)`);
+  }
+  const store = await openStore({ databaseUrl: url });
+  return { repo: createPipelineRepo(store), close: () => store.close() };
+}
+
+/** URL of the compiled registry module (runners import compiled JavaScript, also when tests run the sources). */
+export function registryModuleUrl(): URL {
+  const here = fileURLToPath(import.meta.url);
+  if (here.endsWith('.js')) return new URL(import.meta.url);
+  const compiled = projectPath('dist', 'workers', 'jobs', 'registry.js');
+  if (!existsSync(compiled)) throw new Error(`compiled processors not found at ${compiled}; run \`npm run build\``);
+  return new URL(`file://${compiled}`);
+}

@@ -1,0 +1,120 @@
+/**
+ * zonal: statistics of one scene for every district and the rural reference,
+ * in one pass over the blocks under them; districts are reprojected once per
+ * CRS (cached for the life of the process or thread). Stored in one
+ * transaction per scene, replacing what the scene had.
+ */
+import { InputError } from '../core/errors.js';
+import { openRaster, type RasterFile } from '../core/raster/index.js';
+import { crsDefinitionForEpsg, reprojectGeometry } from '../core/crs/index.js';
+import { zonalScene, type ZonalTarget } from '../core/zonal/index.js';
+import type { JobContext } from '../queue/types.js';
+import type { PipelineRepo } from './repo.js';
+import type { IngestResult } from './ingest.js';
+import { GEOJSON_CRS } from './zonal-table.js';
+
+export interface ZonalData {
+  runId: number;
+  contentHash: string;
+  path: string;
+  /** Ids of the districts (and rural reference) of this run. */
+  targetIds: string[];
+  coverage: 'centre' | 'fraction';
+  plausibleKelvin: [number, number] | null;
+  qa?: { path: string; maskBits?: number; maskValues?: number[] };
+}
+
+export interface ZonalResult {
+  sceneId: number | null;
+  kind?: string;
+  rows: number;
+  /** Why nothing was computed, when nothing was. */
+  skipped?: string;
+}
+
+type Geometry = number[][][][];
+const lonLatCache = new Map<string, Geometry>();
+const projectedCache = new Map<string, Map<string, Geometry>>();
+
+async function targetsFor(repo: PipelineRepo, ids: readonly string[], crs: string): Promise<ZonalTarget[]> {
+  const missing = ids.filter((id) => !lonLatCache.has(id));
+  if (missing.length) {
+    for (const d of await repo.listDistricts()) {
+      const g = d.geometry as { type: string; coordinates: unknown };
+      lonLatCache.set(d.id, g.type === 'Polygon' ? [g.coordinates as number[][][]] : (g.coordinates as Geometry));
+    }
+  }
+  let byId = projectedCache.get(crs);
+  if (!byId) projectedCache.set(crs, (byId = new Map()));
+  return ids.map((id) => {
+    let g = byId!.get(id);
+    if (!g) {
+      const ll = lonLatCache.get(id);
+      if (!ll) throw new Error(`district ${id} is not in the store`);
+      g = reprojectGeometry(ll, GEOJSON_CRS, crs);
+      byId!.set(id, g);
+    }
+    return { id, geometry: g };
+  });
+}
+
+/** Forget cached district geometries (after districts change in a long-lived worker). */
+export function clearDistrictCache(): void {
+  lonLatCache.clear();
+  projectedCache.clear();
+}
+
+export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Promise<ZonalResult> {
+  const { repo } = ctx;
+  const ingested = Object.values(ctx.childrenValues)[0] as IngestResult | undefined;
+  if (!ingested) return { sceneId: null, rows: 0, skipped: 'ingest failed' };
+  if (ingested.kind === 'qa') return { sceneId: ingested.sceneId, kind: 'qa', rows: 0, skipped: 'QA raster' };
+  if (ingested.alreadyStored) {
+    const have = new Set(await repo.zonalDistrictsOfScene(ingested.sceneId, data.coverage));
+    if (data.targetIds.every((id) => have.has(id))) {
+      return { sceneId: ingested.sceneId, kind: ingested.kind, rows: 0, skipped: 'already processed' };
+    }
+  }
+  const raster = await openRaster(data.path);
+  let qa: RasterFile | null = null;
+  try {
+    const h = raster.header;
+    const crs = h.crsDefinition ?? (h.epsg != null ? crsDefinitionForEpsg(h.epsg) : null);
+    if (!crs) throw new InputError('has no coordinate reference system', data.path);
+    const targets = await targetsFor(repo, data.targetIds, crs);
+    if (data.qa) qa = await openRaster(data.qa.path);
+    const results = await zonalScene(raster, targets, {
+      coverage: data.coverage,
+      // albedo is a fraction, not a temperature: the LST plausibility window does not apply
+      plausibleKelvin: ingested.kind === 'lst' ? data.plausibleKelvin : [0, 1],
+      qa: qa ? { raster: qa, maskBits: data.qa?.maskBits, maskValues: data.qa?.maskValues } : undefined,
+    });
+    const rows = results.map((r) => ({
+      districtId: r.id,
+      pixels: r.stats.pixels,
+      valid: r.stats.valid,
+      validFraction: r.stats.valid_fraction,
+      meanKelvin: r.stats.mean,
+      stdKelvin: r.stats.std,
+      minKelvin: r.stats.min,
+      maxKelvin: r.stats.max,
+      medianKelvin: r.stats.median,
+      p10Kelvin: r.stats.p10,
+      p90Kelvin: r.stats.p90,
+      nodataCount: r.counts.nodata,
+      maskedCount: r.counts.masked,
+      implausibleCount: r.counts.implausible,
+      coverageRule: data.coverage,
+    }));
+    await repo.replaceZonalStats(ingested.sceneId, rows, data.runId);
+    return { sceneId: ingested.sceneId, kind: ingested.kind, rows: rows.length };
+  } catch (e) {
+    if ((e as Error)?.name === 'InputError') {
+      await repo.markSceneFailed({ contentHash: data.contentHash, path: data.path, error: (e as Error).message, runId: data.runId });
+    }
+    throw e;
+  } finally {
+    await raster.close();
+    if (qa) await qa.close();
+  }
+}

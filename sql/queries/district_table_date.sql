@@ -1,4 +1,4 @@
--- district_table_date: one row per district and date, ordered by district, date.
+-- district_table_date: one row per district and date, ordered by role (districts, then rural), district id, date.
 --   $1  year (integer), or NULL for every year
 --   $2  minimum valid fraction (0..1) of a district's pixels for a pass to count,
 --       on top of the one the derive step applied; NULL = no further filter

@@ -1,4 +1,4 @@
--- district_table_year: one row per district and year, ordered by district, year.
+-- district_table_year: one row per district and year, ordered by role (districts, then rural), district id, year.
 --   $1  year (integer), or NULL for every year
 --   $2  minimum valid fraction, as in district_table_date.sql; NULL = no further filter
 -- Each mean is over the dates of that year that have the value (every date

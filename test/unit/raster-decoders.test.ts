@@ -139,3 +139,13 @@ describe('acquisition time', () => {
     expect(() => acquisitionTime({ ACQUISITION_TIME: 'yesterday' }, null, 'x.tif')).toThrow(/x\.tif.*ACQUISITION_TIME/);
   });
 });
+
+describe('GeoKey names', () => {
+  it('match the geotiff package (general-purpose reference library) key for key', async () => {
+    // GeoTIFF 1.1 (OGC 19-008r4) section 7 key ids; the geotiff npm package carries the same table.
+    const { globals } = await import('geotiff');
+    const { GEOKEY_NAMES } = await import('../../workers/core/raster/geokeys.js');
+    expect(GEOKEY_NAMES).toEqual(Object.fromEntries(Object.entries(globals.geoKeyNames).map(([k, v]) => [Number(k), v])));
+    expect(GEOKEY_NAMES[3072]).toBe('ProjectedCSTypeGeoKey');
+  });
+});

@@ -15,11 +15,23 @@
  * A code on another datum with no known shift is refused rather than
  * reprojected hundreds of metres off.
  */
-import proj4 from 'proj4';
-import geokeysToProj4 from 'geotiff-geokeys-to-proj4';
+import { proj4 } from './proj4.js';
+import { createRequire } from 'node:module';
 import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import { datumShiftFor } from './datumShifts.js';
+
+// The frozen EPSG tables load on first use (~0.1-0.4 s): WGS 84, Web Mercator and
+// the UTM zones, the codes most scenes use, never need them.
+const requireCjs = createRequire(import.meta.url);
+type GeokeysLib = { toProj4(keys: never): { proj4: string; errors?: Record<string, unknown>; shouldConvertCoordinates?: boolean; coordinatesUnits?: string } };
+let geokeysLib: GeokeysLib | null = null;
+const geokeysToProj4 = {
+  toProj4(keys: never) {
+    geokeysLib ??= requireCjs('geotiff-geokeys-to-proj4') as GeokeysLib;
+    return geokeysLib.toProj4(keys);
+  },
+};
 
 const WGS84_A = 6378137;
 const WGS84_B = 6356752.314245179;

@@ -2,7 +2,7 @@
  * Reprojection of points, MultiPolygon coordinates and bounding boxes with proj4.
  * Coordinates are always easting/longitude first.
  */
-import proj4, { type Converter } from 'proj4';
+import { proj4, type Converter } from './proj4.js';
 import { InputError } from '../errors.js';
 import type { BBox } from '../raster/affine.js';
 

@@ -4,9 +4,7 @@
  * surrounding buffer" SUHI reference; Schwarz, Lautenbach & Seppelt 2011 compare
  * such indicators, and buffer widths of 2-30 km are common - see METHODS.md §4).
  */
-import { buffer } from '@turf/buffer';
-import { difference } from '@turf/difference';
-import { union } from '@turf/union';
+import { createRequire } from 'node:module';
 import { featureCollection, multiPolygon } from '@turf/helpers';
 import type { Feature, MultiPolygon, Polygon } from 'geojson';
 import { InputError } from '../errors.js';
@@ -16,6 +14,16 @@ import type { District } from './types.js';
 import type { Metres } from '../units.js';
 
 type Area = Feature<Polygon | MultiPolygon>;
+
+// The buffer/overlay code (with its JSTS dependency) costs ~0.1-0.3 s to load; only the
+// default rural ring needs it, so it loads on first use.
+const requireCjs = createRequire(import.meta.url);
+const buffer = (...a: Parameters<typeof import('@turf/buffer').buffer>) =>
+  (requireCjs('@turf/buffer') as typeof import('@turf/buffer')).buffer(...a);
+const difference = (...a: Parameters<typeof import('@turf/difference').difference>) =>
+  (requireCjs('@turf/difference') as typeof import('@turf/difference')).difference(...a);
+const union = (...a: Parameters<typeof import('@turf/union').union>) =>
+  (requireCjs('@turf/union') as typeof import('@turf/union')).union(...a);
 
 function coordsOf(f: Area): number[][][][] {
   return f.geometry.type === 'Polygon' ? [f.geometry.coordinates] : f.geometry.coordinates;

@@ -2,11 +2,70 @@
  * GeoTIFF georeferencing: the affine geotransform from the model tags and the
  * CRS from the GeoKey directory (OGC GeoTIFF 1.1, OGC 19-008r4, 2019).
  */
-import { globals } from 'geotiff';
-import { toProj4 } from 'geotiff-geokeys-to-proj4';
+import { createRequire } from 'node:module';
 import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
+
+// Loaded on first use: the EPSG tables inside cost ~0.1-0.4 s of start-up, and only
+// user-defined CRSs (no EPSG code) need them here.
+const requireCjs = createRequire(import.meta.url);
+let toProj4Fn: ((keys: never) => { proj4: string }) | null = null;
+function toProj4(keys: never): { proj4: string } {
+  toProj4Fn ??= (requireCjs('geotiff-geokeys-to-proj4') as { toProj4: (keys: never) => { proj4: string } }).toProj4;
+  return toProj4Fn(keys);
+}
+
+/** GeoKey ids and names (GeoTIFF 1.1, OGC 19-008r4, section 7; the geotiff package's table, checked equal in a test). */
+export const GEOKEY_NAMES: Readonly<Record<number, string>> = {
+  1024: 'GTModelTypeGeoKey',
+  1025: 'GTRasterTypeGeoKey',
+  1026: 'GTCitationGeoKey',
+  2048: 'GeographicTypeGeoKey',
+  2049: 'GeogCitationGeoKey',
+  2050: 'GeogGeodeticDatumGeoKey',
+  2051: 'GeogPrimeMeridianGeoKey',
+  2052: 'GeogLinearUnitsGeoKey',
+  2053: 'GeogLinearUnitSizeGeoKey',
+  2054: 'GeogAngularUnitsGeoKey',
+  2055: 'GeogAngularUnitSizeGeoKey',
+  2056: 'GeogEllipsoidGeoKey',
+  2057: 'GeogSemiMajorAxisGeoKey',
+  2058: 'GeogSemiMinorAxisGeoKey',
+  2059: 'GeogInvFlatteningGeoKey',
+  2060: 'GeogAzimuthUnitsGeoKey',
+  2061: 'GeogPrimeMeridianLongGeoKey',
+  2062: 'GeogTOWGS84GeoKey',
+  3072: 'ProjectedCSTypeGeoKey',
+  3073: 'PCSCitationGeoKey',
+  3074: 'ProjectionGeoKey',
+  3075: 'ProjCoordTransGeoKey',
+  3076: 'ProjLinearUnitsGeoKey',
+  3077: 'ProjLinearUnitSizeGeoKey',
+  3078: 'ProjStdParallel1GeoKey',
+  3079: 'ProjStdParallel2GeoKey',
+  3080: 'ProjNatOriginLongGeoKey',
+  3081: 'ProjNatOriginLatGeoKey',
+  3082: 'ProjFalseEastingGeoKey',
+  3083: 'ProjFalseNorthingGeoKey',
+  3084: 'ProjFalseOriginLongGeoKey',
+  3085: 'ProjFalseOriginLatGeoKey',
+  3086: 'ProjFalseOriginEastingGeoKey',
+  3087: 'ProjFalseOriginNorthingGeoKey',
+  3088: 'ProjCenterLongGeoKey',
+  3089: 'ProjCenterLatGeoKey',
+  3090: 'ProjCenterEastingGeoKey',
+  3091: 'ProjCenterNorthingGeoKey',
+  3092: 'ProjScaleAtNatOriginGeoKey',
+  3093: 'ProjScaleAtCenterGeoKey',
+  3094: 'ProjAzimuthAngleGeoKey',
+  3095: 'ProjStraightVertPoleLongGeoKey',
+  3096: 'ProjRectifiedGridAngleGeoKey',
+  4096: 'VerticalCSTypeGeoKey',
+  4097: 'VerticalCitationGeoKey',
+  4098: 'VerticalDatumGeoKey',
+  4099: 'VerticalUnitsGeoKey',
+};
 
 /** GeoKey ids used here (OGC 19-008r4, Annex A). */
 export const GT_MODEL_TYPE = 1024;
@@ -130,7 +189,7 @@ export function crsDefinitionOf(keys: Map<number, GeoKeyValue> | null, path: str
   const named: Record<string, GeoKeyValue> = {};
   let crsKeys = 0;
   for (const [id, v] of keys) {
-    const name = (globals.geoKeyNames as Record<number, string>)[id];
+    const name = GEOKEY_NAMES[id];
     if (name) named[name] = v;
     if (id >= 2048) crsKeys++;
   }

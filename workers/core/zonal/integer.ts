@@ -26,8 +26,8 @@ export interface IntegerKind {
 export class IntegerAccumulator {
   readonly bins: number;
   readonly bias: number;
-  /** Cells per bin (exact integers in a double up to 2^53). */
-  readonly counts: Float64Array;
+  /** Cells per bin (a raster holds at most 2^31 cells, so 32 bits never overflow). */
+  readonly counts: Uint32Array;
   /** Weight sum per bin, or null when unweighted. */
   readonly weights: Float64Array | null;
 
@@ -35,7 +35,7 @@ export class IntegerAccumulator {
     if (kind.bits !== 8 && kind.bits !== 16) throw new Error(`histogram accumulator covers 8- and 16-bit DNs, not ${kind.bits}-bit`);
     this.bins = 2 ** kind.bits;
     this.bias = kind.signed ? this.bins / 2 : 0;
-    this.counts = new Float64Array(this.bins);
+    this.counts = new Uint32Array(this.bins);
     this.weights = options.weighted ? new Float64Array(this.bins) : null;
   }
 

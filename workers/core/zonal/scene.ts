@@ -124,7 +124,7 @@ interface TargetState {
 
 // ---- hot loops: one per (coverage rule, value path); qa is null or a per-block mask ----
 
-function centreInteger(block: RasterBlock, m: CentreMask, hist: Float64Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
+function centreInteger(block: RasterBlock, m: CentreMask, hist: Uint32Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
   const { window: bw, data, stride } = block;
   const mw = m.window, offs = m.rowOffsets, spans = m.spans;
   const r0 = Math.max(bw.rowOff, mw.rowOff), r1 = Math.min(bw.rowOff + bw.height, mw.rowOff + mw.height);
@@ -182,7 +182,7 @@ function centreFloat(block: RasterBlock, m: CentreMask, acc: FloatAccumulator, n
   tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
 }
 
-function fractionInteger(block: RasterBlock, m: FractionMask, hist: Float64Array, weights: Float64Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
+function fractionInteger(block: RasterBlock, m: FractionMask, hist: Uint32Array, weights: Float64Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
   const { window: bw, data, stride } = block;
   const mw = m.window, fr = m.fractions;
   const win = intersectWindows(bw, mw);

@@ -1,0 +1,39 @@
+/**
+ * Seeded pseudo-random numbers for the bench generators, so that every run
+ * writes the same files.
+ */
+
+/**
+ * Mulberry32: a 32-bit state generator, uniform in [0, 1). Fast, small and
+ * good enough for synthetic textures (not for cryptography).
+ * @example const rnd = mulberry32(7); rnd() // 0 <= x < 1, the same every run
+ */
+export function mulberry32(seed: number): () => number {
+  let s = seed >>> 0;
+  return () => {
+    s = (s + 0x6d2b79f5) >>> 0;
+    let t = s;
+    t = Math.imul(t ^ (t >>> 15), t | 1);
+    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
+    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
+  };
+}
+
+/**
+ * A table of standard normal deviates (Box & Muller 1958), for per-pixel noise
+ * drawn by index: 49 M calls to Math.log/Math.cos would dominate generation.
+ * @param size table length
+ * @param seed generator seed
+ */
+export function normalTable(size: number, seed: number): Float32Array {
+  const rnd = mulberry32(seed);
+  const out = new Float32Array(size);
+  for (let i = 0; i < size; i += 2) {
+    const u = 1 - rnd(); // (0, 1]: log stays finite
+    const v = rnd();
+    const r = Math.sqrt(-2 * Math.log(u));
+    out[i] = r * Math.cos(2 * Math.PI * v);
+    if (i + 1 < size) out[i + 1] = r * Math.sin(2 * Math.PI * v);
+  }
+  return out;
+}

@@ -1,0 +1,284 @@
+/**
+ * `npm run bench`: the zonal job against a rasterio + NumPy peer.
+ *
+ *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
+ *
+ * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
+ *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
+ * 2. Per size, times whole processes: `heatledger zonal ... --format json` and
+ *    test/bench/peer_zonal.py, alternating which goes first each round; medians
+ *    and the ratio peer / ours; checks that both tables agree.
+ * 3. Start-up cost, a phase profile of our run (cold and warm) and the peer's
+ *    own phase timings, per size.
+ * 4. In-process throughput: decode, coverage (centre masks), statistics.
+ *
+ * It prints figures; nothing here asserts a time. With --json the last line
+ * is one JSON object with every figure.
+ */
+import { existsSync, mkdirSync, readdirSync, rmSync } from 'node:fs';
+import { cpus, loadavg } from 'node:os';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { summariseCpuProfile, type ProfileSummary } from './cpuprofile.js';
+import { compareTables, type Agreement, type StatsRow } from './compare.js';
+import { ensureBenchData } from './generate.js';
+import { loadTargets, measureCoverage, measureDecode, measureStats, type PhaseProfile } from './profile.js';
+import { median, timeProcess } from './timing.js';
+
+const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
+const WORK_DIR = join(ROOT, 'test/bench/.work');
+const CLI = join(ROOT, 'dist/workers/cli.js');
+const PEER = join(ROOT, 'test/bench/peer_zonal.py');
+const CHILD = join(ROOT, 'dist/test/bench/phases-child.js');
+const PYTHON = '/usr/bin/python3';
+const NODE = process.execPath;
+
+type Size = 'full' | 'clip';
+
+interface Args {
+  json: boolean;
+  rounds: number;
+  sizes: Size[];
+}
+
+function parseArgs(argv: string[]): Args {
+  const args: Args = { json: false, rounds: 5, sizes: ['full', 'clip'] };
+  for (let i = 0; i < argv.length; i++) {
+    const a = argv[i];
+    if (a === '--json') args.json = true;
+    else if (a === '--rounds') {
+      const n = Number(argv[++i]);
+      if (!Number.isInteger(n) || n < 1 || n > 50) fail(`--rounds needs a whole number from 1 to 50, got "${argv[i]}"`);
+      args.rounds = n;
+    } else if (a === '--sizes') {
+      const list = (argv[++i] ?? '').split(',').map((s) => s.trim()).filter(Boolean);
+      if (list.length === 0 || !list.every((s) => s === 'full' || s === 'clip')) fail(`--sizes needs a comma-separated list of full and clip, got "${argv[i]}"`);
+      args.sizes = [...new Set(list)] as Size[];
+    } else if (a === '--help' || a === '-h') {
+      process.stdout.write('usage: node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]\n');
+      process.exit(0);
+    } else fail(`unknown option "${a}" (try --help)`);
+  }
+  return args;
+}
+
+function fail(message: string): never {
+  process.stderr.write(`bench: ${message}\n`);
+  process.exit(2);
+}
+
+const say = (line = ''): void => { process.stdout.write(line + '\n'); };
+const s3 = (x: number): string => x.toFixed(3);
+const ms = (x: number): string => `${x.toFixed(0)} ms`;
+
+function peerAvailable(): boolean {
+  if (!existsSync(PYTHON)) return false;
+  return timeProcess(PYTHON, ['-c', 'import rasterio, rasterio.features, rasterio.warp, numpy'], 60).status === 0;
+}
+
+function parseRows(text: string, who: string): StatsRow[] {
+  try {
+    const rows = JSON.parse(text) as StatsRow[];
+    if (!Array.isArray(rows)) throw new Error('not an array');
+    return rows;
+  } catch (e) {
+    throw new Error(`${who} printed output that is not a JSON array of rows (${(e as Error).message})`);
+  }
+}
+
+interface SizeResult {
+  oursSeconds: number[];
+  peerSeconds: number[];
+  agreement: Agreement | null;
+}
+
+/** Alternating rounds for one size: ours first in odd rounds (1, 3, ...), the peer first in even ones. */
+function timeSize(raster: string, districts: string, rounds: number, withPeer: boolean): SizeResult {
+  const ours = () => {
+    const r = timeProcess(NODE, [CLI, 'zonal', raster, '--districts', districts, '--format', 'json']);
+    if (r.status !== 0) throw new Error(`heatledger zonal exited with ${r.status}: ${r.stderr.trim()}`);
+    return r;
+  };
+  const peer = () => {
+    const r = timeProcess(PYTHON, [PEER, raster, districts]);
+    if (r.status !== 0) throw new Error(`peer_zonal.py exited with ${r.status}: ${r.stderr.trim()}`);
+    return r;
+  };
+  const oursSeconds: number[] = [], peerSeconds: number[] = [];
+  let oursText = '', peerText = '';
+  for (let round = 1; round <= rounds; round++) {
+    const order = round % 2 === 1 ? ['ours', 'peer'] : ['peer', 'ours'];
+    for (const who of order) {
+      if (who === 'ours') { const r = ours(); oursSeconds.push(r.seconds); oursText ||= r.stdout; }
+      else if (withPeer) { const r = peer(); peerSeconds.push(r.seconds); peerText ||= r.stdout; }
+    }
+  }
+  const agreement = withPeer ? compareTables(parseRows(oursText, 'heatledger zonal'), parseRows(peerText, 'peer_zonal.py')) : null;
+  return { oursSeconds, peerSeconds, agreement };
+}
+
+interface ChildProfile {
+  bootMs: number;
+  importMs: number;
+  cold: PhaseProfile;
+  warm: PhaseProfile;
+}
+
+/** Phase profile in fresh processes: `runs` children, median of each figure. */
+function profileInChild(raster: string, districts: string, runs = 3): ChildProfile {
+  const all: ChildProfile[] = [];
+  for (let i = 0; i < runs; i++) {
+    const r = timeProcess(NODE, [CHILD, raster, districts, '2']);
+    if (r.status !== 0) throw new Error(`phase profile failed: ${r.stderr.trim()}`);
+    all.push(JSON.parse(r.stdout.trim().split('\n').pop()!) as ChildProfile);
+  }
+  const mid = (pick: (c: ChildProfile) => PhaseProfile): PhaseProfile =>
+    Object.fromEntries(Object.keys(all[0].cold).map((k) => [k, median(all.map((c) => pick(c)[k as keyof PhaseProfile]))])) as unknown as PhaseProfile;
+  return { bootMs: median(all.map((c) => c.bootMs)), importMs: median(all.map((c) => c.importMs)), cold: mid((c) => c.cold), warm: mid((c) => c.warm) };
+}
+
+/** One CLI run under `node --cpu-prof`, summarised by self time. */
+async function cpuProfileCli(raster: string, districts: string, size: Size): Promise<ProfileSummary> {
+  const dir = join(WORK_DIR, `cpuprofile-${size}`);
+  rmSync(dir, { recursive: true, force: true });
+  mkdirSync(dir, { recursive: true });
+  const r = timeProcess(NODE, ['--cpu-prof', '--cpu-prof-dir', dir, '--cpu-prof-interval', '250', CLI, 'zonal', raster, '--districts', districts, '--format', 'json']);
+  if (r.status !== 0) throw new Error(`profiled heatledger zonal exited with ${r.status}: ${r.stderr.trim()}`);
+  const file = readdirSync(dir).find((f) => f.endsWith('.cpuprofile'));
+  if (!file) throw new Error(`node --cpu-prof wrote no profile in ${dir}`);
+  return summariseCpuProfile(join(dir, file), ROOT);
+}
+
+function peerPhases(raster: string, districts: string): Record<string, number> | null {
+  const r = timeProcess(PYTHON, [PEER, raster, districts, '--timings']);
+  if (r.status !== 0) return null;
+  try {
+    return JSON.parse(r.stderr.trim().split('\n').pop()!) as Record<string, number>;
+  } catch {
+    return null;
+  }
+}
+
+function medianWall(command: string, args: string[], n: number): number {
+  const xs: number[] = [];
+  for (let i = 0; i < n; i++) {
+    const r = timeProcess(command, args);
+    if (r.status !== 0) throw new Error(`${command} ${args.join(' ')} exited with ${r.status}: ${r.stderr.trim()}`);
+    xs.push(r.seconds);
+  }
+  return median(xs);
+}
+
+function phaseLine(p: PhaseProfile): string {
+  return [
+    `districts file ${ms(p.districtsMs)}`, `header ${ms(p.headerMs)}`, `reproject ${ms(p.reprojectMs)}`,
+    `masks ${ms(p.maskMs)}`, `decode ${ms(p.decodeMs)} (${p.blocks} blocks, ${(p.decodedPixels / 1e6).toFixed(2)} Mpx)`,
+    `stats ${ms(p.statsMs)}`, `output ${ms(p.formatMs)}`, `= ${ms(p.totalMs)}`,
+  ].join(', ');
+}
+
+async function main(): Promise<void> {
+  const args = parseArgs(process.argv.slice(2));
+  if (!existsSync(CLI) || !existsSync(CHILD)) fail('dist/ is missing; run `npm run build` first (npm run bench does)');
+  const started = performance.now();
+  say(`heatledger zonal bench: ${cpus().length} CPU(s), load average ${loadavg().map((x) => x.toFixed(2)).join(' ')} (figures on a shared machine vary)`);
+  const files = await ensureBenchData(WORK_DIR, say);
+  if (files.generated) say(`  generated in ${files.generateSeconds.toFixed(1)} s`);
+  say(`inputs: ${files.full} (7000 x 7000, DEFLATE+predictor 2, ${files.compressionRatio.full.toFixed(2)}x), ${files.clip} (1200 x 1200, ${files.compressionRatio.clip.toFixed(2)}x), ${files.districts} (60 wards)`);
+  const withPeer = peerAvailable();
+  if (!withPeer) say('peer: /usr/bin/python3 with rasterio + NumPy not found; peer figures are null');
+
+  const rasterOf = (s: Size) => (s === 'full' ? files.full : files.clip);
+  const results: Partial<Record<Size, SizeResult>> = {};
+  for (const size of args.sizes) {
+    say(`\n[${size}] ${args.rounds} rounds, alternating order ...`);
+    const r = timeSize(rasterOf(size), files.districts, args.rounds, withPeer);
+    results[size] = r;
+    say(`  heatledger zonal: median ${s3(median(r.oursSeconds))} s  (rounds: ${r.oursSeconds.map(s3).join(', ')})`);
+    if (withPeer) {
+      const ratio = median(r.peerSeconds) / median(r.oursSeconds);
+      say(`  peer (rasterio):  median ${s3(median(r.peerSeconds))} s  (rounds: ${r.peerSeconds.map(s3).join(', ')})`);
+      say(`  peer / ours = ${ratio.toFixed(2)}`);
+      const a = r.agreement!;
+      if (a.agree) {
+        say(`  agree: yes, ${a.rows} districts: pixels and valid equal, worst |mean difference| ${a.worst.mean.difference.toExponential(2)} K (tolerance 1e-6 K)`);
+      } else {
+        say(`  agree: NO (${a.problems.length} problem(s)); first: ${a.problems.slice(0, 5).join('; ')}`);
+      }
+      say(`  worst |difference| per field, K: ${Object.entries(a.worst).map(([k, v]) => `${k} ${v.difference.toExponential(2)}${v.district ? ` (${v.district})` : ''}`).join(', ')}`);
+    }
+  }
+
+  say('\n[start-up] whole-process medians of 5');
+  const nodeBare = medianWall(NODE, ['-e', ''], 5);
+  const importZonal = medianWall(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/jobs/zonal-table.js'))})`], 5);
+  const cliVersion = medianWall(NODE, [CLI, '--version'], 5);
+  const pythonImport = withPeer ? medianWall(PYTHON, ['-c', 'import numpy, rasterio, rasterio.features, rasterio.warp'], 5) : null;
+  say(`  node -e "" ${s3(nodeBare)} s; node -e "import('zonal-table.js')" ${s3(importZonal)} s; heatledger --version ${s3(cliVersion)} s` +
+    (pythonImport !== null ? `; python3 -c "import numpy, rasterio..." ${s3(pythonImport)} s` : ''));
+
+  const profiles: Partial<Record<Size, { ours: ChildProfile; peer: Record<string, number> | null; cpu: ProfileSummary }>> = {};
+  for (const size of args.sizes) {
+    const ours = profileInChild(rasterOf(size), files.districts);
+    const peer = withPeer ? peerPhases(rasterOf(size), files.districts) : null;
+    const cpu = await cpuProfileCli(rasterOf(size), files.districts, size);
+    profiles[size] = { ours, peer, cpu };
+    say(`\n[profile ${size}] ours, fresh processes (median of 3): boot ${ms(ours.bootMs)}, module import ${ms(ours.importMs)}`);
+    say(`  cold run: ${phaseLine(ours.cold)}`);
+    say(`  warm run: ${phaseLine(ours.warm)}`);
+    const wall = median(results[size]!.oursSeconds) * 1000;
+    say(`  CLI wall ${ms(wall)} vs boot + import + cold run ${ms(ours.bootMs + ours.importMs + ours.cold.totalMs)}; the rest (commander, cli.js, exit; noise) ${ms(wall - ours.bootMs - ours.importMs - ours.cold.totalMs)}`);
+    if (peer) say(`  peer phases (one run): ${Object.entries(peer).map(([k, v]) => `${k} ${ms(v * 1000)}`).join(', ')}`);
+    say(`  CPU profile of one CLI run (self time, ${ms(cpu.totalMs)} sampled):`);
+    say(`    by module:   ${cpu.byModule.map((m) => `${m.name} ${ms(m.ms)}`).join('; ')}`);
+    say(`    by function: ${cpu.byFunction.map((m) => `${m.name} ${ms(m.ms)}`).join('; ')}`);
+  }
+
+  say('\n[throughput] in-process, one thread');
+  const decode = await measureDecode(files.full);
+  say(`  decode (openRaster().blocks(), whole 7000 x 7000): ${decode.mpixelPerSecond.toFixed(1)} Mpixel/s (${decode.megabytesPerSecond.toFixed(0)} MB/s decoded, ${decode.seconds.toFixed(2)} s per core for the whole scene); native inflate alone ${decode.inflateOnlyMpixelPerSecond.toFixed(1)} Mpixel/s; reading the compressed bytes ${decode.readOnlySeconds.toFixed(2)} s`);
+  const { targets, raster } = await loadTargets(files.full, files.districts);
+  let coverage, stats;
+  try {
+    coverage = measureCoverage(targets, raster);
+    say(`  coverage (centreMask, 60 wards, ${coverage.cells} cells): ${coverage.mpixelPerSecond.toFixed(1)} Mpixel/s (${ms(coverage.ms)} for all)`);
+    stats = await measureStats(targets, raster, coverage.ms);
+    say(`  statistics (zonalScene on decoded blocks minus masks): ${stats.mpixelPerSecond.toFixed(1)} Mpixel/s (${ms(stats.statsMs)}; zonalScene without decode ${ms(stats.sceneMs)})`);
+  } finally {
+    await raster.close();
+  }
+
+  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
+  const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
+  const agreements = args.sizes.map((s) => results[s]!.agreement).filter((a): a is Agreement => a !== null);
+  const summary = {
+    heatledger_seconds: { full: med('full', 'oursSeconds'), clip: med('clip', 'oursSeconds') },
+    peer_seconds: { full: withPeer ? med('full', 'peerSeconds') : null, clip: withPeer ? med('clip', 'peerSeconds') : null },
+    ratio_peer_over_ours: {
+      full: withPeer && results.full ? med('full', 'peerSeconds')! / med('full', 'oursSeconds')! : null,
+      clip: withPeer && results.clip ? med('clip', 'peerSeconds')! / med('clip', 'oursSeconds')! : null,
+    },
+    speedup_vs_peer: ratios.length ? Math.min(...ratios) : null,
+    agree: agreements.length ? agreements.every((a) => a.agree) : null,
+    disagreements: agreements.flatMap((a) => a.problems).slice(0, 20),
+    worst_difference_kelvin: Object.fromEntries(args.sizes.map((s) => [s, results[s]!.agreement?.worst ?? null])),
+    rounds: args.rounds,
+    decode_mpixel_per_s: decode.mpixelPerSecond,
+    inflate_only_mpixel_per_s: decode.inflateOnlyMpixelPerSecond,
+    whole_scene_read_seconds_per_core: decode.seconds,
+    coverage_mpixel_per_s: coverage.mpixelPerSecond,
+    stats_mpixel_per_s: stats.mpixelPerSecond,
+    startup_seconds: { node_bare: nodeBare, import_zonal_table: importZonal, cli_version: cliVersion, python_imports: pythonImport },
+    profile_ms: Object.fromEntries(args.sizes.map((s) => [s, profiles[s]])),
+    compression_ratio: files.compressionRatio,
+    machine: { cpus: cpus().length, loadavg_at_end: loadavg() },
+    bench_seconds: (performance.now() - started) / 1000,
+  };
+  say(`\nbench took ${summary.bench_seconds.toFixed(0)} s; speedup vs peer (smaller of the sizes' ratios): ${summary.speedup_vs_peer === null ? 'n/a (no peer)' : summary.speedup_vs_peer.toFixed(2)}; agree: ${summary.agree === null ? 'n/a' : summary.agree ? 'yes' : 'NO'}`);
+  if (args.json) process.stdout.write(JSON.stringify(summary) + '\n');
+}
+
+main().catch((e) => {
+  process.stderr.write(`bench: ${(e as Error).message}\n`);
+  process.exitCode = 1;
+});

@@ -48,12 +48,15 @@ export interface PipelineOptions {
   threads?: number;
   dataDir?: string;
   onProgress?(p: FlowProgress & { elapsedSeconds: number }): void;
+  onNotice?(message: string): void;
 }
 
 export interface PipelineSummary {
   runId: number;
   mode: RuntimeConfig['mode'];
   scenes: number;
+  /** Files whose bytes equal an earlier file's (processed once, as that file). */
+  duplicates: { path: string; sameAs: string }[];
   failures: JobFailure[];
   derive: DeriveResult | null;
   seconds: number;
@@ -174,8 +177,18 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   if (all.length === 0) throw new InputError(`no GeoTIFF (.tif/.tiff) found in ${options.inputs.join(', ')}`);
   const albedoSet = new Set(albedoFiles);
   const files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[] = [];
+  const duplicates: { path: string; sameAs: string }[] = [];
+  const byHash = new Map<string, string>();
   for (const path of all) {
-    files.push({ path, contentHash: await hashFile(path), kind: albedoSet.has(path) ? 'albedo' : undefined, manifest: manifest.get(path) });
+    const contentHash = await hashFile(path);
+    const first = byHash.get(contentHash);
+    // a byte-identical copy under another name is the same scene: processed once
+    if (first !== undefined) {
+      duplicates.push({ path, sameAs: first });
+      continue;
+    }
+    byHash.set(contentHash, path);
+    files.push({ path, contentHash, kind: albedoSet.has(path) ? 'albedo' : undefined, manifest: manifest.get(path) });
   }
 
   const deriveOptions: DeriveOptions = { ...DEFAULT_DERIVE_OPTIONS, ...options.derive };
@@ -219,6 +232,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     runner = await createRunner(config, store, options.threads);
     const result = await runner.runFlow(root, {
       onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
+      onNotice: options.onNotice,
     });
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
     const deriveFailure = result.failures.find((f) => f.id === root.id);
@@ -227,6 +241,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       runId,
       mode: config.mode,
       scenes: files.length,
+      duplicates,
       failures: result.failures,
       derive: deriveResult,
       seconds: (performance.now() - started) / 1000,

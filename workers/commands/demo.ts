@@ -8,7 +8,7 @@ import { join, resolve } from 'node:path';
 import { runtimeConfig } from '../config.js';
 import type { Row } from '../format.js';
 import { CAUTION_SHORT } from './common.js';
-import { summaryLines } from './ingest.js';
+import { summaryLines, throwIfRunFailed } from './ingest.js';
 
 export interface DemoOptions {
   archive?: string;
@@ -38,6 +38,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   process.stderr.write(`Running the pipeline (${config.mode}; results in ${config.databaseUrl ? 'the PostgreSQL server' : resolve(config.dataDir)}) ...\n`);
   const summary = await runPipeline({ inputs: [archive], districtsPath, threads: opts.threads }, config);
   process.stdout.write(summaryLines(summary).join('\n') + '\n');
+  throwIfRunFailed(summary);
 
   const { districtTable, renderTable } = await import('./table.js');
   const store = await openConfiguredStore(config);

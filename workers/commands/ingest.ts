@@ -1,4 +1,4 @@
-import { InputError } from '../core/errors.js';
+import { InputError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../config.js';
 import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
 
@@ -37,6 +37,8 @@ export function summaryLines(s: PipelineSummary): string[] {
     `run ${s.runId} (${s.mode}): ${s.scenes} scene file(s) in ${s.seconds.toFixed(1)} s` +
       (s.derive ? `; ${s.derive.rows} district-date rows derived (${s.derive.ok} complete)` : ''),
   ];
+  for (const d of s.duplicates.slice(0, 20)) lines.push(`  same bytes as ${d.sameAs}, processed once: ${d.path}`);
+  if (s.duplicates.length > 20) lines.push(`  ... and ${s.duplicates.length - 20} more duplicate file(s)`);
   if (s.failures.length) {
     lines.push(`${s.failures.length} job(s) failed; the rest were processed:`);
     for (const f of s.failures.slice(0, 20)) lines.push(`  ${f.name}: ${f.error}`);
@@ -83,6 +85,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     derive: { minValidFraction: opts.minValidFraction, pairingWindowHours: opts.pairingWindow, albedoWindowDays: opts.albedoWindow },
     threads: opts.threads,
     dataDir: opts.dataDir,
+    onNotice: (m) => process.stderr.write(`\nheatledger: ${m}\n`),
     onProgress: bar
       ? (p) => {
           const payload = { failed: p.failed, remaining: p.total - p.done - p.failed, rate: ((p.done + p.failed) / Math.max(p.elapsedSeconds, 1e-3)).toFixed(1) };
@@ -102,4 +105,18 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   } else {
     process.stdout.write(summaryLines(summary).join('\n') + '\n');
   }
+  throwIfRunFailed(summary);
+}
+
+/**
+ * A run whose derive step failed (after its retries) did not produce the
+ * district table: exit non-zero with the reason. Scenes that failed on their
+ * own are reported and do not fail the run.
+ */
+export function throwIfRunFailed(summary: PipelineSummary): void {
+  const root = summary.failures.find((f) => f.name === 'derive');
+  if (!root && summary.derive !== null) return;
+  const reason = root?.error ?? 'the derive step did not complete';
+  if (/^ServiceError: /.test(reason)) throw new ServiceError(`run ${summary.runId} failed: ${reason.replace(/^ServiceError: /, '')}`);
+  throw new Error(`run ${summary.runId} failed: ${reason}`);
 }

@@ -222,7 +222,16 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
         // Wait for the root: its event, or (event missed during a Redis outage) a poll of its state.
         // If Redis lost the tree (restarted without persistence), submit again: ids keep it idempotent.
         let resubmits = 0;
+        let nextWorkerCheck = 0;
         for (;;) {
+          if (opts.onNotice && Date.now() >= nextWorkerCheck) {
+            // A queue nobody serves waits for ever: say so, every 30 s, until a worker shows up.
+            const counts = await Promise.all([...new Set(nodes.map((n) => n.spec.name))].map((name) => queue(name).getWorkersCount().catch(() => 1)));
+            if (counts.some((c) => c === 0)) {
+              opts.onNotice(`no heatledger worker is serving ${counts.every((c) => c === 0) ? 'the' : 'some of the'} queues yet; start one with \`heatledger worker\` (same REDIS_URL and DATABASE_URL)`);
+              nextWorkerCheck = Date.now() + 30_000;
+            } else nextWorkerCheck = Infinity;
+          }
           const finishedByEvent = new Promise<void>((res) => { rootFinished = res; });
           let timer: NodeJS.Timeout | undefined;
           await Promise.race([finishedByEvent, new Promise<void>((res) => { timer = setTimeout(res, pollMs); })]);

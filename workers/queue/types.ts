@@ -53,6 +53,8 @@ export interface FlowProgress {
 
 export interface RunFlowOptions {
   onProgress?(p: FlowProgress): void;
+  /** Something the person waiting should know (e.g. no worker is serving the queues). */
+  onNotice?(message: string): void;
 }
 
 export interface JobFailure {

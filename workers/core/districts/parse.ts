@@ -10,7 +10,8 @@
  * (non-empty, >= 4 positions, closed - never silently closed), finite numeric
  * coordinates, coordinates that look projected (|lon| > 180 or |lat| > 90) or
  * swapped (|first| <= 90 < |second| <= 180: lat/lon order), zero-area rings,
- * self-intersections (@turf/kinks, reported with the lon/lat of the first), and
+ * self-intersections (selfintersect.ts: crossings and touchings between any two
+ * rings of the district or within one, reported with the lon/lat of the first), and
  * a legacy "crs" member naming anything but CRS84 / EPSG:4326.
  *
  * Axis order: a legacy "crs" of EPSG:4326 is accepted and read lon/lat, as the
@@ -22,11 +23,10 @@
  * clockwise) and consecutive repeated positions; a third (altitude) coordinate is dropped.
  */
 import { readFile } from 'node:fs/promises';
-import { kinks } from '@turf/kinks';
-import { multiPolygon } from '@turf/helpers';
 import { InputError } from '../errors.js';
 import { ellipsoidalAreaSquareMetres, planarSignedArea } from './area.js';
 import { orientPolygon } from './orient.js';
+import { findSelfIntersections } from './selfintersect.js';
 import type { District } from './types.js';
 
 export interface ParseDistrictsOptions {
@@ -114,38 +114,46 @@ function features(root: Record<string, Json>, source: string): RawFeature[] {
   }
 }
 
-/** Validate one position; returns [lon, lat]. */
-function position(p: Json, where: () => string, source: string): [number, number] {
+/**
+ * Validate position `i` of a ring; returns [lon, lat]: the parsed array itself
+ * when it holds exactly two numbers (no copy per position), else a new pair.
+ */
+function position(p: Json, ringWhere: string, i: number, source: string): number[] {
   if (!Array.isArray(p) || p.length < 2) {
-    throw new InputError(`${where()}: a position must be an array of at least 2 numbers, found ${show(p)}`, source);
+    throw new InputError(`${ringWhere}, position ${i}: a position must be an array of at least 2 numbers, found ${show(p)}`, source);
   }
-  const [x, y] = p;
+  const x = p[0], y = p[1];
   if (typeof x !== 'number' || typeof y !== 'number') {
-    throw new InputError(`${where()}: coordinate ${show(p)} is not a pair of numbers`, source);
+    throw new InputError(`${ringWhere}, position ${i}: coordinate ${show(p)} is not a pair of numbers`, source);
   }
   if (!Number.isFinite(x) || !Number.isFinite(y)) {
-    throw new InputError(`${where()}: coordinate [${x}, ${y}] is not finite`, source);
+    throw new InputError(`${ringWhere}, position ${i}: coordinate [${x}, ${y}] is not finite`, source);
   }
   if (Math.abs(x) > 180 || Math.abs(y) > 90) {
     if (Math.abs(x) <= 90 && Math.abs(y) <= 180) {
       throw new InputError(
-        `${where()}: coordinate [${x}, ${y}] looks swapped (lat, lon); GeoJSON positions are [lon, lat] (RFC 7946)`,
+        `${ringWhere}, position ${i}: coordinate [${x}, ${y}] looks swapped (lat, lon); GeoJSON positions are [lon, lat] (RFC 7946)`,
         source,
       );
     }
     throw new InputError(
-      `${where()}: coordinate [${x}, ${y}] looks projected (metres?), GeoJSON must be lon/lat WGS 84 (RFC 7946)`,
+      `${ringWhere}, position ${i}: coordinate [${x}, ${y}] looks projected (metres?), GeoJSON must be lon/lat WGS 84 (RFC 7946)`,
       source,
     );
   }
-  return [x, y];
+  return p.length === 2 ? (p as number[]) : [x, y];
 }
 
 function ring(r: Json, where: string, source: string): number[][] {
   if (!Array.isArray(r)) throw new InputError(`${where} is not an array of positions (found ${kindOf(r)})`, source);
   if (r.length === 0) throw new InputError(`${where} is empty`, source);
-  const pts: number[][] = [];
-  for (let i = 0; i < r.length; i++) pts.push(position(r[i], () => `${where}, position ${i}`, source));
+  const pts: number[][] = new Array(r.length);
+  let repeats = 0;
+  for (let i = 0; i < r.length; i++) {
+    const p = position(r[i], where, i, source);
+    pts[i] = p;
+    if (i > 0 && p[0] === pts[i - 1][0] && p[1] === pts[i - 1][1]) repeats++;
+  }
   if (pts.length < 4) throw new InputError(`${where} has ${pts.length} positions; a closed ring needs at least 4`, source);
   const first = pts[0];
   const last = pts[pts.length - 1];
@@ -156,7 +164,7 @@ function ring(r: Json, where: string, source: string): number[][] {
     );
   }
   // Consecutive repeats carry no shape and make segment tests report false kinks.
-  const clean = pts.filter((p, i) => i === 0 || p[0] !== pts[i - 1][0] || p[1] !== pts[i - 1][1]);
+  const clean = repeats === 0 ? pts : pts.filter((p, i) => i === 0 || p[0] !== pts[i - 1][0] || p[1] !== pts[i - 1][1]);
   if (clean.length < 4) {
     throw new InputError(`${where} has only ${clean.length - 1} distinct positions; a ring needs at least 3`, source);
   }
@@ -231,11 +239,12 @@ export function parseDistricts(text: string, source: string, options: ParseDistr
     seen.set(id, f.label);
 
     const coords = geometry(f.geometry, label, source);
-    const crossings = kinks(multiPolygon(coords)).features;
-    if (crossings.length > 0) {
-      const [lon, lat] = crossings[0].geometry.coordinates;
+    // Every ring against every ring of the district, polygons included (see selfintersect.ts).
+    const crossings = findSelfIntersections(coords.flat());
+    if (crossings !== null) {
+      const [lon, lat] = crossings.first;
       throw new InputError(
-        `${label} intersects itself at lon ${lon.toFixed(6)}, lat ${lat.toFixed(6)}${crossings.length > 1 ? ` (and ${crossings.length - 1} more)` : ''}`,
+        `${label} intersects itself at lon ${lon.toFixed(6)}, lat ${lat.toFixed(6)}${crossings.count > 1 ? ` (and ${crossings.count - 1} more)` : ''}`,
         source,
       );
     }

@@ -16,7 +16,11 @@ export interface IntegerKind {
  * Histogram accumulator for integer DNs.
  *
  * Bin of DN v is `v + bias` (bias 0 for unsigned, 2^(bits-1) for signed).
- * Hot loops may increment `counts` (and `weights`) directly by bin.
+ * Hot loops may increment `counts` (and `weights`) directly by bin; with
+ * `trackRange` they must then report the bins they touched with
+ * {@link IntegerAccumulator.widen}, and every scan (summarize, count,
+ * quantiles, reset) covers only that range instead of all 2^bits bins. The
+ * bins outside it are zero, so the results are the same to the last bit.
  *
  * @example
  * const acc = new IntegerAccumulator({ bits: 16, signed: false });
@@ -30,13 +34,40 @@ export class IntegerAccumulator {
   readonly counts: Uint32Array;
   /** Weight sum per bin, or null when unweighted. */
   readonly weights: Float64Array | null;
+  /** Lowest and highest bin that may be non-zero (lo > hi: none). */
+  private lo: number;
+  private hi: number;
+  private readonly tracked: boolean;
 
-  constructor(kind: IntegerKind, options: { weighted?: boolean } = {}) {
+  /**
+   * @param kind sample type
+   * @param options weighted: keep a weight sum per bin (coverage fractions);
+   *   counts: an all-zero Uint32Array of 2^bits bins to use (e.g. a view into
+   *   one buffer shared by many accumulators) instead of a new one;
+   *   trackRange: scan only the bins reported by add/addWeighted/widen
+   */
+  constructor(kind: IntegerKind, options: { weighted?: boolean; counts?: Uint32Array; trackRange?: boolean } = {}) {
     if (kind.bits !== 8 && kind.bits !== 16) throw new Error(`histogram accumulator covers 8- and 16-bit DNs, not ${kind.bits}-bit`);
     this.bins = 2 ** kind.bits;
     this.bias = kind.signed ? this.bins / 2 : 0;
-    this.counts = new Uint32Array(this.bins);
+    if (options.counts !== undefined && options.counts.length !== this.bins) {
+      throw new Error(`histogram buffer holds ${options.counts.length} bins, not ${this.bins}`);
+    }
+    this.counts = options.counts ?? new Uint32Array(this.bins);
     this.weights = options.weighted ? new Float64Array(this.bins) : null;
+    this.tracked = options.trackRange === true;
+    this.lo = this.tracked ? this.bins : 0;
+    this.hi = this.tracked ? -1 : this.bins - 1;
+  }
+
+  /**
+   * Declare that bins lo..hi (inclusive) may have been incremented directly.
+   * Needed only with trackRange; bins are clamped to the histogram.
+   */
+  widen(lo: number, hi: number): void {
+    if (!(lo <= hi)) return;
+    if (lo < this.lo) this.lo = Math.max(0, lo);
+    if (hi > this.hi) this.hi = Math.min(this.bins - 1, hi);
   }
 
   /** Smallest and largest DN the histogram holds. */
@@ -50,6 +81,7 @@ export class IntegerAccumulator {
     if (!Number.isInteger(b) || b < 0 || b >= this.bins) throw new Error(`DN ${dn} is outside the ${this.bins}-bin histogram`);
     this.counts[b]++;
     if (this.weights !== null) this.weights[b] += 1;
+    if (this.tracked) this.widen(b, b);
   }
 
   /** Adds one DN with a weight > 0 (e.g. its coverage fraction). */
@@ -60,19 +92,22 @@ export class IntegerAccumulator {
     if (!(weight > 0)) return;
     this.counts[b]++;
     this.weights[b] += weight;
+    if (this.tracked) this.widen(b, b);
   }
 
   /** Number of DNs added. */
   get count(): number {
     let n = 0;
-    for (let b = 0; b < this.bins; b++) n += this.counts[b];
+    for (let b = this.lo; b <= this.hi; b++) n += this.counts[b];
     return n;
   }
 
   /** Empties the histogram for reuse. */
   reset(): void {
-    this.counts.fill(0);
-    this.weights?.fill(0);
+    if (this.lo > this.hi) return;
+    this.counts.fill(0, this.lo, this.hi + 1);
+    this.weights?.fill(0, this.lo, this.hi + 1);
+    if (this.tracked) { this.lo = this.bins; this.hi = -1; }
   }
 
   /**
@@ -87,10 +122,10 @@ export class IntegerAccumulator {
    * a negative scale reverses the bin order.
    */
   summarize(scale = 1, offset = 0): ValueSummary | null {
-    const { counts, bias, bins } = this;
+    const { counts, bias } = this;
     const weights = this.weights ?? counts;
     let first = -1, last = -1, n = 0, W = 0, sum = 0;
-    for (let b = 0; b < bins; b++) {
+    for (let b = this.lo; b <= this.hi; b++) {
       const c = counts[b];
       if (c === 0) continue;
       if (first < 0) first = b;
@@ -138,10 +173,10 @@ export class IntegerAccumulator {
 
   /** Quantiles of DN * scale + offset at probabilities ps (type 7; weighted generalisation when weighted). */
   quantiles(ps: readonly number[], scale = 1, offset = 0): number[] {
-    const { counts, bias, bins } = this;
+    const { counts, bias } = this;
     const weights = this.weights ?? counts;
     const values: number[] = [], c: number[] = [], w: number[] = [];
-    for (let b = 0; b < bins; b++) {
+    for (let b = this.lo; b <= this.hi; b++) {
       if (counts[b] === 0) continue;
       values.push((b - bias) * scale + offset); c.push(counts[b]); w.push(weights[b]);
     }

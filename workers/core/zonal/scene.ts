@@ -124,12 +124,15 @@ interface TargetState {
 
 // ---- hot loops: one per (coverage rule, value path); qa is null or a per-block mask ----
 
-function centreInteger(block: RasterBlock, m: CentreMask, hist: Uint32Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
+function centreInteger(block: RasterBlock, m: CentreMask, acc: IntegerAccumulator, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
   const { window: bw, data, stride } = block;
+  const hist = acc.counts;
   const mw = m.window, offs = m.rowOffsets, spans = m.spans;
   const r0 = Math.max(bw.rowOff, mw.rowOff), r1 = Math.min(bw.rowOff + bw.height, mw.rowOff + mw.height);
   const c0 = bw.colOff, c1 = bw.colOff + bw.width;
   let nodata = 0, masked = 0, implausible = 0, valid = 0;
+  // Bins touched, so that summarising scans only them.
+  let lo = 0x7fffffff, hi = -1;
   for (let r = r0; r < r1; r++) {
     const i = r - mw.rowOff;
     const base = (r - bw.rowOff) * stride - c0;
@@ -141,7 +144,11 @@ function centreInteger(block: RasterBlock, m: CentreMask, hist: Uint32Array, bia
         for (let c = cs; c < ce; c++) {
           const b = data[base + c] + bias;
           const cls = classes[b];
-          if (cls === VALID) { hist[b]++; valid++; } else if (cls === NODATA) nodata++; else implausible++;
+          if (cls === VALID) {
+            hist[b]++; valid++;
+            if (b < lo) lo = b;
+            if (b > hi) hi = b;
+          } else if (cls === NODATA) nodata++; else implausible++;
         }
       } else {
         for (let c = cs; c < ce; c++) {
@@ -149,11 +156,16 @@ function centreInteger(block: RasterBlock, m: CentreMask, hist: Uint32Array, bia
           const cls = classes[b];
           if (cls === NODATA) nodata++;
           else if (qa[qBase + c] !== 0) masked++;
-          else if (cls === VALID) { hist[b]++; valid++; } else implausible++;
+          else if (cls === VALID) {
+            hist[b]++; valid++;
+            if (b < lo) lo = b;
+            if (b > hi) hi = b;
+          } else implausible++;
         }
       }
     }
   }
+  acc.widen(lo, hi);
   tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
 }
 
@@ -182,12 +194,14 @@ function centreFloat(block: RasterBlock, m: CentreMask, acc: FloatAccumulator, n
   tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
 }
 
-function fractionInteger(block: RasterBlock, m: FractionMask, hist: Uint32Array, weights: Float64Array, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
+function fractionInteger(block: RasterBlock, m: FractionMask, acc: IntegerAccumulator, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
   const { window: bw, data, stride } = block;
+  const hist = acc.counts, weights = acc.weights!;
   const mw = m.window, fr = m.fractions;
   const win = intersectWindows(bw, mw);
   if (win === null) return;
   let nodata = 0, masked = 0, implausible = 0, valid = 0, validWeight = 0;
+  let lo = 0x7fffffff, hi = -1;
   for (let r = win.rowOff; r < win.rowOff + win.height; r++) {
     const fBase = (r - mw.rowOff) * mw.width - mw.colOff;
     const base = (r - bw.rowOff) * stride - bw.colOff;
@@ -199,9 +213,14 @@ function fractionInteger(block: RasterBlock, m: FractionMask, hist: Uint32Array,
       const cls = classes[b];
       if (cls === NODATA) nodata++;
       else if (qa !== null && qa[qBase + c] !== 0) masked++;
-      else if (cls === VALID) { hist[b]++; weights[b] += f; valid++; validWeight += f; } else implausible++;
+      else if (cls === VALID) {
+        hist[b]++; weights[b] += f; valid++; validWeight += f;
+        if (b < lo) lo = b;
+        if (b > hi) hi = b;
+      } else implausible++;
     }
   }
+  acc.widen(lo, hi);
   tally[VALID] += valid; tally[NODATA] += nodata; tally[MASKED] += masked; tally[IMPLAUSIBLE] += implausible;
   tally[VALID_WEIGHT] += validWeight;
 }
@@ -345,13 +364,25 @@ export async function zonalScene(
     if (pixels === 0) window = null;
     return {
       id: t.id, window, centre, fraction: frac, pixels,
-      int: window !== null && kind !== null ? new IntegerAccumulator(kind, { weighted: fraction }) : null,
+      int: null as IntegerAccumulator | null,
       float: window !== null && kind === null ? new FloatAccumulator({ capacity: pixels, weighted: fraction }) : null,
       tally: new Float64Array(5),
     };
   });
 
   const active = states.filter((s) => s.window !== null);
+  if (kind !== null && active.length > 0) {
+    // Histograms share zeroed buffers of up to 64 (16 MB for 16-bit DNs): few
+    // allocations, whose pages the OS supplies lazily, so only the bins a
+    // district touches cost anything; each scan covers only its touched range.
+    const bins = 2 ** kind.bits, perPool = 64;
+    let pool = new Uint32Array(0);
+    active.forEach((s, i) => {
+      const j = i % perPool;
+      if (j === 0) pool = new Uint32Array(Math.min(perPool, active.length - i) * bins);
+      s.int = new IntegerAccumulator(kind, { weighted: fraction, counts: pool.subarray(j * bins, (j + 1) * bins), trackRange: true });
+    });
+  }
   const union = unionWindows(active.map((s) => s.window!));
   if (union !== null) {
     const hits: TargetState[] = [];
@@ -365,8 +396,8 @@ export async function zonalScene(
       const qaMask = qa === null ? null : await qa.maskFor(block.window);
       for (const s of hits) {
         if (s.int !== null) {
-          if (fraction) fractionInteger(block, s.fraction!, s.int.counts, s.int.weights!, bias, classes!, qaMask, s.tally);
-          else centreInteger(block, s.centre!, s.int.counts, bias, classes!, qaMask, s.tally);
+          if (fraction) fractionInteger(block, s.fraction!, s.int, bias, classes!, qaMask, s.tally);
+          else centreInteger(block, s.centre!, s.int, bias, classes!, qaMask, s.tally);
         } else if (fraction) {
           fractionFloat(block, s.fraction!, s.float!, nodataValue, scale, offset, lo, hi, qaMask, s.tally);
         } else {

@@ -26,6 +26,21 @@ export function undoHorizontal(
   rows: number,
 ): void {
   const s = samplesPerPixel;
+  if (s === 1 && (bytesPerSample === 1 || bytesPerSample === 2) && data.byteOffset % bytesPerSample === 0) {
+    // One sample per pixel (the usual LST band): a running sum per row in a
+    // register, so no element is read back right after it was stored.
+    const v = bytesPerSample === 2 ? new Uint16Array(data.buffer, data.byteOffset, rows * rowSamples) : data;
+    const mask = bytesPerSample === 2 ? 0xffff : 0xff;
+    for (let r = 0; r < rows; r++) {
+      const o = r * rowSamples;
+      let acc = v[o];
+      for (let i = o + 1, end = o + rowSamples; i < end; i++) {
+        acc = (acc + v[i]) & mask;
+        v[i] = acc;
+      }
+    }
+    return;
+  }
   if (bytesPerSample === 1) {
     for (let r = 0; r < rows; r++) {
       const o = r * rowSamples;

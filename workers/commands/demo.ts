@@ -44,9 +44,14 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   const store = await openConfiguredStore(config);
   let byDate: Row[];
   let byYear: Row[];
+  const landUse = new Map<string, string>();
   try {
     byDate = await districtTable(store, 'date');
     byYear = await districtTable(store, 'year');
+    const { listDistricts } = await import('../store/repo.js');
+    for (const d of await listDistricts(store)) {
+      if (typeof d.properties.land_use === 'string') landUse.set(d.id, d.properties.land_use.replace(/_/g, ' '));
+    }
   } finally {
     await store.close();
   }
@@ -69,6 +74,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     };
   });
   const years = [...new Set(byYear.map((r) => Number(r.year)))].sort();
+  const label = (d: { id: string; name: string }) => (landUse.has(d.id) ? `${d.name} (${landUse.get(d.id)})` : d.name);
   const top = (key: 'day' | 'night') =>
     overall.filter((d) => d[key] !== null).sort((a, b) => (b[key] as number) - (a[key] as number)).slice(0, 5);
   const out: string[] = [];
@@ -77,9 +83,11 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push('(district land-surface temperature minus the rural reference ring, mean over all clear-enough dates)');
   out.push('');
   out.push('Hottest by day:');
-  for (const d of top('day')) out.push(`  ${d.name.padEnd(24)} ${(d.day as number) >= 0 ? '+' : ''}${(d.day as number).toFixed(1)} K warmer than the countryside`);
+  for (const d of top('day')) out.push(`  ${label(d).padEnd(34)} ${(d.day as number) >= 0 ? '+' : ''}${(d.day as number).toFixed(1)} K warmer than the countryside`);
   out.push('Hottest by night:');
-  for (const d of top('night')) out.push(`  ${d.name.padEnd(24)} ${(d.night as number) >= 0 ? '+' : ''}${(d.night as number).toFixed(1)} K warmer than the countryside`);
+  for (const d of top('night')) out.push(`  ${label(d).padEnd(34)} ${(d.night as number) >= 0 ? '+' : ''}${(d.night as number).toFixed(1)} K warmer than the countryside`);
+  out.push('Water holds the day\'s heat into the night, so rivers and lakes often top the night list;');
+  out.push('for heat exposure look at the built-up districts among them.');
   out.push('');
   out.push(`Full district tables (Kelvin; ATI in 1/K): ${dateCsv}`);
   out.push(`                                          ${yearCsv}`);

@@ -24,6 +24,7 @@ import { compareTables, type Agreement, type StatsRow } from './compare.js';
 import { ensureBenchData } from './generate.js';
 import { loadTargets, measureCoverage, measureDecode, measureStats, type PhaseProfile } from './profile.js';
 import { median, timeProcess } from './timing.js';
+import { pipelineFlags, runPipelineBench } from './pipeline.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -178,7 +179,8 @@ function phaseLine(p: PhaseProfile): string {
 }
 
 async function main(): Promise<void> {
-  const args = parseArgs(process.argv.slice(2));
+  const pipelineArgs = pipelineFlags(process.argv.slice(2)); // --pipeline / --all and the section's own flags
+  const args = parseArgs(pipelineArgs.argv);
   if (!existsSync(CLI) || !existsSync(CHILD)) fail('dist/ is missing; run `npm run build` first (npm run bench does)');
   const started = performance.now();
   say(`heatledger zonal bench: ${cpus().length} CPU(s), load average ${loadavg().map((x) => x.toFixed(2)).join(' ')} (figures on a shared machine vary)`);
@@ -248,6 +250,8 @@ async function main(): Promise<void> {
     await raster.close();
   }
 
+  const pipeline = pipelineArgs.pipeline ? await runPipelineBench({ ...pipelineArgs.options, say }) : null;
+
   const med = (s: Size, k: 'oursSeconds' | 'peerSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
   const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
   const agreements = args.sizes.map((s) => results[s]!.agreement).filter((a): a is Agreement => a !== null);
@@ -272,6 +276,7 @@ async function main(): Promise<void> {
     profile_ms: Object.fromEntries(args.sizes.map((s) => [s, profiles[s]])),
     compression_ratio: files.compressionRatio,
     machine: { cpus: cpus().length, loadavg_at_end: loadavg() },
+    pipeline,
     bench_seconds: (performance.now() - started) / 1000,
   };
   say(`\nbench took ${summary.bench_seconds.toFixed(0)} s; speedup vs peer (smaller of the sizes' ratios): ${summary.speedup_vs_peer === null ? 'n/a (no peer)' : summary.speedup_vs_peer.toFixed(2)}; agree: ${summary.agree === null ? 'n/a' : summary.agree ? 'yes' : 'NO'}`);

@@ -80,7 +80,8 @@ async function storeIdentity(store: Store): Promise<string> {
   return `${rows[0].sys}/${rows[0].db}/${rows[0].name}`;
 }
 
-async function subtractWater(ring: District, waterPath: string): Promise<District> {
+/** The rural ring without the water polygons of `waterPath` (GeoJSON; ids optional). */
+export async function subtractWater(ring: District, waterPath: string): Promise<District> {
   const water = await readDistricts(waterPath, { idField: 'id' }).catch(async (e) => {
     // water files rarely carry ids; read them as a rural-style reference
     if ((e as Error).name !== 'InputError' || !/id/.test((e as Error).message)) throw e;

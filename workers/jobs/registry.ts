@@ -17,8 +17,12 @@ export const processors: Record<string, Processor> = {
   derive: derive as Processor,
 };
 
-/** Jobs worth a worker thread in embedded mode (CPU-bound decoding and statistics). */
-export const THREADED_JOBS = ['zonal'];
+/**
+ * Jobs run on worker threads in embedded mode: zonal (decoding and statistics) and
+ * ingest (header reading and sun-position maths); the main thread keeps only
+ * the embedded database and the message passing.
+ */
+export const THREADED_JOBS = ['ingest', 'zonal'];
 
 /** A repository for a worker process: the PostgreSQL server named by DATABASE_URL. */
 export async function createRepo(env: Record<string, string | undefined>) {

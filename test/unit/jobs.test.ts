@@ -1,0 +1,108 @@
+import { mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { tmpdir } from 'node:os';
+import { join } from 'node:path';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
+import { writeGeoTiff } from '../../workers/core/raster/write.js';
+import { ingest } from '../../workers/jobs/ingest.js';
+import { hashFile } from '../../workers/jobs/archive.js';
+import { ruralRing, parseDistricts } from '../../workers/core/districts/index.js';
+import { subtractWater } from '../../workers/pipeline.js';
+import type { JobContext } from '../../workers/queue/types.js';
+import type { PipelineRepo } from '../../workers/jobs/repo.js';
+
+let dir: string;
+beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'heatledger-jobs-')); });
+afterAll(async () => { await rm(dir, { recursive: true, force: true }); });
+
+/** A repository that records what ingest asks of it. */
+function fakeRepo() {
+  const calls: { method: string; args: unknown[] }[] = [];
+  const repo = {
+    findSceneByHash: async (...args: unknown[]) => { calls.push({ method: 'findSceneByHash', args }); return null; },
+    registerScene: async (...args: unknown[]) => { calls.push({ method: 'registerScene', args }); return 7; },
+    markSceneFailed: async (...args: unknown[]) => { calls.push({ method: 'markSceneFailed', args }); return 8; },
+  } as unknown as PipelineRepo;
+  const ctx: JobContext<PipelineRepo> = { jobId: 'j', name: 'ingest', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 };
+  return { calls, ctx };
+}
+
+async function scene(name: string, metadata: Record<string, string>, dateTime?: string): Promise<string> {
+  const path = join(dir, name);
+  const data = new Uint16Array(32 * 32).fill(44000);
+  // UTM 25N over open ocean, 100 m pixels (invented place)
+  await writeGeoTiff(path, {
+    width: 32, height: 32, data, epsg: 32625,
+    transform: { a: 100, b: 0, c: 300000, d: 0, e: -100, f: 4900000 },
+    nodata: 0, scale: 0.00341802, offset: 149, metadata, dateTime,
+    layout: { tiled: true, tileWidth: 16, tileHeight: 16 }, compression: 'deflate', predictor: 2,
+  });
+  return path;
+}
+
+describe('ingest processor', () => {
+  it('registers a scene with its UTC time, day pass and timing rating from the sun at the scene centre', async () => {
+    const path = await scene('day.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z', KIND: 'lst' });
+    const { calls, ctx } = fakeRepo();
+    const r = await ingest({ path, contentHash: await hashFile(path), runId: 1 }, ctx);
+    expect(r).toMatchObject({ sceneId: 7, kind: 'lst', pass: 'day', acquiredAt: '2024-07-14T15:52:00Z', alreadyStored: false });
+    const reg = calls.find((c) => c.method === 'registerScene')!.args[0] as Record<string, unknown>;
+    // 13:30 local solar time at about 35.6 W in July: near solar noon (SPA; derived)
+    expect(reg).toMatchObject({ kind: 'lst', pass: 'day', timingRating: 'midday', epsg: 32625, width: 32, height: 32, scale: 0.00341802, offset: 149, nodata: 0, pixelSizeMetres: 100 });
+  });
+  it('takes the TIFF DateTime tag as UTC when there is no metadata item', async () => {
+    const path = await scene('tagonly.tif', {}, '2024:07:15 03:52:00');
+    const { ctx } = fakeRepo();
+    const r = await ingest({ path, contentHash: await hashFile(path), runId: 1 }, ctx);
+    expect(r).toMatchObject({ acquiredAt: '2024-07-15T03:52:00Z', pass: 'night' });
+  });
+  it('refuses an LST scene with no time anywhere, records it as failed with the reason, names the file', async () => {
+    const path = await scene('notime.tif', {});
+    const { calls, ctx } = fakeRepo();
+    const hash = await hashFile(path);
+    const err = await ingest({ path, contentHash: hash, runId: 3 }, ctx).catch((e: unknown) => e as Error);
+    expect((err as Error).name).toBe('InputError');
+    expect((err as Error).message).toMatch(/notime\.tif: has no acquisition time.*--manifest/);
+    const failed = calls.find((c) => c.method === 'markSceneFailed')!.args[0] as Record<string, unknown>;
+    expect(failed).toMatchObject({ contentHash: hash, path, runId: 3 });
+    expect(calls.some((c) => c.method === 'registerScene')).toBe(false);
+  });
+  it('lets a manifest give the time and the kind', async () => {
+    const path = await scene('manifest.tif', {});
+    const { ctx } = fakeRepo();
+    const r = await ingest({ path, contentHash: await hashFile(path), runId: 1, manifest: { path, kind: 'lst', acquiredAt: '2024-07-15T03:52:00Z' } }, ctx);
+    expect(r).toMatchObject({ pass: 'night', acquiredAt: '2024-07-15T03:52:00Z' });
+  });
+  it('records a truncated file as failed', async () => {
+    const good = await scene('whole.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z' });
+    const { readFile } = await import('node:fs/promises');
+    const bytes = await readFile(good);
+    const path = join(dir, 'cut.tif');
+    await writeFile(path, bytes.subarray(0, Math.floor(bytes.length / 2)));
+    const { calls, ctx } = fakeRepo();
+    const err = await ingest({ path, contentHash: await hashFile(path), runId: 1 }, ctx).catch((e: unknown) => e as Error);
+    expect((err as Error).name).toBe('InputError');
+    expect((err as Error).message).toContain('cut.tif');
+    expect(calls.map((c) => c.method)).toContain('markSceneFailed');
+  });
+});
+
+describe('rural ring without water', () => {
+  it('cuts the water polygons out of the ring (area drops by the water area inside the ring)', async () => {
+    // A 0.1 x 0.1 degree city at the equator and a water square 0.05 x 0.05 degrees lying inside the 2-10 km ring.
+    const city = parseDistricts(JSON.stringify({ type: 'FeatureCollection', features: [{ type: 'Feature', properties: { id: 'c' },
+      geometry: { type: 'Polygon', coordinates: [[[0, 0], [0.1, 0], [0.1, 0.1], [0, 0.1], [0, 0]]] } }] }), 'city.geojson');
+    const ring = ruralRing(city, 2000, 10000);
+    const waterPath = join(dir, 'water.geojson');
+    // x from 0.13 to 0.18 degrees: 3.3 km to 8.9 km east of the city, inside the ring
+    await writeFile(waterPath, JSON.stringify({ type: 'FeatureCollection', features: [{ type: 'Feature', properties: {},
+      geometry: { type: 'Polygon', coordinates: [[[0.13, 0.02], [0.18, 0.02], [0.18, 0.07], [0.13, 0.07], [0.13, 0.02]]] } }] }));
+    const water = parseDistricts(await (await import('node:fs/promises')).readFile(waterPath, 'utf8').then((t) => JSON.parse(t)).then((j) => {
+      j.features[0].properties.id = 'w';
+      return JSON.stringify(j);
+    }), 'water.geojson');
+    const cut = await subtractWater(ring, waterPath);
+    // ellipsoidal areas of the pieces (districts module); the difference must be the water square's area
+    expect(ring.areaSquareMetres - cut.areaSquareMetres).toBeCloseTo(water[0].areaSquareMetres, -3);
+    expect(cut.id).toBe('rural');
+  });
+});

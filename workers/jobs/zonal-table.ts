@@ -4,11 +4,17 @@
  */
 import { readFile } from 'node:fs/promises';
 import { InputError } from '../core/errors.js';
-import { openRaster, type RasterFile } from '../core/raster/index.js';
-import { parseDistricts, readDistricts, type District } from '../core/districts/index.js';
-import { crsDefinitionForEpsg, reprojectGeometry } from '../core/crs/index.js';
+import { openRaster, type RasterFile } from '../core/raster/reader.js';
+// Modules are imported directly rather than through their index files: fewer
+// files to load at start-up (the districts index would also bring in the
+// rural-ring and adjacency code and their geometry libraries, unused here).
+import { parseDistricts, readDistricts } from '../core/districts/parse.js';
+import type { District } from '../core/districts/types.js';
+import { crsDefinitionForEpsg } from '../core/crs/epsg.js';
+import { reprojectGeometry } from '../core/crs/transform.js';
 import { windowOfBounds, type BBox } from '../core/raster/affine.js';
-import { zonalScene, type ZonalStats, type ZonalCounts } from '../core/zonal/index.js';
+import { zonalScene } from '../core/zonal/scene.js';
+import type { ZonalStats, ZonalCounts } from '../core/zonal/types.js';
 
 export interface ZonalTableOptions {
   rasterPath: string;

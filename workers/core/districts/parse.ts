@@ -210,7 +210,7 @@ function idOf(f: RawFeature, props: Record<string, Json>, idField: string, sourc
  * @param source file name used in error messages
  * @param options idField (default 'id': property, then feature.id), nameField (default 'name')
  * @returns districts in file order, geometry as MultiPolygon lon/lat coordinates with
- *   RFC 7946 winding, area on the WGS 84 ellipsoid in square metres
+ *   RFC 7946 winding, area on the WGS 84 ellipsoid in square metres (computed when first read)
  * @throws InputError for every problem listed in the module comment
  * @example parseDistricts('{"type":"Polygon","coordinates":[[[0,0],[0.01,0],[0.01,0.01],[0,0]]]}', 'a.geojson')[0].id // '1'
  */
@@ -259,12 +259,20 @@ export function parseDistricts(text: string, source: string, options: ParseDistr
     );
     const rawName = props[nameField];
     const name = typeof rawName === 'string' && rawName !== '' ? rawName : typeof rawName === 'number' ? String(rawName) : id;
+    // The ellipsoidal area is computed on first read (then kept): zonal
+    // statistics never read it, and it is ~10 transcendental calls per vertex.
+    let area: number | undefined;
     return {
       id,
       name,
       geometry: coords,
       properties: { ...props },
-      areaSquareMetres: ellipsoidalAreaSquareMetres(coords),
+      get areaSquareMetres(): number {
+        return (area ??= ellipsoidalAreaSquareMetres(coords));
+      },
+      set areaSquareMetres(value: number) {
+        area = value;
+      },
       role: 'district' as const,
     };
   });

@@ -61,8 +61,8 @@ let f64 = new Float64Array(0);
 let i32 = new Int32Array(0);
 
 function grow(n: number, cells: number): void {
-  if (f64.length < 4 * n) f64 = new Float64Array(Math.max(4 * n, 2 * f64.length));
-  const need = 4 * n + 2 * (cells + 1) + 4 * n;
+  if (f64.length < 8 * n) f64 = new Float64Array(Math.max(8 * n, 2 * f64.length));
+  const need = 6 * n + 2 * (cells + 1) + 4 * n;
   if (i32.length < need) i32 = new Int32Array(Math.max(need, 2 * i32.length));
 }
 
@@ -104,8 +104,9 @@ export function findSelfIntersections(rings: readonly (readonly (readonly number
   const nx = Math.max(1, Math.min(n, Math.ceil(w / size))), ny = Math.max(1, Math.min(n, Math.ceil(h / size)));
   const cells = nx * ny;
   grow(n, cells);
-  const xy = f64, tab = i32; // xy: x0 y0 x1 y1 per segment; tab: see the offsets below
-  const RING = 0, INDEX = n, CX = 2 * n, CY = 3 * n, START = 4 * n, FILL = START + cells + 1, MEMBERS = FILL + cells + 1;
+  // xy: per segment x0 y0 x1 y1 and its padded box left right bottom top; tab: see the offsets below
+  const xy = f64, tab = i32;
+  const RING = 0, INDEX = n, CX = 2 * n, CY = 3 * n, CX1 = 4 * n, CY1 = 5 * n, START = 6 * n, FILL = START + cells + 1, MEMBERS = FILL + cells + 1;
   const sx = nx / w, sy = ny / h;
 
   // Pass 1: segments, their first cells, and the count per cell.
@@ -115,11 +116,14 @@ export function findSelfIntersections(rings: readonly (readonly (readonly number
     const ring = rings[r];
     for (let i = 0; i + 1 < ring.length; i++, k++) {
       const ax = ring[i][0], ay = ring[i][1], bx = ring[i + 1][0], by = ring[i + 1][1];
-      xy[4 * k] = ax; xy[4 * k + 1] = ay; xy[4 * k + 2] = bx; xy[4 * k + 3] = by;
+      const L = (ax < bx ? ax : bx) - pad, R = (ax < bx ? bx : ax) + pad, B = (ay < by ? ay : by) - pad, T = (ay < by ? by : ay) + pad;
+      const o = 8 * k;
+      xy[o] = ax; xy[o + 1] = ay; xy[o + 2] = bx; xy[o + 3] = by;
+      xy[o + 4] = L; xy[o + 5] = R; xy[o + 6] = B; xy[o + 7] = T;
       tab[RING + k] = r; tab[INDEX + k] = i;
-      const u0 = cellOf(((ax < bx ? ax : bx) - pad - gx0) * sx, nx), u1 = cellOf(((ax < bx ? bx : ax) + pad - gx0) * sx, nx);
-      const v0 = cellOf(((ay < by ? ay : by) - pad - gy0) * sy, ny), v1 = cellOf(((ay < by ? by : ay) + pad - gy0) * sy, ny);
-      tab[CX + k] = u0; tab[CY + k] = v0;
+      const u0 = cellOf((L - gx0) * sx, nx), u1 = cellOf((R - gx0) * sx, nx);
+      const v0 = cellOf((B - gy0) * sy, ny), v1 = cellOf((T - gy0) * sy, ny);
+      tab[CX + k] = u0; tab[CY + k] = v0; tab[CX1 + k] = u1; tab[CY1 + k] = v1;
       for (let v = v0; v <= v1; v++) for (let u = u0; u <= u1; u++) tab[START + v * nx + u + 1]++;
     }
   }
@@ -129,9 +133,9 @@ export function findSelfIntersections(rings: readonly (readonly (readonly number
     const t = new Int32Array(MEMBERS + tab[START + cells]);
     t.set(tab.subarray(0, MEMBERS));
     i32 = t;
-    return scanCells(rings, xy, t, n, nx, ny, pad, gx0, gy0, sx, sy);
+    return scanCells(rings, xy, t, n, nx, ny);
   }
-  return scanCells(rings, xy, tab, n, nx, ny, pad, gx0, gy0, sx, sy);
+  return scanCells(rings, xy, tab, n, nx, ny);
 }
 
 function cellOf(t: number, cells: number): number {
@@ -143,14 +147,12 @@ function cellOf(t: number, cells: number): number {
 function scanCells(
   rings: readonly (readonly (readonly number[])[])[],
   xy: Float64Array, tab: Int32Array, n: number, nx: number, ny: number,
-  pad: number, gx0: number, gy0: number, sx: number, sy: number,
 ): SelfIntersections | null {
   const cells = nx * ny;
-  const RING = 0, INDEX = n, CX = 2 * n, CY = 3 * n, START = 4 * n, FILL = START + cells + 1, MEMBERS = FILL + cells + 1;
+  const RING = 0, INDEX = n, CX = 2 * n, CY = 3 * n, CX1 = 4 * n, CY1 = 5 * n, START = 6 * n, FILL = START + cells + 1, MEMBERS = FILL + cells + 1;
   tab.copyWithin(FILL, START, START + cells);
   for (let k = 0; k < n; k++) {
-    const ax = xy[4 * k], ay = xy[4 * k + 1], bx = xy[4 * k + 2], by = xy[4 * k + 3];
-    const u1 = cellOf(((ax < bx ? bx : ax) + pad - gx0) * sx, nx), v1 = cellOf(((ay < by ? by : ay) + pad - gy0) * sy, ny);
+    const u1 = tab[CX1 + k], v1 = tab[CY1 + k];
     for (let v = tab[CY + k]; v <= v1; v++) for (let u = tab[CX + k]; u <= u1; u++) tab[MEMBERS + tab[FILL + v * nx + u]++] = k;
   }
 
@@ -161,24 +163,20 @@ function scanCells(
     count++;
     if (bestA >= 0 && (ra > bestA || (ra === bestA && (rb > bestB || (rb === bestB && (i > bestI || (i === bestI && k >= bestK))))))) return;
     bestA = ra; bestB = rb; bestI = i; bestK = k;
-    bestX = xy[4 * line1] + t * (xy[4 * line1 + 2] - xy[4 * line1]);
-    bestY = xy[4 * line1 + 1] + t * (xy[4 * line1 + 3] - xy[4 * line1 + 1]);
+    bestX = xy[8 * line1] + t * (xy[8 * line1 + 2] - xy[8 * line1]);
+    bestY = xy[8 * line1 + 1] + t * (xy[8 * line1 + 3] - xy[8 * line1 + 1]);
   };
   const test = (p: number, q: number): number =>
-    crossingOnFirst(xy[4 * p], xy[4 * p + 1], xy[4 * p + 2], xy[4 * p + 3], xy[4 * q], xy[4 * q + 1], xy[4 * q + 2], xy[4 * q + 3]);
+    crossingOnFirst(xy[8 * p], xy[8 * p + 1], xy[8 * p + 2], xy[8 * p + 3], xy[8 * q], xy[8 * q + 1], xy[8 * q + 2], xy[8 * q + 3]);
 
   for (let cell = 0; cell < cells; cell++) {
     const e = MEMBERS + tab[START + cell + 1], u = cell % nx, v = (cell - u) / nx;
     for (let p = MEMBERS + tab[START + cell]; p < e; p++) {
-      const a = tab[p];
-      const ax0 = xy[4 * a], ay0 = xy[4 * a + 1], ax1 = xy[4 * a + 2], ay1 = xy[4 * a + 3];
-      const aL = (ax0 < ax1 ? ax0 : ax1) - pad, aR = (ax0 < ax1 ? ax1 : ax0) + pad;
-      const aB = (ay0 < ay1 ? ay0 : ay1) - pad, aT = (ay0 < ay1 ? ay1 : ay0) + pad;
+      const a = tab[p], oa = 8 * a;
+      const aL = xy[oa + 4], aR = xy[oa + 5], aB = xy[oa + 6], aT = xy[oa + 7];
       for (let q = p + 1; q < e; q++) {
-        const b = tab[q];
-        const bx0 = xy[4 * b], by0 = xy[4 * b + 1], bx1 = xy[4 * b + 2], by1 = xy[4 * b + 3];
-        if ((bx0 < bx1 ? bx0 : bx1) - pad > aR || (bx0 < bx1 ? bx1 : bx0) + pad < aL) continue;
-        if ((by0 < by1 ? by0 : by1) - pad > aT || (by0 < by1 ? by1 : by0) + pad < aB) continue;
+        const b = tab[q], ob = 8 * b;
+        if (xy[ob + 4] > aR || xy[ob + 5] < aL || xy[ob + 6] > aT || xy[ob + 7] < aB) continue;
         // Each pair once: in the cell holding the low corner of the overlap of the boxes.
         if ((tab[CX + a] > tab[CX + b] ? tab[CX + a] : tab[CX + b]) !== u || (tab[CY + a] > tab[CY + b] ? tab[CY + a] : tab[CY + b]) !== v) continue;
         const ra = tab[RING + a], rb = tab[RING + b], ia = tab[INDEX + a], ib = tab[INDEX + b];

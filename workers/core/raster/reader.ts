@@ -3,13 +3,38 @@
  * decodes them with the decoder registry, undoes byte order and predictor,
  * and hands out single-band typed arrays.
  */
+import { readSync } from 'node:fs';
 import { open, type FileHandle } from 'node:fs/promises';
 import { InputError } from '../errors.js';
 import { intersectWindows, type Window } from './affine.js';
 import { CorruptBlockError, compressionName, decoderFor } from './decoders/index.js';
 import { swapBytes, undoFloatingPoint, undoHorizontal } from './decoders/predictor.js';
 import { readRasterHeader, type BlockLayout, type RasterHeader } from './header.js';
-import { readExactly } from './tiff.js';
+
+/** Blocks read and started ahead of the one in use. */
+const AHEAD = 1;
+
+/**
+ * Read exactly `length` bytes at `position` into a new array, synchronously.
+ * @throws InputError naming the file when it ends first
+ */
+function readExactlySync(fd: number, path: string, position: number, length: number, what: string): Uint8Array {
+  const buf = new Uint8Array(length);
+  let done = 0;
+  while (done < length) {
+    let bytesRead: number;
+    try {
+      bytesRead = readSync(fd, buf, done, length - done, position + done);
+    } catch (e) {
+      throw new InputError(`cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+    }
+    if (bytesRead === 0) {
+      throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);
+    }
+    done += bytesRead;
+  }
+  return buf;
+}
 
 export type TypedArray = Uint8Array | Int8Array | Uint16Array | Int16Array | Uint32Array | Int32Array | Float32Array | Float64Array;
 
@@ -73,7 +98,6 @@ class GeoTiffFile implements RasterFile {
   readonly header: RasterHeader;
   private readonly layout: BlockLayout;
   private fh: FileHandle | null;
-  private readBuffer = new Uint8Array(0);
   private readonly ctor: ArrayCtor & AllocCtor;
 
   constructor(fh: FileHandle, header: RasterHeader, layout: BlockLayout) {
@@ -97,17 +121,30 @@ class GeoTiffFile implements RasterFile {
     const bw = h.blockWidth, bh = h.blockHeight;
     const c0 = Math.floor(w.colOff / bw), c1 = Math.floor((w.colOff + w.width - 1) / bw);
     const r0 = Math.floor(w.rowOff / bh), r1 = Math.floor((w.rowOff + w.height - 1) / bh);
-    for (let br = r0; br <= r1; br++) {
-      for (let bc = c0; bc <= c1; bc++) {
-        yield await this.readBlock(br, bc, band);
-      }
+    const across = c1 - c0 + 1, total = across * (r1 - r0 + 1);
+    // The next block is read and handed to its decoder before the current one
+    // goes out, so a decoder that works off the main thread (a registered one
+    // may) overlaps with the caller's work on the current block. Predictor and
+    // band extraction happen in order, as each block is taken.
+    const started: Array<Promise<Uint8Array | null>> = [];
+    let next = 0;
+    const startNext = (): void => {
+      const j = next++;
+      const p = this.startBlock(r0 + Math.floor(j / across), c0 + (j % across), band);
+      p.catch(() => undefined); // raised when its turn comes, not as an unhandled rejection
+      started.push(p);
+    };
+    while (next < total && next < AHEAD) startNext();
+    for (let j = 0; j < total; j++) {
+      const raw = await started.shift()!;
+      if (next < total) startNext();
+      yield this.finishBlock(r0 + Math.floor(j / across), c0 + (j % across), band, raw);
     }
   }
 
-  /** Decode block (row br, column bc) of `band`. */
-  private async readBlock(br: number, bc: number, band: number): Promise<RasterBlock> {
+  /** Geometry of block (row br, column bc) of `band`. */
+  private blockPlace(br: number, bc: number, band: number) {
     const h = this.header, L = this.layout;
-    if (!this.fh) throw new InputError('raster file is already closed', h.path);
     const bw = h.blockWidth, bh = h.blockHeight;
     const colOff = bc * bw, rowOff = br * bh;
     const window: Window = { colOff, rowOff, width: Math.min(bw, h.width - colOff), height: Math.min(bh, h.height - rowOff) };
@@ -119,32 +156,50 @@ class GeoTiffFile implements RasterFile {
     const rowSamples = bw * chunky;
     const fullBytes = bh * rowSamples * L.bytesPerSample;
     const needBytes = storedRows * rowSamples * L.bytesPerSample;
-    const offset = L.offsets[index], count = L.byteCounts[index];
     const where = `${h.tiled ? 'tile' : 'strip'} ${index}`;
+    return { window, chunky, index, storedRows, rowSamples, fullBytes, needBytes, where };
+  }
 
+  /**
+   * Read a block's stored bytes (synchronously: a local file's bytes are
+   * usually in the page cache, and a synchronous read spares a round trip
+   * through the thread pool per block) and start decompressing them. Resolves to the
+   * decompressed bytes (a private array), or null for a sparse block.
+   */
+  private async startBlock(br: number, bc: number, band: number): Promise<Uint8Array | null> {
+    const h = this.header, L = this.layout;
+    if (!this.fh) throw new InputError('raster file is already closed', h.path);
+    const { index, fullBytes, needBytes, where } = this.blockPlace(br, bc, band);
+    const offset = L.offsets[index], count = L.byteCounts[index];
+    // Sparse block (GDAL SPARSE_OK): GDAL reads it as nodata, or 0 without nodata.
+    if (offset === 0 && count === 0) return null;
+    if (h.compression === 1) {
+      if (count < needBytes) throw new InputError(`${where} holds ${count} bytes, fewer than the ${needBytes} its size needs`, h.path);
+      return readExactlySync(this.fh.fd, h.path, offset, Math.min(count, fullBytes), where);
+    }
+    const stored = readExactlySync(this.fh.fd, h.path, offset, count, where);
     let raw: Uint8Array;
-    if (offset === 0 && count === 0) {
-      // Sparse block (GDAL SPARSE_OK): GDAL reads it as nodata, or 0 without nodata.
+    try {
+      raw = await decoderFor(h.compression)!(stored, fullBytes);
+    } catch (e) {
+      if (e instanceof CorruptBlockError) throw new InputError(`${where} is corrupt: ${e.message}`, h.path);
+      throw e;
+    }
+    return raw;
+  }
+
+  /** Predictor, byte order and band extraction of a decompressed block. */
+  private finishBlock(br: number, bc: number, band: number, decoded: Uint8Array | null): RasterBlock {
+    const h = this.header, L = this.layout;
+    const bw = h.blockWidth, bh = h.blockHeight;
+    const { window, chunky, storedRows, rowSamples, needBytes, where } = this.blockPlace(br, bc, band);
+    if (decoded === null) {
       const fill = new this.ctor(bw * bh);
       const nd = h.nodata;
       if (nd !== null && nd !== 0) fill.fill(nd as never);
       return { window, data: fill, stride: bw };
     }
-    if (h.compression === 1) {
-      if (count < needBytes) throw new InputError(`${where} holds ${count} bytes, fewer than the ${needBytes} its size needs`, h.path);
-      const take = Math.min(count, fullBytes);
-      raw = await readExactly(this.fh, h.path, offset, take, where, new Uint8Array(take));
-    } else {
-      if (this.readBuffer.length < count) this.readBuffer = new Uint8Array(Math.max(count, this.readBuffer.length * 2));
-      const input = await readExactly(this.fh, h.path, offset, count, where, this.readBuffer);
-      try {
-        raw = await decoderFor(h.compression)!(input, fullBytes);
-      } catch (e) {
-        if (e instanceof CorruptBlockError) throw new InputError(`${where} is corrupt: ${e.message}`, h.path);
-        throw e;
-      }
-      if (raw.buffer === this.readBuffer.buffer) raw = copyBytes(raw);
-    }
+    let raw = decoded;
     if (raw.length < needBytes) {
       throw new InputError(`${where} decodes to ${raw.length} bytes but ${compressionName(h.compression)} data of a ${bw} x ${storedRows} block needs ${needBytes}`, h.path);
     }

@@ -3,7 +3,7 @@
  * value is stored, so the cost per cell is one increment and the result does
  * not depend on the order cells arrive in.
  */
-import { runQuantiles } from './quantile.js';
+import { runQuantiles, unitRunQuantiles } from './quantile.js';
 import type { ValueSummary } from './types.js';
 
 /** The integer sample types a histogram covers. */
@@ -11,6 +11,14 @@ export interface IntegerKind {
   bits: 8 | 16;
   signed: boolean;
 }
+
+// Scratch for summarize(): indices of non-empty bins and the runs handed to
+// runQuantiles, shared by all accumulators (summarize is synchronous).
+let occupied = new Int32Array(0);
+let runValues = new Float64Array(0);
+let runCounts = new Float64Array(0);
+let runWeights = new Float64Array(0);
+let runCountsWhole = new Uint32Array(0);
 
 /**
  * Histogram accumulator for integer DNs.
@@ -124,12 +132,15 @@ export class IntegerAccumulator {
   summarize(scale = 1, offset = 0): ValueSummary | null {
     const { counts, bias } = this;
     const weights = this.weights ?? counts;
-    let first = -1, last = -1, n = 0, W = 0, sum = 0;
+    // Pass 1 over the bins, noting the non-empty ones; the later passes visit
+    // only those, in the same ascending order (so the sums are the same).
+    if (occupied.length < this.hi - this.lo + 1) occupied = new Int32Array(this.bins);
+    const nz = occupied;
+    let m = 0, n = 0, W = 0, sum = 0;
     for (let b = this.lo; b <= this.hi; b++) {
       const c = counts[b];
       if (c === 0) continue;
-      if (first < 0) first = b;
-      last = b;
+      nz[m++] = b;
       n += c;
       W += weights[b];
       sum += weights[b] * (b - bias); // exact for unit weights below 2^53
@@ -137,29 +148,45 @@ export class IntegerAccumulator {
     if (n === 0) return null;
     const meanDn = sum / W;
     let dev = 0, dev2 = 0;
-    for (let b = first; b <= last; b++) {
+    for (let k = 0; k < m; k++) {
+      const b = nz[k];
       const w = weights[b];
-      if (counts[b] === 0) continue;
       const d = b - bias - meanDn;
       dev += w * d;
       dev2 += w * d * d;
     }
     const varDn = Math.max(0, (dev2 - (dev * dev) / W) / W);
 
-    // Runs in ascending order of the scaled value.
-    let m = 0;
-    for (let b = first; b <= last; b++) if (counts[b] > 0) m++;
-    const values = new Float64Array(m), runCounts = new Float64Array(m), runWeights = new Float64Array(m);
+    // Runs in ascending order of the scaled value (scratch arrays: the quantile functions keep no reference).
+    if (runValues.length < m) {
+      runValues = new Float64Array(this.bins); runCounts = new Float64Array(this.bins);
+      runWeights = new Float64Array(this.bins); runCountsWhole = new Uint32Array(this.bins);
+    }
+    const values = runValues;
     let j = scale < 0 ? m - 1 : 0;
     const step = scale < 0 ? -1 : 1;
-    for (let b = first; b <= last; b++) {
-      if (counts[b] === 0) continue;
-      values[j] = (b - bias) * scale + offset;
-      runCounts[j] = counts[b];
-      runWeights[j] = weights[b];
-      j += step;
+    let p10: number, median: number, p90: number;
+    if (this.weights === null) {
+      // Unit weights: the whole-number walk (same results as runQuantiles, less work).
+      const rc = runCountsWhole;
+      for (let k = 0; k < m; k++) {
+        const b = nz[k];
+        values[j] = (b - bias) * scale + offset;
+        rc[j] = counts[b];
+        j += step;
+      }
+      [p10, median, p90] = unitRunQuantiles(values, rc, m, [0.1, 0.5, 0.9]);
+    } else {
+      const rc = runCounts, rw = runWeights;
+      for (let k = 0; k < m; k++) {
+        const b = nz[k];
+        values[j] = (b - bias) * scale + offset;
+        rc[j] = counts[b];
+        rw[j] = weights[b];
+        j += step;
+      }
+      [p10, median, p90] = runQuantiles(values, rc, rw, m, [0.1, 0.5, 0.9]);
     }
-    const [p10, median, p90] = runQuantiles(values, runCounts, runWeights, m, [0.1, 0.5, 0.9]);
     return {
       count: n,
       weightSum: W,

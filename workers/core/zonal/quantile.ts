@@ -67,20 +67,75 @@ export function runQuantiles(
   for (let j = 0; j < m; j++) total += weights[j];
   // Length of the axis from A_1 to B_m.
   const L = total - weights[m - 1] / counts[m - 1] / 2 - half1;
-  return ps.map((p) => {
-    const t = p * L;
-    let before = 0; // S_(j-1)
-    let prevB = 0; // B_(j-1) - A_1
-    for (let j = 0; j < m; j++) {
-      const halfJ = weights[j] / counts[j] / 2;
-      const A = before - half1 + halfJ;
-      const S = before + weights[j];
-      const B = S - halfJ - half1;
-      if (t < A && j > 0) return lerp(values[j - 1], values[j], (t - prevB) / (A - prevB));
-      if (t <= B) return values[j];
-      before = S;
-      prevB = B;
-    }
-    return values[m - 1];
+  // One walk along the runs for all probabilities: positions t in ascending
+  // order, each settled at the first run whose test it passes (the tests are
+  // monotone in t, and A, S, B are computed as a walk per probability would).
+  const ts = ps.map((p) => p * L);
+  const order = ts.map((_, i) => i).sort((a, b) => {
+    const x = ts[a], y = ts[b];
+    if (x !== x || y !== y) return x !== x && y !== y ? a - b : x !== x ? 1 : -1; // NaN (p = NaN) last: never settled
+    return x < y ? -1 : x > y ? 1 : a - b;
   });
+  const out: number[] = new Array(ps.length);
+  let next = 0;
+  let before = 0; // S_(j-1)
+  let prevB = 0; // B_(j-1) - A_1
+  for (let j = 0; j < m && next < order.length; j++) {
+    const halfJ = weights[j] / counts[j] / 2;
+    const A = before - half1 + halfJ;
+    const S = before + weights[j];
+    const B = S - halfJ - half1;
+    while (next < order.length) {
+      const t = ts[order[next]];
+      if (t < A && j > 0) out[order[next++]] = lerp(values[j - 1], values[j], (t - prevB) / (A - prevB));
+      else if (t <= B) out[order[next++]] = values[j];
+      else break;
+    }
+    before = S;
+    prevB = B;
+  }
+  while (next < order.length) out[order[next++]] = values[m - 1];
+  return out;
+}
+
+/**
+ * {@link runQuantiles} for unit weights (every weight equal to its run's
+ * count), in whole numbers: with w_j = 1 the midpoints are A_j = C_(j-1) and
+ * B_j = C_j - 1 (C = cumulative counts), the axis length is n - 1 and each
+ * gap between runs is exactly 1 long, so the general formulas reduce to these
+ * integer ones without any rounding; the results are the same numbers.
+ *
+ * @param values ascending distinct run values
+ * @param counts cells per run (whole numbers > 0; sums stay exact below 2^53)
+ * @param m number of runs
+ * @param ps probabilities in [0, 1]
+ * @returns one quantile per entry of ps (NaN when m = 0)
+ */
+export function unitRunQuantiles(values: ArrayLike<number>, counts: ArrayLike<number>, m: number, ps: readonly number[]): number[] {
+  if (m === 0) return ps.map(() => NaN);
+  if (m === 1) return ps.map(() => values[0]);
+  let total = 0;
+  for (let j = 0; j < m; j++) total += counts[j];
+  const L = total - 1;
+  const ts = ps.map((p) => p * L);
+  const order = ts.map((_, i) => i).sort((a, b) => {
+    const x = ts[a], y = ts[b];
+    if (x !== x || y !== y) return x !== x && y !== y ? a - b : x !== x ? 1 : -1;
+    return x < y ? -1 : x > y ? 1 : a - b;
+  });
+  const out: number[] = new Array(ps.length);
+  let next = 0;
+  let before = 0; // C_(j-1) = A_j; B_(j-1) = before - 1
+  for (let j = 0; j < m && next < order.length; j++) {
+    const S = before + counts[j];
+    while (next < order.length) {
+      const t = ts[order[next]];
+      if (t < before && j > 0) out[order[next++]] = lerp(values[j - 1], values[j], t - (before - 1));
+      else if (t <= S - 1) out[order[next++]] = values[j];
+      else break;
+    }
+    before = S;
+  }
+  while (next < order.length) out[order[next++]] = values[m - 1];
+  return out;
 }

@@ -4,10 +4,12 @@
  * straight into per-target accumulators. No whole-raster array is made.
  */
 import { InputError } from '../errors.js';
-import { centreMask, fractionMask, inverseGeoTransform, type CentreMask, type FractionMask } from '../coverage/index.js';
+import { centreMask } from '../coverage/centre.js';
+import { inverseGeoTransform } from '../coverage/pixelspace.js';
+import type { CentreMask, FractionMask } from '../coverage/types.js';
 import { intersectWindows, unionWindows, type Affine, type Window } from '../raster/affine.js';
 import type { RasterBlock, RasterFile, TypedArray } from '../raster/index.js';
-import { FloatAccumulator } from './float.js';
+import type { FloatAccumulator } from './float.js';
 import { IntegerAccumulator, type IntegerKind } from './integer.js';
 import { emptyStats, type ValueSummary, type ZonalCounts, type ZonalStats } from './types.js';
 
@@ -345,6 +347,9 @@ export async function zonalScene(
   // Float data: the nodata value as the array holds it (float32 rounding).
   const nodataValue = h.nodata === null ? NaN : h.sampleFormat === 'float' && h.bitsPerSample === 32 ? Math.fround(h.nodata) : h.nodata;
 
+  // Loaded when needed: most LST rasters are integer DNs read by the centre rule.
+  const fractionMask = fraction ? (await import('../coverage/fraction.js')).fractionMask : null;
+  const Float = kind === null ? (await import('./float.js')).FloatAccumulator : null;
   const states: TargetState[] = targets.map((t) => {
     if (t === null || typeof t !== 'object' || typeof t.id !== 'string') {
       throw new InputError('a zonal target has no string id', h.path);
@@ -352,7 +357,7 @@ export async function zonalScene(
     const source = `target ${JSON.stringify(t.id)}`;
     let window: Window | null = null, centre: CentreMask | null = null, frac: FractionMask | null = null, pixels = 0;
     if (fraction) {
-      frac = fractionMask(t.geometry, h.transform, h.width, h.height, source);
+      frac = fractionMask!(t.geometry, h.transform, h.width, h.height, source);
       if (frac !== null) {
         for (let i = 0; i < frac.fractions.length; i++) if (frac.fractions[i] > 0) pixels++;
         window = frac.window;
@@ -365,7 +370,7 @@ export async function zonalScene(
     return {
       id: t.id, window, centre, fraction: frac, pixels,
       int: null as IntegerAccumulator | null,
-      float: window !== null && kind === null ? new FloatAccumulator({ capacity: pixels, weighted: fraction }) : null,
+      float: window !== null && kind === null ? new Float!({ capacity: pixels, weighted: fraction }) : null,
       tally: new Float64Array(5),
     };
   });

@@ -3,9 +3,6 @@
  * on compression itself: it asks here, and a caller may register another.
  */
 import { deflateDecode } from './deflate.js';
-import { lzwDecode } from './lzw.js';
-import { packbitsDecode } from './packbits.js';
-import { zstdDecode } from './zstd.js';
 
 export { CorruptBlockError } from './errors.js';
 
@@ -14,13 +11,26 @@ export type BlockDecoder = (input: Uint8Array, maxBytes: number) => Uint8Array |
 
 interface Entry { readonly name: string; readonly decode: BlockDecoder }
 
+/**
+ * A decoder whose module loads on its first block, not when a raster is
+ * opened: the ZSTD decoder carries an inlined WebAssembly module (~90 kB of
+ * source), and LZW and PackBits are rare in LST archives.
+ */
+function onDemand(load: () => Promise<BlockDecoder>): BlockDecoder {
+  let loaded: Promise<BlockDecoder> | null = null;
+  return async (input, maxBytes) => {
+    loaded ??= load();
+    return (await loaded)(input, maxBytes);
+  };
+}
+
 const registry = new Map<number, Entry>([
   [1, { name: 'none', decode: (input) => input }],
-  [5, { name: 'LZW', decode: lzwDecode }],
+  [5, { name: 'LZW', decode: onDemand(() => import('./lzw.js').then((m) => m.lzwDecode)) }],
   [8, { name: 'DEFLATE', decode: deflateDecode }],
   [32946, { name: 'DEFLATE', decode: deflateDecode }],
-  [32773, { name: 'PackBits', decode: packbitsDecode }],
-  [50000, { name: 'ZSTD', decode: zstdDecode }],
+  [32773, { name: 'PackBits', decode: onDemand(() => import('./packbits.js').then((m) => m.packbitsDecode)) }],
+  [50000, { name: 'ZSTD', decode: onDemand(() => import('./zstd.js').then((m) => m.zstdDecode)) }],
 ]);
 
 /** Well-known names of codes we do not decode, for a clear error message. */

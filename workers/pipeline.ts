@@ -111,13 +111,15 @@ export function buildFlow(args: {
   files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[];
   targetIds: string[];
   params: Record<string, unknown>;
-  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds'>;
+  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds' | 'qa'>;
   derive: Omit<DeriveData, 'runId'>;
+  qaMaskBits?: number;
 }): JobSpec {
   const targetsKey = fingerprint(args.targetIds, args.params);
   const children: JobSpec[] = args.files.map((f) => {
     const ingestData: IngestData = { path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind };
-    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds };
+    const qa = f.manifest?.qa && args.qaMaskBits !== undefined ? { path: f.manifest.qa, maskBits: args.qaMaskBits } : undefined;
+    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, qa };
     return {
       name: 'zonal',
       id: deriveJobId('zonal', args.identity, f.contentHash, targetsKey),
@@ -192,6 +194,10 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     files.push({ path, contentHash, kind: albedoSet.has(path) ? 'albedo' : undefined, manifest: manifest.get(path) });
   }
 
+  if (options.qaMaskBits === undefined && [...manifest.values()].some((m) => m.qa)) {
+    throw new InputError('the manifest gives QA rasters; say which QA bits mask a pixel with --qa-mask', options.manifestPath);
+  }
+
   const deriveOptions: DeriveOptions = { ...DEFAULT_DERIVE_OPTIONS, ...options.derive };
   const coverage = options.coverage ?? 'centre';
   const plausibleKelvin = options.plausibleKelvin === undefined ? ([170, 360] as [number, number]) : options.plausibleKelvin;
@@ -223,6 +229,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       targetIds: [...districts.map((d) => d.id), RURAL_ID],
       params: { ...params, districtsFingerprint: fingerprint(districts.map((d) => [d.id, d.geometry])), ruralFingerprint: fingerprint(rural.geometry) },
       zonal: { coverage, plausibleKelvin },
+      qaMaskBits: options.qaMaskBits,
       derive: {
         districtIds: districts.map((d) => d.id),
         ruralId: RURAL_ID,

@@ -31,6 +31,11 @@ describe('manifest', () => {
     expect(m.get(join(dir, 'day one.tif'))).toEqual({ path: join(dir, 'day one.tif'), kind: 'lst', acquiredAt: '2024-07-14T13:30:00Z', sensor: 'sensor A, band 10' });
     expect(m.get(join(dir, 'sub', 'alb.tif'))).toEqual({ path: join(dir, 'sub', 'alb.tif'), kind: 'albedo' });
   });
+  it('resolves a QA raster column relative to the manifest', async () => {
+    const csv = join(dir, 'qa.csv');
+    await writeFile(csv, 'path,qa\nscene.tif,masks/scene_qa.tif\n');
+    expect((await readManifest(csv)).get(join(dir, 'scene.tif'))?.qa).toBe(join(dir, 'masks', 'scene_qa.tif'));
+  });
   it('reads JSON arrays with the same keys', async () => {
     const j = join(dir, 'scenes.json');
     await writeFile(j, JSON.stringify([{ path: 'n.tif', kind: 'lst', acquired_at: '2024-07-15T03:30:00+02:00' }]));

@@ -6,7 +6,7 @@ import { writeGeoTiff } from '../../workers/core/raster/write.js';
 import { ingest } from '../../workers/jobs/ingest.js';
 import { hashFile } from '../../workers/jobs/archive.js';
 import { ruralRing, parseDistricts } from '../../workers/core/districts/index.js';
-import { subtractWater } from '../../workers/pipeline.js';
+import { buildFlow, subtractWater } from '../../workers/pipeline.js';
 import type { JobContext } from '../../workers/queue/types.js';
 import type { PipelineRepo } from '../../workers/jobs/repo.js';
 
@@ -104,5 +104,34 @@ describe('rural ring without water', () => {
     // ellipsoidal areas of the pieces (districts module); the difference must be the water square's area
     expect(ring.areaSquareMetres - cut.areaSquareMetres).toBeCloseTo(water[0].areaSquareMetres, -3);
     expect(cut.id).toBe('rural');
+  });
+});
+
+describe('job tree', () => {
+  const files = [
+    { path: '/a/day.tif', contentHash: 'a'.repeat(64), manifest: { path: '/a/day.tif', qa: '/a/day_qa.tif' } },
+    { path: '/a/night.tif', contentHash: 'b'.repeat(64) },
+  ];
+  const args = {
+    identity: 'db1', runId: 4, files, targetIds: ['d1', 'rural'], params: { coverageRule: 'centre' },
+    zonal: { coverage: 'centre' as const, plausibleKelvin: [170, 360] as [number, number] },
+    derive: { districtIds: ['d1'], ruralId: 'rural', options: { pairingWindowHours: 18, albedoWindowDays: 32, minValidFraction: 0.5, minDifferenceKelvin: 0.5 }, albedoProperties: {} },
+    qaMaskBits: 24,
+  };
+  it('is derive <- zonal per scene <- ingest, with the QA raster and bits on the scene that has one', () => {
+    const root = buildFlow(args);
+    expect(root.name).toBe('derive');
+    expect(root.children!.map((c) => c.name)).toEqual(['zonal', 'zonal']);
+    expect(root.children!.map((c) => c.children![0].name)).toEqual(['ingest', 'ingest']);
+    expect((root.children![0].data as { qa?: unknown }).qa).toEqual({ path: '/a/day_qa.tif', maskBits: 24 });
+    expect((root.children![1].data as { qa?: unknown }).qa).toBeUndefined();
+  });
+  it('derives ids from content and parameters: same inputs give the same ids, another database or parameter other ids', () => {
+    const a = buildFlow(args);
+    expect(buildFlow(args).id).toBe(a.id);
+    expect(buildFlow({ ...args, runId: 9 }).id).toBe(a.id); // the run number is not content
+    expect(buildFlow({ ...args, identity: 'db2' }).id).not.toBe(a.id);
+    expect(buildFlow({ ...args, params: { coverageRule: 'fraction' } }).children![0].id).not.toBe(a.children![0].id);
+    expect(buildFlow({ ...args, params: { coverageRule: 'fraction' } }).children![0].children![0].id).toBe(a.children![0].children![0].id);
   });
 });

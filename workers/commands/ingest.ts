@@ -10,6 +10,7 @@ export interface IngestCommandOptions {
   water?: string;
   albedo?: string[];
   manifest?: string;
+  qaMask?: number;
   idField: string;
   nameField: string;
   coverage: 'centre' | 'fraction';
@@ -80,6 +81,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     waterPath: opts.water,
     albedoInputs: opts.albedo,
     manifestPath: opts.manifest,
+    qaMaskBits: opts.qaMask,
     coverage: opts.coverage,
     plausibleKelvin: parsePlausible(opts.plausible),
     derive: { minValidFraction: opts.minValidFraction, pairingWindowHours: opts.pairingWindow, albedoWindowDays: opts.albedoWindow },

@@ -18,6 +18,8 @@ export interface ManifestEntry {
   /** UTC ISO 8601 acquisition time. */
   acquiredAt?: string;
   sensor?: string;
+  /** QA/cloud raster on the same grid that masks this scene (with the run's QA bits). */
+  qa?: string;
 }
 
 const RASTER_EXTENSIONS = new Set(['.tif', '.tiff', '.gtif']);
@@ -98,7 +100,8 @@ function parseCsvLine(line: string): string[] {
 
 /**
  * Read a manifest: CSV with a header (columns `path`, and any of `kind`,
- * `acquired_at`, `sensor`) or JSON (an array of objects with the same keys).
+ * `acquired_at`, `sensor`, `qa`) or JSON (an array of objects with the same keys).
+ * A manifest's kind and time take precedence over the file's own metadata.
  * Relative paths are relative to the manifest's folder.
  */
 export async function readManifest(path: string): Promise<Map<string, ManifestEntry>> {
@@ -137,6 +140,7 @@ export async function readManifest(path: string): Promise<Map<string, ManifestEn
     const t = r.acquired_at ?? r.acquiredAt;
     if (t !== undefined && t !== '') entry.acquiredAt = normaliseUtc(String(t), where);
     if (typeof r.sensor === 'string' && r.sensor !== '') entry.sensor = r.sensor;
+    if (typeof r.qa === 'string' && r.qa !== '') entry.qa = resolve(base, r.qa);
     if (out.has(abs)) throw new InputError(`the manifest lists ${p} twice`, where);
     out.set(abs, entry);
   });

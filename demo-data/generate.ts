@@ -23,6 +23,8 @@ import type { Affine } from '../workers/core/raster/affine.js';
 import { writeGeoTiff } from '../workers/core/raster/write.js';
 import type { Kelvin, Metres } from '../workers/core/units.js';
 import { CITY_EPSG, CITY_GRID, CITY_NAME, CITY_SLUG, DISTRICTS, districtAt, riverCentreX, writeDistrictsGeoJson, type LandUse } from './city.js';
+import { mulberry32 } from '../workers/core/prng.js';
+export { mulberry32 };
 
 export interface ArchiveOptions {
   /** PRNG seed; the same seed gives byte-identical files. Default 20190601. */
@@ -54,17 +56,6 @@ export const ALBEDO_SCALE = 0.0001;
 /** Longitude of the city centre (degrees east), for pass times in local solar time. */
 const CITY_LONGITUDE = -35.6;
 
-/** mulberry32 (T. Ettinger, public-domain 32-bit PRNG): uniform numbers in [0, 1). */
-export function mulberry32(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 /** Standard normal deviates from a uniform source (Box & Muller 1958). */
 function normalSource(rand: () => number): () => number {

@@ -3,35 +3,9 @@
 --   $2  minimum valid fraction, as in district_table_date.sql; NULL = no further filter
 -- Each mean is over the dates of that year that have the value (every date
 -- weighs the same, whatever its number of scenes); the counts are totals.
--- The CTEs up to "daily" are those of district_table_date.sql.
-WITH pass_quality AS (
-  SELECT m.obs_date, m.district_id, m.day_scene_id, m.night_scene_id,
-         CASE WHEN $2::double precision IS NULL OR coalesce(zd.valid_fraction, 0) >= $2::double precision
-              THEN m.t_day_k END AS t_day_k,
-         CASE WHEN $2::double precision IS NULL OR coalesce(zn.valid_fraction, 0) >= $2::double precision
-              THEN m.t_night_k END AS t_night_k,
-         CASE WHEN $2::double precision IS NULL OR coalesce(zd.valid_fraction, 0) >= $2::double precision
-              THEN m.suhi_day_k END AS suhi_day_k,
-         CASE WHEN $2::double precision IS NULL OR coalesce(zn.valid_fraction, 0) >= $2::double precision
-              THEN m.suhi_night_k END AS suhi_night_k,
-         CASE WHEN $2::double precision IS NULL
-                OR (coalesce(zd.valid_fraction, 0) >= $2::double precision AND coalesce(zn.valid_fraction, 0) >= $2::double precision)
-              THEN m.ati_per_k END AS ati_per_k
-  FROM derived_metrics m
-  LEFT JOIN zonal_stats zd ON zd.scene_id = m.day_scene_id AND zd.district_id = m.district_id
-  LEFT JOIN zonal_stats zn ON zn.scene_id = m.night_scene_id AND zn.district_id = m.district_id
-),
-daily AS (
-  SELECT district_id, obs_date,
-         avg(t_day_k)      AS lst_day_k,
-         avg(t_night_k)    AS lst_night_k,
-         avg(suhi_day_k)   AS suhi_day_k,
-         avg(suhi_night_k) AS suhi_night_k,
-         avg(ati_per_k)    AS ati_per_k,
-         count(DISTINCT day_scene_id) FILTER (WHERE t_day_k IS NOT NULL)     AS day_scenes,
-         count(DISTINCT night_scene_id) FILTER (WHERE t_night_k IS NOT NULL) AS night_scenes
-  FROM pass_quality
-  GROUP BY district_id, obs_date
+-- The dates come from district_daily() (sql/migrations/003_district_daily.sql).
+WITH daily AS (
+  SELECT * FROM district_daily($2::double precision)
 ),
 yearly AS (
   SELECT district_id,

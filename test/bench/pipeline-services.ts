@@ -10,6 +10,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import pg from 'pg';
 import { Redis } from 'ioredis';
+import { cleanRedisPrefix } from '../support/pipeline-harness.js';
 
 export const BENCH_DATABASE_PREFIX = 'hlbench_';
 export const BENCH_QUEUE_PREFIX = 'hlbench-';
@@ -60,23 +61,8 @@ export function benchQueuePrefix(): string {
   return `${BENCH_QUEUE_PREFIX}${process.pid}-${randomUUID().slice(0, 8)}`;
 }
 
-/** Delete every Redis key under `prefix:`; returns how many. */
-export async function deleteRedisPrefix(redisUrl: string, prefix: string): Promise<number> {
-  const r = new Redis(redisUrl, { maxRetriesPerRequest: 1, lazyConnect: true, connectTimeout: 5_000 });
-  let deleted = 0;
-  try {
-    await r.connect();
-    let cursor = '0';
-    do {
-      const [next, keys] = await r.scan(cursor, 'MATCH', `${prefix}:*`, 'COUNT', 1000);
-      cursor = next;
-      if (keys.length) deleted += await r.del(...keys);
-    } while (cursor !== '0');
-  } finally {
-    r.disconnect();
-  }
-  return deleted;
-}
+/** Delete every Redis key under `prefix:`; returns how many (the test harness's helper). */
+export const deleteRedisPrefix = cleanRedisPrefix;
 
 /** Whether Redis answers PING within a few seconds. */
 export async function redisReachable(redisUrl: string): Promise<boolean> {

@@ -3,21 +3,9 @@
  * writes the same files.
  */
 
-/**
- * Mulberry32: a 32-bit state generator, uniform in [0, 1). Fast, small and
- * good enough for synthetic textures (not for cryptography).
- * @example const rnd = mulberry32(7); rnd() // 0 <= x < 1, the same every run
- */
-export function mulberry32(seed: number): () => number {
-  let s = seed >>> 0;
-  return () => {
-    s = (s + 0x6d2b79f5) >>> 0;
-    let t = s;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
+import { mulberry32 } from '../../workers/core/prng.js';
+
+export { mulberry32 };
 
 /**
  * A table of standard normal deviates (Box & Muller 1958), for per-pixel noise

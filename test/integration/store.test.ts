@@ -160,11 +160,12 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     await store?.close();
   });
 
-  it('applies migrations 001 and 002 once and records them', async () => {
+  it('applies migrations 001 to 003 once and records them', async () => {
     const rows = await store.query<{ version: number; name: string }>('SELECT version, name FROM schema_migrations ORDER BY version');
     expect(rows).toEqual([
       { version: 1, name: 'init' },
       { version: 2, name: 'night_only_rows' },
+      { version: 3, name: 'district_daily' },
     ]);
     expect(await migrate(store)).toEqual({ applied: [] });
     const again = await reopen();
@@ -775,10 +776,10 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
   });
 
   it('reads named queries from sql/queries and rejects unknown names', () => {
-    // Both tables read derived_metrics; zonal_stats is joined only for the valid fractions.
+    // Both tables read the one per-date definition (district_daily() of migration 003).
     for (const name of ['district_table_date', 'district_table_year']) {
-      expect(namedQuery(name)).toMatch(/FROM derived_metrics m\b/);
-      expect(namedQuery(name)).not.toMatch(/FROM zonal_stats/);
+      expect(namedQuery(name)).toMatch(/FROM district_daily\(\$2::double precision\)/);
+      expect(namedQuery(name)).not.toMatch(/FROM zonal_stats|FROM derived_metrics/);
     }
     expect(() => namedQuery('../etc/passwd')).toThrow(/lower-case/);
     expect(() => namedQuery('no_such_query')).toThrow(/no named query "no_such_query"/);
@@ -833,7 +834,7 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
     try {
       const results = await Promise.all([migrate(a), migrate(b)]);
       // One process applies both migrations under the advisory lock; the other finds none left.
-      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows']]);
+      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily']]);
     } finally {
       await Promise.all([a.close(), b.close()]);
     }

@@ -3,6 +3,7 @@ import { fileURLToPath } from 'node:url';
 import { describe, expect, it } from 'vitest';
 import { parseDistricts } from '../../workers/core/districts/index.js';
 import { isInputError } from '../../workers/core/errors.js';
+import { mulberry32 as rng } from '../../workers/core/prng.js';
 
 /**
  * Mutation fuzzing of the district parser: every mutated file must either parse
@@ -13,17 +14,6 @@ const seeds = ['city.geojson', 'custom-fields.geojson', 'single-feature.geojson'
   readFileSync(fileURLToPath(new URL(`../fixtures/districts/${n}`, import.meta.url)), 'utf8'),
 );
 
-/** mulberry32 PRNG (Tommy Ettinger, 2017): small, seedable, reproducible. */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 type Json = unknown;
 

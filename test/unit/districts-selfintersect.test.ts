@@ -2,6 +2,7 @@ import { describe, expect, it } from 'vitest';
 import { kinks, multiPolygon } from '@turf/turf';
 import { findSelfIntersections } from '../../workers/core/districts/selfintersect.js';
 import { orientPolygon, parseDistricts } from '../../workers/core/districts/index.js';
+import { mulberry32 as rng } from '../../workers/core/prng.js';
 
 /**
  * The sweep-based self-intersection test against @turf/kinks (general-purpose
@@ -10,17 +11,6 @@ import { orientPolygon, parseDistricts } from '../../workers/core/districts/inde
  * for bit, on seeded random polygons that do and do not intersect themselves.
  */
 
-/** mulberry32 PRNG (Tommy Ettinger, 2017): small, seedable, reproducible. */
-function rng(seed: number): () => number {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 type Ring = number[][];
 

@@ -10,6 +10,7 @@ import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
 import { isInputError } from '../../workers/core/errors.js';
 import { openRaster } from '../../workers/core/raster/index.js';
+import { mulberry32 as prng } from '../../workers/core/prng.js';
 
 const DIR = fileURLToPath(new URL('../fixtures/raster/', import.meta.url));
 const BASES = [
@@ -22,17 +23,6 @@ const MAX_CASE_MS = 2000;
 const MAX_RSS_GROWTH_BYTES = 400 * 1024 * 1024;
 const WALL_BUDGET_MS = 45_000;
 
-/** Mulberry32 seeded PRNG (Tommy Ettinger, public domain) - reproducible cases. */
-function prng(seed: number) {
-  let a = seed >>> 0;
-  return () => {
-    a = (a + 0x6d2b79f5) >>> 0;
-    let t = a;
-    t = Math.imul(t ^ (t >>> 15), t | 1);
-    t ^= t + Math.imul(t ^ (t >>> 7), t | 61);
-    return ((t ^ (t >>> 14)) >>> 0) / 4294967296;
-  };
-}
 
 interface Layout {
   le: boolean; big: boolean; ifd: number; entries: { at: number; tag: number; type: number; count: number; value: number; bytes: number }[];

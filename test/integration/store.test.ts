@@ -28,6 +28,7 @@ import {
   listDistricts,
   markSceneFailed,
   registerScene,
+  registerSceneReporting,
   replaceDerived,
   replaceZonalStats,
   sceneStatusCounts,
@@ -332,6 +333,8 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
       ids[key] = await registerScene(store, { ...SCENES[key], runId });
     }
     expect(await registerScene(store, SCENES.day1)).toBe(ids.day1);
+    // the same write, also saying what the status was before it
+    expect(await registerSceneReporting(store, SCENES.day1)).toEqual({ id: ids.day1, previousStatus: 'registered' });
     const n = await store.query<{ n: number }>('SELECT count(*) AS n FROM scenes');
     expect(n[0].n).toBe(7); // seven scenes in the plan
     const day2 = await findSceneByHash(store, SCENES.day2.contentHash);

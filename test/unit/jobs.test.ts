@@ -19,7 +19,7 @@ function fakeRepo() {
   const calls: { method: string; args: unknown[] }[] = [];
   const repo = {
     findSceneByHash: async (...args: unknown[]) => { calls.push({ method: 'findSceneByHash', args }); return null; },
-    registerScene: async (...args: unknown[]) => { calls.push({ method: 'registerScene', args }); return 7; },
+    registerSceneReporting: async (...args: unknown[]) => { calls.push({ method: 'registerScene', args }); return { id: 7, previousStatus: null }; },
     markSceneFailed: async (...args: unknown[]) => { calls.push({ method: 'markSceneFailed', args }); return 8; },
   } as unknown as PipelineRepo;
   const ctx: JobContext<PipelineRepo> = { jobId: 'j', name: 'ingest', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 };

@@ -33,7 +33,6 @@ export interface IngestResult {
 export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): Promise<IngestResult> {
   const { repo } = ctx;
   try {
-    const existing = await repo.findSceneByHash(data.contentHash);
     const raster = await openRaster(data.path);
     let result: IngestResult;
     try {
@@ -48,7 +47,7 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
       }
       const [lon, lat] = sceneCentreLonLat(h);
       const timing = kind === 'lst' ? sceneTiming(acquiredAt, lon, lat, data.dayElevationDeg) : sceneTiming(null, lon, lat);
-      const sceneId = await repo.registerScene({
+      const { id: sceneId, previousStatus } = await repo.registerSceneReporting({
         contentHash: data.contentHash,
         path: data.path,
         kind,
@@ -74,7 +73,7 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
         kind,
         pass: timing.pass,
         acquiredAt: acquiredAt ?? null,
-        alreadyStored: existing?.status === 'processed',
+        alreadyStored: previousStatus === 'processed',
       };
     } finally {
       await raster.close();

@@ -14,6 +14,8 @@ export function createPipelineRepo(store: Store) {
     findSceneByHash: (hash: string) => repo.findSceneByHash(store, hash),
     getScene: (sceneId: number) => repo.getScene(store, sceneId),
     registerScene: (scene: repo.SceneInput) => repo.registerScene(store, scene),
+    /** Register and say what the status was before (null for a new scene), in one round trip. */
+    registerSceneReporting: (scene: repo.SceneInput) => repo.registerSceneReporting(store, scene),
     markSceneFailed: (f: { contentHash?: string | null; path: string; error: string; runId?: number | null }) => repo.markSceneFailed(store, f),
     listDistricts: () => repo.listDistricts(store),
     listScenes: (filter: { kind?: repo.SceneKind; status?: repo.SceneStatus }) => repo.listScenes(store, filter),

@@ -9,5 +9,6 @@ export default defineConfig({
     hookTimeout: 120_000,
     pool: 'forks',
     reporters: ['default'],
+    globalSetup: ['test/support/global-setup.ts'],
   },
 });

@@ -12,7 +12,8 @@ export const testDatabaseUrl =
   process.env.HEATLEDGER_TEST_DATABASE_URL ?? 'postgres://postgres@127.0.0.1:5432/test';
 export const testRedisUrl = process.env.HEATLEDGER_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';
 
-function reachable(url: string, defaultPort: number): Promise<boolean> {
+/** Whether a TCP connection to the URL's host and port opens within 1.5 s. */
+export function reachable(url: string, defaultPort: number): Promise<boolean> {
   const u = new URL(url);
   const port = Number(u.port || defaultPort);
   return new Promise((resolve) => {

@@ -176,3 +176,26 @@ describe('reprojectGeometry and reprojectBBox', () => {
     expect(() => reprojectBBox([Number.NaN, 2, 3, 4], wgs, utm)).toThrow(/bounding box/);
   });
 });
+
+describe('direct projection path (WGS 84 lon/lat into a WGS 84 projection)', () => {
+  it('gives what proj4\'s full transformation gives, point for point (proj4 as the reference library)', async () => {
+    const { proj4 } = await import('../../workers/core/crs/proj4.js');
+    const { mulberry32 } = await import('../../workers/core/prng.js');
+    const rnd = mulberry32(11);
+    for (const code of [32633, 32719, 3857, 32601]) {
+      const from = crsDefinitionForEpsg(4326);
+      const to = crsDefinitionForEpsg(code);
+      const full = proj4(from, to);
+      const t = makeTransformer(from, to);
+      const lon0 = code === 3857 ? 0 : ((code % 100) - 1) * 6 - 180 + 3;
+      for (let i = 0; i < 500; i++) {
+        const lon = lon0 - 3 + 6 * rnd();
+        const lat = code === 32719 ? -60 * rnd() : 60 * rnd();
+        const [x, y] = t(lon, lat);
+        const [ex, ey] = full.forward([lon, lat]);
+        expect(Math.abs(x - ex)).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ex)));
+        expect(Math.abs(y - ey)).toBeLessThanOrEqual(1e-9 * Math.max(1, Math.abs(ey)));
+      }
+    }
+  });
+});

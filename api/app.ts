@@ -24,7 +24,8 @@ const tableQuery = {
 } as const;
 
 export function buildApp(store: Store): FastifyInstance {
-  const app = Fastify({ logger: false });
+  // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped
+  const app = Fastify({ logger: false, ajv: { customOptions: { removeAdditional: false } } });
 
   app.setErrorHandler((err, _req, reply) => {
     const e = err as Error & { statusCode?: number; validation?: unknown };

@@ -8,7 +8,7 @@ export default defineConfig({
     testTimeout: 60_000,
     hookTimeout: 120_000,
     pool: 'forks',
-    reporters: ['default'],
+    reporters: ['default', './test/support/summary-reporter.ts'],
     globalSetup: ['test/support/global-setup.ts'],
   },
 });

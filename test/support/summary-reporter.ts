@@ -1,0 +1,23 @@
+/**
+ * Ends the test output with one plain line, "tests: N passed, N failed, N skipped",
+ * that any CI log reader understands (vitest's own summary is styled text).
+ */
+import type { Reporter, TestModule } from 'vitest/node';
+
+export default class SummaryReporter implements Reporter {
+  onTestRunEnd(testModules: ReadonlyArray<TestModule>, unhandledErrors: ReadonlyArray<unknown>): void {
+    let passed = 0, failed = 0, skipped = 0;
+    for (const m of testModules) {
+      for (const t of m.children.allTests()) {
+        const state = t.result().state;
+        if (state === 'passed') passed++;
+        else if (state === 'failed') failed++;
+        else skipped++;
+      }
+      // a file that failed to load has no tests to count: count it as a failure
+      if (m.state() === 'failed' && [...m.children.allTests()].length === 0) failed++;
+    }
+    failed += unhandledErrors.length;
+    process.stdout.write(`\ntests: ${passed} passed, ${failed} failed, ${skipped} skipped\n`);
+  }
+}

@@ -135,3 +135,24 @@ describe('job tree', () => {
     expect(buildFlow({ ...args, params: { coverageRule: 'fraction' } }).children![0].children![0].id).toBe(a.children![0].children![0].id);
   });
 });
+
+describe('progress in scenes', () => {
+  it('counts a scene once: done when its zonal job is, failed when its ingest or zonal job failed', async () => {
+    const { sceneProgress } = await import('../../workers/commands/ingest.js');
+    const { NamedIdSet, progressOf, totalsByName } = await import('../../workers/queue/progress.js');
+    const names: Record<string, string> = { i1: 'ingest', i2: 'ingest', i3: 'ingest', z1: 'zonal', z2: 'zonal', z3: 'zonal', d: 'derive' };
+    const done = new NamedIdSet((id) => names[id]);
+    const failed = new NamedIdSet((id) => names[id]);
+    const totals = totalsByName(Object.values(names));
+    done.add('i1'); done.add('z1'); // scene 1 processed
+    failed.add('i2'); done.add('z2'); // scene 2: ingest failed, its zonal job completed as a skip
+    done.add('i3'); // scene 3 still running
+    done.add('i3'); // adding twice counts once
+    const p = progressOf(done, failed, totals, 1);
+    expect(p).toMatchObject({ done: 4, failed: 1, total: 7, running: 1 });
+    expect(p.byName).toEqual({ ingest: { done: 2, failed: 1, total: 3 }, zonal: { done: 2, failed: 0, total: 3 }, derive: { done: 0, failed: 0, total: 1 } });
+    expect(sceneProgress(p)).toEqual({ done: 1, failed: 1, total: 3 });
+    failed.delete('i2');
+    expect(progressOf(done, failed, totals, 0).byName!.ingest.failed).toBe(0);
+  });
+});

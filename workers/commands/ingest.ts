@@ -1,6 +1,7 @@
 import { InputError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../config.js';
 import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
+import type { FlowProgress } from '../queue/types.js';
 
 export interface IngestCommandOptions {
   districts: string;
@@ -33,6 +34,18 @@ export function parsePlausible(text: string): [number, number] | null {
   return [parts[0], parts[1]];
 }
 
+/**
+ * Scenes done / failed / total from job counts: a scene is one ingest and one
+ * zonal job; it failed when either did (a zonal job whose ingest failed
+ * completes as a skip, so it is not counted as done).
+ */
+export function sceneProgress(p: FlowProgress): { done: number; failed: number; total: number } {
+  const ingest = p.byName?.ingest ?? { done: 0, failed: 0, total: 0 };
+  const zonal = p.byName?.zonal ?? { done: 0, failed: 0, total: 0 };
+  const failed = ingest.failed + zonal.failed;
+  return { done: Math.max(0, zonal.done - ingest.failed), failed, total: zonal.total };
+}
+
 export function summaryLines(s: PipelineSummary): string[] {
   const lines = [
     `run ${s.runId} (${s.mode}): ${s.scenes} scene file(s) in ${s.seconds.toFixed(1)} s` +
@@ -60,7 +73,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     const { SingleBar, Presets } = await import('cli-progress');
     bar = new SingleBar(
       {
-        format: 'jobs {bar} {value}/{total} | failed {failed} | remaining {remaining} | {rate} jobs/s',
+        format: 'scenes {bar} {value}/{total} done | failed {failed} | remaining {remaining} | {rate} scenes/s',
         noTTYOutput: !process.stderr.isTTY,
         notTTYSchedule: 5000,
         stream: process.stderr,
@@ -90,9 +103,10 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     onNotice: (m) => process.stderr.write(`\nheatledger: ${m}\n`),
     onProgress: bar
       ? (p) => {
-          const payload = { failed: p.failed, remaining: p.total - p.done - p.failed, rate: ((p.done + p.failed) / Math.max(p.elapsedSeconds, 1e-3)).toFixed(1) };
-          if (!started) { (bar as unknown as { start(t: number, v: number, p: object): void }).start(p.total, p.done + p.failed, payload); started = true; }
-          bar!.update(p.done + p.failed, payload);
+          const s = sceneProgress(p);
+          const payload = { failed: s.failed, remaining: s.total - s.done - s.failed, rate: ((s.done + s.failed) / Math.max(p.elapsedSeconds, 1e-3)).toFixed(1) };
+          if (!started) { (bar as unknown as { start(t: number, v: number, p: object): void }).start(s.total, s.done, payload); started = true; }
+          bar!.update(s.done, payload);
         }
       : undefined,
   };

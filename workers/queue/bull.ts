@@ -25,7 +25,8 @@ import {
   STALLED_INTERVAL_MS, queueNameFor,
 } from './settings.js';
 import { describeError, flattenTree, reusableIds, type FlatNode } from './tree.js';
-import type { FlowResult, FlowProgress, JobFailure, JobSpec, Runner, RunFlowOptions } from './types.js';
+import { NamedIdSet, progressOf, totalsByName } from './progress.js';
+import type { FlowResult, JobFailure, JobSpec, Runner, RunFlowOptions } from './types.js';
 
 /** What a BullMQ job carries: the processor input plus results of children reused from earlier runs. */
 interface JobEnvelope {
@@ -184,10 +185,12 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     const rootQueue = queueOf(root.spec.name);
 
     // Progress from the queues' event streams; subscribe before submitting so nothing is missed.
-    const done = new Set<string>();
-    const failed = new Set<string>();
+    const nameOf = (id: string) => byId.get(id)?.spec.name ?? '?';
+    const done = new NamedIdSet(nameOf);
+    const failed = new NamedIdSet(nameOf);
+    const totals = totalsByName(nodes.map((n) => n.spec.name));
     const running = new Set<string>();
-    const report = () => opts.onProgress?.({ done: done.size, failed: failed.size, total: nodes.length, running: running.size } satisfies FlowProgress);
+    const report = () => opts.onProgress?.(progressOf(done, failed, totals, running.size));
     let rootFinished: (() => void) | null = null;
     const events: QueueEvents[] = [];
     const eventConnections: Redis[] = [];

@@ -18,6 +18,7 @@ import { isInputError, ServiceError } from '../core/errors.js';
 import { loadProcessors, runAttempt, sortedRecord, type JobAttempt } from './execute.js';
 import { reviveError, serveRepo, type SerializedError } from './repo-proxy.js';
 import { DEFAULT_ATTEMPTS, DEFAULT_BACKOFF_MS, backoffDelayMs } from './settings.js';
+import { NamedIdSet, progressOf, totalsByName } from './progress.js';
 import { asJsonValue, describeError, flattenTree, reusableIds, type FlatNode } from './tree.js';
 import type { FlowResult, JobFailure, JobSpec, ProcessorsModule, Runner, RunFlowOptions } from './types.js';
 
@@ -212,10 +213,14 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
     const pendingChildren = new Map<string, number>();
     let running = 0;
     const total = nodes.length;
-    const report = () => opts.onProgress?.({ done: values.size, failed: failed.size, total, running });
+    const nameOf = (id: string) => byId.get(id)?.spec.name ?? '?';
+    const doneIds = new NamedIdSet(nameOf);
+    const failedIds = new NamedIdSet(nameOf);
+    const totals = totalsByName(nodes.map((n) => n.spec.name));
+    const report = () => opts.onProgress?.(progressOf(doneIds, failedIds, totals, running));
 
     for (const n of nodes) {
-      if (reusable.has(n.spec.id)) values.set(n.spec.id, completed.get(n.spec.id));
+      if (reusable.has(n.spec.id)) { values.set(n.spec.id, completed.get(n.spec.id)); doneIds.add(n.spec.id); }
     }
     for (const n of nodes) {
       if (!reusable.has(n.spec.id)) pendingChildren.set(n.spec.id, n.childIds.filter((c) => !reusable.has(c)).length);
@@ -265,6 +270,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
           if (o.ok) {
             running--;
             values.set(n.spec.id, o.value);
+            doneIds.add(n.spec.id);
             completed.set(n.spec.id, o.value);
             settleNode(n);
           } else if (!isInputError(o.error) && attempt < attempts) {
@@ -274,6 +280,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
             running--;
             completed.delete(n.spec.id);
             failed.set(n.spec.id, describeError(o.error));
+            failedIds.add(n.spec.id);
             settleNode(n);
           }
         }, (e) => abort(e instanceof Error ? e : new Error(String(e))));

@@ -49,6 +49,8 @@ export interface FlowProgress {
   failed: number;
   total: number;
   running: number;
+  /** The same counts per processor name (e.g. `zonal`: one per scene). */
+  byName?: Record<string, { done: number; failed: number; total: number }>;
 }
 
 export interface RunFlowOptions {

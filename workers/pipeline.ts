@@ -10,7 +10,7 @@ import { readDistricts, ruralRing, type District } from './core/districts/index.
 import type { DeriveOptions } from './core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from './core/derive/metrics.js';
 import { fingerprint, hashFile, listSceneFiles, readManifest, type ManifestEntry, type SceneKind } from './jobs/archive.js';
-import { readRuralReference } from './jobs/zonal-table.js';
+import { readMergedPolygons, readRuralReference } from './jobs/zonal-table.js';
 import { registryModuleUrl, THREADED_JOBS } from './jobs/registry.js';
 import { createPipelineRepo } from './jobs/repo.js';
 import type { IngestData } from './jobs/ingest.js';
@@ -82,19 +82,12 @@ async function storeIdentity(store: Store): Promise<string> {
 
 /** The rural ring without the water polygons of `waterPath` (GeoJSON; ids optional). */
 export async function subtractWater(ring: District, waterPath: string): Promise<District> {
-  const water = await readDistricts(waterPath, { idField: 'id' }).catch(async (e) => {
-    // water files rarely carry ids; read them as a rural-style reference
-    if ((e as Error).name !== 'InputError' || !/id/.test((e as Error).message)) throw e;
-    return [await readRuralReference(waterPath)];
-  });
+  const water = await readMergedPolygons(waterPath, 'water', 'water');
   const { default: difference } = await import('@turf/difference');
   const { featureCollection, multiPolygon } = await import('@turf/helpers');
-  let geometry = ring.geometry;
-  for (const w of water) {
-    const cut = difference(featureCollection([multiPolygon(geometry), multiPolygon(w.geometry)]));
-    if (!cut) throw new InputError('the water polygons cover the whole rural ring', waterPath);
-    geometry = cut.geometry.type === 'Polygon' ? [cut.geometry.coordinates as number[][][]] : (cut.geometry.coordinates as number[][][][]);
-  }
+  const cut = difference(featureCollection([multiPolygon(ring.geometry), multiPolygon(water.geometry)]));
+  if (!cut) throw new InputError('the water polygons cover the whole rural ring', waterPath);
+  const geometry = cut.geometry.type === 'Polygon' ? [cut.geometry.coordinates as number[][][]] : (cut.geometry.coordinates as number[][][][]);
   const { ellipsoidalAreaSquareMetres } = await import('./core/districts/index.js');
   return { ...ring, geometry, areaSquareMetres: ellipsoidalAreaSquareMetres(geometry) };
 }
@@ -111,7 +104,7 @@ export function buildFlow(args: {
   files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[];
   targetIds: string[];
   params: Record<string, unknown>;
-  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds' | 'qa'>;
+  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds' | 'targetsKey' | 'qa'>;
   derive: Omit<DeriveData, 'runId'>;
   qaMaskBits?: number;
 }): JobSpec {
@@ -119,7 +112,7 @@ export function buildFlow(args: {
   const children: JobSpec[] = args.files.map((f) => {
     const ingestData: IngestData = { path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind };
     const qa = f.manifest?.qa && args.qaMaskBits !== undefined ? { path: f.manifest.qa, maskBits: args.qaMaskBits } : undefined;
-    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, qa };
+    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, targetsKey, qa };
     return {
       name: 'zonal',
       id: deriveJobId('zonal', args.identity, f.contentHash, targetsKey),

@@ -156,3 +156,34 @@ describe('progress in scenes', () => {
     expect(progressOf(done, failed, totals, 0).byName!.ingest.failed).toBe(0);
   });
 });
+
+describe('zonal processor in a long-lived worker', () => {
+  it('uses the districts of the run at hand, not geometry cached from an earlier run', async () => {
+    const { zonal } = await import('../../workers/jobs/zonal.js');
+    const { crsDefinitionForEpsg, makeTransformer } = await import('../../workers/core/crs/index.js');
+    const path = join(dir, 'halves.tif');
+    // left half DN 40000, right half DN 50000 (x 0.00341802 + 149 K: 285.72 K and 319.90 K)
+    const data = new Uint16Array(32 * 32).map((_, i) => (i % 32 < 16 ? 40000 : 50000));
+    await writeGeoTiff(path, {
+      width: 32, height: 32, data, epsg: 32625, transform: { a: 100, b: 0, c: 300000, d: 0, e: -100, f: 4900000 },
+      nodata: 0, scale: 0.00341802, offset: 149, layout: { tiled: true, tileWidth: 16, tileHeight: 16 }, compression: 'deflate', predictor: 2,
+    });
+    const toLonLat = makeTransformer(crsDefinitionForEpsg(32625), crsDefinitionForEpsg(4326));
+    const box = (x0: number, x1: number) => ({ type: 'Polygon', coordinates: [[[x0, 4897000], [x1, 4897000], [x1, 4899500], [x0, 4899500], [x0, 4897000]].map(([x, y]) => toLonLat(x, y))] });
+    let geometry = box(300200, 301400); // inside the left half
+    const written: { rows: { districtId: string; meanKelvin: number | null }[] }[] = [];
+    const repo = {
+      listDistricts: async () => [{ id: 'd', geometry }],
+      replaceZonalStats: async (_id: number, rows: { districtId: string; meanKelvin: number | null }[]) => { written.push({ rows }); return rows.length; },
+      markSceneFailed: async () => 0,
+    } as unknown as PipelineRepo;
+    const ctx = (id: string): JobContext<PipelineRepo> => ({ jobId: id, name: 'zonal', childrenValues: { i: { sceneId: 1, kind: 'lst', pass: 'day', acquiredAt: null, alreadyStored: false } }, failedChildren: [], repo, log: () => undefined, attempt: 1 });
+    const base = { runId: 1, contentHash: 'c'.repeat(64), path, targetIds: ['d'], coverage: 'centre' as const, plausibleKelvin: [170, 360] as [number, number] };
+    await zonal({ ...base, targetsKey: 'run-1' }, ctx('z1'));
+    geometry = box(301800, 303000); // the district redrawn inside the right half
+    await zonal({ ...base, targetsKey: 'run-2' }, ctx('z2'));
+    // DN * 0.00341802 + 149 (Landsat C2 ST scaling): 40000 -> 285.7208 K, 50000 -> 319.901 K (derived)
+    expect(written[0].rows[0].meanKelvin).toBeCloseTo(40000 * 0.00341802 + 149, 9);
+    expect(written[1].rows[0].meanKelvin).toBeCloseTo(50000 * 0.00341802 + 149, 9);
+  });
+});

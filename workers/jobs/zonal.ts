@@ -4,14 +4,13 @@
  * CRS (cached for the life of the process or thread). Stored in one
  * transaction per scene, replacing what the scene had.
  */
-import { InputError } from '../core/errors.js';
 import { openRaster, type RasterFile } from '../core/raster/index.js';
-import { crsDefinitionForEpsg, reprojectGeometry } from '../core/crs/index.js';
+import { reprojectGeometry } from '../core/crs/index.js';
 import { zonalScene, type ZonalTarget } from '../core/zonal/index.js';
 import type { JobContext } from '../queue/types.js';
 import type { PipelineRepo } from './repo.js';
 import type { IngestResult } from './ingest.js';
-import { GEOJSON_CRS } from './zonal-table.js';
+import { GEOJSON_CRS, rasterCrs } from './zonal-table.js';
 
 export interface ZonalData {
   runId: number;
@@ -19,6 +18,8 @@ export interface ZonalData {
   path: string;
   /** Ids of the districts (and rural reference) of this run. */
   targetIds: string[];
+  /** Fingerprint of the targets' geometries and the run's parameters: cached geometries are valid for one key. */
+  targetsKey: string;
   coverage: 'centre' | 'fraction';
   plausibleKelvin: [number, number] | null;
   qa?: { path: string; maskBits?: number; maskValues?: number[] };
@@ -33,10 +34,18 @@ export interface ZonalResult {
 }
 
 type Geometry = number[][][][];
+// Per process (or thread): a long-lived worker serves run after run, so the
+// caches hold one targets key at a time; a job with another key (districts
+// redrawn since) starts them afresh rather than using old geometry.
+let cacheKey: string | null = null;
 const lonLatCache = new Map<string, Geometry>();
 const projectedCache = new Map<string, Map<string, Geometry>>();
 
-async function targetsFor(repo: PipelineRepo, ids: readonly string[], crs: string): Promise<ZonalTarget[]> {
+async function targetsFor(repo: PipelineRepo, ids: readonly string[], crs: string, key: string): Promise<ZonalTarget[]> {
+  if (key !== cacheKey) {
+    clearDistrictCache();
+    cacheKey = key;
+  }
   const missing = ids.filter((id) => !lonLatCache.has(id));
   if (missing.length) {
     for (const d of await repo.listDistricts()) {
@@ -58,8 +67,9 @@ async function targetsFor(repo: PipelineRepo, ids: readonly string[], crs: strin
   });
 }
 
-/** Forget cached district geometries (after districts change in a long-lived worker). */
-export function clearDistrictCache(): void {
+/** Forget cached district geometries. */
+function clearDistrictCache(): void {
+  cacheKey = null;
   lonLatCache.clear();
   projectedCache.clear();
 }
@@ -79,9 +89,8 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
   let qa: RasterFile | null = null;
   try {
     const h = raster.header;
-    const crs = h.crsDefinition ?? (h.epsg != null ? crsDefinitionForEpsg(h.epsg) : null);
-    if (!crs) throw new InputError('has no coordinate reference system', data.path);
-    const targets = await targetsFor(repo, data.targetIds, crs);
+    const crs = rasterCrs(h);
+    const targets = await targetsFor(repo, data.targetIds, crs, data.targetsKey);
     if (data.qa) qa = await openRaster(data.qa.path);
     const results = await zonalScene(raster, targets, {
       coverage: data.coverage,

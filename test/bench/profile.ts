@@ -74,7 +74,7 @@ export async function profileZonalRun(rasterPath: string, districtsPath: string)
   const raster = new TimedRaster(await openRaster(rasterPath));
   const t2 = performance.now();
   try {
-    const crs = rasterCrs(raster);
+    const crs = rasterCrs(raster.header);
     const targets = districts.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) }));
     const t3 = performance.now();
     const results = await zonalScene(raster, targets, { coverage: 'centre', plausibleKelvin: [170, 360] });
@@ -106,7 +106,7 @@ export async function profileZonalRun(rasterPath: string, districtsPath: string)
 export async function loadTargets(rasterPath: string, districtsPath: string): Promise<{ targets: ZonalTarget[]; raster: RasterFile }> {
   const districts = await readDistricts(districtsPath, { idField: 'id', nameField: 'name' });
   const raster = await openRaster(rasterPath);
-  const crs = rasterCrs(raster);
+  const crs = rasterCrs(raster.header);
   return { targets: districts.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) })), raster };
 }
 

@@ -1,4 +1,5 @@
 /** Pieces the store-using commands share. */
+import { InputError } from '../core/errors.js';
 import { runtimeConfig, type RuntimeConfig } from '../config.js';
 import type { Store } from '../store/index.js';
 
@@ -16,3 +17,13 @@ export async function withStore<T>(opts: { dataDir?: string }, fn: (store: Store
 
 export const CAUTION_SHORT =
   'LST is surface (skin) temperature, not air temperature; these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+
+/** `--plausible min,max` (Kelvin) or `none`. */
+export function parsePlausible(text: string): [number, number] | null {
+  if (text === 'none') return null;
+  const parts = text.split(',').map((s) => Number(s.trim()));
+  if (parts.length !== 2 || !parts.every(Number.isFinite) || parts[0] >= parts[1]) {
+    throw new InputError(`--plausible needs "min,max" in Kelvin with min < max (or "none"), got "${text}"`);
+  }
+  return [parts[0], parts[1]];
+}

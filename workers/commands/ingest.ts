@@ -1,5 +1,6 @@
 import { InputError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../config.js';
+import { parsePlausible } from './common.js';
 import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
 import type { FlowProgress } from '../queue/types.js';
 
@@ -23,15 +24,6 @@ export interface IngestCommandOptions {
   dataDir?: string;
   json?: boolean;
   progress: boolean;
-}
-
-export function parsePlausible(text: string): [number, number] | null {
-  if (text === 'none') return null;
-  const parts = text.split(',').map((s) => Number(s.trim()));
-  if (parts.length !== 2 || !parts.every(Number.isFinite) || parts[0] >= parts[1]) {
-    throw new InputError(`--plausible needs "min,max" in Kelvin with min < max (or "none"), got "${text}"`);
-  }
-  return [parts[0], parts[1]];
 }
 
 /**

@@ -1,6 +1,7 @@
 import { InputError } from '../core/errors.js';
 import { formatRows, type OutputFormat, type Row } from '../format.js';
 import { zonalTable, ZONAL_FIELDS } from '../jobs/zonal-table.js';
+import { parsePlausible } from './common.js';
 
 interface ZonalCommandOptions {
   districts: string;
@@ -13,15 +14,6 @@ interface ZonalCommandOptions {
   coverage: 'centre' | 'fraction';
   plausible: string;
   format: OutputFormat;
-}
-
-function parsePlausible(text: string): [number, number] | null {
-  if (text === 'none') return null;
-  const parts = text.split(',').map((s) => Number(s.trim()));
-  if (parts.length !== 2 || !parts.every(Number.isFinite) || parts[0] >= parts[1]) {
-    throw new InputError(`--plausible needs "min,max" in Kelvin with min < max (or "none"), got "${text}"`);
-  }
-  return [parts[0], parts[1]];
 }
 
 function parseList(text: string, option: string): number[] {

@@ -4,11 +4,11 @@
  * elevation, day/night pass and timing rating.
  */
 import { basename } from 'node:path';
-import { InputError } from '../core/errors.js';
 import { pixelSize, pixelToMap } from '../core/raster/affine.js';
 import type { RasterHeader } from '../core/raster/index.js';
 import { crsDefinitionForEpsg, isGeographic, makeTransformer } from '../core/crs/index.js';
 import { classifyPass, rateTiming, type TimingRating } from '../core/solar/index.js';
+import { rasterCrs } from './zonal-table.js';
 import { SCENE_KINDS, type ManifestEntry, type SceneKind } from './archive.js';
 
 /** Kind of a scene: the manifest, then the caller's default, then a KIND metadata item, then the file name; else 'lst'. */
@@ -25,8 +25,7 @@ export function sceneKind(header: RasterHeader, manifest: ManifestEntry | undefi
 
 /** Lon/lat (WGS 84) of the raster's centre. */
 export function sceneCentreLonLat(header: RasterHeader): [number, number] {
-  const def = header.crsDefinition ?? (header.epsg != null ? crsDefinitionForEpsg(header.epsg) : null);
-  if (!def) throw new InputError('has no coordinate reference system (no GeoKeys)', header.path);
+  const def = rasterCrs(header);
   const [x, y] = pixelToMap(header.transform, header.width / 2, header.height / 2);
   if (isGeographic(def)) return [x, y];
   return makeTransformer(def, crsDefinitionForEpsg(4326))(x, y);

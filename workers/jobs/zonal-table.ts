@@ -5,6 +5,7 @@
 import { readFile } from 'node:fs/promises';
 import { InputError } from '../core/errors.js';
 import { openRaster, type RasterFile } from '../core/raster/reader.js';
+import type { RasterHeader } from '../core/raster/header.js';
 // Modules are imported directly rather than through their index files: fewer
 // files to load at start-up (the districts index would also bring in the
 // rural-ring and adjacency code and their geometry libraries, unused here).
@@ -43,39 +44,46 @@ export const ZONAL_FIELDS = ['district', 'pixels', 'valid', 'valid_fraction', 'm
 export const GEOJSON_CRS = crsDefinitionForEpsg(4326);
 
 /**
- * Read a rural reference file: any polygons, ids optional; merged into one
- * MultiPolygon district with id "rural".
+ * Read a GeoJSON file of any polygons, ids optional, merged into one
+ * MultiPolygon district (a rural reference, water to cut out, ...).
+ * @param what what the file is, for messages (e.g. "rural reference")
  */
-export async function readRuralReference(path: string): Promise<District> {
+export async function readMergedPolygons(path: string, id: string, what: string): Promise<District> {
   let text: string;
   try {
     text = await readFile(path, 'utf8');
   } catch (e) {
-    throw new InputError(`cannot read the rural reference file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+    throw new InputError(`cannot read the ${what} file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
   }
   let doc: unknown;
   try {
     doc = JSON.parse(text);
   } catch {
-    throw new InputError('is not JSON, so not a GeoJSON rural reference', path);
+    throw new InputError(`is not JSON, so not a GeoJSON ${what}`, path);
   }
   if (doc && typeof doc === 'object' && (doc as { type?: unknown }).type === 'FeatureCollection' && Array.isArray((doc as { features?: unknown }).features)) {
     (doc as { features: unknown[] }).features.forEach((f, i) => {
       if (f && typeof f === 'object') {
         const feat = f as { properties?: Record<string, unknown> | null };
-        feat.properties = { ...(feat.properties ?? {}), id: `rural-${i + 1}` };
+        feat.properties = { ...(feat.properties ?? {}), id: `${id}-${i + 1}` };
       }
     });
   }
   const parts = parseDistricts(JSON.stringify(doc), path, { idField: 'id' });
-  if (parts.length === 0) throw new InputError('holds no rural reference polygon', path);
+  if (parts.length === 0) throw new InputError(`holds no ${what} polygon`, path);
   return {
-    id: 'rural',
-    name: 'rural reference',
+    id,
+    name: what,
     geometry: parts.flatMap((p) => p.geometry),
-    properties: { role: 'rural' },
+    properties: {},
     areaSquareMetres: parts.reduce((s, p) => s + p.areaSquareMetres, 0),
   };
+}
+
+/** A rural reference file: its polygons as one district with id "rural". */
+export async function readRuralReference(path: string): Promise<District> {
+  const d = await readMergedPolygons(path, 'rural', 'rural reference');
+  return { ...d, properties: { role: 'rural' } };
 }
 
 /** Bounding box of MultiPolygon coordinates. */
@@ -90,12 +98,14 @@ export function geometryBBox(geometry: number[][][][]): BBox {
   return [x0, y0, x1, y1];
 }
 
-/** The raster's CRS definition, or an InputError naming the file. */
-export function rasterCrs(raster: RasterFile): string {
-  const h = raster.header;
-  if (h.crsDefinition) return h.crsDefinition;
-  if (h.epsg != null) return crsDefinitionForEpsg(h.epsg);
-  throw new InputError('has no coordinate reference system (no GeoKeys); assign one, e.g. with an EPSG code', h.path);
+/**
+ * The raster's CRS definition, or an InputError naming the file. The header
+ * has one whenever it has an EPSG code (an unknown code fails when it is read),
+ * so no CRS here means no GeoKeys at all.
+ */
+export function rasterCrs(header: RasterHeader): string {
+  if (header.crsDefinition) return header.crsDefinition;
+  throw new InputError('has no coordinate reference system (no GeoKeys); assign one, e.g. with an EPSG code', header.path);
 }
 
 /** Compute the table. Throws InputError for bad files or a raster that misses every district. */
@@ -108,7 +118,7 @@ export async function zonalTable(options: ZonalTableOptions): Promise<ZonalTable
   const raster = await openRaster(options.rasterPath);
   let qa: RasterFile | null = null;
   try {
-    const crs = rasterCrs(raster);
+    const crs = rasterCrs(raster.header);
     const all = rural ? [...districts, rural] : districts;
     const targets = all.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) }));
     const { width, height, transform } = raster.header;

@@ -212,7 +212,6 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
     const failed = new Map<string, string>();
     const pendingChildren = new Map<string, number>();
     let running = 0;
-    const total = nodes.length;
     const nameOf = (id: string) => byId.get(id)?.spec.name ?? '?';
     const doneIds = new NamedIdSet(nameOf);
     const failedIds = new NamedIdSet(nameOf);

@@ -9,6 +9,7 @@
  * caps a statement at 65 535 parameters) and the same SQL runs on both stores.
  */
 import type { Epsg, Kelvin, SquareMetres, UtcIso } from '../core/units.js';
+import type { AlbedoSource, DerivedRow as DerivedValues } from '../core/derive/metrics.js';
 import { namedQuery } from './queries.js';
 import type { Queryable, Store } from './store.js';
 
@@ -516,28 +517,14 @@ export function zonalStatsForScenes(db: Db, sceneIds: number[]): Promise<ZonalSt
 // ---------------------------------------------------------------------------
 // derived metrics
 
-export type AlbedoSource = 'scene' | 'archive-raster' | 'property';
+export type { AlbedoSource };
 
-/** One district's derived values for one day scene (and its night pair). */
-export interface DerivedInput {
-  /** 'YYYY-MM-DD'. */
-  obsDate: string;
-  districtId: string;
-  /** Null for a night pass no day pass was paired with (then nightSceneId is set). */
-  daySceneId: number | null;
-  nightSceneId: number | null;
-  albedoSceneId: number | null;
-  albedoSource: AlbedoSource | null;
-  tDayKelvin: Kelvin | null;
-  tNightKelvin: Kelvin | null;
-  /** Broadband albedo, 0..1. */
-  albedo: number | null;
-  /** ATI, K⁻¹. */
-  atiPerKelvin: number | null;
-  suhiDayKelvin: Kelvin | null;
-  suhiNightKelvin: Kelvin | null;
-  /** 'ok', or the main reason values are missing ('low valid fraction', 'no albedo', 'no night pair', ...). */
-  status: string;
+/**
+ * One district's derived values for one day scene and its night pair (or a
+ * night pass alone): the derive step's row, with the stored reason and run.
+ */
+export interface DerivedInput extends DerivedValues {
+  /** The reasons values are missing, when status is not 'ok'. */
   reason?: string | null;
   runId?: number | null;
 }

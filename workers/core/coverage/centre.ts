@@ -4,7 +4,7 @@
  */
 import type { Affine } from '../raster/affine.js';
 import type { CentreMask } from './types.js';
-import { checkRasterSize, toPixelSpace, type PixelPolygon } from './pixelspace.js';
+import { checkRasterSize, ringTwiceArea, toPixelSpace, type PixelPolygon } from './pixelspace.js';
 
 /**
  * Crossings of one polygon's edges with the centre lines y = r + 0.5 of rows
@@ -69,11 +69,7 @@ function horizontalFills(poly: PixelPolygon, detSign: number, r0: number, r1: nu
   const { xs, ys, ringStarts } = poly;
   for (let k = 0; k + 1 < ringStarts.length; k++) {
     const s = ringStarts[k], e = ringStarts[k + 1];
-    let twiceArea = 0;
-    for (let i = s; i < e; i++) {
-      const j = i + 1 < e ? i + 1 : s;
-      twiceArea += (xs[i] - xs[s]) * (ys[j] - ys[s]) - (xs[j] - xs[s]) * (ys[i] - ys[s]);
-    }
+    const twiceArea = ringTwiceArea(xs, ys, s, e);
     // Map-space orientation = pixel-space orientation times the sign of det(transform).
     const reversed = twiceArea * detSign > 0; // counter-clockwise in map space
     for (let i = s; i < e; i++) {

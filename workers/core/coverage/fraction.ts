@@ -4,7 +4,7 @@
  */
 import type { Affine } from '../raster/affine.js';
 import type { FractionMask } from './types.js';
-import { checkRasterSize, toPixelSpace } from './pixelspace.js';
+import { checkRasterSize, ringTwiceArea, toPixelSpace } from './pixelspace.js';
 
 /** Fractions below this are rounding residue of the signed-area sums, not area. */
 const ZERO_FRACTION = 1e-9;
@@ -160,11 +160,7 @@ export function fractionMask(
       const s = ringStarts[k], e = ringStarts[k + 1];
       // Shoelace sign (pixel space, y down). A positive-shoelace ring
       // accumulates -1 inside, so shells use -sign and holes +sign.
-      let twiceArea = 0;
-      for (let i = s; i < e; i++) {
-        const j = i + 1 < e ? i + 1 : s;
-        twiceArea += (xs[i] - xs[s]) * (ys[j] - ys[s]) - (xs[j] - xs[s]) * (ys[i] - ys[s]);
-      }
+      const twiceArea = ringTwiceArea(xs, ys, s, e);
       if (twiceArea === 0) continue;
       const orient = twiceArea > 0 ? 1 : -1;
       const sign = k === 0 ? -orient : orient;

@@ -137,3 +137,17 @@ export function checkRasterSize(width: number, height: number, source?: string):
     throw new InputError(`raster size ${width} x ${height} is not a positive whole number of pixels`, source);
   }
 }
+
+/**
+ * Twice the signed (shoelace) area of ring [s, e) of a pixel-space polygon,
+ * relative to its first vertex for precision; positive for counter-clockwise
+ * in pixel space (y down).
+ */
+export function ringTwiceArea(xs: ArrayLike<number>, ys: ArrayLike<number>, s: number, e: number): number {
+  let twiceArea = 0;
+  for (let i = s; i < e; i++) {
+    const j = i + 1 < e ? i + 1 : s;
+    twiceArea += (xs[i] - xs[s]) * (ys[j] - ys[s]) - (xs[j] - xs[s]) * (ys[i] - ys[s]);
+  }
+  return twiceArea;
+}

@@ -11,6 +11,7 @@
  */
 import { nearestAlbedo, pairDayNight, utcDate, type TimedScene } from './pairing.js';
 import { atiWithReason } from '../thermal/index.js';
+import type { Kelvin } from '../units.js';
 
 export interface SceneInfo extends TimedScene {
   kind: 'lst' | 'albedo' | 'qa';
@@ -52,19 +53,24 @@ export interface DeriveInput {
 
 export type AlbedoSource = 'scene' | 'archive-raster' | 'property';
 
+/** One district's derived values for one day scene and its night pair, or a night pass alone. */
 export interface DerivedRow {
+  /** 'YYYY-MM-DD', the UTC date of the day pass (of the night pass for a night-only row). */
   obsDate: string;
   districtId: string;
+  /** Null for a night pass no day pass was paired with (then nightSceneId is set). */
   daySceneId: number | null;
   nightSceneId: number | null;
   albedoSceneId: number | null;
   albedoSource: AlbedoSource | null;
-  tDayKelvin: number | null;
-  tNightKelvin: number | null;
+  tDayKelvin: Kelvin | null;
+  tNightKelvin: Kelvin | null;
+  /** Broadband albedo, 0..1. */
   albedo: number | null;
+  /** ATI, K⁻¹. */
   atiPerKelvin: number | null;
-  suhiDayKelvin: number | null;
-  suhiNightKelvin: number | null;
+  suhiDayKelvin: Kelvin | null;
+  suhiNightKelvin: Kelvin | null;
   /** 'ok', or the reasons a value is missing, joined by '; '. */
   status: string;
 }

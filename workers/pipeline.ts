@@ -18,7 +18,8 @@ import type { ZonalData } from './jobs/zonal.js';
 import type { DeriveData, DeriveResult } from './jobs/derive.js';
 import { deriveJobId } from './queue/tree.js';
 import type { FlowProgress, JobFailure, JobSpec, Runner } from './queue/types.js';
-import { openStore, type Store } from './store/index.js';
+import type { Store } from './store/index.js';
+import { openConfiguredStore } from './store/configured.js';
 import { startRun, finishRun, upsertDistricts } from './store/repo.js';
 import { runtimeConfig, type RuntimeConfig, ENV } from './config.js';
 import { VERSION } from './version.js';
@@ -60,14 +61,6 @@ export interface PipelineSummary {
   failures: JobFailure[];
   derive: DeriveResult | null;
   seconds: number;
-}
-
-/** The store for a configuration: a PostgreSQL server when DATABASE_URL is set, else PGlite in dataDir. */
-export async function openConfiguredStore(config: RuntimeConfig): Promise<Store> {
-  if (config.mode === 'distributed' && !config.databaseUrl) {
-    throw new InputError(`${ENV.redisUrl} is set (distributed mode) but ${ENV.databaseUrl} is not: workers on several machines need one PostgreSQL server`);
-  }
-  return config.databaseUrl ? openStore({ databaseUrl: config.databaseUrl }) : openStore({ dataDir: config.dataDir });
 }
 
 /** Store identity: part of every job id, so a fresh database never inherits another's completed jobs. */

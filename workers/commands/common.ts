@@ -6,7 +6,7 @@ import type { Store } from '../store/index.js';
 /** Open the configured store (embedded PGlite in --data-dir, or DATABASE_URL), run `fn`, close. */
 export async function withStore<T>(opts: { dataDir?: string }, fn: (store: Store, config: RuntimeConfig) => Promise<T>): Promise<T> {
   const config = runtimeConfig({ dataDir: opts.dataDir });
-  const { openConfiguredStore } = await import('../pipeline.js');
+  const { openConfiguredStore } = await import('../store/configured.js');
   const store = await openConfiguredStore(config);
   try {
     return await fn(store, config);

@@ -34,7 +34,8 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     process.stderr.write(`Using the demo archive in ${archive}\n`);
   }
   const config = runtimeConfig({ dataDir: opts.dataDir });
-  const { runPipeline, openConfiguredStore } = await import('../pipeline.js');
+  const { runPipeline } = await import('../pipeline.js');
+  const { openConfiguredStore } = await import('../store/configured.js');
   process.stderr.write(`Running the pipeline (${config.mode}; results in ${config.databaseUrl ? 'the PostgreSQL server' : resolve(config.dataDir)}) ...\n`);
   const summary = await runPipeline({ inputs: [archive], districtsPath, threads: opts.threads }, config);
   process.stdout.write(summaryLines(summary).join('\n') + '\n');

@@ -10,7 +10,7 @@ import { Command, CommanderError, Option } from 'commander';
 import { isInputError } from './core/errors.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
-import { DEFAULT_DATA_DIR, ENV } from './config.js';
+import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
 
 const CAUTION =
   'LST is land-surface (skin) temperature, not air temperature. Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
@@ -146,8 +146,8 @@ export function buildProgram(): Command {
   program
     .command('serve')
     .description('HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).')
-    .option('--port <port>', `port (default ${'$'}{ENV.apiPort} or 8080)`, parseInteger('--port'))
-    .option('--host <host>', `address to listen on (default ${'$'}{ENV.apiHost} or 127.0.0.1)`)
+    .option('--port <port>', `port (default: $${ENV.apiPort}, else ${DEFAULT_API_PORT})`, parseInteger('--port'))
+    .option('--host <host>', `address to listen on (default: $${ENV.apiHost}, else 127.0.0.1)`)
     .addOption(dataDirOption())
     .action(async (opts) => {
       const { runServeCommand } = await import('./commands/serve.js');

@@ -146,16 +146,21 @@ export async function startRun(db: Db, run: RunInput): Promise<number> {
   return rows[0].id;
 }
 
-/** Record the end of run `runId`: 'succeeded', or 'failed' with the reason. */
+/** How a run ended (see sql/migrations/004_run_states.sql for what each state means). */
+export type RunEndState = 'succeeded' | 'incomplete' | 'failed' | 'interrupted' | 'abandoned';
+export type RunState = 'running' | RunEndState;
+
+/** Record the end of run `runId`: its state, the reason (when not 'succeeded') and the scenes left unfinished. */
 export async function finishRun(
   db: Db,
   runId: number,
-  outcome: { status: 'succeeded' | 'failed'; error?: string | null },
+  outcome: { status: RunEndState; error?: string | null; scenesLeft?: number | null },
 ): Promise<void> {
-  await db.query(`UPDATE runs SET finished_at = now(), status = $2, error = $3 WHERE id = $1`, [
+  await db.query(`UPDATE runs SET finished_at = now(), status = $2, error = $3, scenes_left = $4 WHERE id = $1`, [
     runId,
     outcome.status,
     outcome.error ?? null,
+    outcome.scenesLeft ?? null,
   ]);
 }
 
@@ -166,7 +171,7 @@ export interface RunRow {
   softwareVersion: string;
   mode: 'embedded' | 'distributed';
   parameters: RunParameters;
-  status: 'running' | 'succeeded' | 'failed';
+  status: RunState;
   error: string | null;
 }
 

@@ -4,7 +4,7 @@
  */
 import { InputError } from '../errors.js';
 import type { Kelvin } from '../units.js';
-import { requireBetween, requireFinite, requirePositive } from './checks.js';
+import { requireBetween, requireFinite, requirePositive } from '../checks.js';
 
 const DEG = Math.PI / 180;
 

@@ -33,14 +33,16 @@ export interface Window {
 
 /**
  * Affine from a GDAL geotransform array [c, a, b, f, d, e].
+ * @throws InputError naming `source` when the array does not hold 6 numbers
  * @example fromGdal([500000, 30, 0, 4200000, 0, -30]).a === 30
  */
-export function fromGdal(gt: readonly number[]): Affine {
-  if (gt.length !== 6) throw new Error(`geotransform needs 6 numbers, got ${gt.length}`);
+export function fromGdal(gt: readonly number[], source?: string): Affine {
+  if (gt.length !== 6) throw new InputError(`a geotransform needs 6 numbers, got ${gt.length}`, source);
   const [c, a, b, f, d, e] = gt;
   return { a, b, c, d, e, f };
 }
 
+/** GDAL geotransform array [c, a, b, f, d, e] of an affine. */
 export function toGdal(t: Affine): [number, number, number, number, number, number] {
   return [t.c, t.a, t.b, t.f, t.d, t.e];
 }

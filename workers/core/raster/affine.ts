@@ -60,9 +60,10 @@ export function pixelToMap(t: Affine, col: number, row: number): [number, number
  * Inverse of {@link pixelToMap}: the transform from map coordinates to
  * fractional pixel coordinates.
  *
- * A north-up transform (b = d = 0) is inverted axis by axis (1 / a, 1 / e), so
- * a map coordinate that lies exactly on a pixel centre lands exactly on x.5 in
- * pixel space; a rotated one through the determinant. A transform that is not
+ * A north-up transform (b = d = 0) is inverted axis by axis (1 / a, 1 / e), as
+ * GDAL's GDALInvGeoTransform does, so a map coordinate that lies exactly on a
+ * pixel centre lands exactly on x.5 in pixel space, as in GDAL's rasterizer;
+ * a rotated one through the determinant. A transform that is not
  * finite, or whose determinant vanishes next to its pixel size (zero or
  * collinear pixel axes), is refused.
  * @param source file the transform comes from, named in the InputError

@@ -2,9 +2,9 @@
  * Centre rule: a cell belongs to a polygon when its centre is inside
  * (GDAL rasterize with ALL_TOUCHED=FALSE), computed by scanline fill.
  */
-import type { Affine } from '../raster/affine.js';
+import type { Affine, Window } from '../raster/affine.js';
 import type { CentreMask } from './types.js';
-import { checkRasterSize, ringTwiceArea, toPixelSpace, type PixelPolygon } from './pixelspace.js';
+import { checkRasterSize, ringTwiceArea, toPixelSpace, type PixelGeometry, type PixelPolygon } from './pixelspace.js';
 
 /**
  * Crossings of one polygon's edges with the centre lines y = r + 0.5 of rows
@@ -129,19 +129,58 @@ export function centreMask(
   const r0 = Math.max(0, Math.ceil(g.minY - 0.5));
   // r + 0.5 <= maxY: the last row can hold only a horizontal edge's fill.
   const r1 = Math.min(height, Math.floor(g.maxY + 0.5));
-  const fallbackWindow = () => {
-    const c0 = Math.max(0, Math.floor(g.minX)), c1 = Math.min(width, Math.ceil(g.maxX));
-    const q0 = Math.max(0, Math.floor(g.minY)), q1 = Math.min(height, Math.ceil(g.maxY));
-    return { colOff: c0, rowOff: q0, width: Math.max(1, c1 - c0), height: Math.max(1, q1 - q0) };
-  };
-  if (r1 <= r0) return emptyMask(fallbackWindow());
+  if (r1 <= r0) return emptyMask(extentWindow(g, width, height));
 
-  const rows = r1 - r0;
   const parts = g.polygons.map((p) => rowCrossings(p, r0, r1));
   const detSign = Math.sign(transform.a * transform.e - transform.b * transform.d);
-  const fills: number[] = [];
-  for (const p of g.polygons) horizontalFills(p, detSign, r0, r1, fills);
-  const fillOrder = Array.from({ length: fills.length / 3 }, (_, i) => i).sort((p, q) => fills[3 * p] - fills[3 * q]);
+  const fills = horizontalFillsByRow(g.polygons, detSign, r0, r1);
+  const rows = rowSpans(parts, fills, r0, r1 - r0, width);
+  if (rows.ints === 0) return emptyMask(extentWindow(g, width, height));
+  return tightMask(rows, r0);
+}
+
+/** The polygon's pixel extent on the raster (at least 1 x 1): the window of a mask that holds no cell. */
+function extentWindow(g: PixelGeometry, width: number, height: number): Window {
+  const c0 = Math.max(0, Math.floor(g.minX)), c1 = Math.min(width, Math.ceil(g.maxX));
+  const q0 = Math.max(0, Math.floor(g.minY)), q1 = Math.min(height, Math.ceil(g.maxY));
+  return { colOff: c0, rowOff: q0, width: Math.max(1, c1 - c0), height: Math.max(1, q1 - q0) };
+}
+
+/** Horizontal-edge fills of all parts as (row, colStart, colEnd) triples, and their order by row. */
+interface RowFills {
+  readonly triples: number[];
+  /** Triple indices sorted by row. */
+  readonly order: number[];
+}
+
+function horizontalFillsByRow(polygons: readonly PixelPolygon[], detSign: number, r0: number, r1: number): RowFills {
+  const triples: number[] = [];
+  for (const p of polygons) horizontalFills(p, detSign, r0, r1, triples);
+  const order = Array.from({ length: triples.length / 3 }, (_, i) => i).sort((p, q) => triples[3 * p] - triples[3 * q]);
+  return { triples, order };
+}
+
+/** Merged spans of rows r0 .. r0 + rows - 1, before tightening. */
+interface RowSpans {
+  /** Flat [colStart, colEnd) pairs; the first `ints` entries are used. */
+  readonly spans: Int32Array;
+  readonly ints: number;
+  /** Pair index where each row starts; length rows + 1. */
+  readonly rowStart: Uint32Array;
+  readonly rows: number;
+}
+
+/**
+ * Each row's spans: the column ranges between alternate crossings of every
+ * part plus the horizontal-edge fills, clipped to the raster, sorted and
+ * merged (union across parts; [a, b) [b, c) joined).
+ *
+ * This is the per-row inner loop of every district on every scene, kept as
+ * one function on purpose: typed arrays reused across rows, no allocation per
+ * row or per span, no closures.
+ */
+function rowSpans(parts: readonly { offsets: Uint32Array; xs: Float64Array }[], fills: RowFills, r0: number, rows: number, width: number): RowSpans {
+  const { triples, order } = fills;
   let nextFill = 0;
   // Spans per row, in a growable Int32Array; worst case is one span per crossing pair.
   let capacity = 0;
@@ -162,17 +201,17 @@ export function centreMask(
         if (cs < 0) cs = 0;
         if (ce > width) ce = width;
         if (ce <= cs) continue;
-        if (m + 2 > tmp.length) { const t = new Int32Array(tmp.length * 2); t.set(tmp); tmp = t; }
+        if (m + 2 > tmp.length) tmp = doubled(tmp);
         tmp[m++] = cs;
         tmp[m++] = ce;
       }
     }
     let filled = false;
-    while (nextFill < fillOrder.length && fills[3 * fillOrder[nextFill]] === r0 + r) {
-      const f = 3 * fillOrder[nextFill++];
-      const cs = Math.max(0, fills[f + 1]), ce = Math.min(width, fills[f + 2]);
+    while (nextFill < order.length && triples[3 * order[nextFill]] === r0 + r) {
+      const f = 3 * order[nextFill++];
+      const cs = Math.max(0, triples[f + 1]), ce = Math.min(width, triples[f + 2]);
       if (ce <= cs) continue;
-      if (m + 2 > tmp.length) { const t = new Int32Array(tmp.length * 2); t.set(tmp); tmp = t; }
+      if (m + 2 > tmp.length) tmp = doubled(tmp);
       tmp[m++] = cs;
       tmp[m++] = ce;
       filled = true;
@@ -185,17 +224,19 @@ export function centreMask(
     for (let i = 2; i < m; i += 2) {
       const s = tmp[i], e = tmp[i + 1];
       if (s <= curE) { if (e > curE) curE = e; continue; }
-      if (n + 2 > spans.length) { const t = new Int32Array(spans.length * 2); t.set(spans); spans = t; }
+      if (n + 2 > spans.length) spans = doubled(spans);
       spans[n++] = curS; spans[n++] = curE;
       curS = s; curE = e;
     }
-    if (n + 2 > spans.length) { const t = new Int32Array(spans.length * 2); t.set(spans); spans = t; }
+    if (n + 2 > spans.length) spans = doubled(spans);
     spans[n++] = curS; spans[n++] = curE;
   }
   rowStart[rows] = n >> 1;
-  if (n === 0) return emptyMask(fallbackWindow());
+  return { spans, ints: n, rowStart, rows };
+}
 
-  // Tighten to the rows and columns that hold cells.
+/** The mask tightened to the rows and columns that hold cells (needs at least one span). */
+function tightMask({ spans, ints: n, rowStart, rows }: RowSpans, r0: number): CentreMask {
   let first = 0, last = rows - 1;
   while (rowStart[first + 1] === rowStart[first]) first++;
   while (rowStart[last + 1] === rowStart[last]) last--;
@@ -217,7 +258,14 @@ export function centreMask(
   };
 }
 
-function emptyMask(window: { colOff: number; rowOff: number; width: number; height: number }): CentreMask {
+/** A copy of `a` with twice the room. */
+function doubled(a: Int32Array): Int32Array<ArrayBuffer> {
+  const t = new Int32Array(a.length * 2);
+  t.set(a);
+  return t;
+}
+
+function emptyMask(window: Window): CentreMask {
   return { window, rowOffsets: new Uint32Array(window.height + 1), spans: new Int32Array(0), count: 0 };
 }
 

@@ -5,5 +5,5 @@
 export type { CentreMask, FractionMask } from './types.js';
 export { centreMask } from './centre.js';
 export { fractionMask } from './fraction.js';
-export { inverseGeoTransform, toPixelSpace } from './pixelspace.js';
+export { toPixelSpace } from './pixelspace.js';
 export type { PixelGeometry, PixelPolygon } from './pixelspace.js';

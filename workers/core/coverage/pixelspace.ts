@@ -4,7 +4,7 @@
  * (col + 0.5, row + 0.5). Both coverage rules work there, so a rotated
  * geotransform needs no special case.
  */
-import type { Affine } from '../raster/affine.js';
+import { invert, type Affine } from '../raster/affine.js';
 import { InputError } from '../errors.js';
 
 /** One polygon in pixel space: all rings' vertices back to back (closing vertex dropped). */
@@ -27,31 +27,10 @@ export interface PixelGeometry {
 }
 
 /**
- * Inverse of a geotransform, written the way GDAL's GDALInvGeoTransform is
- * (from memory): the unrotated case inverts each axis on its own (1 / a), so
- * a vertex that lies exactly on a pixel centre in map units lands exactly on
- * x.5 in pixel units, as it does in GDAL's rasterizer.
+ * @deprecated The one inverse geotransform is `invert` in raster/affine.ts;
+ * this name stays only until its last importer moves to it.
  */
-export function inverseGeoTransform(t: Affine, source?: string): Affine {
-  const finite = [t.a, t.b, t.c, t.d, t.e, t.f].every(Number.isFinite);
-  if (finite && t.b === 0 && t.d === 0 && t.a !== 0 && t.e !== 0) {
-    return { a: 1 / t.a, b: 0, c: -t.c / t.a, d: 0, e: 1 / t.e, f: -t.f / t.e };
-  }
-  const det = t.a * t.e - t.b * t.d;
-  const magnitude = Math.max(Math.abs(t.a), Math.abs(t.b), Math.abs(t.d), Math.abs(t.e));
-  if (!finite || !Number.isFinite(det) || Math.abs(det) <= 1e-10 * magnitude * magnitude) {
-    throw new InputError('the raster geotransform is singular or not finite, so polygons cannot be placed on its pixels', source);
-  }
-  const inv = 1 / det;
-  return {
-    a: t.e * inv,
-    b: -t.b * inv,
-    c: (t.b * t.f - t.c * t.e) * inv,
-    d: -t.d * inv,
-    e: t.a * inv,
-    f: (-t.a * t.f + t.c * t.d) * inv,
-  };
-}
+export const inverseGeoTransform: (t: Affine, source?: string) => Affine = invert;
 
 function describe(p: number, r: number): string {
   return `ring ${r + 1} of polygon ${p + 1}`;
@@ -74,7 +53,7 @@ export function toPixelSpace(geometry: unknown, transform: Affine, source?: stri
   if (!Array.isArray(geometry)) {
     throw new InputError('geometry coordinates are not a list of polygons', source);
   }
-  const inv = inverseGeoTransform(transform, source);
+  const inv = invert(transform, source);
   const polygons: PixelPolygon[] = [];
   let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
   for (let p = 0; p < geometry.length; p++) {

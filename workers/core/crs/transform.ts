@@ -4,7 +4,7 @@
  */
 import { proj4, type Converter } from './proj4.js';
 import { InputError } from '../errors.js';
-import type { BBox } from '../raster/affine.js';
+import type { BBox } from '../bbox.js';
 
 /** A point transformer: (x, y) in the source CRS -> [x, y] in the target CRS. */
 export type PointTransformer = (x: number, y: number) => [number, number];

@@ -12,6 +12,7 @@
 import { nearestAlbedo, pairDayNight, utcDate, type TimedScene } from './pairing.js';
 import { atiWithReason } from '../thermal/index.js';
 import type { Kelvin } from '../units.js';
+import { ALBEDO_WINDOW_DAYS, ATI_MIN_DIFFERENCE_KELVIN, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS } from '../defaults.js';
 
 export interface SceneInfo extends TimedScene {
   kind: 'lst' | 'albedo' | 'qa';
@@ -33,12 +34,12 @@ export interface DeriveOptions {
   minDifferenceKelvin: number;
 }
 
-export const DEFAULT_DERIVE_OPTIONS: DeriveOptions = {
-  pairingWindowHours: 18,
-  albedoWindowDays: 32,
-  minValidFraction: 0.5,
-  minDifferenceKelvin: 0.5,
-};
+export const DEFAULT_DERIVE_OPTIONS: Readonly<DeriveOptions> = Object.freeze({
+  pairingWindowHours: PAIRING_WINDOW_HOURS,
+  albedoWindowDays: ALBEDO_WINDOW_DAYS,
+  minValidFraction: MIN_VALID_FRACTION,
+  minDifferenceKelvin: ATI_MIN_DIFFERENCE_KELVIN,
+});
 
 export interface DeriveInput {
   scenes: readonly SceneInfo[];

@@ -11,6 +11,8 @@
  *
  * Albedo: the albedo scene nearest in time within a window (default 32 days).
  */
+import { requirePositive } from '../checks.js';
+import { ALBEDO_WINDOW_DAYS, PAIRING_WINDOW_HOURS } from '../defaults.js';
 
 export interface TimedScene {
   id: number;
@@ -44,16 +46,16 @@ function nearestWithin<T extends TimedScene>(target: TimedScene, candidates: rea
  * @returns map from day scene id to the paired night scene (or null when none is within the window)
  * @example pairDayNight([{id:1, acquiredAt:'2024-07-01T13:30:00Z'}], [{id:2, acquiredAt:'2024-07-02T01:30:00Z'}]).get(1)?.id === 2
  */
-export function pairDayNight<T extends TimedScene>(days: readonly TimedScene[], nights: readonly T[], windowHours = 18): Map<number, T | null> {
-  if (!(windowHours > 0)) throw new RangeError(`pairing window must be positive hours, got ${windowHours}`);
+export function pairDayNight<T extends TimedScene>(days: readonly TimedScene[], nights: readonly T[], windowHours = PAIRING_WINDOW_HOURS): Map<number, T | null> {
+  requirePositive(windowHours, 'pairing window (hours)', 'pairDayNight');
   const out = new Map<number, T | null>();
   for (const d of days) out.set(d.id, nearestWithin(d, nights, windowHours * HOUR_MS));
   return out;
 }
 
 /** The albedo scene nearest in time to `scene` within `windowDays`, or null. */
-export function nearestAlbedo<T extends TimedScene>(scene: TimedScene, albedo: readonly T[], windowDays = 32): T | null {
-  if (!(windowDays > 0)) throw new RangeError(`albedo window must be positive days, got ${windowDays}`);
+export function nearestAlbedo<T extends TimedScene>(scene: TimedScene, albedo: readonly T[], windowDays = ALBEDO_WINDOW_DAYS): T | null {
+  requirePositive(windowDays, 'albedo window (days)', 'nearestAlbedo');
   return nearestWithin(scene, albedo, windowDays * 24 * HOUR_MS);
 }
 

@@ -10,6 +10,10 @@
  *
  * GDAL's geotransform [GT0..GT5] is [c, a, b, f, d, e].
  */
+import { InputError } from '../errors.js';
+import type { BBox } from '../bbox.js';
+
+export type { BBox } from '../bbox.js';
 export interface Affine {
   readonly a: number;
   readonly b: number;
@@ -27,19 +31,18 @@ export interface Window {
   readonly height: number;
 }
 
-/** Map-coordinate bounding box [minX, minY, maxX, maxY]. */
-export type BBox = readonly [number, number, number, number];
-
 /**
  * Affine from a GDAL geotransform array [c, a, b, f, d, e].
+ * @throws InputError naming `source` when the array does not hold 6 numbers
  * @example fromGdal([500000, 30, 0, 4200000, 0, -30]).a === 30
  */
-export function fromGdal(gt: readonly number[]): Affine {
-  if (gt.length !== 6) throw new Error(`geotransform needs 6 numbers, got ${gt.length}`);
+export function fromGdal(gt: readonly number[], source?: string): Affine {
+  if (gt.length !== 6) throw new InputError(`a geotransform needs 6 numbers, got ${gt.length}`, source);
   const [c, a, b, f, d, e] = gt;
   return { a, b, c, d, e, f };
 }
 
+/** GDAL geotransform array [c, a, b, f, d, e] of an affine. */
 export function toGdal(t: Affine): [number, number, number, number, number, number] {
   return [t.c, t.a, t.b, t.f, t.d, t.e];
 }
@@ -53,20 +56,50 @@ export function pixelToMap(t: Affine, col: number, row: number): [number, number
   return [t.c + t.a * col + t.b * row, t.f + t.d * col + t.e * row];
 }
 
-/** Inverse of {@link pixelToMap}. Throws for a singular transform. */
-export function invert(t: Affine): Affine {
+/**
+ * Inverse of {@link pixelToMap}: the transform from map coordinates to
+ * fractional pixel coordinates.
+ *
+ * A north-up transform (b = d = 0) is inverted axis by axis (1 / a, 1 / e), as
+ * GDAL's GDALInvGeoTransform does, so a map coordinate that lies exactly on a
+ * pixel centre lands exactly on x.5 in pixel space, as in GDAL's rasterizer;
+ * a rotated one through the determinant. A transform that is not
+ * finite, or whose determinant vanishes next to its pixel size (zero or
+ * collinear pixel axes), is refused.
+ * @param source file the transform comes from, named in the InputError
+ * @throws InputError for a singular or non-finite transform
+ * @example invert({ a: 30, b: 0, c: 500000, d: 0, e: -30, f: 4200000 }) // { a: 1/30, c: -500000/30, e: -1/30, f: 140000, b: 0, d: 0 }
+ */
+export function invert(t: Affine, source?: string): Affine {
+  const finite = [t.a, t.b, t.c, t.d, t.e, t.f].every(Number.isFinite);
+  if (finite && t.b === 0 && t.d === 0 && t.a !== 0 && t.e !== 0) {
+    return { a: 1 / t.a, b: 0, c: -t.c / t.a, d: 0, e: 1 / t.e, f: -t.f / t.e };
+  }
   const det = t.a * t.e - t.b * t.d;
-  if (det === 0 || !Number.isFinite(det)) throw new Error('geotransform is singular (zero pixel size)');
-  const a = t.e / det;
-  const b = -t.b / det;
-  const d = -t.d / det;
-  const e = t.a / det;
-  return { a, b, c: -(a * t.c + b * t.f), d, e, f: -(d * t.c + e * t.f) };
+  const magnitude = Math.max(Math.abs(t.a), Math.abs(t.b), Math.abs(t.d), Math.abs(t.e));
+  if (!finite || !Number.isFinite(det) || Math.abs(det) <= 1e-10 * magnitude * magnitude) {
+    throw new InputError(
+      'the raster geotransform is singular or not finite (zero or parallel pixel axes), so map coordinates cannot be placed on its pixels',
+      source,
+    );
+  }
+  const inv = 1 / det;
+  return {
+    a: t.e * inv,
+    b: -t.b * inv,
+    c: (t.b * t.f - t.c * t.e) * inv,
+    d: -t.d * inv,
+    e: t.a * inv,
+    f: (-t.a * t.f + t.c * t.d) * inv,
+  };
 }
 
-/** Fractional pixel coordinates [col, row] of a map point. */
-export function mapToPixel(t: Affine, x: number, y: number): [number, number] {
-  const inv = invert(t);
+/**
+ * Fractional pixel coordinates [col, row] of a map point.
+ * @throws InputError naming `source` for a singular transform
+ */
+export function mapToPixel(t: Affine, x: number, y: number, source?: string): [number, number] {
+  const inv = invert(t, source);
   return [inv.c + inv.a * x + inv.b * y, inv.f + inv.d * x + inv.e * y];
 }
 
@@ -94,10 +127,12 @@ export function windowBounds(t: Affine, w: Window): BBox {
 
 /**
  * The smallest window of whole pixels that covers a map bounding box, clamped
- * to a raster of `width` x `height`. Null when they do not overlap.
+ * to a raster of `width` x `height`. Null when they do not overlap (a box
+ * that only touches the raster's edge does not overlap it).
+ * @throws InputError naming `source` for a singular transform
  */
-export function windowOfBounds(t: Affine, bbox: BBox, width: number, height: number): Window | null {
-  const inv = invert(t);
+export function windowOfBounds(t: Affine, bbox: BBox, width: number, height: number, source?: string): Window | null {
+  const inv = invert(t, source);
   let minC = Infinity, minR = Infinity, maxC = -Infinity, maxR = -Infinity;
   for (const [x, y] of [
     [bbox[0], bbox[1]],

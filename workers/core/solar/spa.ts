@@ -5,7 +5,7 @@
  */
 import { InputError } from '../errors.js';
 import type { Degrees, Metres } from '../units.js';
-import { requireDate, requireInRange } from './checks.js';
+import { requireDate, requireBetween } from '../checks.js';
 import { EARTH_B, EARTH_L, EARTH_R, NUTATION, type EarthTerm } from './spaTables.js';
 
 const DEG = Math.PI / 180;
@@ -272,15 +272,15 @@ export function checkInstantAndSite(dateUtc: unknown, latDeg: unknown, lonDeg: u
   if (year < MIN_YEAR || year > MAX_YEAR) {
     throw new InputError(`dateUtc must lie in the years ${MIN_YEAR}..${MAX_YEAR} where the solar position algorithm is valid, got ${year}.`, source);
   }
-  requireInRange(latDeg, 'latDeg', -90, 90, source);
-  requireInRange(lonDeg, 'lonDeg', -180, 180, source);
+  requireBetween(latDeg, 'latDeg', -90, 90, source);
+  requireBetween(lonDeg, 'lonDeg', -180, 180, source);
   return date;
 }
 
 /** Delta T from the options or the estimate, checked. */
 export function resolveDeltaT(date: Date, deltaT: unknown, source: string): number {
   if (deltaT === undefined) return deltaTSecondsEstimate(date);
-  return requireInRange(deltaT, 'deltaT (seconds)', -8000, 8000, source);
+  return requireBetween(deltaT, 'deltaT (seconds)', -8000, 8000, source);
 }
 
 /**
@@ -304,15 +304,15 @@ export function sunPosition(dateUtc: Date, latDeg: number, lonDeg: number, optio
   const source = 'sunPosition';
   const date = checkInstantAndSite(dateUtc, latDeg, lonDeg, source);
   const elevationMetres: Metres =
-    options.elevationMetres === undefined ? 0 : requireInRange(options.elevationMetres, 'elevationMetres', -6_500_000, 100_000, source);
+    options.elevationMetres === undefined ? 0 : requireBetween(options.elevationMetres, 'elevationMetres', -6_500_000, 100_000, source);
   const atmosphere = standardAtmosphere(elevationMetres);
-  const pressureMbar = options.pressureMbar === undefined ? atmosphere.pressureMbar : requireInRange(options.pressureMbar, 'pressureMbar', 0, 5000, source);
-  const temperatureC = options.temperatureC === undefined ? atmosphere.temperatureC : requireInRange(options.temperatureC, 'temperatureC', -272.99, 6000, source);
+  const pressureMbar = options.pressureMbar === undefined ? atmosphere.pressureMbar : requireBetween(options.pressureMbar, 'pressureMbar', 0, 5000, source);
+  const temperatureC = options.temperatureC === undefined ? atmosphere.temperatureC : requireBetween(options.temperatureC, 'temperatureC', -272.99, 6000, source);
   const deltaT = resolveDeltaT(date, options.deltaT, source);
-  const deltaUt1 = options.deltaUt1Seconds === undefined ? 0 : requireInRange(options.deltaUt1Seconds, 'deltaUt1Seconds', -1, 1, source);
-  const refraction = options.atmosphericRefractionDeg === undefined ? DEFAULT_REFRACTION_DEG : requireInRange(options.atmosphericRefractionDeg, 'atmosphericRefractionDeg', -5, 5, source);
-  const slopeDeg = options.surfaceSlopeDeg === undefined ? null : requireInRange(options.surfaceSlopeDeg, 'surfaceSlopeDeg', -360, 360, source);
-  const rotationDeg = options.surfaceAzimuthRotationDeg === undefined ? 0 : requireInRange(options.surfaceAzimuthRotationDeg, 'surfaceAzimuthRotationDeg', -360, 360, source);
+  const deltaUt1 = options.deltaUt1Seconds === undefined ? 0 : requireBetween(options.deltaUt1Seconds, 'deltaUt1Seconds', -1, 1, source);
+  const refraction = options.atmosphericRefractionDeg === undefined ? DEFAULT_REFRACTION_DEG : requireBetween(options.atmosphericRefractionDeg, 'atmosphericRefractionDeg', -5, 5, source);
+  const slopeDeg = options.surfaceSlopeDeg === undefined ? null : requireBetween(options.surfaceSlopeDeg, 'surfaceSlopeDeg', -360, 360, source);
+  const rotationDeg = options.surfaceAzimuthRotationDeg === undefined ? 0 : requireBetween(options.surfaceAzimuthRotationDeg, 'surfaceAzimuthRotationDeg', -360, 360, source);
 
   const jd = julianDayFromDate(date) + deltaUt1 / 86_400; // eq. 4 with UT = UTC + dUT1
   const g = geocentricSun(jd, deltaT);

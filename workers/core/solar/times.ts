@@ -3,7 +3,7 @@
  * NREL SPA (Reda & Andreas 2004).
  */
 import type { Degrees } from '../units.js';
-import { requireInRange } from './checks.js';
+import { requireBetween } from '../checks.js';
 import { checkInstantAndSite, geocentricSun, julianDayFromDate, limitDegrees180, resolveDeltaT } from './spa.js';
 
 const DEG = Math.PI / 180;
@@ -116,7 +116,7 @@ export function sunTimes(dateUtc: Date, latDeg: number, lonDeg: number, options:
   const source = 'sunTimes';
   const date = checkInstantAndSite(dateUtc, latDeg, lonDeg, source);
   const deltaT = resolveDeltaT(date, options.deltaT, source);
-  const h0Deg = options.horizonDeg === undefined ? APPARENT_HORIZON_ALTITUDE_DEG : requireInRange(options.horizonDeg, 'horizonDeg', -18, 10, source);
+  const h0Deg = options.horizonDeg === undefined ? APPARENT_HORIZON_ALTITUDE_DEG : requireBetween(options.horizonDeg, 'horizonDeg', -18, 10, source);
 
   // Transit: start from the solar time of the instant, then cancel the hour angle.
   const solarHours = localSolarTimeHours(date, lonDeg, { deltaT });

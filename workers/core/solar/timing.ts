@@ -3,7 +3,7 @@
  * thermal work (diurnal maximum, pre-dawn minimum, thermal crossovers).
  */
 import type { Degrees } from '../units.js';
-import { requireInRange } from './checks.js';
+import { requireBetween } from '../checks.js';
 import { sunPosition, type SunPositionOptions } from './spa.js';
 import { localSolarTimeHours, sunTimes } from './times.js';
 
@@ -26,7 +26,7 @@ export interface ClassifyPassOptions extends SunPositionOptions {
  * classifyPass(new Date('2024-07-01T12:00:00Z'), 45, 0) // 'day'
  */
 export function classifyPass(dateUtc: Date, latDeg: number, lonDeg: number, options: ClassifyPassOptions = {}): PassKind {
-  const threshold = options.dayElevationDeg === undefined ? 0 : requireInRange(options.dayElevationDeg, 'dayElevationDeg', -90, 90, 'classifyPass');
+  const threshold = options.dayElevationDeg === undefined ? 0 : requireBetween(options.dayElevationDeg, 'dayElevationDeg', -90, 90, 'classifyPass');
   return sunPosition(dateUtc, latDeg, lonDeg, options).elevationDeg > threshold ? 'day' : 'night';
 }
 
@@ -98,7 +98,7 @@ export interface TimingAssessment {
 export function rateTiming(dateUtc: Date, latDeg: number, lonDeg: number, options: RateTimingOptions = {}): TimingAssessment {
   const source = 'rateTiming';
   const opt = (v: number | undefined, name: string, dflt: number, max: number): number =>
-    v === undefined ? dflt : requireInRange(v, name, 0, max, source);
+    v === undefined ? dflt : requireBetween(v, name, 0, max, source);
   const middayHalf = opt(options.middayHalfWidthHours, 'middayHalfWidthHours', 2, 12);
   const afterRise = opt(options.crossoverAfterSunriseHours, 'crossoverAfterSunriseHours', 3, 12);
   const beforeSet = opt(options.crossoverBeforeSunsetHours, 'crossoverBeforeSunsetHours', 1.5, 12);

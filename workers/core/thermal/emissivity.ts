@@ -3,7 +3,7 @@
  * Jimenez-Munoz & Paolini 2004, RSE 90:434-440; after Valor & Caselles 1996).
  */
 import { InputError } from '../errors.js';
-import { requireBetween, requireFinite } from './checks.js';
+import { requireBetween, requireFinite } from '../checks.js';
 
 /**
  * Normalised difference vegetation index (NIR - RED) / (NIR + RED) from surface

@@ -4,7 +4,8 @@
  */
 import { InputError } from '../errors.js';
 import type { Kelvin } from '../units.js';
-import { requireBetween, requireFinite, requirePositive } from './checks.js';
+import { requireBetween, requireFinite, requirePositive } from '../checks.js';
+import { ATI_MIN_DIFFERENCE_KELVIN } from '../defaults.js';
 
 const DEG = Math.PI / 180;
 
@@ -86,7 +87,7 @@ export interface AtiResult {
  * atiWithReason({ albedo: 0.2, dayKelvin: 300, nightKelvin: 300 }) // { value: null, reason: 'difference-too-small' }
  */
 export function atiWithReason(input: AtiInput): AtiResult {
-  const minDiff = input.minDifferenceKelvin === undefined ? 0.5 : requireFinite(input.minDifferenceKelvin, 'minDifferenceKelvin', 'atiWithReason');
+  const minDiff = input.minDifferenceKelvin === undefined ? ATI_MIN_DIFFERENCE_KELVIN : requireFinite(input.minDifferenceKelvin, 'minDifferenceKelvin', 'atiWithReason');
   if (minDiff < 0) throw new InputError(`minDifferenceKelvin must be 0 or more, got ${minDiff}.`, 'atiWithReason');
   const { albedo, dayKelvin, nightKelvin } = input;
   const c = input.solarCorrection ?? 1;

@@ -3,7 +3,7 @@
  */
 import { InputError } from '../errors.js';
 import type { Kelvin } from '../units.js';
-import { requireBetween, requirePositive } from './checks.js';
+import { requireBetween, requirePositive } from '../checks.js';
 
 /** Planck constant h (J s), exact in the SI since 2019 (CODATA 2018). */
 export const PLANCK_J_S = 6.62607015e-34;

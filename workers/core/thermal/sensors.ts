@@ -4,7 +4,7 @@
  */
 import { InputError } from '../errors.js';
 import type { Kelvin } from '../units.js';
-import { requireFinite, requirePositive } from './checks.js';
+import { requireFinite, requirePositive } from '../checks.js';
 
 /** Spacecraft identifiers as written in the MTL field SPACECRAFT_ID. */
 export type LandsatSpacecraft = 'LANDSAT_8' | 'LANDSAT_9';

@@ -1,0 +1,51 @@
+/**
+ * The documented defaults of heatledger, in one place. Every command, the
+ * API and the core read them from here; an option given by the user replaces
+ * the default for that run only. Names carry their units.
+ */
+
+/**
+ * LST outside this range (Kelvin) is counted as implausible, not as data:
+ * observed satellite surface-temperature extremes with a margin
+ * (common practice, no source).
+ */
+export const PLAUSIBLE_RANGE_KELVIN: readonly [number, number] = Object.freeze([170, 360] as const);
+
+/** Largest time between a day LST pass and the night pass paired with it, hours, either side. */
+export const PAIRING_WINDOW_HOURS = 18;
+
+/** Largest time between a day LST pass and the albedo scene used for its ATI, days, either side. */
+export const ALBEDO_WINDOW_DAYS = 32;
+
+/** A pass whose district (or rural) valid-pixel fraction is below this contributes nothing (0..1). */
+export const MIN_VALID_FRACTION = 0.5;
+
+/** ATI is left undefined when T_day - T_night is at or below this many kelvin. */
+export const ATI_MIN_DIFFERENCE_KELVIN = 0.5;
+
+/** Gap between the outer edge of the districts and the default rural ring, metres. */
+export const RURAL_RING_INNER_METRES = 2000;
+
+/** Outer edge of the default rural ring, metres beyond the outer edge of the districts. */
+export const RURAL_RING_OUTER_METRES = 10000;
+
+/** Name of the embedded database folder, relative to the working directory. */
+export const DATA_DIR_NAME = '.heatledger';
+
+/** TCP port the HTTP API listens on unless told otherwise. */
+export const API_PORT = 8080;
+
+/**
+ * The caution shown wherever results may inform heat-health decisions
+ * (help text, API answers, the page, reports).
+ */
+export const CAUTION_TEXT =
+  'LST is land-surface (skin) temperature, not air temperature. ' +
+  'Yearly means are means of the clear days only, so they depend on which days were clear. ' +
+  'SUHI depends on the rural reference chosen. ' +
+  'Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+
+/** One-line form of {@link CAUTION_TEXT} for tight places (a table footer, a status line). */
+export const CAUTION_SHORT_TEXT =
+  'LST is surface (skin) temperature, not air temperature; yearly means depend on which days were clear and SUHI on the rural reference chosen; ' +
+  'these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';

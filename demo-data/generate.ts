@@ -57,7 +57,7 @@ export const ALBEDO_SCALE = 0.0001;
 const CITY_LONGITUDE = -35.6;
 
 
-/** Standard normal deviates from a uniform source (Box & Muller 1958). */
+/** Standard normal deviates from a uniform source (Box & Muller 1958, Ann. Math. Stat. 29:610-611; citation from memory). */
 function normalSource(rand: () => number): () => number {
   let spare: number | null = null;
   return () => {
@@ -82,7 +82,10 @@ function hash2(ix: number, iy: number, seed: number): number {
   return ((h ^ (h >>> 16)) >>> 0) / 4294967296;
 }
 
-/** Smooth value noise in [-1, 1] with features about `cellMetres` across. */
+/**
+ * Smooth value noise in [-1, 1] with features about `cellMetres` across: lattice values
+ * blended with the cubic fade 3t^2 - 2t^3 (common practice, no source).
+ */
 function valueNoise(x: number, y: number, cellMetres: number, seed: number): number {
   const gx = x / cellMetres;
   const gy = y / cellMetres;
@@ -180,7 +183,11 @@ function buildScenery(pixel: number, margin: number, seed: number): Scenery {
   return { width, height, transform, dayBaseK, nightBaseK, trendKPerYear, albedo };
 }
 
-/** UTC instant at a local solar hour on a calendar day (local solar time ≈ UTC + lon/15 h). */
+/**
+ * UTC instant at a local solar hour on a calendar day: local mean solar time = UTC + lon/15 h
+ * (the definition; common practice, no source). The equation of time (at most ~16 min over
+ * the year; common practice, no source) is left out: invented scenes need no better.
+ */
 function utcAtLocalSolar(year: number, dayOfYear: number, localSolarHour: number, jitterMinutes: number): Date {
   const utcHours = localSolarHour - CITY_LONGITUDE / 15;
   const ms = Date.UTC(year, 0, dayOfYear) + Math.round((utcHours * 60 + jitterMinutes)) * 60_000;

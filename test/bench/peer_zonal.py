@@ -26,7 +26,7 @@ from rasterio.windows import Window  # noqa: E402
 
 T_IMPORTED = time.perf_counter()
 
-PLAUSIBLE_KELVIN = (170.0, 360.0)  # the zonal default (METHODS.md section 8)
+PLAUSIBLE_KELVIN = (170.0, 360.0)  # the zonal default (PLAUSIBLE_RANGE_KELVIN in workers/core/defaults.ts)
 
 
 def stats(values, pixels):

@@ -78,7 +78,7 @@ with rasterio.open(sys.argv[1]) as ds:
     expect(g.compress).toBe('deflate');
     expect(g.predictor).toBe('2');
     expect(g.nodata).toBe(0);
-    // Landsat Collection 2 ST scaling (USGS LSDS-1328, METHODS.md 1.2)
+    // Landsat Collection 2 ST scaling (USGS LSDS-1328, "Landsat 8-9 OLI/TIRS Collection 2 Level 2 Data Format Control Book")
     expect(g.scale).toBeCloseTo(0.00341802, 8);
     expect(g.offset).toBe(149);
     expect(g.tags.ACQUISITION_TIME).toBe('2023-03-01T12:42:00Z');

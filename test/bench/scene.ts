@@ -17,7 +17,7 @@ import { mulberry32, normalTable } from './random.js';
 export const BENCH_EPSG: Epsg = 32625;
 export const BENCH_UTM_PROJ4 = '+proj=utm +zone=25 +datum=WGS84 +units=m +no_defs';
 
-/** Landsat Collection 2 Level-2 ST_B10: K = DN * 0.00341802 + 149, DN 0 = fill (USGS LSDS-1328, METHODS.md 1.2). */
+/** Landsat Collection 2 Level-2 ST_B10: K = DN * 0.00341802 + 149, DN 0 = fill (USGS LSDS-1328, Collection 2 Level 2 Data Format Control Book). */
 export const ST_SCALE = 0.00341802;
 export const ST_OFFSET = 149;
 export const ST_NODATA = 0;

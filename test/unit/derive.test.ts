@@ -7,7 +7,7 @@ const night = (id: number, t: string): SceneInfo => ({ id, acquiredAt: t, kind: 
 
 describe('day/night pairing (nearest night within the window)', () => {
   // The pairing rule (same diurnal cycle, nearest to the pre-dawn minimum) follows
-  // Kahle & Alley 1985; the timestamps below are hand-made edge cases.
+  // Kahle & Alley 1985 (PE&RS 51); the timestamps below are hand-made edge cases.
   it('takes the nearer of two night candidates', () => {
     const d = day(1, '2024-07-10T13:30:00Z');
     const pre = night(2, '2024-07-10T02:00:00Z'); // 11.5 h before
@@ -63,7 +63,7 @@ describe('ATI and SUHI on hand-computed values', () => {
   });
   it('ATI = (1 - albedo) / (T_day - T_night) (Price 1977)', () => {
     const core = rows.find((r) => r.districtId === 'core')!;
-    // (1 - 0.2) / (320 - 290) = 0.0266667 K^-1 (derived from the formula; METHODS check 13)
+    // (1 - 0.2) / (320 - 290) = 0.0266667 K^-1 (derived from ATI = (1 - a) / (T_day - T_night), Price 1977)
     expect(core.atiPerKelvin).toBeCloseTo(0.8 / 30, 12);
     expect(core.albedoSource).toBe('scene');
     expect(core.albedoSceneId).toBe(3);
@@ -71,6 +71,9 @@ describe('ATI and SUHI on hand-computed values', () => {
     expect(core.status).toBe('ok');
   });
   it('SUHI = district mean minus rural mean of the same scene', () => {
+    // SUHI intensity = urban minus rural-reference LST from the same scene, day and night apart
+    // (Peng et al. 2012, "Surface Urban Heat Island Across 419 Global Big Cities", Environ. Sci.
+    // Technol. 46:696-703, pages from memory); the numbers are derived by hand.
     const core = rows.find((r) => r.districtId === 'core')!;
     expect(core.suhiDayKelvin).toBeCloseTo(20, 12); // 320 - 300
     expect(core.suhiNightKelvin).toBeCloseTo(4, 12); // 290 - 286

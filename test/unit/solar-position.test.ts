@@ -4,8 +4,8 @@ import { geocentricSun, julianDayFromDate, sunPosition, deltaTSecondsEstimate } 
 import { EARTH_B, EARTH_L, EARTH_R, NUTATION } from '../../workers/core/solar/spaTables.js';
 import { simpleSunPosition } from '../../workers/core/solar/noaa.js';
 
-// NREL SPA published test case (Reda & Andreas 2004, NREL/TP-560-34302, and the
-// expected output of the SPA test program) - METHODS 7.1 / item 22, tag [C]:
+// NREL SPA published test case (Reda & Andreas 2004, Solar Energy 76(5):577-589;
+// NREL/TP-560-34302), expected values from the output of the SPA test program:
 // 2003-10-17 12:30:30 local time, time zone -7 h -> 19:30:30 UTC.
 const SPA_INSTANT = new Date('2003-10-17T19:30:30Z');
 const SPA_LAT = 39.742476;
@@ -21,7 +21,7 @@ const SPA_OPTIONS = {
 
 describe('NREL SPA tables', () => {
   it('has the term counts of the published tables', () => {
-    // Reda & Andreas 2004, Table A4.2 (L0..L5, B0..B1, R0..R4) and Table A4.3 (63 nutation rows) [C].
+    // Reda & Andreas 2004, Table A4.2 (L0..L5, B0..B1, R0..R4) and Table A4.3 (63 nutation rows).
     expect(EARTH_L.map((s) => s.length)).toEqual([64, 34, 20, 7, 3, 1]);
     expect(EARTH_B.map((s) => s.length)).toEqual([5, 2]);
     expect(EARTH_R.map((s) => s.length)).toEqual([40, 10, 6, 2, 1]);
@@ -29,16 +29,16 @@ describe('NREL SPA tables', () => {
   });
 });
 
-describe('sunPosition: SPA published test case [C]', () => {
+describe('sunPosition: SPA published test case (Reda & Andreas 2004)', () => {
   const p = sunPosition(SPA_INSTANT, SPA_LAT, SPA_LON, SPA_OPTIONS);
 
   it('reproduces the Julian day', () => {
-    // JD 2452930.312847 (SPA test output, printed to 6 decimals) [C]
+    // JD 2452930.312847 (SPA test program output, printed to 6 decimals)
     expect(p.julianDay).toBeCloseTo(2452930.312847, 6);
   });
 
   it('reproduces the heliocentric and nutation intermediates', () => {
-    // SPA test output [C]: L 24.0182616917 deg, B -0.0001011219 deg, R 0.9965422974 AU,
+    // SPA test program output: L 24.0182616917 deg, B -0.0001011219 deg, R 0.9965422974 AU,
     // H 11.105902 deg, dpsi -0.003998404 deg, deps 0.001666568 deg, epsilon 23.440465 deg.
     // These fail at the printed precision if any periodic term is mistyped.
     expect(p.heliocentricLongitudeDeg).toBeCloseTo(24.0182616917, 9);
@@ -51,14 +51,14 @@ describe('sunPosition: SPA published test case [C]', () => {
   });
 
   it('hits topocentric zenith and azimuth within 1e-4 deg', () => {
-    // zenith 50.111622, azimuth 194.340241 (eastward from north) [C]
+    // zenith 50.111622, azimuth 194.340241 (eastward from north) (SPA test program output)
     expect(Math.abs(p.zenithDeg - 50.111622)).toBeLessThan(1e-4);
     expect(Math.abs(p.azimuthDeg - 194.340241)).toBeLessThan(1e-4);
     expect(p.elevationDeg).toBeCloseTo(90 - 50.111622, 4);
   });
 
   it('hits the surface incidence angle (slope 30, azimuth rotation -10)', () => {
-    // incidence 25.187000 deg [C]
+    // incidence 25.187000 deg (SPA test program output)
     expect(p.incidenceDeg).not.toBeNull();
     expect(Math.abs((p.incidenceDeg as number) - 25.187)).toBeLessThan(1e-4);
   });
@@ -97,8 +97,9 @@ describe('geocentricSun against Meeus, Astronomical Algorithms (1998)', () => {
 describe('simpleSunPosition (NOAA simple equations) cross-check', () => {
   const n = simpleSunPosition(SPA_INSTANT, SPA_LAT, SPA_LON);
 
-  it('reproduces the sheet values for the SPA instant', () => {
-    // METHODS item 23 [D from the NOAA GML "General Solar Position Calculations" equations]:
+  it('reproduces the NOAA equations at the SPA instant (derived)', () => {
+    // Derived from the equations of NOAA GML "General Solar Position Calculations" (Spencer 1971
+    // Fourier series), evaluated independently at 2003-10-17 19:30:30 UTC, 39.742476 N, 105.1786 W:
     // eqtime 14.879 min, decl -9.0743 deg, ha 11.166 deg, zenith 49.902, azimuth 194.477.
     expect(n.equationOfTimeMinutes).toBeCloseTo(14.879, 3);
     expect(n.declinationDeg).toBeCloseTo(-9.0743, 4);

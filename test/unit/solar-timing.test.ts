@@ -16,14 +16,14 @@ function secondsApart(a: Date | null, iso: string): number {
 
 describe('sunTimes: SPA published test case', () => {
   it('sunrise 06:12:43 local (tz -7) on 2003-10-17', () => {
-    // SPA test output sunrise 06:12:43 local = 13:12:43 UTC [C, METHODS 7.1].
+    // SPA test program output (Reda & Andreas 2004, NREL/TP-560-34302): sunrise 06:12:43 local = 13:12:43 UTC.
     const t = sunTimes(new Date('2003-10-17T19:30:30Z'), SPA_LAT, SPA_LON, { deltaT: 67 });
     expect(t.kind).toBe('normal');
     expect(secondsApart(t.sunriseUtc, '2003-10-17T13:12:43Z')).toBeLessThan(10);
   });
 
   it('sunset 17:20:19 local: SPA reports events inside the UT day of the input date', () => {
-    // SPA test output sunset 17:20:19 local [C]. SPA reports rise/transit/set as fractions of
+    // SPA test program output: sunset 17:20:19 local. SPA reports rise/transit/set as fractions of
     // the UT day [0 h, 24 h) of the input date; at lon -105 the evening sunset of local
     // 2003-10-17 falls after 0 h UT on the 18th, so the printed 17:20:19 is the sunset at
     // 2003-10-17T00:20:19Z, which closes the local 16th (derived from the SPA report's
@@ -58,7 +58,7 @@ describe('sunTimes: SPA published test case', () => {
 
 describe('localSolarTimeHours', () => {
   it('equals 12 + H/15 of the SPA case', () => {
-    // SPA hour angle H = 11.105902 deg [C] -> apparent solar time 12 + H/15 = 12.740393 h
+    // SPA test program output: hour angle H = 11.105902 deg -> apparent solar time 12 + H/15 = 12.740393 h
     // (derived from the definition of the hour angle); tolerance 1e-3 h = 3.6 s.
     expect(localSolarTimeHours(new Date('2003-10-17T19:30:30Z'), SPA_LON, { deltaT: 67 })).toBeCloseTo(12.740393, 3);
   });
@@ -128,7 +128,7 @@ describe('polar night and midnight sun at 78.2 N, 15 E', () => {
 
 describe('classifyPass', () => {
   it('classifies the SPA instant as day and a 03:00 UTC pass at 45 N 0 E as night', () => {
-    // SPA test case elevation 39.89 deg [C, 90 - zenith]; at 03:00 solar time near the equinox
+    // SPA test case elevation 39.89 deg (90 - the test program's zenith 50.111622); at 03:00 solar time near the equinox
     // the sun is ~31 deg below the horizon (derived from sin e = cos(lat) cos(H) at dec 0).
     expect(classifyPass(new Date('2003-10-17T19:30:30Z'), SPA_LAT, SPA_LON, { elevationMetres: 1830.14, deltaT: 67 })).toBe('day');
     expect(classifyPass(new Date('2024-03-20T03:00:00Z'), 45, 0)).toBe('night');

@@ -9,12 +9,18 @@ import {
 } from '../../workers/core/thermal/inertia.js';
 import { MATERIALS, SPECIFIC_HEAT_J_PER_KG_K, material } from '../../workers/core/thermal/materials.js';
 
-// Expected values: /work/shared/METHODS.md section 3, items 12-14.
+// Sources of the expected values:
+// - P = sqrt(k rho c), J m-2 K-1 s-1/2 (Sobrino et al. 1998, Adv. Space Res. 22(5):655); the P
+//   values below are derived from it with the table rows of workers/core/thermal/materials.ts.
+// - Material rows: Oke 1987, Boundary Layer Climates, 2nd ed., Table 2.1 and the urban-materials
+//   table of the Appendix (from memory), and Incropera & DeWitt, Fundamentals of Heat and Mass
+//   Transfer, Appendix A at 300 K (from memory).
+// - ATI = C (1 - a) / (T_day - T_night) (Price 1977, JGR 82:2582-2590; citation from memory).
 
 const p = (key: string) => thermalInertia(material(key));
 
 describe('thermal inertia P = sqrt(k rho c)', () => {
-  it('METHODS item 12 [D from P = sqrt(k rho c)]', () => {
+  it('water, sand, asphalt, concrete, copper (derived from P = sqrt(k rho c), Sobrino et al. 1998)', () => {
     expect(thermalInertia({ conductivityWPerMK: 0.57, densityKgPerM3: 1000, specificHeatJPerKgK: 4180 })).toBeCloseTo(1543.6, 1);
     expect(p('water')).toBeCloseTo(1543.6, 1);
     expect(p('sand-dry')).toBeCloseTo(619.7, 1);
@@ -25,8 +31,9 @@ describe('thermal inertia P = sqrt(k rho c)', () => {
   });
 
   it('matches the admittance values printed in Oke 1987, Table 2.1 / Appendix, within 1%', () => {
-    // Oke, Boundary Layer Climates, 2nd ed. (1987): mu in J m-2 s-1/2 K-1 (from memory, METHODS 3.3 [M];
-    // clay rows reproduced by a secondary source, Pielke 1984 Table 11-3 [C2]).
+    // Oke, Boundary Layer Climates, 2nd ed. (1987): mu in J m-2 s-1/2 K-1 (from memory; the clay
+    // rows as reproduced by a secondary source, Pielke 1984, Table 11-3). A consistency check of
+    // each row against its own printed admittance, not an independent proof.
     const oke: Array<[string, number]> = [
       ['water', 1545],
       ['sand-dry', 620],
@@ -42,7 +49,8 @@ describe('thermal inertia P = sqrt(k rho c)', () => {
   });
 
   it('matches Incropera & DeWitt Appendix A rows (from memory) through the formula', () => {
-    // METHODS 3.3: granite (Barre) 2.79 W/m/K, 2630 kg/m3, 775 J/kg/K -> 2385 [D].
+    // Incropera & DeWitt Appendix A (from memory): granite (Barre) 2.79 W/m/K, 2630 kg/m3,
+    // 775 J/kg/K -> 2385 (derived from P = sqrt(k rho c)).
     expect(p('granite')).toBeCloseTo(2384.7, 0);
     // Common brick 0.72 / 1920 / 835 -> 1074; hardwood 0.16 / 720 / 1255 -> 380 (derived).
     expect(p('brick')).toBeCloseTo(1074.4, 0);
@@ -72,9 +80,11 @@ describe('thermal inertia P = sqrt(k rho c)', () => {
   });
 
   it('specific heats used as constants', () => {
-    // Water 4184 J/kg/K: 1 thermochemical calorie = 4.184 J exactly, ~c of water at 20-25 C
-    // (common practice, no source). Dry air cp 1003.5 near 300 K (common practice, no source;
-    // METHODS 3.3 [M/C2]). Copper 385 at 300 K (Incropera Table A.1, from memory).
+    // Water 4184 J/kg/K: 1 thermochemical calorie = 4.184 J exactly (common practice, no source),
+    // ~c of liquid water at 20-25 C (from memory; engineering tables print 4186). Dry air cp 1003.5,
+    // dry air at sea level and 0 C (CRC-based specific-heat tables, from memory; the same constant
+    // is used in meteorological code, as reproduced by a secondary source). Copper 385 at 300 K
+    // (Incropera & DeWitt, Table A.1, from memory).
     expect(SPECIFIC_HEAT_J_PER_KG_K.water).toBe(4184);
     expect(SPECIFIC_HEAT_J_PER_KG_K.dryAir).toBe(1003.5);
     expect(SPECIFIC_HEAT_J_PER_KG_K.copper).toBe(385);
@@ -90,13 +100,14 @@ describe('thermal inertia P = sqrt(k rho c)', () => {
 });
 
 describe('apparent thermal inertia (Price 1977)', () => {
-  it('METHODS item 13: a 0.2, 320 K / 290 K, C 1 -> 0.0266667 K-1 [D]', () => {
+  it('a 0.2, 320 K / 290 K, C 1 -> 0.0266667 K-1 (derived from ATI = C (1 - a) / (T_day - T_night), Price 1977)', () => {
     expect(apparentThermalInertia({ albedo: 0.2, dayKelvin: 320, nightKelvin: 290 })).toBeCloseTo(0.0266667, 7);
     expect(atiWithReason({ albedo: 0.2, dayKelvin: 320, nightKelvin: 290 })).toEqual({ value: expect.closeTo(0.0266667, 7), reason: null });
   });
 
   it('multiplies by a solar correction', () => {
-    // With C = A0(40 N, dec 0) = 0.243840 (METHODS item 14): 0.0266667 * 0.243840 = 0.0065024 (derived).
+    // With C = A0(40 N, dec 0) = 0.243840 (derived from the daily-mean formula, see the shape-factor
+    // tests below): 0.0266667 * 0.243840 = 0.0065024 (derived).
     const { a0 } = insolationShapeFactors(40, 0);
     expect(apparentThermalInertia({ albedo: 0.2, dayKelvin: 320, nightKelvin: 290, solarCorrection: a0 })).toBeCloseTo(0.0065024, 7);
   });
@@ -124,8 +135,13 @@ describe('apparent thermal inertia (Price 1977)', () => {
   });
 });
 
-describe('daily-insolation shape factors (METHODS 3.2 b)', () => {
-  it('METHODS item 14 [D]', () => {
+describe('daily-insolation shape factors', () => {
+  it('40 N and 0 N at dec 0, 40 N at dec 23.44 (derived from A0 = (psi sin(phi) sin(dec) + cos(phi) cos(dec) sin(psi)) / pi and A1 of Xue & Cracknell 1995)', () => {
+    // A0: daily mean of max(0, cos zenith), psi = arccos(-tan(phi) tan(dec)); A1: its first Fourier
+    // harmonic, (2/pi) sin(phi) sin(dec) sin(psi) + (1/(2 pi)) cos(phi) cos(dec) (2 psi + sin(2 psi)),
+    // the factor of Xue & Cracknell 1995, "Advanced thermal inertia modelling", IJRS 16:431-446
+    // (citation from memory). Expected values derived from these formulas; checked independently
+    // by numerical integration in the next test.
     const a = insolationShapeFactors(40, 0);
     expect(a.halfDayLengthDeg).toBeCloseTo(90, 9);
     expect(a.a0).toBeCloseTo(0.24384, 6);

@@ -10,7 +10,16 @@ import {
   lstFromBrightnessTemperature,
 } from '../../workers/core/thermal/lst.js';
 
-// Expected values: /work/shared/METHODS.md sections 2.1-2.2, items 8-11.
+// Sources of the expected values:
+// - LST = BT / (1 + (lambda BT / rho) ln(eps)) (Artis & Carnahan 1982, "Survey of emissivity
+//   variability in thermography of urban areas", RSE 12:313-329, citation from memory; Weng, Lu &
+//   Schubring 2004, RSE 89:467-483, pages from memory), lambda 10.895 um = TIRS band-10 centre
+//   (USGS Landsat 8/9 band designations), rho = h c / k_B.
+// - NDVI-threshold emissivity: Sobrino, Jimenez-Munoz & Paolini 2004, "Land surface temperature
+//   retrieval from LANDSAT TM 5", RSE 90:434-440 (thresholds, soil line and mixture forms as
+//   reproduced by a secondary source); Pv squared after Carlson & Ripley 1997, RSE 62:241-252
+//   (citation from memory).
+// The numbers below are derived from these formulas unless a line says otherwise.
 
 describe('physical constants', () => {
   it('uses the exact SI (CODATA 2018) values of h, c and k_B', () => {
@@ -20,7 +29,7 @@ describe('physical constants', () => {
     expect(BOLTZMANN_J_PER_K).toBe(1.380649e-23);
   });
 
-  it('METHODS item 9: rho = h c / k_B = 1.4387769e-2 m K [D]', () => {
+  it('rho = h c / k_B = 1.4387769e-2 m K (derived from the exact SI values of h, c and k_B)', () => {
     expect(RHO_METRE_KELVIN).toBeCloseTo(1.4387769e-2, 9);
     // CODATA second radiation constant c2 = 1.438776877e-2 m K (from memory).
     expect(RHO_MICROMETRE_KELVIN).toBeCloseTo(14387.76877, 3);
@@ -28,7 +37,7 @@ describe('physical constants', () => {
 });
 
 describe('lstFromBrightnessTemperature (Artis & Carnahan 1982; Weng et al. 2004)', () => {
-  it('METHODS item 8 [D]', () => {
+  it('BT 300 K at eps 0.97 / 0.99 / 1 (derived from LST = BT / (1 + (lambda BT / rho) ln(eps)), Artis & Carnahan 1982)', () => {
     expect(lstFromBrightnessTemperature(300, 0.97)).toBeCloseTo(302.0903, 4); // lambda 10.895 um, rho 14388 um K
     expect(lstFromBrightnessTemperature(300, 0.97, 10.895, 14380)).toBeCloseTo(302.0914, 4); // rho 1.438e-2 m K
     expect(lstFromBrightnessTemperature(300, 0.99)).toBeCloseTo(300.6865, 4);
@@ -61,7 +70,7 @@ describe('NDVI and vegetation fraction', () => {
     expect(ndvi(0.3, -0.1)).toBeNull(); // would be 2.0, outside [-1, 1]
   });
 
-  it('METHODS item 10: NDVI 0.35 -> Pv 0.25 [D]', () => {
+  it('NDVI 0.35 -> Pv 0.25 (derived from Pv = ((NDVI - 0.2) / (0.5 - 0.2))^2, Carlson & Ripley 1997; Sobrino et al. 2004 thresholds)', () => {
     expect(vegetationFraction(0.35)).toBeCloseTo(0.25, 12);
   });
 
@@ -75,15 +84,22 @@ describe('NDVI and vegetation fraction', () => {
 });
 
 describe('emissivityNdviThreshold (Sobrino et al. 2004)', () => {
-  it('METHODS item 10: mixed pixel, simplified 0.987 and cavity form 0.98725 [D]', () => {
+  it('mixed pixel, simplified 0.987 and cavity form 0.98725 (derived from the Sobrino et al. 2004 forms)', () => {
+    // Simplified TM6 form eps = 0.004 Pv + 0.986 at Pv 0.25 (Sobrino et al. 2004, as reproduced by a
+    // secondary source): 0.987 (derived).
     expect(emissivityNdviThreshold(0.35, 0.1)).toBeCloseTo(0.987, 12);
-    expect(emissivityNdviThreshold(0.35, 0.1, { form: 'cavity' })).toBeCloseTo(0.98725, 5); // sheet rounds 0.98725125
+    // Cavity form eps_v Pv + eps_s (1 - Pv) + (1 - eps_s)(1 - Pv) F eps_v with eps_v 0.99, eps_s 0.97,
+    // F 0.55 (Sobrino et al. 2004, as reproduced by a secondary source): 0.98725125 (derived), to 5 decimals.
+    expect(emissivityNdviThreshold(0.35, 0.1, { form: 'cavity' })).toBeCloseTo(0.98725, 5);
   });
 
-  it('METHODS item 11: soil line, full vegetation, soil threshold [D]', () => {
-    expect(emissivityNdviThreshold(0.1, 0.2)).toBeCloseTo(0.972, 12); // 0.979 - 0.035 * 0.2
+  it('soil line, full vegetation, soil threshold (derived from the Sobrino et al. 2004 TM6 rules)', () => {
+    // TM6 soil line eps = 0.979 - 0.035 red (Sobrino et al. 2004, as reproduced by a secondary
+    // source): red 0.2 -> 0.972 (derived).
+    expect(emissivityNdviThreshold(0.1, 0.2)).toBeCloseTo(0.972, 12);
+    // NDVI above 0.5: eps_v = 0.99 (Sobrino et al. 2004, as reproduced by a secondary source).
     expect(emissivityNdviThreshold(0.6, 0.05)).toBeCloseTo(0.99, 12);
-    expect(emissivityNdviThreshold(0.2, 0.05)).toBeCloseTo(0.986, 12); // Pv 0 -> 0.986
+    expect(emissivityNdviThreshold(0.2, 0.05)).toBeCloseTo(0.986, 12); // Pv 0 -> 0.986 (derived from the simplified form)
   });
 
   it('is continuous at the vegetation threshold in the simplified form', () => {
@@ -101,11 +117,13 @@ describe('emissivityNdviThreshold (Sobrino et al. 2004)', () => {
   });
 
   it('takes the Landsat-8 band-10 values as options', () => {
-    // Yu, Guo & Wu 2014: eps_s10 0.9668, eps_v10 0.9863 [C2]; cavity form, Pv 0.25, F 0.55
+    // Yu, Guo & Wu 2014, Remote Sens. 6:9829-9852: eps_s10 0.9668, eps_v10 0.9863 (as reproduced by
+    // a secondary source); cavity form, Pv 0.25, F 0.55
     // -> 0.9863*0.25 + 0.9668*0.75 + 0.0332*0.75*0.55*0.9863 = 0.98531 (derived).
     const eps = emissivityNdviThreshold(0.35, 0.1, { form: 'cavity', emissivitySoil: 0.9668, emissivityVeg: 0.9863 });
     expect(eps).toBeCloseTo(0.9863 * 0.25 + 0.9668 * 0.75 + 0.0332 * 0.75 * 0.55 * 0.9863, 12);
-    // Skokovic et al. 2014 soil line eps10 = 0.973 - 0.047 red [C2]: red 0.2 -> 0.9636 (derived).
+    // Band-10 soil line eps10 = 0.973 - 0.047 red (values as reproduced by a secondary source; its
+    // attribution to Skokovic et al. 2014 from memory): red 0.2 -> 0.9636 (derived).
     expect(emissivityNdviThreshold(0.1, 0.2, { soilLine: { intercept: 0.973, slope: -0.047 } })).toBeCloseTo(0.9636, 12);
   });
 

@@ -24,7 +24,7 @@ const floats = minstd(12345, 500).map((x) => 280 + (x % 100000) / 2500);
 const dns = minstd(777, 2001).map((y) => 14000 + (y % 2000));
 
 describe('type-7 quantiles', () => {
-  test('x = 1..10 -> 3.25 / 5.5 / 9.1 (METHODS.md 10 item 24; Hyndman & Fan 1996, numpy.percentile linear)', () => {
+  test('x = 1..10 -> 3.25 / 5.5 / 9.1 (derived from Hyndman & Fan 1996 type 7, h = (n - 1) p + 1; numpy.percentile linear)', () => {
     const x = Float64Array.from({ length: 10 }, (_, i) => i + 1);
     expect(type7Sorted(x, 10, 0.25)).toBe(3.25);
     expect(type7Sorted(x, 10, 0.5)).toBe(5.5);
@@ -122,7 +122,9 @@ describe('integer and float paths agree', () => {
 });
 
 describe('weighted statistics (coverage fractions)', () => {
-  test('coverages 0.5, 0, 1, 0.25 on values 1..4 -> weight 1.75, mean 2.571 (METHODS.md 10 item 26, derived)', () => {
+  test('coverages 0.5, 0, 1, 0.25 on values 1..4 -> weight 1.75, mean 2.571 (derived from mean = sum c x / sum c)', () => {
+    // Coverage-weighted zonal statistics: count = sum c_i, mean = sum c_i x_i / sum c_i
+    // (common practice, no source); 4.5 / 1.75 = 2.571 (derived).
     const w = [0.5, 0, 1, 0.25];
     const f = new FloatAccumulator({ weighted: true });
     const h = new IntegerAccumulator({ bits: 8, signed: false }, { weighted: true });
@@ -131,7 +133,7 @@ describe('weighted statistics (coverage fractions)', () => {
       expect(s.count).toBe(3); // the zero-weight cell is not a cell of the zone
       expect(s.weightSum).toBe(1.75);
       expect(s.mean).toBeCloseTo(4.5 / 1.75, 12);
-      // min/max ignore weights (METHODS.md 9.1)
+      // min/max ignore weights: any covered cell counts for the extremes (common practice, no source)
       expect(s.min).toBe(1);
       expect(s.max).toBe(4);
       // weighted population std: sqrt(sum w (x - m)^2 / sum w), derived from the definition
@@ -192,7 +194,7 @@ describe('histogram exactness', () => {
     const s = acc.summarize(0.02, 0)!;
     expect(s.count).toBe(30_000_000);
     expect(s.std).toBe(0);
-    expect(s.mean).toBe(65535 * 0.02); // 1310.7 K, MODIS DN 65535 (METHODS.md 10 item 6)
+    expect(s.mean).toBe(65535 * 0.02); // 1310.7 K: MODIS DN 65535 (derived from LST = DN * 0.02, LP DAAC MOD11A1 V6.1 file attributes)
     expect(s.median).toBe(65535 * 0.02);
     expect(s.min).toBe(s.max);
   });

@@ -6,8 +6,10 @@
 
 /**
  * LST outside this range (Kelvin) is counted as implausible, not as data:
- * observed satellite surface-temperature extremes with a margin
- * (common practice, no source).
+ * observed satellite skin-temperature extremes with a margin. Extremes: ~175 K on the
+ * East Antarctic plateau (Scambos et al. 2018, GRL 45) and 343.9 K in the Lut Desert,
+ * 2005 (Mildrexler, Zhao & Running 2011, BAMS 92:855-860). The margin, and so the
+ * window itself, is a rule of thumb (from memory).
  */
 export const PLAUSIBLE_RANGE_KELVIN: readonly [number, number] = Object.freeze([170, 360] as const);
 

@@ -2,8 +2,10 @@
  * Derived metrics per district and day scene: day and night LST, apparent
  * thermal inertia and surface urban heat island intensity.
  *
- *   ATI  = (1 - albedo) / (T_day - T_night)          (Price 1977)
- *   SUHI = T_district - T_rural, same scene            (day and night separately)
+ *   ATI  = (1 - albedo) / (T_day - T_night)   (Price 1977, JGR 82:2582-2590; citation from memory)
+ *   SUHI = T_district - T_rural, same scene     (urban minus rural-reference LST, day and night
+ *                                                separately; Peng et al. 2012, Environ. Sci.
+ *                                                Technol. 46:696-703, pages from memory)
  *
  * A pass whose district (or rural) valid fraction is below `minValidFraction`
  * contributes nothing: its LST, its SUHI and the ATI that needs it stay null,

@@ -4,7 +4,7 @@
  * Day/night: each day LST scene takes the night LST scene nearest to it in
  * time within a window (default 18 h either side). ATI wants the day and night
  * of one diurnal cycle, as close as possible to the afternoon maximum and the
- * pre-dawn minimum (Kahle & Alley 1985); 18 h admits the pre-dawn pass of the
+ * pre-dawn minimum (Kahle & Alley 1985, PE&RS 51); 18 h admits the pre-dawn pass of the
  * same day and the night pass after it, and refuses the next day's. On an
  * exact tie the EARLIER night wins (the pre-dawn minimum that precedes the
  * afternoon maximum of the same cycle). A night scene may serve two days.

@@ -65,7 +65,7 @@ export function ellipsoidalAreaSquareMetres(geometry: readonly (readonly (readon
   return total;
 }
 
-/** Planar signed area (shoelace) in squared coordinate units; positive = counter-clockwise. */
+/** Planar signed area (shoelace formula; common practice, no source) in squared coordinate units; positive = counter-clockwise. */
 export function planarSignedArea(ring: readonly (readonly number[])[]): number {
   let s = 0;
   for (let i = 0; i + 1 < ring.length; i++) s += ring[i][0] * ring[i + 1][1] - ring[i + 1][0] * ring[i][1];

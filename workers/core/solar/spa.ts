@@ -256,7 +256,11 @@ export function geocentricSun(julianDay: number, deltaTSeconds: number): Geocent
   };
 }
 
-/** Pressure (mbar) and temperature (deg C) of the ICAO standard atmosphere at a height (m). */
+/**
+ * Pressure (mbar) and temperature (deg C) of the ICAO standard atmosphere at a height (m):
+ * p = 1013.25 (1 - 0.0065 h / 288.15)^5.25588, T = 15 - 0.0065 h (troposphere; ICAO Doc 7488,
+ * Manual of the ICAO Standard Atmosphere; from memory).
+ */
 function standardAtmosphere(elevationMetres: number): { pressureMbar: number; temperatureC: number } {
   const h = Math.min(Math.max(elevationMetres, -500), 11_000); // troposphere formula only
   return {

@@ -12,7 +12,7 @@ const MS_PER_DAY = 86_400_000;
 
 /**
  * Altitude of the sun's centre at sunrise and sunset: -(34' refraction + 16' semidiameter)
- * = -0.8333 deg (Meeus 1998, ch. 15; the value SPA uses). Common practice.
+ * = -0.8333 deg (Meeus 1998, Astronomical Algorithms, 2nd ed., ch. 15; the value SPA uses). Common practice.
  */
 export const APPARENT_HORIZON_ALTITUDE_DEG = -0.8333;
 
@@ -23,7 +23,8 @@ export interface SolarTimeOptions {
 
 /**
  * Local apparent (true) solar time at a longitude: UTC + lon/15 + EoT/60 (hours),
- * reduced to [0, 24). 12:00 is the sun's transit.
+ * reduced to [0, 24) (the definition; common practice, no source). 12:00 is the sun's transit;
+ * the equation of time EoT comes from SPA (Reda & Andreas 2004, appendix A.1).
  * @param dateUtc the instant.
  * @param lonDeg longitude (deg, east positive).
  * @returns hours in [0, 24).
@@ -78,7 +79,7 @@ function localSun(ms: number, latDeg: number, lonDeg: number, deltaT: number): L
 
 /**
  * Newton iteration on the time when the sun's geocentric altitude equals `h0Deg`
- * (Meeus 1998, ch. 15: dm = (h - h0) / (360 cos(dec) cos(lat) sin(H)) days).
+ * (Meeus 1998, Astronomical Algorithms, 2nd ed., ch. 15: dm = (h - h0) / (360 cos(dec) cos(lat) sin(H)) days).
  * Returns null when it does not converge (the crossing does not exist near `startMs`).
  */
 function refineCrossing(startMs: number, latDeg: number, lonDeg: number, deltaT: number, h0Deg: number, rising: boolean): number | null {

@@ -34,15 +34,18 @@ export type TimingRating = 'predawn' | 'midday' | 'crossover' | 'other';
 
 export interface RateTimingOptions extends SunPositionOptions {
   /**
-   * Half-width (h) of the midday window around solar noon. Default 2: surface
-   * temperature peaks in the early afternoon, and the Heat Capacity Mapping Mission
-   * (1978-80) was flown at ~13:30-14:00 to sample that maximum.
+   * Half-width (h) of the midday window around solar noon. Default 2 (rule of thumb; common
+   * practice, no source): surface temperature peaks in the early afternoon, and the Heat
+   * Capacity Mapping Mission (1978-80) flew a ~14:00 / ~02:00 orbit to sample near the diurnal
+   * maximum and minimum (NASA HCMM mission description).
    */
   middayHalfWidthHours?: number;
   /**
-   * Length (h) of the morning crossover window after sunrise. Default 3: the diurnal
-   * temperature curves of materials of different thermal inertia (water, dry soil,
-   * rock) cross shortly after sunrise, so contrast is minimal (Sabins 1987).
+   * Length (h) of the morning crossover window after sunrise. Default 3 (rule of thumb; common
+   * practice, no source): the diurnal temperature curves of materials of different thermal
+   * inertia (water, dry soil, rock) cross shortly after sunrise, so contrast is minimal
+   * (Sabins 1987, Remote Sensing: Principles and Interpretation, 2nd ed., diurnal
+   * radiant-temperature curves; figure as reproduced by a secondary source).
    */
   crossoverAfterSunriseHours?: number;
   /** Start (h before sunset) of the evening crossover window. Default 1.5 (Sabins 1987 curves cross around sunset). */
@@ -83,7 +86,7 @@ export interface TimingAssessment {
  * - 'midday': within +-2 h of solar noon, near the diurnal maximum of surface
  *   temperature (early afternoon).
  * - 'predawn': between solar midnight and sunrise (sun below the horizon), near the
- *   diurnal minimum (Kahle & Alley 1985).
+ *   diurnal minimum (Kahle & Alley 1985, PE&RS 51).
  * - 'other': the rest (evening and the first half of the night).
  * Polar night (sun below the apparent horizon all day): 'predawn' when local solar
  * time is in [0, 6) h, else 'other'. Midnight sun: 'midday' within the midday

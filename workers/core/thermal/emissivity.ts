@@ -1,13 +1,15 @@
 /**
  * Land surface emissivity by the NDVI-threshold method (NDVI-THM; Sobrino,
- * Jimenez-Munoz & Paolini 2004, RSE 90:434-440; after Valor & Caselles 1996).
+ * Jimenez-Munoz & Paolini 2004, "Land surface temperature retrieval from LANDSAT TM 5",
+ * RSE 90:434-440; after Valor & Caselles 1996, RSE 57:167-184, citation from memory).
+ * Thresholds, soil line and mixture forms as reproduced by a secondary source.
  */
 import { InputError } from '../errors.js';
 import { requireBetween, requireFinite } from '../checks.js';
 
 /**
  * Normalised difference vegetation index (NIR - RED) / (NIR + RED) from surface
- * reflectances (Rouse et al. 1974).
+ * reflectances (Rouse et al. 1974; citation from memory).
  * @param nir near-infrared reflectance (0..1).
  * @param red red reflectance (0..1).
  * @returns NDVI in [-1, 1], or null when it is undefined (NIR + RED <= 0, a
@@ -25,8 +27,8 @@ export function ndvi(nir: number, red: number): number | null {
 
 /**
  * Proportion of vegetation Pv = ((NDVI - NDVIs) / (NDVIv - NDVIs))^2, the ratio clamped
- * to [0, 1] before squaring (square: Carlson & Ripley 1997; thresholds 0.2 / 0.5:
- * Sobrino et al. 2004).
+ * to [0, 1] before squaring (square: Carlson & Ripley 1997, RSE 62:241-252, citation from
+ * memory; thresholds 0.2 / 0.5: Sobrino et al. 2004).
  * @param ndviValue NDVI.
  * @param ndviSoil NDVI of bare soil (default 0.2).
  * @param ndviVeg NDVI of full vegetation (default 0.5); must exceed ndviSoil.
@@ -48,24 +50,24 @@ export interface NdviThresholdOptions {
   /**
    * 'simplified': eps = 0.004 Pv + 0.986 (Sobrino et al. 2004, TM6; the cavity form with
    * eps_v 0.99, eps_s 0.97 rounded). 'cavity': eps = eps_v Pv + eps_s (1 - Pv) + d_eps with
-   * d_eps = (1 - eps_s)(1 - Pv) F eps_v. Default 'simplified'.
+   * d_eps = (1 - eps_s)(1 - Pv) F eps_v (Sobrino et al. 2004). Default 'simplified'.
    */
   form?: 'simplified' | 'cavity';
-  /** Bare-soil NDVI threshold (default 0.2). */
+  /** Bare-soil NDVI threshold (default 0.2, Sobrino et al. 2004). */
   ndviSoil?: number;
-  /** Full-vegetation NDVI threshold (default 0.5). */
+  /** Full-vegetation NDVI threshold (default 0.5, Sobrino et al. 2004). */
   ndviVeg?: number;
-  /** Vegetation emissivity eps_v, also used above ndviVeg (default 0.99). */
+  /** Vegetation emissivity eps_v, also used above ndviVeg (default 0.99, Sobrino et al. 2004). */
   emissivityVeg?: number;
-  /** Soil emissivity eps_s of the cavity form (default 0.97). */
+  /** Soil emissivity eps_s of the cavity form (default 0.97, Sobrino et al. 2004). */
   emissivitySoil?: number;
-  /** Geometrical (shape) factor F of the cavity term (default 0.55, a mean value). */
+  /** Geometrical (shape) factor F of the cavity term (default 0.55, a mean value; Sobrino et al. 2004). */
   shapeFactor?: number;
-  /** Soil line below ndviSoil: eps = intercept + slope * red (default TM6: 0.979 - 0.035 red). */
+  /** Soil line below ndviSoil: eps = intercept + slope * red (default TM6: 0.979 - 0.035 red, Sobrino et al. 2004). */
   soilLine?: { intercept: number; slope: number };
   /** When set, pixels with NDVI below this value are water and get `waterEmissivity`. Default: off. */
   waterNdviBelow?: number;
-  /** Emissivity of water (default 0.99; 0.991-0.995 are also used). */
+  /** Emissivity of water (default 0.99; 0.991-0.995 are also used; from memory). */
   waterEmissivity?: number;
 }
 

@@ -19,8 +19,8 @@ export interface ThermalProperties {
 }
 
 /**
- * Thermal inertia P = sqrt(k rho c) in J m-2 K-1 s-1/2 (Sobrino et al. 1998; Oke 1987
- * calls it the thermal admittance mu).
+ * Thermal inertia P = sqrt(k rho c) in J m-2 K-1 s-1/2 (Sobrino et al. 1998, Adv. Space
+ * Res. 22(5):655; Oke 1987, Boundary Layer Climates, calls it the thermal admittance mu).
  * @throws InputError when a property is not positive.
  * @example
  * thermalInertia({ conductivityWPerMK: 0.57, densityKgPerM3: 1000, specificHeatJPerKgK: 4180 }) // 1543.6
@@ -34,7 +34,7 @@ export function thermalInertia(p: ThermalProperties): number {
 }
 
 /**
- * Thermal diffusivity kappa = k / (rho c) in m2 s-1.
+ * Thermal diffusivity kappa = k / (rho c) in m2 s-1 (the definition; common practice, no source).
  * @throws InputError when a property is not positive.
  */
 export function thermalDiffusivity(p: ThermalProperties): number {
@@ -50,13 +50,13 @@ export interface AtiInput {
   albedo: number;
   /** Daytime LST (K), ideally near the early-afternoon maximum. */
   dayKelvin: Kelvin;
-  /** Night-time LST (K) of the same 24-36 h cycle, ideally pre-dawn. */
+  /** Night-time LST (K) of the same 24-36 h cycle, ideally pre-dawn (Kahle & Alley 1985, PE&RS 51). */
   nightKelvin: Kelvin;
   /** Day-night differences at or below this (K) give no ATI. Default 0.5 K. */
   minDifferenceKelvin?: number;
   /**
    * Solar correction C multiplying (1 - a) / dT, e.g. the A0 or A1 factor of
-   * {@link insolationShapeFactors}. Default 1 (Price 1977).
+   * {@link insolationShapeFactors}. Default 1, the simplest form (Price 1977, JGR 82:2582-2590).
    */
   solarCorrection?: number;
 }
@@ -78,7 +78,8 @@ export interface AtiResult {
 
 /**
  * Apparent thermal inertia with the reason when it is undefined:
- * ATI = C (1 - a) / (T_day - T_night) (Price 1977; C = 1 by default).
+ * ATI = C (1 - a) / (T_day - T_night) (Price 1977, "Thermal inertia mapping: a new view of the
+ * Earth", JGR 82:2582-2590, citation from memory; C = 1 by default).
  * A day-night difference at or below `minDifferenceKelvin` gives null rather than a
  * huge or infinite value, because noise dominates such pairs.
  * @throws InputError when `minDifferenceKelvin` is negative or not finite (a configuration error).
@@ -115,9 +116,9 @@ export function apparentThermalInertia(input: AtiInput): number | null {
 export interface InsolationShapeFactors {
   /** Half-day length psi = arccos(-tan(lat) tan(dec)) (deg, 0 in polar night, 180 in midnight sun). */
   halfDayLengthDeg: number;
-  /** Daily mean of the clipped cos(zenith): (psi sin(lat) sin(dec) + cos(lat) cos(dec) sin(psi)) / pi. */
+  /** Daily mean of the clipped cos(zenith): (psi sin(lat) sin(dec) + cos(lat) cos(dec) sin(psi)) / pi (derived by integration over the hour angle). */
   a0: number;
-  /** First Fourier harmonic of the clipped cos(zenith) (Xue & Cracknell 1995). */
+  /** First Fourier harmonic of the clipped cos(zenith) (derived; the factor of Xue & Cracknell 1995, IJRS 16:431-446, citation from memory). */
   a1: number;
 }
 
@@ -126,7 +127,9 @@ export interface InsolationShapeFactors {
  * solar correction C of ATI. The argument of arccos is clamped to [-1, 1].
  *   A0 = (psi sin(phi) sin(dec) + cos(phi) cos(dec) sin(psi)) / pi
  *   A1 = (2/pi) sin(phi) sin(dec) sin(psi) + (1/(2 pi)) cos(phi) cos(dec) (2 psi + sin(2 psi))
- * (Fourier coefficients of max(0, cos zenith) over the day; used by Xue & Cracknell 1995).
+ * (Fourier coefficients of max(0, cos zenith) over the day, derived by integrating over the
+ * hour angle; A1 is the factor of Xue & Cracknell 1995, "Advanced thermal inertia modelling",
+ * IJRS 16:431-446, citation from memory).
  * @param latDeg latitude (deg, -90..90).
  * @param declinationDeg solar declination (deg, -90..90).
  * @example

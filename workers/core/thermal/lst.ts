@@ -11,7 +11,7 @@ export const PLANCK_J_S = 6.62607015e-34;
 export const SPEED_OF_LIGHT_M_PER_S = 299_792_458;
 /** Boltzmann constant k_B (J/K), exact in the SI since 2019 (CODATA 2018). */
 export const BOLTZMANN_J_PER_K = 1.380649e-23;
-/** rho = h c / k_B (m K), the second radiation constant c2 (~1.438777e-2 m K). */
+/** rho = h c / k_B (m K), the second radiation constant c2 of Planck's law (~1.438777e-2 m K, derived). */
 export const RHO_METRE_KELVIN = (PLANCK_J_S * SPEED_OF_LIGHT_M_PER_S) / BOLTZMANN_J_PER_K;
 /** rho in um K from the exact constants (~14387.77). */
 export const RHO_MICROMETRE_KELVIN = RHO_METRE_KELVIN * 1e6;
@@ -19,8 +19,8 @@ export const RHO_MICROMETRE_KELVIN = RHO_METRE_KELVIN * 1e6;
 export const RHO_ROUNDED_MICROMETRE_KELVIN = 14388;
 
 /**
- * Emissivity-corrected LST (Artis & Carnahan 1982; Weng, Lu & Schubring 2004):
- * LST = BT / (1 + (lambda * BT / rho) * ln(eps)).
+ * Emissivity-corrected LST: LST = BT / (1 + (lambda * BT / rho) * ln(eps)) (Artis & Carnahan
+ * 1982, RSE 12:313-329; Weng, Lu & Schubring 2004, RSE 89:467-483; pages from memory).
  * @param btKelvin at-sensor (or atmospherically corrected) brightness temperature, K.
  * @param emissivity surface emissivity in (0, 1].
  * @param wavelengthMicrometres effective band wavelength (um); default 10.895, TIRS B10 centre.

@@ -42,8 +42,9 @@ export const MATERIALS: readonly MaterialRow[] = [
 
 /**
  * Specific heats used as constants (J kg-1 K-1): liquid water near 20-25 C (4184, the
- * thermochemical calorie per gram-kelvin), dry air at constant pressure near 300 K
- * (1003.5, as in meteorological code), copper at 300 K (385, Incropera Table A.1).
+ * thermochemical calorie per gram-kelvin; from memory), dry air at constant pressure, sea
+ * level, 0 C (1003.5, CRC-based specific-heat tables, from memory; the constant of
+ * meteorological code), copper at 300 K (385, Incropera & DeWitt Table A.1, from memory).
  */
 export const SPECIFIC_HEAT_J_PER_KG_K = { water: 4184, dryAir: 1003.5, copper: 385 } as const;
 

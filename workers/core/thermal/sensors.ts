@@ -26,10 +26,11 @@ export interface TirsBandConstants {
 }
 
 /**
- * Per-spacecraft TIRS constants. They are the values printed in every Landsat 8 / 9
- * MTL file (USGS Landsat 8 Data Users Handbook; L9 MTL). Prefer each scene's MTL
- * values when available; never apply one spacecraft's constants to the other
- * (L8 ML on L9 DN misreads DN 30000 by ~9 K).
+ * Per-spacecraft TIRS constants: the values of the Landsat 8 and the Landsat 9 scene MTL
+ * files (groups LEVEL1_RADIOMETRIC_RESCALING and LEVEL1_THERMAL_CONSTANTS), the same in
+ * every scene seen so far. Prefer each scene's MTL values when available; never apply one
+ * spacecraft's constants to the other (L8 ML on L9 DN misreads DN 30000 by ~9 K, derived
+ * from L = ML * Qcal + AL and BT = K2 / ln(K1 / L + 1)).
  */
 export const TIRS_CONSTANTS: Readonly<Record<LandsatSpacecraft, Readonly<Record<TirsBand, TirsBandConstants>>>> = {
   LANDSAT_8: {
@@ -64,7 +65,7 @@ export function tirsConstants(spacecraft: string, band: string): TirsBandConstan
 }
 
 /**
- * Top-of-atmosphere spectral radiance L = ML * Qcal + AL (USGS Landsat 8 Data Users Handbook).
+ * Top-of-atmosphere spectral radiance L = ML * Qcal + AL (USGS Landsat 8 (L8) Data Users Handbook, LSDS-1574; document number from memory).
  * @param dn quantised calibrated DN (Qcal).
  * @param ml radiance multiplier (W m-2 sr-1 um-1 per DN).
  * @param al radiance add term (W m-2 sr-1 um-1).
@@ -79,7 +80,7 @@ export function radianceFromDn(dn: number, ml: number, al: number): number {
 
 /**
  * At-sensor brightness temperature by inverting Planck's law with the band's
- * calibration constants: BT = K2 / ln(K1 / L + 1) (USGS Landsat 8 Data Users Handbook).
+ * calibration constants: BT = K2 / ln(K1 / L + 1) (USGS Landsat 8 (L8) Data Users Handbook, LSDS-1574; document number from memory).
  * @param radiance spectral radiance L (W m-2 sr-1 um-1), > 0.
  * @param k1 K1 constant (W m-2 sr-1 um-1).
  * @param k2 K2 constant (K).
@@ -95,8 +96,9 @@ export function brightnessTemperatureKelvin(radiance: number, k1: number, k2: nu
 }
 
 /**
- * Brightness temperature of a Landsat 8/9 Level-1 TIRS DN, or null for fill (DN 0) and
- * values outside the calibrated range 1..65535 (QUANTIZE_CAL_MIN/MAX).
+ * Brightness temperature of a Landsat 8/9 Level-1 TIRS DN, or null for fill (DN 0; from
+ * memory) and values outside the calibrated range 1..65535 (QUANTIZE_CAL_MIN/MAX of the
+ * Landsat 9 scene MTL).
  * @param dn Level-1 DN of band 10 or 11.
  * @param constants the band's constants (see {@link tirsConstants}).
  * @example
@@ -107,13 +109,17 @@ export function landsatL1BrightnessKelvin(dn: number, constants: TirsBandConstan
   return brightnessTemperatureKelvin(radianceFromDn(dn, constants.ml, constants.al), constants.k1, constants.k2);
 }
 
-/** Scale and offset of Landsat Collection 2 Level-2 ST_B10 (USGS LSDS-1328 and the C2 L2 asset metadata). */
+/**
+ * Scale and offset of Landsat Collection 2 Level-2 ST_B10 (USGS LSDS-1328, "Landsat 8-9 OLI/TIRS
+ * Collection 2 Level 2 Data Format Control Book", and the C2 L2 per-asset raster metadata).
+ */
 export const LANDSAT_C2_ST = { scale: 0.00341802, offset: 149.0, fillDn: 0 } as const;
 
 /**
  * Surface temperature of a Landsat Collection 2 Level-2 ST_B10 DN:
- * ST = DN * 0.00341802 + 149.0 K; DN 0 is fill. Scene metadata, when present, should
- * supply scale and offset (older products used other encodings).
+ * ST = DN * 0.00341802 + 149.0 K, DN 0 fill (USGS LSDS-1328; C2 L2 asset metadata). Scene
+ * metadata, when present, should supply scale and offset (older products used other
+ * encodings: provisional Collection 1 ST had scale 0.1, no offset, from memory).
  * @param dn uint16 DN.
  * @param encoding scale/offset override (from the raster's metadata).
  * @returns Kelvin, or null for fill, a non-integer or a DN outside 1..65535.
@@ -129,7 +135,10 @@ export function decodeLandsatC2StKelvin(dn: number, encoding: { scale: number; o
   return dn * encoding.scale + encoding.offset;
 }
 
-/** MODIS LST encoding (MOD11A1/MYD11A1 V6.1 file attributes): scale 0.02 K, valid 7500..65535, fill 0. */
+/**
+ * MODIS LST encoding: scale 0.02 K, valid 7500..65535, fill 0 (LP DAAC MOD11A1/MYD11A1 V6.1
+ * product description and file attributes).
+ */
 export const MODIS_LST = { scale: 0.02, validMin: 7500, validMax: 65535, fillDn: 0 } as const;
 
 /** Why a MODIS LST DN does or does not decode. */
@@ -143,8 +152,9 @@ export function modisLstStatus(dn: number): ModisDnStatus {
 }
 
 /**
- * MODIS LST DN to Kelvin: LST = DN * 0.02. The valid range 150..1310.7 K is an
- * encoding range, not a physical one: apply plausibility checks downstream.
+ * MODIS LST DN to Kelvin: LST = DN * 0.02 (LP DAAC MOD11A1/MYD11A1 V6.1 file attributes;
+ * Wan, MODIS LST Product User's Guide, Collection 6, title from memory). The valid range
+ * 150..1310.7 K is an encoding range, not a physical one: apply plausibility checks downstream.
  * @returns Kelvin, or null for fill or an out-of-range DN (see {@link modisLstStatus}).
  * @example
  * decodeModisLstKelvin(15000) // 300
@@ -155,7 +165,8 @@ export function decodeModisLstKelvin(dn: number): Kelvin | null {
 
 /**
  * MODIS Day_view_time / Night_view_time DN to local SOLAR time of the observation
- * (hours): DN * 0.1, valid 0..240; other values (fill 255) give null.
+ * (hours): DN * 0.1, valid 0..240 (LP DAAC MOD11A1/MYD11A1 V6.1 file attributes); other
+ * values (fill 255) give null.
  * @example
  * modisViewTimeHours(135) // 13.5
  */

@@ -71,9 +71,11 @@ export class FloatAccumulator {
   /**
    * Mean, population std (ddof 0), min, max and type-7 quantiles, or null
    * when empty. Moments by two passes: a compensated sum for the mean
-   * (Neumaier 1974), then squared deviations with the correction term of
-   * Chan, Golub & LeVeque (1983). Weighted: mean = sum(w x) / sum(w),
-   * var = sum(w (x - mean)^2) / sum(w); quantiles by runQuantiles.
+   * (Neumaier 1974, ZAMM 54:39-51, citation from memory), then squared deviations
+   * with the correction term of Chan, Golub & LeVeque (1983, "Algorithms for computing
+   * the sample variance: analysis and recommendations", Am. Stat. 37:242-247, citation
+   * from memory). Weighted: mean = sum(w x) / sum(w), var = sum(w (x - mean)^2) / sum(w)
+   * (the definitions; common practice, no source); quantiles by runQuantiles.
    * Sorts the buffer in place (values added later are still counted).
    */
   summarize(): ValueSummary | null {

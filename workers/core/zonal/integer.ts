@@ -124,7 +124,7 @@ export class IntegerAccumulator {
    *
    * Mean and variance come from the DN histogram by two passes over the bins
    * (the mean first, then squared deviations with the correction term of
-   * Chan, Golub & LeVeque 1983), in DN, then scaled: mean * scale + offset,
+   * Chan, Golub & LeVeque 1983, Am. Stat. 37:242-247, citation from memory), in DN, then scaled: mean * scale + offset,
    * std * |scale|. All equal DNs give std exactly 0. Quantiles are type 7
    * (weighted: see runQuantiles) taken in the order of the scaled values, so
    * a negative scale reverses the bin order.

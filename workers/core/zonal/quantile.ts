@@ -16,7 +16,7 @@ export function lerp(a: number, b: number, t: number): number {
 
 /**
  * Type-7 quantile of an ascending-sorted array: h = (n - 1) p (0-based),
- * Q = x[floor h] + (h - floor h) (x[floor h + 1] - x[floor h]).
+ * Q = x[floor h] + (h - floor h) (x[floor h + 1] - x[floor h]) (Hyndman & Fan 1996, type 7).
  *
  * @param sorted ascending values; only the first `n` are used
  * @param p probability in [0, 1]

@@ -6,7 +6,7 @@
  */
 import os from 'node:os';
 import { InputError } from './core/errors.js';
-import { readDistricts, ruralRing, type District } from './core/districts/index.js';
+import { readDistricts, ruralRing, subtractPolygons, type District } from './core/districts/index.js';
 import type { DeriveOptions } from './core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from './core/derive/metrics.js';
 import { fingerprint, hashFile, listSceneFiles, readManifest, type ManifestEntry, type SceneKind } from './jobs/archive.js';
@@ -76,13 +76,7 @@ async function storeIdentity(store: Store): Promise<string> {
 /** The rural ring without the water polygons of `waterPath` (GeoJSON; ids optional). */
 export async function subtractWater(ring: District, waterPath: string): Promise<District> {
   const water = await readMergedPolygons(waterPath, 'water', 'water');
-  const { default: difference } = await import('@turf/difference');
-  const { featureCollection, multiPolygon } = await import('@turf/helpers');
-  const cut = difference(featureCollection([multiPolygon(ring.geometry), multiPolygon(water.geometry)]));
-  if (!cut) throw new InputError('the water polygons cover the whole rural ring', waterPath);
-  const geometry = cut.geometry.type === 'Polygon' ? [cut.geometry.coordinates as number[][][]] : (cut.geometry.coordinates as number[][][][]);
-  const { ellipsoidalAreaSquareMetres } = await import('./core/districts/index.js');
-  return { ...ring, geometry, areaSquareMetres: ellipsoidalAreaSquareMetres(geometry) };
+  return subtractPolygons(ring, water.geometry, waterPath);
 }
 
 function asNumber(v: unknown): number | null {
@@ -151,7 +145,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     rural = await readRuralReference(options.ruralPath);
     ruralDescription = `user polygon(s) from ${options.ruralPath}`;
   } else {
-    rural = ruralRing(districts, inner, outer);
+    rural = ruralRing(districts, inner, outer, { source: options.districtsPath });
     ruralDescription = `ring ${inner}-${outer} m outside the union of the districts`;
     if (options.waterPath) {
       rural = await subtractWater(rural, options.waterPath);

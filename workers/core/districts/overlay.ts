@@ -78,8 +78,11 @@ export interface Region { readonly geometry: unknown }
  * it scale errors stay below 0.01 %, so buffers and overlays work in metres.
  */
 export interface MetricFrame {
-  /** MultiPolygon lon/lat coordinates → a region, simplified at SIMPLIFY_TOLERANCE_METRES. */
-  region(lonLat: number[][][][]): Region;
+  /**
+   * MultiPolygon lon/lat coordinates → a region, simplified at SIMPLIFY_TOLERANCE_METRES
+   * unless `simplify` is false (geometry this module derived already).
+   */
+  region(lonLat: number[][][][], simplify?: boolean): Region;
   union(regions: readonly Region[]): Region;
   buffer(region: Region, metres: Metres): Region;
   difference(a: Region, b: Region): Region;
@@ -115,7 +118,7 @@ export function metricFrame(centreLon: number, centreLat: number, source?: strin
     try {
       return f();
     } catch (e) {
-      if (e instanceof InputError) throw e;
+      if (e instanceof InputError && (e.source || !source)) throw e;
       throw new InputError(`the polygon ${what} failed (${(e as Error)?.message ?? String(e)}); check the polygons for overlaps and slivers`, source);
     }
   };
@@ -137,15 +140,15 @@ export function metricFrame(centreLon: number, centreLat: number, source?: strin
     return out;
   };
   return {
-    region(lonLat) {
+    region(lonLat, simplify = true) {
       return guard('simplification', () => {
         const parts: JGeometry[] = [];
         for (const poly of lonLat) {
           const shell = ringOf(poly[0]);
           const holes = poly.slice(1).map(ringOf);
           // Douglas & Peucker (1973); JTS repairs any self-intersection the simplification makes
-          const simple = j.DouglasPeuckerSimplifier.simplify(gf.createPolygon(shell, holes), SIMPLIFY_TOLERANCE_METRES);
-          polygons(simple, parts);
+          const polygon = gf.createPolygon(shell, holes);
+          polygons(simplify ? j.DouglasPeuckerSimplifier.simplify(polygon, SIMPLIFY_TOLERANCE_METRES) : polygon, parts);
         }
         return { geometry: gf.createGeometryCollection(parts) };
       });

@@ -60,14 +60,14 @@ export function ruralRing(
 }
 
 /**
- * A rural reference ring (or any reference region) without the given water
- * polygons; the same overlay and simplification as {@link ruralRing}.
+ * A rural ring from {@link ruralRing} without the given water polygons: the
+ * same overlay; the water is simplified as the districts are, the ring is not again.
  * @param waterSource the water file, named in errors
  */
 export function subtractPolygons(ring: District, water: number[][][][], waterSource?: string): District {
   const [lon, lat] = bboxCentre([ring.geometry]);
   const frame = metricFrame(lon, lat, waterSource);
-  const cut = frame.difference(frame.union([frame.region(ring.geometry)]), frame.union([frame.region(water)]));
+  const cut = frame.difference(frame.region(ring.geometry, false), frame.union([frame.region(water)]));
   if (frame.isEmpty(cut)) throw new InputError('the water polygons cover the whole rural ring', waterSource);
   const geometry = frame.lonLat(cut);
   return { ...ring, geometry, areaSquareMetres: ellipsoidalAreaSquareMetres(geometry) };

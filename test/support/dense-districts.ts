@@ -84,27 +84,31 @@ export function shapelyAvailable(): boolean {
 /**
  * Area, m², of (union ⊕ outer) − (union ⊕ inner) by shapely in an azimuthal
  * equidistant projection (WGS 84) centred on (lon0, lat0), 16 segments per
- * quarter circle; no simplification.
+ * quarter circle; no simplification. With `waterPath`, its polygons are cut out.
  */
-export function shapelyRingArea(geojsonPath: string, lon0: number, lat0: number, innerMetres: number, outerMetres: number): number {
+export function shapelyRingArea(geojsonPath: string, lon0: number, lat0: number, innerMetres: number, outerMetres: number, waterPath?: string): number {
   const code = `
 import json, sys
 from osgeo import osr
 from shapely.geometry import Polygon
 from shapely.ops import unary_union
-path, lon0, lat0, inner, outer = sys.argv[1], float(sys.argv[2]), float(sys.argv[3]), float(sys.argv[4]), float(sys.argv[5])
+path, lon0, lat0, inner, outer, water = sys.argv[1], float(sys.argv[2]), float(sys.argv[3]), float(sys.argv[4]), float(sys.argv[5]), sys.argv[6]
 src = osr.SpatialReference(); src.ImportFromEPSG(4326); src.SetAxisMappingStrategy(osr.OAMS_TRADITIONAL_GIS_ORDER)
 dst = osr.SpatialReference(); dst.ImportFromProj4(f"+proj=aeqd +lat_0={lat0} +lon_0={lon0} +datum=WGS84 +units=m +no_defs")
 ct = osr.CoordinateTransformation(src, dst)
-polys = []
-for f in json.load(open(path))["features"]:
-    rings = [[p[:2] for p in ct.TransformPoints([(x, y) for x, y in r])] for r in f["geometry"]["coordinates"]]
-    polys.append(Polygon(rings[0], rings[1:]))
-city = unary_union(polys)
+def polygons(p):
+    out = []
+    for f in json.load(open(p))["features"]:
+        rings = [[q[:2] for q in ct.TransformPoints([(x, y) for x, y in r])] for r in f["geometry"]["coordinates"]]
+        out.append(Polygon(rings[0], rings[1:]))
+    return out
+city = unary_union(polygons(path))
 ring = city.buffer(outer, 16).difference(city.buffer(inner, 16) if inner > 0 else city)
+if water:
+    ring = ring.difference(unary_union(polygons(water)))
 print(ring.area)
 `;
-  const r = spawnSync('/usr/bin/python3', ['-c', code, geojsonPath, String(lon0), String(lat0), String(innerMetres), String(outerMetres)], { encoding: 'utf8', maxBuffer: 1 << 20 });
+  const r = spawnSync('/usr/bin/python3', ['-c', code, geojsonPath, String(lon0), String(lat0), String(innerMetres), String(outerMetres), waterPath ?? ''], { encoding: 'utf8', maxBuffer: 1 << 20 });
   if (r.status !== 0) throw new Error(`shapely reference failed: ${r.stderr}`);
   return Number(r.stdout.trim());
 }

@@ -105,6 +105,22 @@ describe('bad paths are reported, the walk goes on', () => {
     expect(listing.unreadable).toEqual([{ path: join(root, 'a/mnt'), reason: expect.stringMatching(/^folder loop/) }]);
   });
 
+  it('a command-line folder that cannot be reached (EACCES on stat, as stat(2) reports it for a parent without search permission)', async () => {
+    const root = await goodArchive('unreachable');
+    const blocked = join(root, 'b');
+    const fs: WalkFs = {
+      ...realFs,
+      stat: async (p) => {
+        if (p === blocked) throw Object.assign(new Error(`EACCES: permission denied, stat '${p}'`), { code: 'EACCES' });
+        return realFs.stat(p);
+      },
+    };
+    expect(await listSceneFiles([join(root, 'a'), blocked], fs)).toEqual({
+      files: [join(root, 'a/1.tif'), join(root, 'a/2.tif')],
+      unreadable: [{ path: blocked, reason: 'cannot read (EACCES)' }],
+    });
+  });
+
   it('a path on the command line that does not exist stops the run before it starts (a typo)', async () => {
     await expect(listSceneFiles([join(dir, 'no-such-folder')])).rejects.toThrow(/no-such-folder: no such file or folder/);
   });

@@ -152,11 +152,9 @@ export async function listSceneFiles(inputs: readonly string[], fs: WalkFs = NOD
       s = await fs.stat(p);
     } catch (e) {
       const code = errorCode(e);
-      if (code === 'ENOENT' || code === 'ENOTDIR') {
-        const isLink = await fs.lstat(p).then((l) => l.isSymbolicLink(), () => false);
-        if (!isLink) throw new InputError('no such file or folder', input);
-      }
-      await followLink(p, new Set());
+      if (await fs.lstat(p).then((l) => l.isSymbolicLink(), () => false)) await followLink(p, new Set());
+      else if (code === 'ENOENT' || code === 'ENOTDIR') throw new InputError('no such file or folder', input);
+      else bad(p, `cannot read (${code})`);
       continue;
     }
     if (s.isDirectory()) await walkFolder(p, s, new Set());

@@ -6,10 +6,10 @@
  */
 import os from 'node:os';
 import { InputError } from './core/errors.js';
-import { readDistricts, ruralRing, type District } from './core/districts/index.js';
+import { readDistricts, ruralRing, subtractPolygons, type District } from './core/districts/index.js';
 import type { DeriveOptions } from './core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from './core/derive/metrics.js';
-import { fingerprint, hashFile, listSceneFiles, readManifest, type ManifestEntry, type SceneKind } from './jobs/archive.js';
+import { fingerprint, listScenes, readManifest, type ManifestEntry, type SceneKind, type UnreadablePath } from './jobs/archive.js';
 import { readMergedPolygons, readRuralReference } from './jobs/zonal-table.js';
 import { registryModuleUrl, THREADED_JOBS } from './jobs/registry.js';
 import { createPipelineRepo } from './jobs/repo.js';
@@ -20,7 +20,7 @@ import { deriveJobId } from './queue/tree.js';
 import type { FlowProgress, JobFailure, JobSpec, Runner } from './queue/types.js';
 import type { Store } from './store/index.js';
 import { openConfiguredStore } from './store/configured.js';
-import { startRun, finishRun, upsertDistricts } from './store/repo.js';
+import { startRun, finishRun, markSceneFailed, upsertDistricts } from './store/repo.js';
 import { runtimeConfig, type RuntimeConfig, ENV } from './config.js';
 import { VERSION } from './version.js';
 
@@ -58,6 +58,8 @@ export interface PipelineSummary {
   scenes: number;
   /** Files whose bytes equal an earlier file's (processed once, as that file). */
   duplicates: { path: string; sameAs: string }[];
+  /** Paths asked for that could not be read (stored as failed scenes keyed by path). */
+  unreadable: UnreadablePath[];
   failures: JobFailure[];
   derive: DeriveResult | null;
   seconds: number;
@@ -76,13 +78,7 @@ async function storeIdentity(store: Store): Promise<string> {
 /** The rural ring without the water polygons of `waterPath` (GeoJSON; ids optional). */
 export async function subtractWater(ring: District, waterPath: string): Promise<District> {
   const water = await readMergedPolygons(waterPath, 'water', 'water');
-  const { default: difference } = await import('@turf/difference');
-  const { featureCollection, multiPolygon } = await import('@turf/helpers');
-  const cut = difference(featureCollection([multiPolygon(ring.geometry), multiPolygon(water.geometry)]));
-  if (!cut) throw new InputError('the water polygons cover the whole rural ring', waterPath);
-  const geometry = cut.geometry.type === 'Polygon' ? [cut.geometry.coordinates as number[][][]] : (cut.geometry.coordinates as number[][][][]);
-  const { ellipsoidalAreaSquareMetres } = await import('./core/districts/index.js');
-  return { ...ring, geometry, areaSquareMetres: ellipsoidalAreaSquareMetres(geometry) };
+  return subtractPolygons(ring, water.geometry, waterPath);
 }
 
 function asNumber(v: unknown): number | null {
@@ -151,7 +147,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     rural = await readRuralReference(options.ruralPath);
     ruralDescription = `user polygon(s) from ${options.ruralPath}`;
   } else {
-    rural = ruralRing(districts, inner, outer);
+    rural = ruralRing(districts, inner, outer, { source: options.districtsPath });
     ruralDescription = `ring ${inner}-${outer} m outside the union of the districts`;
     if (options.waterPath) {
       rural = await subtractWater(rural, options.waterPath);
@@ -160,25 +156,8 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   }
 
   const manifest = options.manifestPath ? await readManifest(options.manifestPath) : new Map<string, ManifestEntry>();
-  const lstFiles = await listSceneFiles(options.inputs);
-  const albedoFiles = options.albedoInputs?.length ? await listSceneFiles(options.albedoInputs) : [];
-  const all = [...new Set([...lstFiles, ...albedoFiles])];
-  if (all.length === 0) throw new InputError(`no GeoTIFF (.tif/.tiff) found in ${options.inputs.join(', ')}`);
-  const albedoSet = new Set(albedoFiles);
-  const files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[] = [];
-  const duplicates: { path: string; sameAs: string }[] = [];
-  const byHash = new Map<string, string>();
-  for (const path of all) {
-    const contentHash = await hashFile(path);
-    const first = byHash.get(contentHash);
-    // a byte-identical copy under another name is the same scene: processed once
-    if (first !== undefined) {
-      duplicates.push({ path, sameAs: first });
-      continue;
-    }
-    byHash.set(contentHash, path);
-    files.push({ path, contentHash, kind: albedoSet.has(path) ? 'albedo' : undefined, manifest: manifest.get(path) });
-  }
+  const { files, duplicates, unreadable } = await listScenes(options.inputs, options.albedoInputs ?? []);
+  for (const f of files) f.manifest = manifest.get(f.path);
 
   if (options.qaMaskBits === undefined && [...manifest.values()].some((m) => m.qa)) {
     throw new InputError('the manifest gives QA rasters; say which QA bits mask a pixel with --qa-mask', options.manifestPath);
@@ -207,6 +186,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       { id: RURAL_ID, name: 'rural reference', role: 'rural' as const, geometry: rural.geometry, areaSquareMetres: rural.areaSquareMetres, properties: { description: ruralDescription } },
     ]);
     const runId = await startRun(store, { softwareVersion: VERSION, mode: config.mode, parameters: params });
+    for (const u of unreadable) await markSceneFailed(store, { path: u.path, error: `${u.path}: ${u.reason}`, runId });
     const identity = await storeIdentity(store);
     const root = buildFlow({
       identity,
@@ -236,6 +216,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       mode: config.mode,
       scenes: files.length,
       duplicates,
+      unreadable,
       failures: result.failures,
       derive: deriveResult,
       seconds: (performance.now() - started) / 1000,

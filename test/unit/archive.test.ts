@@ -61,7 +61,7 @@ describe('scene files', () => {
     await mkdir(join(sub, 'b'), { recursive: true });
     await mkdir(join(sub, '.hidden'), { recursive: true });
     for (const f of ['b/2.TIF', 'a.tif', 'notes.txt', '.hidden/x.tif', 'c.tiff']) await writeFile(join(sub, f), 'x');
-    expect(await listSceneFiles([sub, join(sub, 'a.tif')])).toEqual([join(sub, 'a.tif'), join(sub, 'b', '2.TIF'), join(sub, 'c.tiff')]);
+    expect(await listSceneFiles([sub, join(sub, 'a.tif')])).toEqual({ files: [join(sub, 'a.tif'), join(sub, 'b', '2.TIF'), join(sub, 'c.tiff')], unreadable: [] });
     await expect(listSceneFiles([join(sub, 'nope')])).rejects.toThrow(/nope: no such file or folder/);
   });
   it('fingerprints ignore key order', () => {

@@ -45,6 +45,11 @@ export function summaryLines(s: PipelineSummary): string[] {
   ];
   for (const d of s.duplicates.slice(0, 20)) lines.push(`  same bytes as ${d.sameAs}, processed once: ${d.path}`);
   if (s.duplicates.length > 20) lines.push(`  ... and ${s.duplicates.length - 20} more duplicate file(s)`);
+  if (s.unreadable.length) {
+    lines.push(`${s.unreadable.length} path(s) could not be read and are recorded as failed; the rest were processed:`);
+    for (const u of s.unreadable.slice(0, 20)) lines.push(`  ${u.path}: ${u.reason}`);
+    if (s.unreadable.length > 20) lines.push(`  ... and ${s.unreadable.length - 20} more (see \`heatledger status\`)`);
+  }
   if (s.failures.length) {
     lines.push(`${s.failures.length} job(s) failed; the rest were processed:`);
     for (const f of s.failures.slice(0, 20)) lines.push(`  ${f.name}: ${f.error}`);
@@ -117,14 +122,29 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
 }
 
 /**
- * A run whose derive step failed (after its retries) did not produce the
- * district table: exit non-zero with the reason. Scenes that failed on their
- * own are reported and do not fail the run.
+ * Exit 0 only when everything asked for was done. A run whose derive step
+ * failed (after its retries) did not produce the district table: exit
+ * non-zero with the reason. A run where some asked-for paths could not be
+ * read, or some scene files failed (corrupt or unreadable GeoTIFFs), stored
+ * every other scene and the table from them, but not everything asked for:
+ * exit 2 (bad input) after the summary, or 1 when a scene failed for a
+ * service. The failed paths stay in the store for `heatledger status`.
  */
 export function throwIfRunFailed(summary: PipelineSummary): void {
   const root = summary.failures.find((f) => f.name === 'derive');
-  if (!root && summary.derive !== null) return;
-  const reason = root?.error ?? 'the derive step did not complete';
-  if (/^ServiceError: /.test(reason)) throw new ServiceError(`run ${summary.runId} failed: ${reason.replace(/^ServiceError: /, '')}`);
-  throw new Error(`run ${summary.runId} failed: ${reason}`);
+  if (root || summary.derive === null) {
+    const reason = root?.error ?? 'the derive step did not complete';
+    if (/^ServiceError: /.test(reason)) throw new ServiceError(`run ${summary.runId} failed: ${reason.replace(/^ServiceError: /, '')}`);
+    throw new Error(`run ${summary.runId} failed: ${reason}`);
+  }
+  const unreadable = summary.unreadable.length ?? 0;
+  const failedScenes = summary.failures.length;
+  if (unreadable === 0 && failedScenes === 0) return;
+  const what = [
+    unreadable ? `${unreadable} path(s) could not be read` : '',
+    failedScenes ? `${failedScenes} scene job(s) failed` : '',
+  ].filter(Boolean).join(' and ');
+  const message = `run ${summary.runId}: ${what} (listed above and in \`heatledger status\`); the other scenes are stored`;
+  if (summary.failures.some((f) => /^ServiceError: /.test(f.error))) throw new ServiceError(message);
+  throw new InputError(message);
 }

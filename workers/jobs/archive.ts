@@ -4,7 +4,7 @@
  */
 import { createHash } from 'node:crypto';
 import { createReadStream } from 'node:fs';
-import { readFile, readdir, stat } from 'node:fs/promises';
+import { lstat, readFile, readdir, readlink, stat } from 'node:fs/promises';
 import { extname, join, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
 
@@ -24,29 +24,215 @@ export interface ManifestEntry {
 
 const RASTER_EXTENSIONS = new Set(['.tif', '.tiff', '.gtif']);
 
-/** Every GeoTIFF under the given files and folders (recursively), absolute, sorted, unique. */
-export async function listSceneFiles(inputs: readonly string[]): Promise<string[]> {
-  const out = new Set<string>();
-  const walk = async (p: string): Promise<void> => {
-    let s;
+/** A path the run was asked for (or found in a folder it was asked for) that could not be read. */
+export interface UnreadablePath {
+  path: string;
+  /** One sentence: what is wrong (e.g. "symbolic link loop", "cannot list the folder (EACCES)"). */
+  reason: string;
+}
+
+/** What the walk found: GeoTIFFs to process and paths that could not be read. */
+export interface SceneListing {
+  /** Absolute, sorted, unique (a file reached twice, through a link, counts once). */
+  files: string[];
+  /** Sorted by path. */
+  unreadable: UnreadablePath[];
+}
+
+/** The stat fields the walk uses. */
+export interface WalkStats {
+  dev: number | bigint;
+  ino: number | bigint;
+  isFile(): boolean;
+  isDirectory(): boolean;
+  isSymbolicLink(): boolean;
+  isFIFO(): boolean;
+  isSocket(): boolean;
+  isCharacterDevice(): boolean;
+  isBlockDevice(): boolean;
+}
+
+/** The file-system calls the walk makes; tests pass their own to produce failures root is immune to. */
+export interface WalkFs {
+  stat(path: string): Promise<WalkStats>;
+  lstat(path: string): Promise<WalkStats>;
+  readdir(path: string): Promise<string[]>;
+  readlink(path: string): Promise<string>;
+}
+
+const NODE_FS: WalkFs = { stat, lstat, readdir: (p) => readdir(p), readlink };
+
+function errorCode(e: unknown): string {
+  const err = e as NodeJS.ErrnoException;
+  return err?.code ?? err?.message ?? String(e);
+}
+
+function kindOf(s: WalkStats): string {
+  if (s.isFIFO()) return 'a named pipe (FIFO)';
+  if (s.isSocket()) return 'a socket';
+  if (s.isCharacterDevice() || s.isBlockDevice()) return 'a device';
+  return 'not a regular file';
+}
+
+/**
+ * Every GeoTIFF under the given files and folders (recursively), and every
+ * path on the way that could not be read, each with its reason. A bad path
+ * never stops the walk: symbolic-link loops, folders that contain themselves
+ * (through a link or a bind mount: same device and inode as a folder above),
+ * dangling links, folders that cannot be listed and GeoTIFF names that are not
+ * regular files (a FIFO would block a reader) are reported and skipped.
+ * A link to a file or folder is followed once: links are taken after every
+ * real entry, so a target inside the walk keeps its real path and is not
+ * counted twice; a target outside the walk is walked under the link's path.
+ * Hidden entries (".name") are skipped.
+ * @throws InputError when a path given on the command line does not exist (a typo stops the run before it starts)
+ */
+export async function listSceneFiles(inputs: readonly string[], fs: WalkFs = NODE_FS): Promise<SceneListing> {
+  const files = new Map<string, string>(); // dev:ino -> path
+  const unreadable = new Map<string, string>(); // path -> reason
+  const walkedFolders = new Set<string>(); // dev:ino
+  const links: { path: string; ancestors: ReadonlySet<string> }[] = [];
+  const idOf = (s: WalkStats) => `${s.dev}:${s.ino}`;
+  const bad = (path: string, reason: string) => { if (!unreadable.has(path)) unreadable.set(path, reason); };
+
+  const addFile = (path: string, s: WalkStats) => {
+    if (!s.isFile()) return bad(path, `${kindOf(s)}, not a GeoTIFF file`);
+    if (!files.has(idOf(s))) files.set(idOf(s), path);
+  };
+
+  const walkFolder = async (path: string, s: WalkStats, ancestors: ReadonlySet<string>): Promise<void> => {
+    const id = idOf(s);
+    if (ancestors.has(id)) return bad(path, 'folder loop: this folder is one of the folders that contain it (through a link or a mount); not followed');
+    if (walkedFolders.has(id)) return; // already walked under another path
+    walkedFolders.add(id);
+    let entries: string[];
     try {
-      s = await stat(p);
-    } catch {
-      throw new InputError('no such file or folder', p);
+      entries = await fs.readdir(path);
+    } catch (e) {
+      return bad(path, `cannot list the folder (${errorCode(e)})`);
     }
-    if (s.isDirectory()) {
-      for (const e of (await readdir(p)).sort()) {
-        if (e.startsWith('.')) continue;
-        const child = join(p, e);
-        const cs = await stat(child);
-        if (cs.isDirectory() || RASTER_EXTENSIONS.has(extname(e).toLowerCase())) await walk(child);
+    const inside = new Set([...ancestors, id]);
+    for (const e of [...entries].sort()) {
+      if (e.startsWith('.')) continue;
+      const child = join(path, e);
+      let cs: WalkStats;
+      try {
+        cs = await fs.lstat(child);
+      } catch (err) {
+        bad(child, `cannot read the entry (${errorCode(err)})`);
+        continue;
       }
-    } else {
-      out.add(resolve(p));
+      if (cs.isSymbolicLink()) links.push({ path: child, ancestors: inside });
+      else if (cs.isDirectory()) await walkFolder(child, cs, inside);
+      else if (RASTER_EXTENSIONS.has(extname(e).toLowerCase())) addFile(child, cs);
     }
   };
-  for (const i of inputs) await walk(i);
-  return [...out].sort();
+
+  const followLink = async (path: string, ancestors: ReadonlySet<string>): Promise<void> => {
+    let target: WalkStats;
+    try {
+      target = await fs.stat(path);
+    } catch (e) {
+      const code = errorCode(e);
+      if (code === 'ELOOP') return bad(path, 'symbolic link loop (the link resolves to itself)');
+      if (code === 'ENOENT' || code === 'ENOTDIR') {
+        const to = await fs.readlink(path).catch(() => '?');
+        return bad(path, `dangling symbolic link (its target ${to} does not exist)`);
+      }
+      return bad(path, `cannot follow the symbolic link (${code})`);
+    }
+    if (target.isDirectory()) await walkFolder(path, target, ancestors);
+    else if (RASTER_EXTENSIONS.has(extname(path).toLowerCase())) addFile(path, target);
+  };
+
+  for (const input of inputs) {
+    const p = resolve(input);
+    let s: WalkStats;
+    try {
+      s = await fs.stat(p);
+    } catch (e) {
+      const code = errorCode(e);
+      if (await fs.lstat(p).then((l) => l.isSymbolicLink(), () => false)) await followLink(p, new Set());
+      else if (code === 'ENOENT' || code === 'ENOTDIR') throw new InputError('no such file or folder', input);
+      else bad(p, `cannot read (${code})`);
+      continue;
+    }
+    if (s.isDirectory()) await walkFolder(p, s, new Set());
+    else addFile(p, s); // a file named on the command line is taken whatever its extension
+  }
+  // links last, so that real paths win; following one may queue more
+  for (let i = 0; i < links.length; i++) await followLink(links[i].path, links[i].ancestors);
+  return {
+    files: [...files.values()].sort(),
+    unreadable: [...unreadable].map(([path, reason]) => ({ path, reason })).sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0)),
+  };
+}
+
+export interface HashedScene {
+  path: string;
+  contentHash: string;
+}
+
+/**
+ * Hash every file; a file that cannot be read is reported, not thrown, and a
+ * file whose bytes equal an earlier one's is the same scene (listed as a duplicate).
+ */
+export async function hashSceneFiles(paths: readonly string[]): Promise<{
+  scenes: HashedScene[];
+  duplicates: { path: string; sameAs: string }[];
+  unreadable: UnreadablePath[];
+}> {
+  const scenes: HashedScene[] = [];
+  const duplicates: { path: string; sameAs: string }[] = [];
+  const unreadable: UnreadablePath[] = [];
+  const byHash = new Map<string, string>();
+  for (const path of paths) {
+    let contentHash: string;
+    try {
+      contentHash = await hashFile(path);
+    } catch (e) {
+      const message = (e as Error).message;
+      unreadable.push({ path, reason: message.startsWith(`${path}: `) ? message.slice(path.length + 2) : message });
+      continue;
+    }
+    const first = byHash.get(contentHash);
+    if (first !== undefined) {
+      duplicates.push({ path, sameAs: first });
+      continue;
+    }
+    byHash.set(contentHash, path);
+    scenes.push({ path, contentHash });
+  }
+  return { scenes, duplicates, unreadable };
+}
+
+/**
+ * The scenes of a run: LST inputs and albedo inputs walked, every file hashed.
+ * Paths that could not be read are returned with their reasons, not thrown.
+ * @throws InputError when a command-line path does not exist, or when nothing readable was found
+ */
+export async function listScenes(inputs: readonly string[], albedoInputs: readonly string[], fs: WalkFs = NODE_FS): Promise<{
+  files: (HashedScene & { kind?: SceneKind; manifest?: ManifestEntry })[];
+  duplicates: { path: string; sameAs: string }[];
+  unreadable: UnreadablePath[];
+}> {
+  const lst = await listSceneFiles(inputs, fs);
+  const albedo = albedoInputs.length ? await listSceneFiles(albedoInputs, fs) : { files: [], unreadable: [] };
+  const albedoSet = new Set(albedo.files);
+  const hashed = await hashSceneFiles([...new Set([...lst.files, ...albedo.files])]);
+  const unreadable = [...new Map([...lst.unreadable, ...albedo.unreadable, ...hashed.unreadable].map((u) => [u.path, u])).values()]
+    .sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));
+  if (hashed.scenes.length === 0) {
+    const where = [...inputs, ...albedoInputs].join(', ');
+    if (unreadable.length === 0) throw new InputError(`no GeoTIFF (.tif/.tiff) found in ${where}`);
+    const shown = unreadable.slice(0, 5).map((u) => `${u.path}: ${u.reason}`).join('; ');
+    throw new InputError(`no readable GeoTIFF in ${where}; ${unreadable.length} path(s) could not be read: ${shown}${unreadable.length > 5 ? '; ...' : ''}`);
+  }
+  return {
+    files: hashed.scenes.map((f) => (albedoSet.has(f.path) ? { ...f, kind: 'albedo' as const } : { ...f })),
+    duplicates: hashed.duplicates,
+    unreadable,
+  };
 }
 
 /** SHA-256 of a file's bytes, streamed (hex). */

@@ -4,5 +4,6 @@ export { parseDistricts, readDistricts, type ParseDistrictsOptions } from './par
 export { ellipsoidalAreaSquareMetres, signedRingAreaSquareMetres } from './area.js';
 export { orientPolygon, orientMultiPolygon } from './orient.js';
 export { districtsBBox } from './bbox.js';
-export { ruralRing } from './rural.js';
+export { ruralRing, subtractPolygons } from './rural.js';
+export { SIMPLIFY_TOLERANCE_METRES } from './overlay.js';
 export { adjacency, type AdjacencyOptions } from './adjacency.js';

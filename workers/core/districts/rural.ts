@@ -1,8 +1,11 @@
 /**
  * The rural reference ring around a city: the band between the districts'
  * union buffered by `innerMetres` and by `outerMetres` (an "urban minus
- * surrounding buffer" SUHI reference; Schwarz, Lautenbach & Seppelt 2011 compare
- * such indicators, and buffer widths of 2-30 km are common - see METHODS.md §4).
+ * surrounding buffer" SUHI reference; Schwarz, Lautenbach & Seppelt 2011, RSE
+ * 115:3175-3186, pages from memory, compare such indicators; buffer widths of
+ * 2-30 km and rings of area equal to the urban area, as in Peng et al. 2012,
+ * Environ. Sci. Technol. 46:696-703, appear in the literature, as reproduced by
+ * secondary sources).
  *
  * The ring is derived from the district polygons simplified within
  * SIMPLIFY_TOLERANCE_METRES (1 m, see overlay.ts); the districts' own statistics

@@ -1,4 +1,4 @@
-import { InputError, ServiceError } from '../core/errors.js';
+import { InputError, isServiceError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../config.js';
 import { parsePlausible } from './common.js';
 import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
@@ -22,6 +22,10 @@ export interface IngestCommandOptions {
   albedoWindow: number;
   threads?: number;
   dataDir?: string;
+  /** Seconds PostgreSQL or Redis may stay unreachable before the run gives up on them. */
+  serviceRetryBudget?: number;
+  /** Seconds without worker activity before a distributed run ends incomplete. */
+  stallTimeout?: number;
   json?: boolean;
   progress: boolean;
 }
@@ -45,8 +49,11 @@ export function summaryLines(s: PipelineSummary): string[] {
   ];
   for (const d of s.duplicates.slice(0, 20)) lines.push(`  same bytes as ${d.sameAs}, processed once: ${d.path}`);
   if (s.duplicates.length > 20) lines.push(`  ... and ${s.duplicates.length - 20} more duplicate file(s)`);
+  if (s.outcome.status !== 'succeeded') {
+    lines.push(`run ${s.runId} ${s.outcome.status}: ${s.outcome.scenesLeft} of ${s.scenes} scene(s) left${s.outcome.derived ? '' : ', district table not derived'}`);
+  }
   if (s.failures.length) {
-    lines.push(`${s.failures.length} job(s) failed; the rest were processed:`);
+    lines.push(`${s.failures.length} job(s) failed or did not finish:`);
     for (const f of s.failures.slice(0, 20)) lines.push(`  ${f.name}: ${f.error}`);
     if (s.failures.length > 20) lines.push(`  ... and ${s.failures.length - 20} more (see \`heatledger status\`)`);
   }
@@ -57,6 +64,8 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   if (!(opts.minValidFraction >= 0 && opts.minValidFraction <= 1)) throw new InputError(`--min-valid-fraction must be between 0 and 1, got ${opts.minValidFraction}`);
   if (!(opts.pairingWindow > 0)) throw new InputError(`--pairing-window must be positive hours, got ${opts.pairingWindow}`);
   if (!(opts.albedoWindow > 0)) throw new InputError(`--albedo-window must be positive days, got ${opts.albedoWindow}`);
+  if (opts.serviceRetryBudget !== undefined && !(opts.serviceRetryBudget >= 0)) throw new InputError(`--service-retry-budget must be seconds >= 0, got ${opts.serviceRetryBudget}`);
+  if (opts.stallTimeout !== undefined && !(opts.stallTimeout > 0)) throw new InputError(`--stall-timeout must be positive seconds, got ${opts.stallTimeout}`);
   const { runPipeline } = await import('../pipeline.js');
   const config = runtimeConfig({ dataDir: opts.dataDir });
   let bar: { update(v: number, p?: object): void; setTotal(t: number): void; stop(): void } | null = null;
@@ -92,6 +101,8 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     derive: { minValidFraction: opts.minValidFraction, pairingWindowHours: opts.pairingWindow, albedoWindowDays: opts.albedoWindow },
     threads: opts.threads,
     dataDir: opts.dataDir,
+    serviceRetryBudgetSeconds: opts.serviceRetryBudget,
+    stallTimeoutSeconds: opts.stallTimeout,
     onNotice: (m) => process.stderr.write(`\nheatledger: ${m}\n`),
     onProgress: bar
       ? (p) => {
@@ -105,6 +116,10 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   let summary: PipelineSummary;
   try {
     summary = await runPipeline(options, config);
+  } catch (e) {
+    // Past the budget before the run could start (or end): say how to resume.
+    if (isServiceError(e)) throw new ServiceError(`${e.message}. Nothing stored is lost; run the same command again once it is back`, { cause: e, service: e.service });
+    throw e;
   } finally {
     if (bar && started) bar.stop();
   }
@@ -117,14 +132,26 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
 }
 
 /**
- * A run whose derive step failed (after its retries) did not produce the
- * district table: exit non-zero with the reason. Scenes that failed on their
- * own are reported and do not fail the run.
+ * Exit code 0 only for a run that did everything asked: a run with scenes
+ * left or without its district table ends with a ServiceError saying which
+ * service failed, for how long, and how to resume (exit 1); a run whose
+ * derive step failed on a bug ends with that error. Scenes refused as bad
+ * input are recorded (see `heatledger status`) and do not fail the run.
  */
 export function throwIfRunFailed(summary: PipelineSummary): void {
-  const root = summary.failures.find((f) => f.name === 'derive');
-  if (!root && summary.derive !== null) return;
-  const reason = root?.error ?? 'the derive step did not complete';
-  if (/^ServiceError: /.test(reason)) throw new ServiceError(`run ${summary.runId} failed: ${reason.replace(/^ServiceError: /, '')}`);
-  throw new Error(`run ${summary.runId} failed: ${reason}`);
+  const o = summary.outcome;
+  if (o.status === 'succeeded') return;
+  if (o.status === 'failed') throw new Error(`run ${summary.runId} failed: ${o.error ?? 'the derive step did not complete'}`);
+  const left = [
+    o.scenesLeft > 0 ? `${o.scenesLeft} of ${summary.scenes} scene(s) not finished` : '',
+    o.derived ? '' : 'district table not derived',
+  ].filter(Boolean).join(', ');
+  const service = o.service === 'worker' ? 'no worker'
+    : o.service ? `${o.service} failed${o.serviceFailingSeconds !== undefined ? ` for ${o.serviceFailingSeconds} s (longer than the service retry budget)` : ''}`
+      : 'a job failed';
+  const resume = o.service === 'worker' ? 'start `heatledger worker` and run the same command again' : 'run the same command again to finish the run';
+  throw new ServiceError(
+    `run ${summary.runId} is incomplete (${left}): ${service}: ${(o.error ?? '').replace(/^ServiceError: /, '')}. Nothing stored is lost; ${resume}`,
+    { service: o.service },
+  );
 }

@@ -3,9 +3,10 @@
  *
  * - input errors: never (the file will not get better);
  * - bugs: up to `attempts` tries in all, with exponential back-off;
- * - service errors (database or Redis unreachable, connection lost): like bugs,
- *   and beyond that for as long as the service has been failing for less than
- *   `serviceBudgetMs`, so an outage shorter than the budget loses nothing.
+ * - service errors (database or Redis unreachable, connection lost): for as
+ *   long as the service has been failing for less than `serviceBudgetMs`, so an
+ *   outage shorter than the budget loses nothing (with no budget, 0, they get
+ *   `attempts` tries like bugs).
  *
  * The back-off doubles from `backoffMs` (BullMQ's exponential rule,
  * 2^(n-1)·delay) and is capped at MAX_BACKOFF_MS, so a service that comes back
@@ -23,7 +24,7 @@ export interface RetryPolicy {
   attempts: number;
   /** First retry delay (ms), doubling on each retry up to MAX_BACKOFF_MS. */
   backoffMs: number;
-  /** How long (ms) a service may keep failing before its jobs fail for good; 0 = `attempts` only. */
+  /** How long (ms) a service may keep failing before its jobs fail for good; 0 = `attempts` tries instead. */
   serviceBudgetMs: number;
 }
 
@@ -68,13 +69,13 @@ export function asFailureRecord(value: unknown): FailureRecord | null {
 export function nextRetryDelayMs(policy: RetryPolicy, triesMade: number, last: FailureRecord, nowMs: number): number | null {
   if (last.kind === 'input') return null;
   const backoff = Math.min(Math.round(2 ** (triesMade - 1) * policy.backoffMs), MAX_BACKOFF_MS);
-  if (triesMade < policy.attempts) return backoff;
-  if (last.kind === 'service' && last.serviceFailingSinceMs !== undefined) {
-    const left = last.serviceFailingSinceMs + policy.serviceBudgetMs - nowMs;
+  if (last.kind === 'service' && policy.serviceBudgetMs > 0) {
+    const since = last.serviceFailingSinceMs ?? last.atMs;
+    const left = since + policy.serviceBudgetMs - nowMs;
     // The last try falls at the end of the budget.
-    if (left > 0) return Math.min(backoff, left);
+    return left > 0 ? Math.min(backoff, left) : null;
   }
-  return null;
+  return triesMade < policy.attempts ? backoff : null;
 }
 
 /** The failure a runner reports for a job that failed for good with `last` (or never ran: `fallback`). */

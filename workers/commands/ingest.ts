@@ -146,12 +146,13 @@ export function throwIfRunFailed(summary: PipelineSummary): void {
     o.scenesLeft > 0 ? `${o.scenesLeft} of ${summary.scenes} scene(s) not finished` : '',
     o.derived ? '' : 'district table not derived',
   ].filter(Boolean).join(', ');
-  const service = o.service === 'worker' ? 'no worker'
+  const service = o.service === 'worker' ? 'stalled'
     : o.service ? `${o.service} failed${o.serviceFailingSeconds !== undefined ? ` for ${o.serviceFailingSeconds} s (longer than the service retry budget)` : ''}`
       : 'a job failed';
   const resume = o.service === 'worker' ? 'start `heatledger worker` and run the same command again' : 'run the same command again to finish the run';
+  const reason = (o.error ?? 'the run did not finish').replace(/^ServiceError: /, '');
   throw new ServiceError(
-    `run ${summary.runId} is incomplete (${left}): ${service}: ${(o.error ?? '').replace(/^ServiceError: /, '')}. Nothing stored is lost; ${resume}`,
+    `run ${summary.runId} is incomplete (${left}): ${service}: ${reason}${/[.?!]$/.test(reason) ? '' : '.'} Nothing stored is lost; ${resume}`,
     { service: o.service },
   );
 }

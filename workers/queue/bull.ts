@@ -184,6 +184,8 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
   const flow = new FlowProducer({ connection, prefix });
   flow.on('error', onError);
   const openEvents = new Set<QueueEvents>();
+  // Connections of the event streams; closed with the run, or by close() when a run was abandoned (Redis away).
+  const openEventConnections = new Set<Redis>();
   let closed = false;
 
   async function inspect(nodes: FlatNode[]): Promise<Map<string, { job: Job | undefined; state: string }>> {
@@ -307,11 +309,15 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     let lastActivity = Date.now();
     const events: QueueEvents[] = [];
     const eventConnections: Redis[] = [];
+    // Nothing is opened on a Redis that is not there (runFlow gives up on it after the budget).
+    if (connection.status !== 'ready') await new Promise<void>((res) => { connection.once('ready', () => res()); });
+    if (closed) throw new ServiceError('the BullMQ runner was closed while a run was in progress');
     for (const qn of new Set(nodes.map((n) => queueOf(n.spec.name)))) {
       // QueueEvents blocks on its connection: give it its own (closed below).
       const ec = connection.duplicate();
       ec.on('error', onError);
       eventConnections.push(ec);
+      openEventConnections.add(ec);
       const qe = new QueueEvents(qn, { connection: ec, prefix });
       qe.on('error', onError);
       const isOurs = (id: string) => byId.has(id) && queueOf(byId.get(id)!.spec.name) === qn;
@@ -370,7 +376,7 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
               stopped = {
                 kind: 'service',
                 service: 'worker',
-                error: `no heatledger worker made progress on this run for ${seconds} s (${queued}); is a \`heatledger worker\` running with the same REDIS_URL and HEATLEDGER_QUEUE_PREFIX?`,
+                error: `no heatledger worker made progress on this run for ${seconds} s (${queued}); is a \`heatledger worker\` running (same REDIS_URL and HEATLEDGER_QUEUE_PREFIX)?`,
               };
               break;
             }
@@ -395,7 +401,7 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     } finally {
       rootFinished = null;
       await Promise.all(events.map(async (e) => { openEvents.delete(e); await settleWithin(e.close(), 2_000); }));
-      for (const c of eventConnections) c.disconnect();
+      for (const c of eventConnections) { c.disconnect(); openEventConnections.delete(c); }
     }
   }
 
@@ -403,10 +409,21 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     runFlow,
     async close() {
       closed = true;
-      // Bounded: with Redis away, BullMQ's close() waits for a reconnect.
+      if (connection.status !== 'ready') {
+        // Redis is away: BullMQ's close() would wait for a reconnect; start the closes without waiting and drop the connections.
+        for (const e of openEvents) void e.close().catch(() => undefined);
+        openEvents.clear();
+        for (const c of openEventConnections) c.disconnect();
+        openEventConnections.clear();
+        connection.disconnect();
+        return;
+      }
+      // Bounded all the same: Redis may go away while closing.
       for (const e of openEvents) await settleWithin(e.close(), 2_000);
       for (const q of queues.values()) await settleWithin(q.close(), 2_000);
       await settleWithin(flow.close(), 2_000);
+      for (const c of openEventConnections) c.disconnect();
+      openEventConnections.clear();
       connection.disconnect();
     },
   };

@@ -34,7 +34,7 @@ import { DISTRICTS } from '../../demo-data/city.js';
 import type { ArchiveOptions, ArchiveResult } from '../../demo-data/generate.js';
 import { serviceAvailable, testDatabaseUrl, testRedisUrl } from '../support/services.js';
 import {
-  SMALL_ARCHIVE, cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren,
+  cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren,
   makeArchive, runCli, serverCounts, startCliWorker, startTcpProxy, stopChild, uniquePrefix, type TempDatabase,
 } from '../support/pipeline-harness.js';
 import { freeFaultPort, postgresBinDir, startPrivatePostgres, type PrivatePostgres } from '../support/private-postgres.js';
@@ -48,6 +48,8 @@ const TARGETS = DISTRICTS.length + 1;
 const filesOf = (o: ArchiveOptions) => o.years! * (2 * o.pairsPerYear! + 1);
 const datesOf = (o: ArchiveOptions) => o.years! * o.pairsPerYear!;
 const TINY: ArchiveOptions = { years: 1, pairsPerYear: 1, pixelSizeMetres: 250 };
+/** Two day/night pairs: 5 files, enough for a scene stored before the outage and others after. */
+const HALF: ArchiveOptions = { years: 1, pairsPerYear: 2, pixelSizeMetres: 250 };
 const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 /** A Node stack frame line, as printed by Error.stack. */
 const STACK_LINE = /^\s+at .+[(:]\d+/m;
@@ -84,7 +86,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
 
   beforeAll(async () => {
     tmp = await mkdtemp(path.join(os.tmpdir(), 'hl-outage-'));
-    archive = await makeArchive(path.join(tmp, 'archive'));
+    archive = await makeArchive(path.join(tmp, 'archive'), HALF);
     tiny = await makeArchive(path.join(tmp, 'tiny'), TINY);
   });
 
@@ -99,7 +101,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
   const ingestArgs = (a: ArchiveResult, ...extra: string[]) => ['ingest', path.dirname(a.districtsPath), '--districts', a.districtsPath, '--json', ...extra];
 
   it.skipIf(!canRunPrivate)('PostgreSQL down 30 s mid-run: the run completes or ends incomplete, and the next ingest gives the undisturbed table', async ({ expect }) => {
-    const files = filesOf(SMALL_ARCHIVE);
+    const files = filesOf(HALF);
     const server = await startPrivatePostgres('down30');
     servers.push(server);
     await withClient(server.url(), (c) => c.query('CREATE DATABASE heat'));
@@ -117,16 +119,19 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     const worker = await startCliWorker(env, 60_000);
     const ingest = runCli(ingestArgs(archive), env, 400_000);
 
-    // Mid-run, for certain: once a scene is stored, hold the statistics table so no further scene can finish, then crash the server.
+    // Mid-run, for certain: hold the statistics table as soon as it exists, wait until a worker's
+    // zonal step is blocked on it (scenes registered, none stored), then crash the server.
     const lock = new pg.Client({ connectionString: server.url('heat') });
     lock.on('error', () => undefined);
     await lock.connect();
-    await waitFor('a first scene stored', async () => {
-      const n = Number((await lock.query('SELECT count(DISTINCT scene_id) AS n FROM zonal_stats')).rows[0].n);
-      return n >= 1 ? n : undefined;
-    }, 200_000, 50);
+    await waitFor('the tables migrated', async () => ((await lock.query(`SELECT to_regclass('zonal_stats') AS t`)).rows[0].t ? true : undefined), 200_000, 50);
     await lock.query('BEGIN');
     await lock.query('LOCK TABLE zonal_stats IN SHARE MODE');
+    // (Asked on a connection of its own: pg_stat_activity is a snapshot per transaction.)
+    await waitFor('a zonal step waiting on its transaction', () => withClient(server.url('heat'), async (c) => {
+      const n = Number((await c.query(`SELECT count(*) AS n FROM pg_stat_activity WHERE wait_event_type = 'Lock' AND query ILIKE '%zonal_stats%'`)).rows[0].n);
+      return n > 0 ? n : undefined;
+    }), 300_000, 200);
     const storedAtStop = Number((await lock.query('SELECT count(DISTINCT scene_id) AS n FROM zonal_stats')).rows[0].n);
     await server.stop('immediate');
     await lock.end().catch(() => undefined);
@@ -152,15 +157,15 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     const again = await runCli(ingestArgs(archive), env, 240_000);
     expect(again.code, again.stderr).toBe(0);
     expect(JSON.parse(again.stdout).outcome).toEqual({ status: 'succeeded', scenesLeft: 0, derived: true, error: null });
-    expect(await serverCounts(server.url('heat'))).toEqual({ scenes: files, zonal: files * TARGETS, derived: datesOf(SMALL_ARCHIVE) * TARGETS, zonalDuplicates: 0 });
+    expect(await serverCounts(server.url('heat'))).toEqual({ scenes: files, zonal: files * TARGETS, derived: datesOf(HALF) * TARGETS, zonalDuplicates: 0 });
     expect(await cliOk(['table', '--format', 'json'], env)).toBe(await baseline);
     expect(worker.child.exitCode).toBe(null);
     expect((await stopChild(worker.child, 'SIGTERM')).code).toBe(0);
   }, 600_000);
 
   it.skipIf(!canRunPrivate)('PostgreSQL restarted while the derive step is in its transaction: the run completes, the one worker survives', async ({ expect }) => {
-    const opts: ArchiveOptions = { years: 1, pairsPerYear: 2, pixelSizeMetres: 250 };
-    const small = await makeArchive(path.join(tmp, 'derive-restart'), opts);
+    const opts = TINY;
+    const small = tiny;
     const server = await startPrivatePostgres('derive');
     servers.push(server);
     await withClient(server.url(), (c) => c.query('CREATE DATABASE heat'));

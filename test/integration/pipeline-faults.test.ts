@@ -126,7 +126,7 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
     );
   }, 180_000);
 
-  it('fails fast with a service error when PostgreSQL is unreachable for every process', async ({ expect }) => {
+  it('ends with a service error, once its retry budget is spent, when PostgreSQL is unreachable for every process', async ({ expect }) => {
     const prefix = uniquePrefix('nodb');
     prefixes.push(prefix);
     const env = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: 'postgres://postgres@127.0.0.1:1/heatledger', HEATLEDGER_QUEUE_PREFIX: prefix });

@@ -16,7 +16,9 @@
  *   (with a worker that reaches the server) finishes the run;
  * - Redis unreachable at start: a service error naming Redis within the
  *   budget, not a hang;
- * - no worker running: ingest reports the stall and exits 1.
+ * - no worker running: ingest reports the stall and exits 1;
+ * - a worker started with another stalled-check interval than a running one
+ *   refuses to start (exit 2).
  *
  * The contract checked (exit 0 only when everything asked was done, exit 1
  * for a service failure, a one-line message without a stack) is the CLI's
@@ -255,6 +257,25 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     const line = r.stderr.split('\n').find((l) => l.startsWith('heatledger: service error: ')) ?? '';
     expect(line).toMatch(new RegExp(`^heatledger: service error: run \\d+ is incomplete \\(${filesOf(TINY)} of ${filesOf(TINY)} scene\\(s\\) not finished, district table not derived\\): Redis failed: cannot reach Redis at 127\\.0\\.0\\.1:${port}.*; unreachable for \\d+ s, longer than the service retry budget of 2 s\\. Nothing stored is lost; run the same command again to finish the run$`));
     expect(await lastRun(db.url)).toMatchObject({ status: 'incomplete', scenes_left: filesOf(TINY) });
+  }, 300_000);
+
+  it('workers agree on the stalled-check interval: one started with another value than a running one refuses to start', async ({ expect }) => {
+    const db = await createTempDatabase('interval');
+    dbs.push(db);
+    const prefix = uniquePrefix('interval');
+    prefixes.push(prefix);
+    const env = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: db.url, HEATLEDGER_QUEUE_PREFIX: prefix, HEATLEDGER_STALLED_INTERVAL: '4' });
+    const first = await startCliWorker(env, 60_000);
+    expect(first.stderr()).toContain('stalled check every 4 s');
+    // The stalled check runs Redis-wide, whichever worker runs it (common practice, no source: one setting for all).
+    const other = await runCli(['worker', '--stalled-interval', '6'], env, 120_000);
+    expect(other.timedOut).toBe(false);
+    expect(other.code).toBe(2);
+    expect(other.stderr).toBe('heatledger: --stalled-interval is 6 s but the heatledger workers already serving this Redis use 4 s; give every worker the same value (option or HEATLEDGER_STALLED_INTERVAL)\n');
+    // The same value is welcome.
+    const same = await startCliWorker(env, 60_000);
+    expect((await stopChild(same.child, 'SIGTERM')).code).toBe(0);
+    expect((await stopChild(first.child, 'SIGTERM')).code).toBe(0);
   }, 300_000);
 
   it('no worker running: ingest reports the stall (queue, jobs waiting, the worker question) and exits 1', async ({ expect }) => {

@@ -481,6 +481,7 @@ async function agreeStalledInterval(connection: Redis, prefix: string, queueName
   const recorded = Number(await connection.hget(key, 'stalledIntervalMs'));
   if (Number.isFinite(recorded) && recorded > 0 && recorded !== stalledIntervalMs) {
     const q = new Queue(queueName, { connection, prefix });
+    q.on('error', () => undefined); // the connection's own listener reports it
     try {
       if ((await q.getWorkersCount()) > 0) {
         throw new InputError(

@@ -11,6 +11,7 @@ import { isInputError } from './core/errors.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
 import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
+import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS, STALLED_INTERVAL_MS } from './queue/settings.js';
 
 const CAUTION =
   'LST is land-surface (skin) temperature, not air temperature. Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
@@ -93,6 +94,10 @@ export function buildProgram(): Command {
     .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), 18)
     .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), 32)
     .option('--threads <n>', 'worker threads in embedded mode (default: CPU cores)', parseInteger('--threads'))
+    .addOption(new Option('--service-retry-budget <seconds>', 'how long PostgreSQL or Redis may stay unreachable before the run gives up on them; unfinished scenes are left for the next ingest (exit 1)')
+      .env(ENV.serviceRetryBudget).argParser(parseNumber('--service-retry-budget')).default(DEFAULT_SERVICE_RETRY_BUDGET_MS / 1000))
+    .addOption(new Option('--stall-timeout <seconds>', 'distributed mode: end the run incomplete (exit 1) when no worker has made progress for this long')
+      .env(ENV.stallTimeout).argParser(parseNumber('--stall-timeout')).default(DEFAULT_STALL_TIMEOUT_MS / 1000))
     .addOption(dataDirOption())
     .option('--json', 'print the run summary as JSON')
     .option('--no-progress', 'no progress bar')
@@ -127,6 +132,8 @@ export function buildProgram(): Command {
     .command('worker')
     .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
     .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency'), Number(process.env[ENV.concurrency] ?? 1))
+    .addOption(new Option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value')
+      .env(ENV.stalledInterval).argParser(parseNumber('--stalled-interval')).default(STALLED_INTERVAL_MS / 1000))
     .action(async (opts) => {
       const { runWorkerCommand } = await import('./commands/worker.js');
       await runWorkerCommand(opts);

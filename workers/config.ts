@@ -16,6 +16,12 @@ export const ENV = {
   queuePrefix: 'HEATLEDGER_QUEUE_PREFIX',
   apiPort: 'HEATLEDGER_API_PORT',
   apiHost: 'HEATLEDGER_API_HOST',
+  /** Seconds a database or Redis may stay unreachable before a run gives up (ingest --service-retry-budget). */
+  serviceRetryBudget: 'HEATLEDGER_SERVICE_RETRY_BUDGET',
+  /** Seconds ingest waits with no worker activity before it ends the run incomplete (ingest --stall-timeout). */
+  stallTimeout: 'HEATLEDGER_STALL_TIMEOUT',
+  /** Seconds between BullMQ's checks for jobs of dead workers (worker --stalled-interval; the same on every worker). */
+  stalledInterval: 'HEATLEDGER_STALLED_INTERVAL',
 } as const;
 
 export const DEFAULT_DATA_DIR = '.heatledger';

@@ -5,7 +5,7 @@
  * which runner and which store `openRuntime` hands back.
  */
 import os from 'node:os';
-import { InputError } from './core/errors.js';
+import { InputError, isServiceError, type ServiceName } from './core/errors.js';
 import { readDistricts, ruralRing, subtractPolygons, type District } from './core/districts/index.js';
 import type { DeriveOptions } from './core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from './core/derive/metrics.js';
@@ -17,7 +17,9 @@ import type { IngestData } from './jobs/ingest.js';
 import type { ZonalData } from './jobs/zonal.js';
 import type { DeriveData, DeriveResult } from './jobs/derive.js';
 import { deriveJobId } from './queue/tree.js';
-import type { FlowProgress, JobFailure, JobSpec, Runner } from './queue/types.js';
+import type { FlowProgress, FlowResult, JobFailure, JobSpec, Runner } from './queue/types.js';
+import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS } from './queue/settings.js';
+import { withServiceRetry } from './queue/retry.js';
 import type { Store } from './store/index.js';
 import { openConfiguredStore } from './store/configured.js';
 import { startRun, finishRun, markSceneFailed, upsertDistricts } from './store/repo.js';
@@ -48,6 +50,10 @@ export interface PipelineOptions {
   /** Worker threads in embedded mode (default: the machine's cores). */
   threads?: number;
   dataDir?: string;
+  /** How long (s) PostgreSQL or Redis may stay unreachable before the run gives up on them; default 300. */
+  serviceRetryBudgetSeconds?: number;
+  /** Distributed mode: how long (s) to wait with no worker activity before ending the run incomplete; default 180. */
+  stallTimeoutSeconds?: number;
   onProgress?(p: FlowProgress & { elapsedSeconds: number }): void;
   onNotice?(message: string): void;
 }
@@ -62,7 +68,79 @@ export interface PipelineSummary {
   unreadable: UnreadablePath[];
   failures: JobFailure[];
   derive: DeriveResult | null;
+  /** How the run ended, as stored in its row. */
+  outcome: RunOutcome;
   seconds: number;
+}
+
+/** How a run ended: every scene stored and the table derived, or not (and why). */
+export interface RunOutcome {
+  status: 'succeeded' | 'incomplete' | 'failed';
+  /** Scenes not finished (neither stored nor refused as bad input); the next ingest finishes them. */
+  scenesLeft: number;
+  /** Files asked for that were refused as bad input (unreadable paths, corrupt scenes); recorded with their reasons. */
+  refused: number;
+  /** Whether the derive step produced the district table. */
+  derived: boolean;
+  /** Why the run is not 'succeeded'. */
+  error: string | null;
+  /** The service that kept the run from finishing, when one did, and how long (s) it kept failing. */
+  service?: ServiceName;
+  serviceFailingSeconds?: number;
+}
+
+/**
+ * The outcome of a run from its job tree (derive ← zonal ← ingest) and what
+ * the runner reported. A scene is finished when both its jobs completed or one
+ * refused it as bad input (recorded as a failed scene); anything else —
+ * a service that stayed away past the budget, a bug, a runner that stopped
+ * waiting — leaves it for the next ingest. A derive step failing on a service
+ * leaves the run incomplete; failing on anything else fails it. Files refused
+ * as bad input (and `unreadable` paths that never became jobs) also keep the
+ * run from 'succeeded' — not everything asked for was stored — but re-running
+ * will not change them: the error names them, and they stay in the store.
+ */
+export function runOutcome(root: JobSpec, result: FlowResult, unreadable = 0): RunOutcome {
+  const failures = new Map(result.failures.map((f) => [f.id, f]));
+  const reasons: JobFailure[] = [];
+  const finished = (id: string): boolean => {
+    if (result.results.has(id)) return true;
+    const f = failures.get(id);
+    if (f?.kind === 'input') return true;
+    if (f) reasons.push(f);
+    return false;
+  };
+  let scenesLeft = 0;
+  let refused = unreadable;
+  for (const zonalJob of root.children ?? []) {
+    const ingestDone = (zonalJob.children ?? []).every((c) => finished(c.id));
+    const zonalDone = finished(zonalJob.id);
+    if (!(ingestDone && zonalDone)) scenesLeft++;
+    else if ([zonalJob, ...(zonalJob.children ?? [])].some((j) => failures.get(j.id)?.kind === 'input')) refused++;
+  }
+  const derived = result.results.has(root.id);
+  const deriveFailure = failures.get(root.id);
+  const first = (kind?: string) => reasons.find((f) => kind === undefined || f.kind === kind);
+  const pick = result.stopped ? { error: result.stopped.error, service: result.stopped.service, serviceFailingSeconds: undefined }
+    : deriveFailure ?? first('service') ?? first();
+  if (deriveFailure && deriveFailure.kind !== 'service' && !result.stopped) {
+    return { status: 'failed', scenesLeft, refused, derived, error: deriveFailure.error, service: deriveFailure.service };
+  }
+  if (!derived || scenesLeft > 0 || result.stopped) {
+    return {
+      status: 'incomplete', scenesLeft, refused, derived,
+      error: pick?.error ?? 'the run did not finish',
+      ...(pick?.service ? { service: pick.service } : {}),
+      ...(pick?.serviceFailingSeconds !== undefined ? { serviceFailingSeconds: pick.serviceFailingSeconds } : {}),
+    };
+  }
+  if (refused > 0) {
+    return {
+      status: 'incomplete', scenesLeft: 0, refused, derived,
+      error: `${refused} file(s) asked for were refused as bad input and are recorded with their reasons (heatledger status); every other scene is stored`,
+    };
+  }
+  return { status: 'succeeded', scenesLeft: 0, refused: 0, derived, error: null };
 }
 
 /** Store identity: part of every job id, so a fresh database never inherits another's completed jobs. */
@@ -118,10 +196,20 @@ export function buildFlow(args: {
 }
 
 /** Make the runner for a configuration. */
-export async function createRunner(config: RuntimeConfig, store: Store, threads?: number): Promise<Runner> {
+export async function createRunner(
+  config: RuntimeConfig, store: Store, threads?: number,
+  limits: { serviceRetryBudgetMs?: number; stallTimeoutMs?: number } = {},
+): Promise<Runner> {
+  const serviceRetryBudgetMs = limits.serviceRetryBudgetMs ?? DEFAULT_SERVICE_RETRY_BUDGET_MS;
   if (config.mode === 'distributed') {
     const { createBullRunner } = await import('./queue/bull.js');
-    return createBullRunner({ redisUrl: config.redisUrl!, prefix: process.env[ENV.queuePrefix] || undefined });
+    return createBullRunner({
+      redisUrl: config.redisUrl!,
+      prefix: process.env[ENV.queuePrefix] || undefined,
+      serviceRetryBudgetMs,
+      redisBudgetMs: serviceRetryBudgetMs,
+      stallTimeoutMs: limits.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS,
+    });
   }
   const { createInProcessRunner } = await import('./queue/in-process.js');
   return createInProcessRunner({
@@ -129,6 +217,7 @@ export async function createRunner(config: RuntimeConfig, store: Store, threads?
     repo: createPipelineRepo(store),
     threads: threads ?? Math.max(1, os.availableParallelism()),
     threadedJobs: THREADED_JOBS,
+    serviceRetryBudgetMs,
   });
 }
 
@@ -178,16 +267,19 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     districtIds: districts.map((d) => d.id),
   };
 
-  const store = await openConfiguredStore(config);
+  const budgetMs = options.serviceRetryBudgetSeconds !== undefined ? options.serviceRetryBudgetSeconds * 1000 : DEFAULT_SERVICE_RETRY_BUDGET_MS;
+  // A database server that is away is waited for (within the budget); an embedded store is not a service.
+  const onServer = <T>(fn: () => Promise<T>): Promise<T> => (config.databaseUrl ? withServiceRetry(fn, budgetMs) : fn());
+  const store = await onServer(() => openConfiguredStore(config));
   let runner: Runner | null = null;
   try {
-    await upsertDistricts(store, [
+    await onServer(() => upsertDistricts(store, [
       ...districts.map((d) => ({ id: d.id, name: d.name, role: 'district' as const, geometry: d.geometry, areaSquareMetres: d.areaSquareMetres, properties: d.properties })),
       { id: RURAL_ID, name: 'rural reference', role: 'rural' as const, geometry: rural.geometry, areaSquareMetres: rural.areaSquareMetres, properties: { description: ruralDescription } },
-    ]);
-    const runId = await startRun(store, { softwareVersion: VERSION, mode: config.mode, parameters: params });
-    for (const u of unreadable) await markSceneFailed(store, { path: u.path, error: `${u.path}: ${u.reason}`, runId });
-    const identity = await storeIdentity(store);
+    ]));
+    const runId = await onServer(() => startRun(store, { softwareVersion: VERSION, mode: config.mode, parameters: params }));
+    for (const u of unreadable) await onServer(() => markSceneFailed(store, { path: u.path, error: `${u.path}: ${u.reason}`, runId }));
+    const identity = await onServer(() => storeIdentity(store));
     const root = buildFlow({
       identity,
       runId,
@@ -203,14 +295,28 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
         albedoProperties: Object.fromEntries(districts.map((d) => [d.id, asNumber(d.properties.albedo)])),
       },
     });
-    runner = await createRunner(config, store, options.threads);
-    const result = await runner.runFlow(root, {
-      onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
-      onNotice: options.onNotice,
+    runner = await createRunner(config, store, options.threads, {
+      serviceRetryBudgetMs: budgetMs,
+      stallTimeoutMs: options.stallTimeoutSeconds !== undefined ? options.stallTimeoutSeconds * 1000 : undefined,
     });
+    let result: FlowResult;
+    try {
+      result = await runner.runFlow(root, {
+        onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
+        onNotice: options.onNotice,
+      });
+    } catch (e) {
+      // The queue itself went away (Redis past the budget): nothing is known done; the run is left for the next ingest.
+      if (!isServiceError(e)) throw e;
+      result = { results: new Map(), failures: [], stopped: { error: e.message, kind: 'service', service: e.service } };
+    }
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
-    const deriveFailure = result.failures.find((f) => f.id === root.id);
-    await finishRun(store, runId, deriveFailure ? { status: 'failed', error: deriveFailure.error } : { status: 'succeeded' });
+    const outcome = runOutcome(root, result, unreadable.length);
+    await onServer(() => finishRun(store, runId, {
+      status: outcome.status,
+      error: outcome.error,
+      scenesLeft: outcome.status === 'succeeded' ? 0 : outcome.scenesLeft,
+    }));
     return {
       runId,
       mode: config.mode,
@@ -219,6 +325,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       unreadable,
       failures: result.failures,
       derive: deriveResult,
+      outcome,
       seconds: (performance.now() - started) / 1000,
     };
   } finally {

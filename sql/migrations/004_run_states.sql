@@ -1,7 +1,8 @@
 -- Run states that tell the truth:
 --   running      a process is working on it (owner_host / owner_pid say which)
 --   succeeded    every scene asked for was stored
---   incomplete   some scenes were not finished (scenes_left, error says why); the next ingest finishes them
+--   incomplete   not every scene asked for was stored: scenes left unfinished (scenes_left; the next
+--                ingest finishes them) or files refused as bad input (error says how many; see the scenes)
 --   failed       the run could not do its work (error says why)
 --   interrupted  stopped by SIGINT/SIGTERM
 --   abandoned    left 'running' by a process that no longer exists (found by a later command)

@@ -4,16 +4,16 @@
  *
  * - a worker killed with SIGKILL after some zonal jobs completed, and a new
  *   worker started: BullMQ's stalled-job check hands the killed worker's jobs
- *   to the new one. `heatledger worker` has no setting for the stalled
- *   interval (workers/queue/settings.ts: 30 s stalled interval, 30 s lock), so
- *   recovery takes the defaults and the test measures it. The final table must
+ *   to the new one, with the default stalled interval and lock
+ *   (workers/queue/settings.ts); the recovery time is printed, not asserted. The final table must
  *   equal an undisturbed (embedded) run of the same archive exactly, and
  *   zonal_stats must hold exactly scenes x targets rows (none lost, none twice);
- * - PostgreSQL unreachable: with every process pointed at 127.0.0.1:1, and with
- *   the workers losing their server after they started, `heatledger ingest`
- *   must end within a bounded time with exit code 1 and a one-line
- *   "service error" naming PostgreSQL, no stack trace (the exit-code contract
- *   of workers/cli.ts and workers/core/errors.ts).
+ * - PostgreSQL unreachable for every process (127.0.0.1:1): the worker refuses
+ *   to start, and `heatledger ingest` waits for the server for its service
+ *   retry budget, then ends with exit code 1 and a one-line "service error"
+ *   naming PostgreSQL and how to resume, no stack trace (the exit-code
+ *   contract of workers/cli.ts and workers/core/errors.ts). Workers losing
+ *   their server mid-run: test/integration/outage-faults.test.ts.
  *
  * Row counts are derived from the generator's options (files per summer =
  * 2 x pairs + 1; targets = 17 districts + rural).
@@ -27,10 +27,10 @@ import { afterAll, beforeAll, describe, it } from 'vitest';
 import { DISTRICTS } from '../../demo-data/city.js';
 import type { ArchiveResult } from '../../demo-data/generate.js';
 import { LOCK_DURATION_MS, STALLED_INTERVAL_MS, queueNameFor } from '../../workers/queue/settings.js';
-import { serviceAvailable, testDatabaseUrl, testRedisUrl } from '../support/services.js';
+import { serviceAvailable, testRedisUrl } from '../support/services.js';
 import {
   SMALL_ARCHIVE, cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren,
-  makeArchive, runCli, serverCounts, startCliWorker, startTcpProxy, stopChild, uniquePrefix, type TempDatabase,
+  makeArchive, runCli, serverCounts, startCliWorker, stopChild, uniquePrefix, type TempDatabase,
 } from '../support/pipeline-harness.js';
 
 await ensurePipelineBuild();
@@ -124,11 +124,9 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
       `SIGKILL after ${doneAtKill}/${FILES} scenes, ${activeAtKill} job(s) in the killed worker's hands; ` +
         `run finished ${recoverySeconds.toFixed(1)} s after the kill (stalled interval ${STALLED_INTERVAL_MS} ms, lock ${LOCK_DURATION_MS} ms)`,
     );
-    // A job that was in hand can only come back after its lock expired and a stalled check ran.
-    if (activeAtKill > 0) expect(recoverySeconds).toBeLessThan((STALLED_INTERVAL_MS * 2 + LOCK_DURATION_MS) / 1000 + 20);
   }, 180_000);
 
-  it('fails fast with a service error when PostgreSQL is unreachable for every process', async ({ expect }) => {
+  it('ends with a service error, once its retry budget is spent, when PostgreSQL is unreachable for every process', async ({ expect }) => {
     const prefix = uniquePrefix('nodb');
     prefixes.push(prefix);
     const env = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: 'postgres://postgres@127.0.0.1:1/heatledger', HEATLEDGER_QUEUE_PREFIX: prefix });
@@ -137,40 +135,11 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
     expect(worker.code).toBe(1);
     expect(worker.stderr).toBe('heatledger: service error: cannot reach PostgreSQL at 127.0.0.1:1: ECONNREFUSED\n');
 
-    const r = await runCli(['ingest', path.dirname(archive.districtsPath), '--districts', archive.districtsPath, '--json'], env, 30_000);
+    const r = await runCli(['ingest', path.dirname(archive.districtsPath), '--districts', archive.districtsPath, '--json', '--service-retry-budget', '1'], env, 60_000);
     expect(r.timedOut).toBe(false);
-    expect(r.ms).toBeLessThan(20_000);
     expect(r.code).toBe(1);
     expect(r.stdout).toBe('');
-    expect(r.stderr).toBe('heatledger: service error: cannot reach PostgreSQL at 127.0.0.1:1: ECONNREFUSED\n');
+    expect(r.stderr).toMatch(/^heatledger: service error: cannot reach PostgreSQL at 127\.0\.0\.1:1: ECONNREFUSED; unreachable for \d+ s, longer than the service retry budget of 1 s\. Nothing stored is lost; run the same command again once it is back\n$/);
     expect(r.stderr).not.toMatch(STACK_LINE);
   }, 60_000);
-
-  it('ends with exit code 1 and a service error when the workers lose PostgreSQL after they started', async ({ expect }) => {
-    const small = await makeArchive(path.join(tmp, 'archive-small'), { years: 1, pairsPerYear: 1, pixelSizeMetres: 250 });
-    const db = await createTempDatabase('lost');
-    dbs.push(db);
-    const prefix = uniquePrefix('lost');
-    prefixes.push(prefix);
-    const server = new URL(testDatabaseUrl);
-    const proxy = await startTcpProxy(server.hostname, Number(server.port || 5432));
-    const viaProxy = new URL(db.url);
-    viaProxy.port = String(proxy.port);
-    const workerEnv = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: viaProxy.href, HEATLEDGER_QUEUE_PREFIX: prefix });
-    const worker = await startCliWorker(workerEnv);
-    await proxy.close(); // from now on the workers' PostgreSQL refuses connections
-
-    const env = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: db.url, HEATLEDGER_QUEUE_PREFIX: prefix });
-    const r = await runCli(['ingest', path.dirname(small.districtsPath), '--districts', small.districtsPath], env, 100_000);
-    console.log(`ingest with workers cut off from PostgreSQL: exit ${r.code ?? r.signal} after ${(r.ms / 1000).toFixed(1)} s`);
-    expect(r.timedOut).toBe(false);
-    expect(r.ms).toBeLessThan(90_000);
-    // every job tried, and the reason reaches the user
-    expect(r.stdout + r.stderr).toContain(`cannot reach PostgreSQL at 127.0.0.1:${proxy.port}`);
-    expect(r.stderr).not.toMatch(STACK_LINE);
-    // The run failed (nothing stored, run marked failed): the command must say so by its exit code.
-    expect(r.code).toBe(1);
-    expect(r.stderr).toMatch(/^heatledger: service error: .*PostgreSQL/m);
-    expect((await stopChild(worker.child, 'SIGTERM')).code).toBe(0);
-  }, 120_000);
 });

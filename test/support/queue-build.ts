@@ -12,7 +12,7 @@ export const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)
 
 const SOURCES = [
   'workers/queue/bull.ts', 'workers/queue/execute.ts', 'workers/queue/in-process.ts', 'workers/queue/repo-proxy.ts',
-  'workers/queue/settings.ts', 'workers/queue/thread-entry.ts', 'workers/queue/tree.ts', 'workers/queue/types.ts',
+  'workers/queue/settings.ts', 'workers/queue/retry.ts', 'workers/queue/thread-entry.ts', 'workers/queue/tree.ts', 'workers/queue/types.ts',
   'workers/core/errors.ts', 'test/support/queue-processors.ts',
 ];
 

@@ -43,6 +43,11 @@ export const processors: Record<string, Processor<any, any, TestRepo>> = {
     if (ctx.attempt < data.failUntil) throw new ServiceError(`database unreachable (attempt ${ctx.attempt})`);
     return { value: ctx.attempt, attempt: ctx.attempt };
   },
+  /** A bug: a plain TypeError on every try. */
+  async buggy(_data, ctx) {
+    runCounts.set(ctx.jobId, (runCounts.get(ctx.jobId) ?? 0) + 1);
+    throw new TypeError(`cannot read properties of undefined (attempt ${ctx.attempt})`);
+  },
   async counted(data: { value: number }, ctx) {
     runCounts.set(ctx.jobId, (runCounts.get(ctx.jobId) ?? 0) + 1);
     return { value: data.value };

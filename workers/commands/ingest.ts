@@ -1,4 +1,4 @@
-import { InputError, ServiceError } from '../core/errors.js';
+import { InputError, isServiceError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../config.js';
 import { parsePlausible } from './common.js';
 import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
@@ -22,6 +22,10 @@ export interface IngestCommandOptions {
   albedoWindow: number;
   threads?: number;
   dataDir?: string;
+  /** Seconds PostgreSQL or Redis may stay unreachable before the run gives up on them. */
+  serviceRetryBudget?: number;
+  /** Seconds without worker activity before a distributed run ends incomplete. */
+  stallTimeout?: number;
   json?: boolean;
   progress: boolean;
 }
@@ -50,8 +54,11 @@ export function summaryLines(s: PipelineSummary): string[] {
     for (const u of s.unreadable.slice(0, 20)) lines.push(`  ${u.path}: ${u.reason}`);
     if (s.unreadable.length > 20) lines.push(`  ... and ${s.unreadable.length - 20} more (see \`heatledger status\`)`);
   }
+  if (s.outcome.status !== 'succeeded') {
+    lines.push(`run ${s.runId} ${s.outcome.status}: ${s.outcome.scenesLeft} of ${s.scenes} scene(s) left, ${s.outcome.refused} file(s) refused${s.outcome.derived ? '' : ', district table not derived'}`);
+  }
   if (s.failures.length) {
-    lines.push(`${s.failures.length} job(s) failed; the rest were processed:`);
+    lines.push(`${s.failures.length} job(s) failed or did not finish:`);
     for (const f of s.failures.slice(0, 20)) lines.push(`  ${f.name}: ${f.error}`);
     if (s.failures.length > 20) lines.push(`  ... and ${s.failures.length - 20} more (see \`heatledger status\`)`);
   }
@@ -62,6 +69,8 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   if (!(opts.minValidFraction >= 0 && opts.minValidFraction <= 1)) throw new InputError(`--min-valid-fraction must be between 0 and 1, got ${opts.minValidFraction}`);
   if (!(opts.pairingWindow > 0)) throw new InputError(`--pairing-window must be positive hours, got ${opts.pairingWindow}`);
   if (!(opts.albedoWindow > 0)) throw new InputError(`--albedo-window must be positive days, got ${opts.albedoWindow}`);
+  if (opts.serviceRetryBudget !== undefined && !(opts.serviceRetryBudget >= 0)) throw new InputError(`--service-retry-budget must be seconds >= 0, got ${opts.serviceRetryBudget}`);
+  if (opts.stallTimeout !== undefined && !(opts.stallTimeout > 0)) throw new InputError(`--stall-timeout must be positive seconds, got ${opts.stallTimeout}`);
   const { runPipeline } = await import('../pipeline.js');
   const config = runtimeConfig({ dataDir: opts.dataDir });
   let bar: { update(v: number, p?: object): void; setTotal(t: number): void; stop(): void } | null = null;
@@ -97,6 +106,8 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     derive: { minValidFraction: opts.minValidFraction, pairingWindowHours: opts.pairingWindow, albedoWindowDays: opts.albedoWindow },
     threads: opts.threads,
     dataDir: opts.dataDir,
+    serviceRetryBudgetSeconds: opts.serviceRetryBudget,
+    stallTimeoutSeconds: opts.stallTimeout,
     onNotice: (m) => process.stderr.write(`\nheatledger: ${m}\n`),
     onProgress: bar
       ? (p) => {
@@ -110,6 +121,10 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   let summary: PipelineSummary;
   try {
     summary = await runPipeline(options, config);
+  } catch (e) {
+    // Past the budget before the run could start (or end): say how to resume.
+    if (isServiceError(e)) throw new ServiceError(`${e.message}. Nothing stored is lost; run the same command again once it is back`, { cause: e, service: e.service });
+    throw e;
   } finally {
     if (bar && started) bar.stop();
   }
@@ -122,29 +137,38 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
 }
 
 /**
- * Exit 0 only when everything asked for was done. A run whose derive step
- * failed (after its retries) did not produce the district table: exit
- * non-zero with the reason. A run where some asked-for paths could not be
- * read, or some scene files failed (corrupt or unreadable GeoTIFFs), stored
- * every other scene and the table from them, but not everything asked for:
- * exit 2 (bad input) after the summary, or 1 when a scene failed for a
- * service. The failed paths stay in the store for `heatledger status`.
+ * Exit code 0 only for a run that did everything asked. A run with scenes
+ * left or without its district table ends with a ServiceError saying which
+ * service failed, for how long, and how to resume (exit 1); a run whose
+ * derive step failed on a bug ends with that error (exit 1). A run that
+ * stored every scene it could but refused some files as bad input (unreadable
+ * paths, corrupt GeoTIFFs) ends with an InputError after the summary (exit 2);
+ * the refused files stay in the store with their reasons for `heatledger status`.
  */
 export function throwIfRunFailed(summary: PipelineSummary): void {
-  const root = summary.failures.find((f) => f.name === 'derive');
-  if (root || summary.derive === null) {
-    const reason = root?.error ?? 'the derive step did not complete';
-    if (/^ServiceError: /.test(reason)) throw new ServiceError(`run ${summary.runId} failed: ${reason.replace(/^ServiceError: /, '')}`);
-    throw new Error(`run ${summary.runId} failed: ${reason}`);
+  const o = summary.outcome;
+  if (o.status === 'succeeded') return;
+  if (o.status === 'failed') throw new Error(`run ${summary.runId} failed: ${o.error ?? 'the derive step did not complete'}`);
+  if (o.scenesLeft === 0 && o.derived && o.refused > 0) {
+    const unreadable = summary.unreadable.length;
+    const failedJobs = summary.failures.filter((f) => f.kind === 'input').length;
+    const what = [
+      unreadable ? `${unreadable} path(s) could not be read` : '',
+      failedJobs ? `${failedJobs} scene job(s) failed` : '',
+    ].filter(Boolean).join(' and ');
+    throw new InputError(`run ${summary.runId}: ${what} (listed above and in \`heatledger status\`); the other scenes are stored`);
   }
-  const unreadable = summary.unreadable.length ?? 0;
-  const failedScenes = summary.failures.length;
-  if (unreadable === 0 && failedScenes === 0) return;
-  const what = [
-    unreadable ? `${unreadable} path(s) could not be read` : '',
-    failedScenes ? `${failedScenes} scene job(s) failed` : '',
-  ].filter(Boolean).join(' and ');
-  const message = `run ${summary.runId}: ${what} (listed above and in \`heatledger status\`); the other scenes are stored`;
-  if (summary.failures.some((f) => /^ServiceError: /.test(f.error))) throw new ServiceError(message);
-  throw new InputError(message);
+  const left = [
+    o.scenesLeft > 0 ? `${o.scenesLeft} of ${summary.scenes} scene(s) not finished` : '',
+    o.derived ? '' : 'district table not derived',
+  ].filter(Boolean).join(', ');
+  const service = o.service === 'worker' ? 'stalled'
+    : o.service ? `${o.service} failed${o.serviceFailingSeconds !== undefined ? ` for ${o.serviceFailingSeconds} s (longer than the service retry budget)` : ''}`
+      : 'a job failed';
+  const resume = o.service === 'worker' ? 'start `heatledger worker` and run the same command again' : 'run the same command again to finish the run';
+  const reason = (o.error ?? 'the run did not finish').replace(/^ServiceError: /, '');
+  throw new ServiceError(
+    `run ${summary.runId} is incomplete (${left}): ${service}: ${reason}${/[.?!]$/.test(reason) ? '' : '.'} Nothing stored is lost; ${resume}`,
+    { service: o.service },
+  );
 }

@@ -1,20 +1,23 @@
 import { InputError } from '../core/errors.js';
 import { ENV, runtimeConfig } from '../config.js';
 
-export async function runWorkerCommand(opts: { concurrency: number }): Promise<void> {
+export async function runWorkerCommand(opts: { concurrency: number; stalledInterval: number }): Promise<void> {
   const config = runtimeConfig();
   if (!config.redisUrl) throw new InputError(`heatledger worker needs ${ENV.redisUrl} (the Redis the jobs are queued on)`);
   if (!config.databaseUrl) throw new InputError(`heatledger worker needs ${ENV.databaseUrl} (the PostgreSQL server all workers write to)`);
   if (!(Number.isInteger(opts.concurrency) && opts.concurrency >= 1)) throw new InputError(`--concurrency must be a whole number >= 1, got ${opts.concurrency}`);
+  if (!(opts.stalledInterval >= 0.1 && opts.stalledInterval <= 3600)) throw new InputError(`--stalled-interval must be between 0.1 and 3600 seconds, got ${opts.stalledInterval}`);
+  const stalledInterval = Math.round(opts.stalledInterval * 1000);
   const { startWorker } = await import('../queue/bull.js');
   const { registryModuleUrl } = await import('../jobs/registry.js');
   const handle = await startWorker({
     redisUrl: config.redisUrl,
     processorsModule: registryModuleUrl(),
     concurrency: opts.concurrency,
+    stalledInterval,
     prefix: process.env[ENV.queuePrefix] || undefined,
   });
-  process.stderr.write(`heatledger worker: serving ingest, zonal and derive jobs on ${new URL(config.redisUrl).host} (concurrency ${opts.concurrency}); SIGTERM to stop\n`);
+  process.stderr.write(`heatledger worker: serving ingest, zonal and derive jobs on ${new URL(config.redisUrl).host} (concurrency ${opts.concurrency}, stalled check every ${stalledInterval / 1000} s); SIGTERM to stop\n`);
   await handle.closed;
   process.stderr.write('heatledger worker: stopped\n');
 }

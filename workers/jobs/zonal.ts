@@ -4,6 +4,7 @@
  * CRS (cached for the life of the process or thread). Stored in one
  * transaction per scene, replacing what the scene had.
  */
+import { isInputError } from '../core/errors.js';
 import { openRaster, type RasterFile } from '../core/raster/index.js';
 import { reprojectGeometry } from '../core/crs/index.js';
 import { zonalScene, type ZonalTarget } from '../core/zonal/index.js';
@@ -118,7 +119,7 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
     await repo.replaceZonalStats(ingested.sceneId, rows, data.runId);
     return { sceneId: ingested.sceneId, kind: ingested.kind, rows: rows.length };
   } catch (e) {
-    if ((e as Error)?.name === 'InputError') {
+    if (isInputError(e)) {
       await repo.markSceneFailed({ contentHash: data.contentHash, path: data.path, error: (e as Error).message, runId: data.runId });
     }
     throw e;

@@ -16,15 +16,16 @@
  * a job belong to one parent only); their results travel in the parent's job
  * data instead (`reused`), and the worker merges them into childrenValues.
  */
-import { FlowProducer, Job, Queue, QueueEvents, UnrecoverableError, Worker, type FlowJob } from 'bullmq';
+import { FlowProducer, Job, type MinimalJob, Queue, QueueEvents, UnrecoverableError, Worker, type FlowJob } from 'bullmq';
 import { Redis } from 'ioredis';
-import { isInputError, ServiceError } from '../core/errors.js';
+import { InputError, isInputError, ServiceError } from '../core/errors.js';
 import { loadProcessors, runAttempt, sortedRecord } from './execute.js';
 import {
   DEFAULT_ATTEMPTS, DEFAULT_BACKOFF_MS, DEFAULT_PREFIX, LOCK_DURATION_MS, MAX_STALLED_COUNT,
   STALLED_INTERVAL_MS, queueNameFor,
 } from './settings.js';
-import { describeError, flattenTree, reusableIds, type FlatNode } from './tree.js';
+import { asFailureRecord, failureRecord, jobFailure, nextRetryDelayMs, type FailureRecord, type RetryPolicy } from './retry.js';
+import { flattenTree, reusableIds, type FlatNode } from './tree.js';
 import { NamedIdSet, progressOf, totalsByName } from './progress.js';
 import type { FlowResult, JobFailure, JobSpec, Runner, RunFlowOptions } from './types.js';
 
@@ -32,6 +33,29 @@ import type { FlowResult, JobFailure, JobSpec, Runner, RunFlowOptions } from './
 interface JobEnvelope {
   input: unknown;
   reused: Record<string, unknown>;
+  /** The producer's retry rule (retry.ts), applied by the workers' back-off strategy. */
+  retry?: RetryPolicy;
+}
+
+/** What a worker keeps in a job's progress: the last failed try (read by the producer and the back-off strategy). */
+interface FailureProgress {
+  failure?: FailureRecord;
+}
+
+/** BullMQ's own try limit; the real limit is the retry rule (the back-off strategy answers -1 to stop). */
+const BULL_ATTEMPTS = 1_000_000;
+/** The back-off type that selects the workers' strategy. */
+const BACKOFF_TYPE = 'heatledger';
+/** Redis hash (under the prefix) where workers record the stalled-check interval they use. */
+const SETTINGS_KEY = 'heatledger:worker-settings';
+
+function lastFailureOf(job: { progress?: unknown } | undefined): FailureRecord | null {
+  return asFailureRecord((job?.progress as FailureProgress | undefined)?.failure);
+}
+
+/** Redis host:port for messages (never a password). */
+function describeRedisUrl(redisUrl: string): string {
+  try { return new URL(redisUrl).host || redisUrl; } catch { return '(unparseable REDIS_URL)'; }
 }
 
 export interface BullRunnerOptions {
@@ -47,6 +71,57 @@ export interface BullRunnerOptions {
   backoffMs?: number;
   /** How often (ms) the root's state is checked besides the event stream; default 1000. */
   pollMs?: number;
+  /** How long (ms) a job failing with ServiceError keeps being retried beyond `attempts`; default 0. */
+  serviceRetryBudgetMs?: number;
+  /** How long (ms) Redis may stay unreachable before runFlow gives up with a ServiceError; default 300 000. */
+  redisBudgetMs?: number;
+  /**
+   * How long (ms) to wait with no worker activity on the tree (no job taken,
+   * retried or finished, none in hand) before runFlow stops waiting and returns
+   * with `stopped`; default none (wait for ever).
+   */
+  stallTimeoutMs?: number;
+}
+
+/**
+ * Watch a connection: rejects (ServiceError naming Redis) once it has been
+ * down for longer than `budgetMs` without coming back.
+ */
+function watchRedis(connection: Redis, where: string, budgetMs: number, lastError: () => string): { failed: Promise<never>; stop(): void } {
+  let downSince: number | null = connection.status === 'ready' ? null : Date.now();
+  const onDown = () => { downSince ??= Date.now(); };
+  const onReady = () => { downSince = null; };
+  connection.on('close', onDown);
+  connection.on('reconnecting', onDown);
+  connection.on('ready', onReady);
+  let timer: NodeJS.Timeout | undefined;
+  const failed = new Promise<never>((_, reject) => {
+    timer = setInterval(() => {
+      if (downSince !== null && Date.now() - downSince > budgetMs) {
+        clearInterval(timer);
+        const seconds = Math.round((Date.now() - downSince) / 1000);
+        const why = lastError();
+        reject(new ServiceError(`cannot reach Redis at ${where}${why ? ` (${why})` : ''}; unreachable for ${seconds} s, longer than the service retry budget of ${Math.round(budgetMs / 1000)} s`, { service: 'Redis' }));
+      }
+    }, Math.min(500, Math.max(50, budgetMs / 4)));
+  });
+  failed.catch(() => undefined);
+  return {
+    failed,
+    stop() {
+      clearInterval(timer);
+      connection.off('close', onDown);
+      connection.off('reconnecting', onDown);
+      connection.off('ready', onReady);
+    },
+  };
+}
+
+/** `p`, or undefined after `ms` (closing connections must not hang while Redis is away). */
+function settleWithin(p: Promise<unknown>, ms: number): Promise<void> {
+  let t: NodeJS.Timeout | undefined;
+  return Promise.race([p.then(() => undefined, () => undefined), new Promise<void>((res) => { t = setTimeout(res, ms); })])
+    .finally(() => clearTimeout(t));
 }
 
 /** An ioredis connection as BullMQ needs it (commands wait through reconnects). */
@@ -60,13 +135,16 @@ function connect(redisUrl: string, onError: (e: Error) => void): Redis {
   return r;
 }
 
-/** Reports a repeating connection error once until it changes. */
-function quietErrors(prefix: string): (e: Error) => void {
+/** Reports a repeating connection error once until it changes; `last()` is the latest message. */
+function quietErrors(prefix: string): ((e: Error) => void) & { last(): string } {
   let last = '';
-  return (e) => {
-    const text = `${prefix}: ${e.message}`;
+  let lastMessage = '';
+  const report = (e: Error) => {
+    lastMessage = e.message || String(e);
+    const text = `${prefix}: ${lastMessage}`;
     if (text !== last) { last = text; process.stderr.write(`${text}\n`); }
   };
+  return Object.assign(report, { last: () => lastMessage });
 }
 
 function idFromKey(key: string): string {
@@ -86,6 +164,9 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
   const attempts = Math.max(1, options.attempts ?? DEFAULT_ATTEMPTS);
   const backoffMs = options.backoffMs ?? DEFAULT_BACKOFF_MS;
   const pollMs = options.pollMs ?? 1_000;
+  const retry: RetryPolicy = { attempts, backoffMs, serviceBudgetMs: Math.max(0, options.serviceRetryBudgetMs ?? 0) };
+  const redisBudgetMs = options.redisBudgetMs ?? 300_000;
+  const where = describeRedisUrl(options.redisUrl);
   const onError = quietErrors('heatledger queue (producer)');
   const connection = connect(options.redisUrl, onError);
   const queues = new Map<string, Queue>();
@@ -103,6 +184,8 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
   const flow = new FlowProducer({ connection, prefix });
   flow.on('error', onError);
   const openEvents = new Set<QueueEvents>();
+  // Connections of the event streams; closed with the run, or by close() when a run was abandoned (Redis away).
+  const openEventConnections = new Set<Redis>();
   let closed = false;
 
   async function inspect(nodes: FlatNode[]): Promise<Map<string, { job: Job | undefined; state: string }>> {
@@ -137,15 +220,15 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
         if (reusable.has(c)) reused[c] = states.get(c)!.job!.returnvalue;
         else children.push(build(byId.get(c)!, false));
       }
-      const data: JobEnvelope = { input: n.spec.data, reused };
+      const data: JobEnvelope = { input: n.spec.data, reused, retry };
       const job = {
         name: n.spec.name,
         queueName: queueOf(n.spec.name),
         data,
         opts: {
           jobId: n.spec.id,
-          attempts,
-          backoff: { type: 'exponential', delay: backoffMs },
+          attempts: BULL_ATTEMPTS,
+          backoff: { type: BACKOFF_TYPE, delay: backoffMs },
           removeOnComplete: false,
           removeOnFail: false,
           ...(isRoot ? {} : { ignoreDependencyOnFailure: true }),
@@ -156,7 +239,7 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     try {
       await flow.add(build(root, true));
     } catch (e) {
-      throw new ServiceError(`could not submit job tree ${root.spec.id} to Redis: ${(e as Error).message}`, { cause: e });
+      throw new ServiceError(`could not submit job tree ${root.spec.id} to Redis: ${(e as Error).message}`, { cause: e, service: 'Redis' });
     }
     return { submitted: true, reusable };
   }
@@ -167,18 +250,48 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     const failures: JobFailure[] = [];
     for (const n of nodes) {
       const s = states.get(n.spec.id)!;
-      if (s.state === 'completed') results.set(n.spec.id, s.job!.returnvalue ?? null);
-      else {
-        const error = s.state === 'failed' ? (s.job!.failedReason || 'Error: failed without a reason')
-          : `Error: job ended in state ${s.state}`;
-        failures.push({ id: n.spec.id, name: n.spec.name, error });
+      if (s.state === 'completed') { results.set(n.spec.id, s.job!.returnvalue ?? null); continue; }
+      const last = lastFailureOf(s.job);
+      if (s.state === 'failed') {
+        const reason = s.job!.failedReason || 'Error: failed without a reason';
+        // A failure the processor did not record (BullMQ gave the job up: its worker
+        // stalled too often, or lost its lock) is the queue's, not the input's.
+        failures.push(jobFailure(n.spec.id, n.spec.name, last?.error === reason ? last : null, { kind: 'service', error: reason }));
+      } else {
+        failures.push(jobFailure(n.spec.id, n.spec.name, null, { kind: 'service', error: `ServiceError: job not finished (state ${s.state})` }));
       }
     }
     return { results, failures };
   }
 
+  /** Jobs waiting in each queue of the tree (queues with none left out). */
+  async function waitingByQueue(nodes: FlatNode[]): Promise<{ queue: string; waiting: number }[]> {
+    const out: { queue: string; waiting: number }[] = [];
+    for (const name of new Set(nodes.map((n) => n.spec.name))) {
+      const c = await queue(name).getJobCounts('waiting', 'prioritized', 'delayed');
+      const waiting = (c.waiting ?? 0) + (c.prioritized ?? 0) + (c.delayed ?? 0);
+      if (waiting > 0) out.push({ queue: queueOf(name), waiting });
+    }
+    return out;
+  }
+
+  async function activeCount(nodes: FlatNode[]): Promise<number> {
+    let n = 0;
+    for (const name of new Set(nodes.map((x) => x.spec.name))) n += await queue(name).getActiveCount();
+    return n;
+  }
+
   async function runFlow(rootSpec: JobSpec, opts: RunFlowOptions = {}): Promise<FlowResult> {
     if (closed) throw new ServiceError('the BullMQ runner is closed');
+    const watch = watchRedis(connection, where, redisBudgetMs, onError.last);
+    try {
+      return await Promise.race([watch.failed, waitForFlow(rootSpec, opts)]);
+    } finally {
+      watch.stop();
+    }
+  }
+
+  async function waitForFlow(rootSpec: JobSpec, opts: RunFlowOptions): Promise<FlowResult> {
     const nodes = flattenTree(rootSpec);
     const byId = new Map(nodes.map((n) => [n.spec.id, n]));
     const root = nodes[0];
@@ -192,24 +305,33 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     const running = new Set<string>();
     const report = () => opts.onProgress?.(progressOf(done, failed, totals, running.size));
     let rootFinished: (() => void) | null = null;
+    // Worker activity on the tree (a job taken, retried, finished or reporting): the stall check's clock.
+    let lastActivity = Date.now();
     const events: QueueEvents[] = [];
     const eventConnections: Redis[] = [];
+    // Nothing is opened on a Redis that is not there (runFlow gives up on it after the budget).
+    if (connection.status !== 'ready') await new Promise<void>((res) => { connection.once('ready', () => res()); });
+    if (closed) throw new ServiceError('the BullMQ runner was closed while a run was in progress');
     for (const qn of new Set(nodes.map((n) => queueOf(n.spec.name)))) {
       // QueueEvents blocks on its connection: give it its own (closed below).
       const ec = connection.duplicate();
       ec.on('error', onError);
       eventConnections.push(ec);
+      openEventConnections.add(ec);
       const qe = new QueueEvents(qn, { connection: ec, prefix });
       qe.on('error', onError);
       const isOurs = (id: string) => byId.has(id) && queueOf(byId.get(id)!.spec.name) === qn;
-      qe.on('active', ({ jobId }) => { if (isOurs(jobId)) { running.add(jobId); report(); } });
+      qe.on('active', ({ jobId }) => { if (isOurs(jobId)) { lastActivity = Date.now(); running.add(jobId); report(); } });
+      for (const ev of ['progress', 'delayed'] as const) qe.on(ev, ({ jobId }: { jobId: string }) => { if (isOurs(jobId)) lastActivity = Date.now(); });
       qe.on('completed', ({ jobId }) => {
         if (!isOurs(jobId)) return;
+        lastActivity = Date.now();
         running.delete(jobId); failed.delete(jobId); done.add(jobId); report();
         if (jobId === root.spec.id && qn === rootQueue) rootFinished?.();
       });
       qe.on('failed', ({ jobId }) => {
         if (!isOurs(jobId)) return;
+        lastActivity = Date.now();
         running.delete(jobId); failed.add(jobId); report();
         if (jobId === root.spec.id && qn === rootQueue) rootFinished?.();
       });
@@ -221,6 +343,8 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
       let { submitted, reusable } = await submit(nodes, byId);
       for (const id of reusable) done.add(id);
       report();
+      lastActivity = Date.now();
+      let stopped: FlowResult['stopped'];
       if (submitted) {
         // Wait for the root: its event, or (event missed during a Redis outage) a poll of its state.
         // If Redis lost the tree (restarted without persistence), submit again: ids keep it idempotent.
@@ -242,6 +366,21 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
           if (closed) throw new ServiceError('the BullMQ runner was closed while a run was in progress');
           const state = await queue(root.spec.name).getJobState(root.spec.id);
           if (state === 'completed' || state === 'failed') break;
+          if (options.stallTimeoutMs !== undefined && Date.now() - lastActivity > options.stallTimeoutMs) {
+            // A job in hand is activity too (a long scene), as long as its worker holds the lock.
+            if (await activeCount(nodes) > 0) lastActivity = Date.now();
+            else {
+              const waiting = await waitingByQueue(nodes);
+              const seconds = Math.round((Date.now() - lastActivity) / 1000);
+              const queued = waiting.length ? waiting.map((w) => `${w.waiting} job(s) waiting in queue ${w.queue}`).join(', ') : 'no job waiting';
+              stopped = {
+                kind: 'service',
+                service: 'worker',
+                error: `no heatledger worker made progress on this run for ${seconds} s (${queued}); is a \`heatledger worker\` running (same REDIS_URL and HEATLEDGER_QUEUE_PREFIX)?`,
+              };
+              break;
+            }
+          }
           if (state === 'unknown') {
             if (++resubmits > 10) throw new ServiceError(`job tree ${root.spec.id} keeps vanishing from Redis; is it being flushed?`);
             ({ reusable } = await submit(nodes, byId));
@@ -251,7 +390,8 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
           }
         }
       }
-      const result = await collect(nodes);
+      const result: FlowResult = await collect(nodes);
+      if (stopped) result.stopped = stopped;
       // Final counts from the stored states (events may have been lost in an outage).
       done.clear(); failed.clear(); running.clear();
       for (const id of result.results.keys()) done.add(id);
@@ -260,8 +400,8 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
       return result;
     } finally {
       rootFinished = null;
-      await Promise.all(events.map(async (e) => { openEvents.delete(e); await e.close().catch(() => undefined); }));
-      for (const c of eventConnections) c.disconnect();
+      await Promise.all(events.map(async (e) => { openEvents.delete(e); await settleWithin(e.close(), 2_000); }));
+      for (const c of eventConnections) { c.disconnect(); openEventConnections.delete(c); }
     }
   }
 
@@ -269,9 +409,21 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     runFlow,
     async close() {
       closed = true;
-      for (const e of openEvents) await e.close().catch(() => undefined);
-      for (const q of queues.values()) await q.close().catch(() => undefined);
-      await flow.close().catch(() => undefined);
+      if (connection.status !== 'ready') {
+        // Redis is away: BullMQ's close() would wait for a reconnect; start the closes without waiting and drop the connections.
+        for (const e of openEvents) void e.close().catch(() => undefined);
+        openEvents.clear();
+        for (const c of openEventConnections) c.disconnect();
+        openEventConnections.clear();
+        connection.disconnect();
+        return;
+      }
+      // Bounded all the same: Redis may go away while closing.
+      for (const e of openEvents) await settleWithin(e.close(), 2_000);
+      for (const q of queues.values()) await settleWithin(q.close(), 2_000);
+      await settleWithin(flow.close(), 2_000);
+      for (const c of openEventConnections) c.disconnect();
+      openEventConnections.clear();
       connection.disconnect();
     },
   };
@@ -307,9 +459,48 @@ export interface WorkerHandle {
 }
 
 /**
+ * The workers' back-off strategy: the producer's retry rule (in the job's
+ * envelope) applied to the try that just failed; -1 tells BullMQ to fail the job.
+ */
+function backoffStrategy(triesMade: number, _type?: string, err?: Error, job?: MinimalJob): number {
+  const env = (job?.data ?? {}) as Partial<JobEnvelope>;
+  const policy: RetryPolicy = env.retry ?? { attempts: DEFAULT_ATTEMPTS, backoffMs: DEFAULT_BACKOFF_MS, serviceBudgetMs: 0 };
+  const last = asFailureRecord((err as { failure?: unknown } | undefined)?.failure) ?? lastFailureOf(job)
+    ?? { kind: 'bug' as const, error: err?.message ?? 'Error', atMs: Date.now() };
+  return nextRetryDelayMs(policy, triesMade, last, Date.now()) ?? -1;
+}
+
+/**
+ * Check that this worker's stalled-check interval is the one the workers
+ * already serving this Redis (same prefix) use, and record it. BullMQ's
+ * stalled check is shared Redis-wide: two intervals would make one worker
+ * take another's jobs for stalled ones.
+ */
+async function agreeStalledInterval(connection: Redis, prefix: string, queueName: string, stalledIntervalMs: number): Promise<void> {
+  const key = `${prefix}:${SETTINGS_KEY}`;
+  const recorded = Number(await connection.hget(key, 'stalledIntervalMs'));
+  if (Number.isFinite(recorded) && recorded > 0 && recorded !== stalledIntervalMs) {
+    const q = new Queue(queueName, { connection, prefix });
+    q.on('error', () => undefined); // the connection's own listener reports it
+    try {
+      if ((await q.getWorkersCount()) > 0) {
+        throw new InputError(
+          `--stalled-interval is ${stalledIntervalMs / 1000} s but the heatledger workers already serving this Redis use ${recorded / 1000} s; give every worker the same value (option or HEATLEDGER_STALLED_INTERVAL)`,
+        );
+      }
+    } finally {
+      await q.close().catch(() => undefined);
+    }
+  }
+  await connection.hset(key, 'stalledIntervalMs', String(stalledIntervalMs));
+}
+
+/**
  * Start one BullMQ worker per queue of the processors module (the
- * `heatledger worker` process). An InputError from a processor fails the job
- * at once; other errors are retried with back-off and then fail with the reason.
+ * `heatledger worker` process). A processor's failure is recorded in the
+ * job's progress with its kind (retry.ts); an InputError fails the job at
+ * once, service errors are retried for the producer's budget, bugs a few
+ * times, then the job fails with the reason.
  */
 export async function startWorker(options: StartWorkerOptions): Promise<WorkerHandle> {
   const mod = await loadProcessors(options.processorsModule);
@@ -319,8 +510,17 @@ export async function startWorker(options: StartWorkerOptions): Promise<WorkerHa
   }
   const prefix = options.prefix ?? DEFAULT_PREFIX;
   const onError = quietErrors('heatledger worker');
-  const { repo, close: closeRepo } = await mod.createRepo(options.env ?? process.env);
+  const stalledInterval = options.stalledInterval ?? STALLED_INTERVAL_MS;
   const connection = connect(options.redisUrl, onError);
+  let repoHandle: { repo: unknown; close(): Promise<void> };
+  try {
+    await agreeStalledInterval(connection, prefix, options.queueNames?.[names[0]] ?? queueNameFor(names[0]), stalledInterval);
+    repoHandle = await mod.createRepo(options.env ?? process.env);
+  } catch (e) {
+    connection.disconnect();
+    throw e;
+  }
+  const { repo, close: closeRepo } = repoHandle;
   const workers: Worker[] = [];
   for (const name of names) {
     const qn = options.queueNames?.[name] ?? queueNameFor(name);
@@ -339,8 +539,11 @@ export async function startWorker(options: StartWorkerOptions): Promise<WorkerHa
         }, repo, log);
         return value === undefined ? null : value;
       } catch (e) {
-        if (isInputError(e)) throw new UnrecoverableError(describeError(e));
-        const err = new Error(describeError(e));
+        const failure = failureRecord(e, lastFailureOf(job), Date.now());
+        // Recorded for the producer (kind, service, since when) and the next try's back-off.
+        await job.updateProgress({ failure } satisfies FailureProgress).catch(() => undefined);
+        if (isInputError(e)) throw new UnrecoverableError(failure.error);
+        const err = Object.assign(new Error(failure.error), { failure });
         err.stack = (e as Error)?.stack ?? err.stack;
         throw err;
       }
@@ -348,9 +551,10 @@ export async function startWorker(options: StartWorkerOptions): Promise<WorkerHa
       connection,
       prefix,
       concurrency: Math.max(1, options.concurrency ?? 1),
-      stalledInterval: options.stalledInterval ?? STALLED_INTERVAL_MS,
+      stalledInterval,
       lockDuration: options.lockDuration ?? LOCK_DURATION_MS,
       maxStalledCount: MAX_STALLED_COUNT,
+      settings: { backoffStrategy },
     });
     w.on('error', onError);
     workers.push(w);

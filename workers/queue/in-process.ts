@@ -4,8 +4,9 @@
  * the main thread. The repository stays in the main thread; threaded jobs
  * reach it through a proxy (see repo-proxy.ts).
  *
- * It behaves like the BullMQ runner: same retries and back-off, InputError
- * permanent, a failed child does not block its parent, results handed on as
+ * It behaves like the BullMQ runner: same retry rule (retry.ts: input errors
+ * final, service errors retried for the budget, bugs `attempts` times), a
+ * failed child does not block its parent, results handed on as
  * JSON, and a job id that completed (with its whole subtree) during this
  * runner's life is not run again.
  */
@@ -14,12 +15,13 @@ import path from 'node:path';
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import { MessageChannel, Worker } from 'node:worker_threads';
-import { isInputError, ServiceError } from '../core/errors.js';
+import { ServiceError } from '../core/errors.js';
 import { loadProcessors, runAttempt, sortedRecord, type JobAttempt } from './execute.js';
 import { reviveError, serveRepo, type SerializedError } from './repo-proxy.js';
-import { DEFAULT_ATTEMPTS, DEFAULT_BACKOFF_MS, backoffDelayMs } from './settings.js';
+import { DEFAULT_ATTEMPTS, DEFAULT_BACKOFF_MS } from './settings.js';
+import { failureRecord, jobFailure, nextRetryDelayMs, type FailureRecord, type RetryPolicy } from './retry.js';
 import { NamedIdSet, progressOf, totalsByName } from './progress.js';
-import { asJsonValue, describeError, flattenTree, reusableIds, type FlatNode } from './tree.js';
+import { asJsonValue, flattenTree, reusableIds, type FlatNode } from './tree.js';
 import type { FlowResult, JobFailure, JobSpec, ProcessorsModule, Runner, RunFlowOptions } from './types.js';
 
 export interface InProcessRunnerOptions {
@@ -37,6 +39,8 @@ export interface InProcessRunnerOptions {
   attempts?: number;
   /** First retry delay in ms, doubling after each retry; default 1000. */
   backoffMs?: number;
+  /** How long (ms) a job failing with ServiceError keeps being retried beyond `attempts`; default 0. */
+  serviceRetryBudgetMs?: number;
 }
 
 function moduleHref(m: string | URL): string {
@@ -164,6 +168,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
   const concurrency = Math.max(1, options.concurrency ?? threads);
   const attempts = Math.max(1, options.attempts ?? DEFAULT_ATTEMPTS);
   const backoffMs = options.backoffMs ?? DEFAULT_BACKOFF_MS;
+  const policy: RetryPolicy = { attempts, backoffMs, serviceBudgetMs: Math.max(0, options.serviceRetryBudgetMs ?? 0) };
   const threaded = new Set(options.threadedJobs ?? []);
   const href = moduleHref(options.processorsModule);
   const repo = options.repo;
@@ -209,7 +214,8 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
     await (modPromise ??= loadProcessors(href));
 
     const values = new Map<string, unknown>();
-    const failed = new Map<string, string>();
+    const failed = new Map<string, FailureRecord>();
+    const lastFailure = new Map<string, FailureRecord>();
     const pendingChildren = new Map<string, number>();
     let running = 0;
     const nameOf = (id: string) => byId.get(id)?.spec.name ?? '?';
@@ -238,7 +244,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
         const failures: JobFailure[] = [];
         for (const n of nodes) {
           if (values.has(n.spec.id)) results.set(n.spec.id, values.get(n.spec.id));
-          else failures.push({ id: n.spec.id, name: n.spec.name, error: failed.get(n.spec.id) ?? 'Error: job did not run' });
+          else failures.push(jobFailure(n.spec.id, n.spec.name, failed.get(n.spec.id), { kind: 'bug', error: 'Error: job did not run' }));
         }
         resolve({ results, failures });
       };
@@ -272,13 +278,20 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
             doneIds.add(n.spec.id);
             completed.set(n.spec.id, o.value);
             settleNode(n);
-          } else if (!isInputError(o.error) && attempt < attempts) {
-            const t = setTimeout(() => { timers.delete(t); start(n, attempt + 1); }, backoffDelayMs(attempt, backoffMs));
+            return;
+          }
+          const now = Date.now();
+          const record = failureRecord(o.error, lastFailure.get(n.spec.id), now);
+          lastFailure.set(n.spec.id, record);
+          const delay = nextRetryDelayMs(policy, attempt, record, now);
+          if (delay !== null) {
+            const t = setTimeout(() => { timers.delete(t); start(n, attempt + 1); }, delay);
             timers.add(t);
           } else {
             running--;
             completed.delete(n.spec.id);
-            failed.set(n.spec.id, describeError(o.error));
+            lastFailure.delete(n.spec.id);
+            failed.set(n.spec.id, record);
             failedIds.add(n.spec.id);
             settleNode(n);
           }

@@ -9,7 +9,7 @@
  * structured clone (plain objects, arrays, typed arrays, Dates, Maps ...).
  */
 import type { MessagePort } from 'node:worker_threads';
-import { InputError, ServiceError } from '../core/errors.js';
+import { failureKind, InputError, ServiceError, type FailureKind, type ServiceName } from '../core/errors.js';
 
 /** An error flattened for postMessage. */
 export interface SerializedError {
@@ -17,6 +17,10 @@ export interface SerializedError {
   message: string;
   stack?: string;
   source?: string;
+  /** What kind of failure it is (kept across the thread, see failureKind). */
+  kind?: FailureKind;
+  /** The service of a ServiceError, when known. */
+  service?: ServiceName;
 }
 
 interface CallMessage { kind: 'repo-call'; callId: number; method: string; args: unknown[] }
@@ -25,26 +29,28 @@ interface ReplyMessage { kind: 'repo-reply'; callId: number; ok: boolean; value?
 /** Flatten any thrown value to name/message/stack. */
 export function serializeError(e: unknown): SerializedError {
   if (e instanceof Error) {
-    const out: SerializedError = { name: e.name, message: e.message, stack: e.stack };
+    const out: SerializedError = { name: e.name, message: e.message, stack: e.stack, kind: failureKind(e) };
     const source = (e as { source?: unknown }).source;
     if (typeof source === 'string') out.source = source;
+    const service = (e as { service?: unknown }).service;
+    if (typeof service === 'string') out.service = service as ServiceName;
     return out;
   }
   return { name: 'Error', message: String(e) };
 }
 
 /**
- * Rebuild an error from `serializeError`'s output: InputError and ServiceError
- * come back as their classes; other errors as Error carrying the original name.
+ * Rebuild an error from `serializeError`'s output: input and service failures
+ * come back as InputError and ServiceError; other errors as Error carrying the original name.
  */
 export function reviveError(s: SerializedError): Error {
   let e: Error;
-  if (s.name === 'InputError') {
+  if (s.kind === 'input') {
     // The message already carries the source prefix; keep it as is.
     e = new InputError(s.message);
     if (s.source !== undefined) Object.defineProperty(e, 'source', { value: s.source, enumerable: true });
-  } else if (s.name === 'ServiceError') {
-    e = new ServiceError(s.message);
+  } else if (s.kind === 'service') {
+    e = new ServiceError(s.message, { service: s.service });
   } else {
     e = new Error(s.message);
     Object.defineProperty(e, 'name', { value: s.name, configurable: true, writable: true });

@@ -4,16 +4,24 @@
  * `stalledInterval` and `lockDuration`: keep them here and nowhere else.
  */
 
-/** How often (ms) a worker checks for jobs whose lock expired (worker died). */
-export const STALLED_INTERVAL_MS = 30_000;
+/**
+ * How often (ms) a worker checks for jobs whose lock expired (worker died);
+ * `heatledger worker --stalled-interval`. A killed worker's job comes back at
+ * most LOCK_DURATION_MS + STALLED_INTERVAL_MS after the kill (25 s).
+ */
+export const STALLED_INTERVAL_MS = 10_000;
 /** How long (ms) a job's lock lives without renewal; renewed every half of it. */
-export const LOCK_DURATION_MS = 30_000;
+export const LOCK_DURATION_MS = 15_000;
 /** A job may stall (worker killed mid-job) this many times before it fails. */
 export const MAX_STALLED_COUNT = 2;
 /** Tries per job, first one included. */
 export const DEFAULT_ATTEMPTS = 5;
 /** First retry delay (ms); doubles on every further retry. */
 export const DEFAULT_BACKOFF_MS = 1_000;
+/** How long (ms) a service may stay unreachable before the jobs needing it fail (`--service-retry-budget`). */
+export const DEFAULT_SERVICE_RETRY_BUDGET_MS = 300_000;
+/** How long (ms) `heatledger ingest` waits without any worker activity before it gives up (`--stall-timeout`). */
+export const DEFAULT_STALL_TIMEOUT_MS = 180_000;
 /** Redis key prefix of heatledger's queues. */
 export const DEFAULT_PREFIX = 'bull';
 

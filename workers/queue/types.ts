@@ -4,6 +4,7 @@
  * Processors are plain async functions; the runner decides where and when
  * they run, retries them, and hands each parent the results of its children.
  */
+import type { FailureKind, ServiceName } from '../core/errors.js';
 
 /** What a processor sees besides its input. */
 export interface JobContext<R = unknown> {
@@ -25,7 +26,9 @@ export interface JobContext<R = unknown> {
 
 /**
  * A processor: input in, JSON-serialisable result out. Throw an InputError for
- * bad input (permanent, not retried); any other error is retried with back-off.
+ * bad input (permanent, not retried), a ServiceError when a database or Redis
+ * fails (retried for the service budget); any other error is a bug (retried a
+ * few times). See retry.ts.
  */
 export type Processor<I = unknown, O = unknown, R = any> = (data: I, ctx: JobContext<R>) => Promise<O>;
 
@@ -64,13 +67,28 @@ export interface JobFailure {
   name: string;
   /** `<ErrorName>: <message>` of the last attempt. */
   error: string;
+  /** Why it failed: bad input (final), a service (worth running again once it is back), or a bug. */
+  kind: FailureKind;
+  /** The service that failed, when known. */
+  service?: ServiceName;
+  /** For a service failure: how long (s) the job kept failing on it before giving up. */
+  serviceFailingSeconds?: number;
+}
+
+/** Why a runner stopped waiting before the tree finished (its unfinished jobs are in `failures`). */
+export interface FlowStop {
+  error: string;
+  kind: FailureKind;
+  service?: ServiceName;
 }
 
 export interface FlowResult {
   /** Result of every job of the tree that completed, keyed by job id (tree pre-order). */
   results: Map<string, unknown>;
-  /** Jobs of the tree that failed permanently (tree pre-order). */
+  /** Jobs of the tree that failed permanently, or did not finish when the runner stopped (tree pre-order). */
   failures: JobFailure[];
+  /** Set when the runner stopped waiting (e.g. no worker made progress) before the root finished. */
+  stopped?: FlowStop;
 }
 
 export interface Runner {

@@ -41,20 +41,20 @@ export function pgServiceError(e: unknown, where: string, sql?: string): Service
   const message = (e as Error)?.message || String(e);
   const hostPort = where.replace(/\/[^/]*$/, '');
   if (code && CONNECTION_CODES.has(code)) {
-    return new ServiceError(`cannot reach PostgreSQL at ${hostPort}: ${code}`, { cause: e });
+    return new ServiceError(`cannot reach PostgreSQL at ${hostPort}: ${code}`, { cause: e, service: 'PostgreSQL' });
   }
   if (/timeout/i.test(message) && /connect/i.test(message)) {
-    return new ServiceError(`cannot reach PostgreSQL at ${hostPort}: connection timed out`, { cause: e });
+    return new ServiceError(`cannot reach PostgreSQL at ${hostPort}: connection timed out`, { cause: e, service: 'PostgreSQL' });
   }
   if (/Connection terminated/i.test(message)) {
-    return new ServiceError(`lost the connection to PostgreSQL at ${hostPort}: ${message}`, { cause: e });
+    return new ServiceError(`lost the connection to PostgreSQL at ${hostPort}: ${message}`, { cause: e, service: 'PostgreSQL' });
   }
   if (code === '3D000' || code === '28P01' || code === '28000' || code === '57P03') {
-    return new ServiceError(`PostgreSQL at ${where} refused the connection: ${message} (SQLSTATE ${code})`, { cause: e });
+    return new ServiceError(`PostgreSQL at ${where} refused the connection: ${message} (SQLSTATE ${code})`, { cause: e, service: 'PostgreSQL' });
   }
   const state = code ? ` (SQLSTATE ${code})` : '';
   const stmt = sql ? ` in "${sqlHead(sql)}"` : '';
-  return new ServiceError(`PostgreSQL query failed at ${where}: ${message}${state}${stmt}`, { cause: e });
+  return new ServiceError(`PostgreSQL query failed at ${where}: ${message}${state}${stmt}`, { cause: e, service: 'PostgreSQL' });
 }
 
 // pg-types' arrayParser is an object with create(); its .d.ts declares a function.
@@ -94,6 +94,7 @@ export async function openPgStore(databaseUrl: string): Promise<Store> {
   });
   // An idle client losing its server emits 'error' on the pool; without a
   // listener Node would crash. The next query reports the problem instead.
+  // (Checked-out clients get their own listener: PgStore.connect.)
   pool.on('error', () => undefined);
   try {
     await pool.query('SELECT 1');
@@ -188,11 +189,27 @@ class PgStore implements Store {
     await this.pool.end();
   }
 
+  /**
+   * A client checked out of the pool. While checked out, the pool's own 'error'
+   * listener is off it: without one here, a server going away between two
+   * queries ("Connection terminated unexpectedly") would be an unhandled
+   * 'error' event and end the process. The query in progress fails instead
+   * (a ServiceError), and release() drops the broken client.
+   */
   private async connect(): Promise<pg.PoolClient> {
+    let client: pg.PoolClient;
     try {
-      return await this.pool.connect();
+      client = await this.pool.connect();
     } catch (e) {
       throw pgServiceError(e, this.where);
     }
+    const onError = () => undefined;
+    client.on('error', onError);
+    const release = client.release.bind(client);
+    client.release = (err?: Error | boolean) => {
+      client.off('error', onError);
+      return release(err);
+    };
+    return client;
   }
 }

@@ -1,0 +1,96 @@
+/**
+ * A private PostgreSQL server for fault tests that stop or restart it: its
+ * own cluster (initdb) in a temporary folder, on a free port of 54040-54059,
+ * never the shared server. Under root the server runs as the `postgres` user
+ * (PostgreSQL refuses to run as root).
+ */
+import { execFile } from 'node:child_process';
+import { chownSync, existsSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
+import net from 'node:net';
+import os from 'node:os';
+import path from 'node:path';
+import { promisify } from 'node:util';
+
+const run = promisify(execFile);
+
+/** Folder of initdb and pg_ctl (Debian's layout), or null when PostgreSQL's server binaries are not installed. */
+export function postgresBinDir(): string | null {
+  const root = '/usr/lib/postgresql';
+  if (!existsSync(root)) return null;
+  const versions = readdirSync(root).filter((v) => existsSync(path.join(root, v, 'bin', 'initdb'))).sort((a, b) => Number(b) - Number(a));
+  return versions.length ? path.join(root, versions[0], 'bin') : null;
+}
+
+export const PORT_RANGE = [54040, 54059] as const;
+
+function portFree(port: number): Promise<boolean> {
+  return new Promise((resolve) => {
+    const s = net.createServer();
+    s.once('error', () => resolve(false));
+    s.listen(port, '127.0.0.1', () => s.close(() => resolve(true)));
+  });
+}
+
+/** A port of 54040-54059 nobody listens on now (tried in random order). */
+export async function freeFaultPort(): Promise<number> {
+  const ports = Array.from({ length: PORT_RANGE[1] - PORT_RANGE[0] + 1 }, (_, i) => PORT_RANGE[0] + i).sort(() => Math.random() - 0.5);
+  for (const p of ports) if (await portFree(p)) return p;
+  throw new Error(`no free port in ${PORT_RANGE[0]}-${PORT_RANGE[1]}`);
+}
+
+export interface PrivatePostgres {
+  port: number;
+  /** postgres://postgres@127.0.0.1:<port>/<database> */
+  url(database?: string): string;
+  /** Stop the server: 'immediate' is a crash (recovery on the next start), 'fast' a clean shutdown. */
+  stop(mode?: 'immediate' | 'fast'): Promise<void>;
+  start(): Promise<void>;
+  /** Restart (every connection is cut). */
+  restart(): Promise<void>;
+  /** Stop the server and remove its folder. */
+  destroy(): Promise<void>;
+}
+
+/** initdb a cluster in a temp folder and start it on a free port of the fault-test range. */
+export async function startPrivatePostgres(tag: string): Promise<PrivatePostgres> {
+  const bin = postgresBinDir();
+  if (!bin) throw new Error('PostgreSQL server binaries (initdb, pg_ctl) are not installed');
+  const dir = mkdtempSync(path.join(os.tmpdir(), `hl-pg-${tag}-`));
+  const asRoot = process.getuid?.() === 0;
+  if (asRoot) {
+    const { stdout } = await run('id', ['-u', 'postgres']);
+    const { stdout: gid } = await run('id', ['-g', 'postgres']);
+    chownSync(dir, Number(stdout.trim()), Number(gid.trim()));
+  }
+  const cmd = (tool: string, args: string[]) =>
+    asRoot ? run('runuser', ['-u', 'postgres', '--', path.join(bin, tool), ...args], { timeout: 120_000 }) : run(path.join(bin, tool), args, { timeout: 120_000 });
+  const data = path.join(dir, 'data');
+  await cmd('initdb', ['-D', data, '-A', 'trust', '-U', 'postgres', '--no-sync', '-E', 'UTF8']);
+  let port = 0;
+  const startOn = async () => {
+    await cmd('pg_ctl', ['-D', data, '-l', path.join(dir, 'server.log'), '-w', '-t', '110',
+      '-o', `-p ${port} -k ${dir} -c listen_addresses=127.0.0.1 -c fsync=off -c full_page_writes=off`, 'start']);
+  };
+  // Another test may take the port between the check and the start: try a few.
+  for (let tries = 0; ; tries++) {
+    port = await freeFaultPort();
+    try {
+      await startOn();
+      break;
+    } catch (e) {
+      if (tries >= 4) throw e;
+    }
+  }
+  const stop = async (mode: 'immediate' | 'fast' = 'fast') => { await cmd('pg_ctl', ['-D', data, '-m', mode, '-w', '-t', '110', 'stop']); };
+  return {
+    port,
+    url: (database = 'postgres') => `postgres://postgres@127.0.0.1:${port}/${database}`,
+    stop,
+    start: startOn,
+    restart: async () => { await cmd('pg_ctl', ['-D', data, '-m', 'fast', '-w', '-t', '110', '-l', path.join(dir, 'server.log'), 'restart']); },
+    destroy: async () => {
+      await stop('immediate').catch(() => undefined);
+      rmSync(dir, { recursive: true, force: true });
+    },
+  };
+}

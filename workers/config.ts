@@ -16,6 +16,10 @@ export const ENV = {
   queuePrefix: 'HEATLEDGER_QUEUE_PREFIX',
   apiPort: 'HEATLEDGER_API_PORT',
   apiHost: 'HEATLEDGER_API_HOST',
+  /** Folder the API shows scene paths relative to (default: the common folder of the stored scenes). */
+  dataRoot: 'HEATLEDGER_DATA_ROOT',
+  /** API log level: fatal, error, warn, info (default), debug, trace or silent. */
+  logLevel: 'LOG_LEVEL',
 } as const;
 
 export const DEFAULT_DATA_DIR = '.heatledger';

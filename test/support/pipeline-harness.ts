@@ -51,22 +51,22 @@ function distStale(): boolean {
 export async function ensurePipelineBuild(): Promise<void> {
   const lock = path.join(repoRoot, 'dist', '.pipeline-test-build.lock');
   mkdirSync(path.dirname(lock), { recursive: true });
-  const deadline = Date.now() + 180_000;
+  const deadline = Date.now() + 900_000;
   for (;;) {
     try {
       mkdirSync(lock);
       break;
     } catch {
-      // a lock older than 3 minutes belongs to a dead run
-      try { if (Date.now() - statSync(lock).mtimeMs > 180_000) rmdirSync(lock); } catch { /* gone already */ }
-      if (Date.now() > deadline) throw new Error(`waited 3 minutes for ${lock}`);
+      // a lock older than 15 minutes belongs to a dead run (a compile on a loaded machine can take minutes)
+      try { if (Date.now() - statSync(lock).mtimeMs > 900_000) rmdirSync(lock); } catch { /* gone already */ }
+      if (Date.now() > deadline) throw new Error(`waited 15 minutes for ${lock}`);
       await new Promise((r) => setTimeout(r, 250));
     }
   }
   try {
     if (distStale()) {
       try {
-        execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 150_000 });
+        execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 840_000 });
       } catch {
         // tsc exits non-zero on type errors in files being edited by others; it still emits
       }
@@ -105,7 +105,7 @@ export interface CliResult {
 const children = new Set<ChildProcess>();
 
 /** Run `node dist/workers/cli.js <args>`; kills it (SIGKILL) after `timeoutMs` and says so. */
-export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 90_000): Promise<CliResult> {
+export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000): Promise<CliResult> {
   const started = performance.now();
   const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
   children.add(child);
@@ -126,7 +126,7 @@ export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 90_00
 }
 
 /** Run the CLI and insist on exit code 0; returns stdout. */
-export async function cliOk(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 90_000): Promise<string> {
+export async function cliOk(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000): Promise<string> {
   const r = await runCli(args, env, timeoutMs);
   if (r.code !== 0) {
     throw new Error(`heatledger ${args.join(' ')} exited ${r.code ?? r.signal}${r.timedOut ? ' (timed out)' : ''}: ${r.stderr.slice(0, 2000)}`);

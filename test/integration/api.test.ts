@@ -1,5 +1,5 @@
-import { execFileSync } from 'node:child_process';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { execFile, execFileSync } from 'node:child_process';
+import { existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { PassThrough } from 'node:stream';
@@ -229,6 +229,33 @@ describe('security headers', () => {
     const used = new Set([...page.matchAll(/class="bar [^"]*\b(w\d+)\b/g)].map((m) => m[1]));
     expect(used.size).toBeGreaterThan(0);
     for (const c of used) expect(css.body, c).toContain(`.${c}{width:${c.slice(1)}%}`);
+  });
+});
+
+const CHROMIUM = '/usr/bin/chromium';
+
+describe.skipIf(!existsSync(CHROMIUM))('the page in a browser (Chromium, headless; skipped where it is not installed)', () => {
+  it('renders under the policy without a violation and loads its stylesheet', async () => {
+    const { app: live, lines } = loggedApp(store, 'info');
+    const profile = mkdtempSync(path.join(tmpdir(), 'heatledger-chromium-'));
+    try {
+      await live.listen({ port: 0, host: '127.0.0.1' }); // a free port from the system
+      const port = (live.server.address() as { port: number }).port;
+      // Chromium reports every blocked inline script or style as a console line naming the Content Security Policy
+      const run = await new Promise<{ code: number | null; stdout: string; stderr: string }>((resolve) => {
+        execFile(CHROMIUM, ['--headless', '--no-sandbox', '--disable-gpu', '--enable-logging=stderr', '--v=0', `--user-data-dir=${profile}`, '--dump-dom', `http://127.0.0.1:${port}/`],
+          { timeout: 480_000, maxBuffer: 16 << 20 }, (err, stdout, stderr) => resolve({ code: err ? ((err as { code?: number }).code ?? -1) : 0, stdout, stderr }));
+      });
+      expect(run.code, run.stderr.slice(-2000)).toBe(0);
+      expect(run.stdout).toContain('District surface heat, 2024');
+      expect(run.stdout).toContain('<td>Core</td>');
+      expect(run.stderr).not.toMatch(/Content Security Policy/i);
+      // the browser fetched the stylesheet from this server (the page loaded before dump-dom returned)
+      expect(lines().some((l) => (l.req as { url?: string })?.url === '/page.css')).toBe(true);
+    } finally {
+      await live.close();
+      rmSync(profile, { recursive: true, force: true });
+    }
   });
 });
 

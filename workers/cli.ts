@@ -184,6 +184,7 @@ export function buildProgram(): Command {
 }
 
 let outputGuarded = false;
+let outputFailed = false;
 
 /**
  * A reader that goes away (`heatledger table | head -1`) closes our standard
@@ -199,6 +200,7 @@ function guardOutputStreams(): void {
     stream.on('error', (e: NodeJS.ErrnoException) => {
       if (e.code === 'EPIPE') return;
       if (stream !== process.stderr) process.stderr.write(`heatledger: cannot write to ${name} (${e.code ?? e.message})\n`);
+      outputFailed = true;
       process.exitCode = 1;
     });
   }
@@ -209,7 +211,7 @@ export async function main(argv: string[]): Promise<number> {
   const program = buildProgram();
   try {
     await program.parseAsync(argv);
-    return 0;
+    return outputFailed ? 1 : 0;
   } catch (e) {
     return reportError(e);
   }

@@ -3,8 +3,8 @@
  * dist/workers/cli.js: years, numeric options, CSV escaping, a closed output,
  * a busy port, the API server's log and paths, failure lines.
  */
-import { execFileSync, spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { execFileSync, spawn, spawnSync } from 'node:child_process';
+import { closeSync, existsSync, mkdtempSync, openSync, rmSync } from 'node:fs';
 import net from 'node:net';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
@@ -100,6 +100,20 @@ describe('output', () => {
       expect(out.status, out.stderr).toBe(0);
       const result = JSON.parse(out.stdout) as { code: number; stderr: string };
       expect(result, format).toEqual({ code: 0, stderr: '' });
+    }
+  });
+  it.skipIf(!existsSync('/dev/full'))('reports any other output failure and exits 1 (output written to /dev/full)', async () => {
+    // Linux null(4): every write to /dev/full fails with ENOSPC
+    const full = openSync('/dev/full', 'w');
+    try {
+      const child = spawn(process.execPath, [cliPath, 'table', '--format', 'csv', '--data-dir', dataDir], { cwd: repoRoot, env: env(), stdio: ['ignore', full, 'pipe'] });
+      let stderr = '';
+      child.stderr!.on('data', (d) => { stderr += d; });
+      const code = await new Promise<number | null>((resolve) => child.once('close', (c) => resolve(c)));
+      expect(code, stderr).toBe(1);
+      expect(stderr).toBe('heatledger: cannot write to standard output (ENOSPC)\n');
+    } finally {
+      closeSync(full);
     }
   });
   it('names a failed file once in `status`', async () => {

@@ -1,37 +1,129 @@
 /**
  * The thin HTTP API: each route validates its query, runs one named query
  * through the store, and serialises. JSON by default, CSV on `format=csv`.
+ *
+ * Responses never carry a stack trace, an SQL fragment or an absolute server
+ * path: a bad request is a 400 naming the parameter and what it accepts; a
+ * store that does not answer is a 503; anything else is a 500 whose details
+ * (with the stack) go to the server log only.
  */
-import Fastify, { type FastifyInstance } from 'fastify';
+import path from 'node:path';
+import type { Writable } from 'node:stream';
+import Fastify, { type FastifyError, type FastifyInstance } from 'fastify';
+import helmet from '@fastify/helmet';
 import type { Store } from '../workers/store/index.js';
 import { districtTable, TABLE_FIELDS } from '../workers/commands/table.js';
 import { toCsv } from '../workers/format.js';
 import { listDistricts, sceneStatusCounts, failures } from '../workers/store/repo.js';
-import { isInputError } from '../workers/core/errors.js';
-import { renderPage } from './page.js';
+import { InputError, isInputError } from '../workers/core/errors.js';
+import { parseYear, quoteGiven } from '../workers/core/year.js';
+import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';
+import { commonDirectory, relativeInText, relativeToRoot } from './relative-paths.js';
 
 export const CAUTION =
   'LST is land-surface (skin) temperature, not air temperature. These figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+
+/** Log levels `LOG_LEVEL` may name (the levels of Fastify's logger). */
+export const LOG_LEVELS = ['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent'] as const;
+export type LogLevel = (typeof LOG_LEVELS)[number];
+
+/** `LOG_LEVEL` from the environment, default info; anything else is refused by name. */
+export function logLevelFromEnv(env: NodeJS.ProcessEnv = process.env): LogLevel {
+  const v = env.LOG_LEVEL;
+  if (v === undefined || v === '') return 'info';
+  if (!(LOG_LEVELS as readonly string[]).includes(v)) throw new InputError(`LOG_LEVEL must be one of ${LOG_LEVELS.join(', ')}, got ${quoteGiven(v)}`);
+  return v as LogLevel;
+}
+
+export interface AppOptions {
+  /** Logger level; default `LOG_LEVEL` from the environment, else info. */
+  logLevel?: LogLevel;
+  /** Where the JSON log lines go; default standard output. */
+  logStream?: Writable;
+  /** Folder scene paths are shown relative to; default the common folder of the stored scenes. */
+  dataRoot?: string;
+}
 
 const tableQuery = {
   type: 'object',
   properties: {
     level: { type: 'string', enum: ['date', 'year'], default: 'date' },
-    year: { type: 'integer', minimum: 1900, maximum: 2200 },
+    // parsed by parseYear in the handler: decimal digits only, in range
+    year: { type: 'string' },
     format: { type: 'string', enum: ['json', 'csv'], default: 'json' },
   },
   additionalProperties: false,
 } as const;
 
-export function buildApp(store: Store): FastifyInstance {
-  // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped
-  const app = Fastify({ logger: false, ajv: { customOptions: { removeAdditional: false } } });
+interface SchemaError {
+  keyword: string;
+  instancePath: string;
+  params: Record<string, unknown>;
+  message?: string;
+  parentSchema?: { properties?: Record<string, unknown> };
+}
 
-  app.setErrorHandler((err, _req, reply) => {
-    const e = err as Error & { statusCode?: number; validation?: unknown };
-    if (e.validation || isInputError(e)) return reply.status(400).send({ error: e.message });
-    if (e.name === 'ServiceError') return reply.status(503).send({ error: e.message });
-    return reply.status(e.statusCode && e.statusCode < 500 ? e.statusCode : 500).send({ error: e.statusCode && e.statusCode < 500 ? e.message : 'internal error' });
+/** One plain sentence per schema error, naming the query parameter and what it accepts. */
+function schemaMessage(errors: readonly SchemaError[], dataVar: string): string {
+  const where = dataVar === 'querystring' ? 'query parameter' : `${dataVar} field`;
+  return errors
+    .map((e) => {
+      const name = e.instancePath.replace(/^\//, '');
+      if (e.keyword === 'additionalProperties') {
+        const known = Object.keys(e.parentSchema?.properties ?? {});
+        return `unknown ${where} ${quoteGiven(String(e.params.additionalProperty))}; known: ${known.join(', ')}`;
+      }
+      if (e.keyword === 'enum') return `${where} ${name} must be one of ${(e.params.allowedValues as unknown[]).join(', ')}`;
+      if (e.keyword === 'type') return `${where} ${name} must be given once, as ${String(e.params.type)}`;
+      return `${where} ${name} ${e.message ?? 'is invalid'}`;
+    })
+    .join('; ');
+}
+
+export function buildApp(store: Store, options: AppOptions = {}): FastifyInstance {
+  const level = options.logLevel ?? logLevelFromEnv();
+  const app = Fastify({
+    logger: options.logStream ? { level, stream: options.logStream } : { level },
+    // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped;
+    // verbose: schema errors carry their schema, so a message can list the known parameters
+    ajv: { customOptions: { removeAdditional: false, verbose: true } },
+    schemaErrorFormatter: (errors, dataVar) => new Error(schemaMessage(errors as unknown as SchemaError[], dataVar)),
+  });
+
+  // Security headers; the Content-Security-Policy allows only this server's own files
+  // (the page has no inline script or style).
+  void app.register(helmet, {
+    contentSecurityPolicy: {
+      useDefaults: false,
+      directives: {
+        defaultSrc: ["'self'"],
+        scriptSrc: ["'self'"],
+        styleSrc: ["'self'"],
+        imgSrc: ["'self'"],
+        fontSrc: ["'self'"],
+        connectSrc: ["'self'"],
+        formAction: ["'self'"],
+        baseUri: ["'self'"],
+        frameAncestors: ["'self'"],
+        objectSrc: ["'none'"],
+      },
+    },
+  });
+
+  app.setErrorHandler((err: FastifyError, req, reply) => {
+    if (err.validation || isInputError(err)) return reply.status(400).send({ error: err.message });
+    if (err.name === 'ServiceError') {
+      req.log.error({ err }, 'the store did not answer');
+      return reply.status(503).send({ error: 'the store is not answering; see the server log' });
+    }
+    if (err.statusCode && err.statusCode >= 400 && err.statusCode < 500) return reply.status(err.statusCode).send({ error: err.message });
+    req.log.error({ err }, 'request failed');
+    return reply.status(500).send({ error: 'internal error; see the server log' });
+  });
+
+  app.setNotFoundHandler((req, reply) => {
+    const where = (req.url.split('?')[0] ?? '').slice(0, 200);
+    return reply.status(404).send({ error: `no such resource: ${req.method} ${where}` });
   });
 
   app.get('/api/health', async () => {
@@ -44,11 +136,12 @@ export function buildApp(store: Store): FastifyInstance {
     return rows.map((d) => ({ id: d.id, name: d.name, role: d.role, area_m2: d.areaSquareMetres }));
   });
 
-  app.get<{ Querystring: { level: 'date' | 'year'; year?: number; format: 'json' | 'csv' } }>(
+  app.get<{ Querystring: { level: 'date' | 'year'; year?: string; format: 'json' | 'csv' } }>(
     '/api/table',
     { schema: { querystring: tableQuery } },
     async (req, reply) => {
-      const rows = await districtTable(store, req.query.level, req.query.year);
+      const year = req.query.year === undefined ? undefined : parseYear(req.query.year, 'query parameter year');
+      const rows = await districtTable(store, req.query.level, year);
       if (req.query.format === 'csv') {
         reply.type('text/csv; charset=utf-8');
         return toCsv(rows, TABLE_FIELDS[req.query.level]);
@@ -57,7 +150,20 @@ export function buildApp(store: Store): FastifyInstance {
     },
   );
 
-  app.get('/api/status', async () => ({ scenes: await sceneStatusCounts(store), failures: await failures(store) }));
+  app.get('/api/status', async () => {
+    const root = options.dataRoot !== undefined ? path.resolve(options.dataRoot) : commonDirectory((await store.query<{ path: string }>('SELECT path FROM scenes')).map((r) => r.path));
+    const fails = (await failures(store)).map((f) => {
+      const rel = relativeToRoot(f.path, root);
+      // the scene's own path first (it may hold blanks), then any other absolute path in the message
+      return { ...f, path: rel, error: relativeInText(f.error.split(f.path).join(rel), root) };
+    });
+    return { scenes: await sceneStatusCounts(store), failures: fails };
+  });
+
+  app.get(PAGE_CSS_PATH, async (_req, reply) => {
+    reply.type('text/css; charset=utf-8');
+    return PAGE_CSS;
+  });
 
   app.get('/', async (_req, reply) => {
     reply.type('text/html; charset=utf-8');

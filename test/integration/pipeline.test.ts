@@ -93,7 +93,7 @@ describe('embedded pipeline on PGlite', () => {
       runtimeConfig({ dataDir: pgliteDir }, {}),
     );
     pglite = await tablesOf({ dataDir: pgliteDir });
-  }, 120_000);
+  }, 1_200_000);
 
   it('processes every file and derives one row per target and date', () => {
     expect(archive.files).toHaveLength(FILES);
@@ -202,7 +202,7 @@ describe('embedded pipeline on PGlite', () => {
     }
     expect(compared).toBeGreaterThan(DATES * DISTRICTS.length);
     expect(nulls).toBeGreaterThan(0);
-  }, 60_000);
+  }, 1_200_000);
 
   it('has SUHI = district LST minus rural LST of the same pass', () => {
     let checked = 0;
@@ -254,7 +254,7 @@ describe('ingesting the same archive again (embedded, CLI)', () => {
     expect(status.scenes).toEqual({ registered: 0, processed: FILES, failed: 0, total: FILES });
     expect(status.lastRun.id).toBe(2);
     expect(status.lastRun.status).toBe('succeeded');
-  }, 120_000);
+  }, 1_200_000);
 });
 
 describe('corrupted and duplicated scenes (embedded, CLI)', () => {
@@ -297,7 +297,7 @@ describe('corrupted and duplicated scenes (embedded, CLI)', () => {
     // every other scene processed: the table equals the table of the archive without the bad files
     const table = await cliOk(['table', '--format', 'json', ...args], env);
     expect(JSON.parse(table)).toEqual(JSON.parse(JSON.stringify(pglite.date)));
-  }, 150_000);
+  }, 1_200_000);
 
   it('treats a byte-identical copy of a scene under another name as the same scene', async () => {
     // Archives often hold the same file twice (re-downloads, copies); the content hash
@@ -316,7 +316,7 @@ describe('corrupted and duplicated scenes (embedded, CLI)', () => {
     expect(await cliOk(['table', '--format', 'json', ...args], env)).toBe(before);
     const status = JSON.parse(await cliOk(['status', '--format', 'json', ...args], env));
     expect(status.scenes.total).toBe(FILES + 2); // 14 good + 2 failed; the copy adds none
-  }, 150_000);
+  }, 1_200_000);
 });
 
 describe.skipIf(!pgUp)('embedded runner on the PostgreSQL server', () => {
@@ -338,5 +338,5 @@ describe.skipIf(!pgUp)('embedded runner on the PostgreSQL server', () => {
     const fromServer = await cliOk(['table', '--format', 'json'], env);
     const fromPglite = await cliOk(['table', '--format', 'json', '--data-dir', pgliteDir], cleanEnv());
     expect(fromServer).toBe(fromPglite);
-  }, 120_000);
+  }, 1_200_000);
 });

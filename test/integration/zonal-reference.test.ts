@@ -101,7 +101,7 @@ function cliArgs(c: Case, format: 'json' | 'csv'): string[] {
 interface Run { code: number | null; stdout: string; stderr: string }
 function runCli(args: string[]): Promise<Run> {
   return new Promise((res) => {
-    execFile(process.execPath, [CLI, ...args], { cwd: ROOT, timeout: 30_000, maxBuffer: 16 << 20 }, (err, stdout, stderr) => {
+    execFile(process.execPath, [CLI, ...args], { cwd: ROOT, timeout: 480_000, maxBuffer: 16 << 20 }, (err, stdout, stderr) => {
       const code = err ? ((err as { code?: unknown }).code as number | null) : 0;
       res({ code: typeof code === 'number' ? code : null, stdout: String(stdout), stderr: String(stderr) });
     });

@@ -25,7 +25,7 @@ export const SMALL_ARCHIVE: ArchiveOptions = { years: 2, pairsPerYear: 3, pixelS
 // pixel-centre rule has no ties and an outside rasterizer must agree exactly
 // (derived from the CITY_GRID origin, block size and the 12 km margin).
 
-const SOURCE_DIRS = ['workers', 'demo-data', 'test/support'];
+const SOURCE_DIRS = ['workers', 'api', 'demo-data', 'test/support'];
 
 function newestSourceMs(dir: string): number {
   let newest = 0;
@@ -51,22 +51,22 @@ function distStale(): boolean {
 export async function ensurePipelineBuild(): Promise<void> {
   const lock = path.join(repoRoot, 'dist', '.pipeline-test-build.lock');
   mkdirSync(path.dirname(lock), { recursive: true });
-  const deadline = Date.now() + 180_000;
+  const deadline = Date.now() + 900_000;
   for (;;) {
     try {
       mkdirSync(lock);
       break;
     } catch {
-      // a lock older than 3 minutes belongs to a dead run
-      try { if (Date.now() - statSync(lock).mtimeMs > 180_000) rmdirSync(lock); } catch { /* gone already */ }
-      if (Date.now() > deadline) throw new Error(`waited 3 minutes for ${lock}`);
+      // a lock older than 15 minutes belongs to a dead run (a compile on a loaded machine can take minutes)
+      try { if (Date.now() - statSync(lock).mtimeMs > 900_000) rmdirSync(lock); } catch { /* gone already */ }
+      if (Date.now() > deadline) throw new Error(`waited 15 minutes for ${lock}`);
       await new Promise((r) => setTimeout(r, 250));
     }
   }
   try {
     if (distStale()) {
       try {
-        execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 150_000 });
+        execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 840_000 });
       } catch {
         // tsc exits non-zero on type errors in files being edited by others; it still emits
       }
@@ -105,7 +105,7 @@ export interface CliResult {
 const children = new Set<ChildProcess>();
 
 /** Run `node dist/workers/cli.js <args>`; kills it (SIGKILL) after `timeoutMs` and says so. */
-export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 90_000): Promise<CliResult> {
+export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000): Promise<CliResult> {
   const started = performance.now();
   const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
   children.add(child);
@@ -116,17 +116,17 @@ export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 90_00
   return new Promise((resolve) => {
     let timedOut = false;
     const timer = setTimeout(() => { timedOut = true; child.kill('SIGKILL'); }, timeoutMs);
-    child.once('exit', (code, signal) => {
+    // 'close', not 'exit': it comes after the child's output pipes have been read to the end
+    child.once('close', (code, signal) => {
       clearTimeout(timer);
       children.delete(child);
-      // let the pipes drain
-      setImmediate(() => resolve({ code, signal, stdout, stderr, ms: performance.now() - started, timedOut }));
+      resolve({ code, signal, stdout, stderr, ms: performance.now() - started, timedOut });
     });
   });
 }
 
 /** Run the CLI and insist on exit code 0; returns stdout. */
-export async function cliOk(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 90_000): Promise<string> {
+export async function cliOk(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000): Promise<string> {
   const r = await runCli(args, env, timeoutMs);
   if (r.code !== 0) {
     throw new Error(`heatledger ${args.join(' ')} exited ${r.code ?? r.signal}${r.timedOut ? ' (timed out)' : ''}: ${r.stderr.slice(0, 2000)}`);
@@ -139,25 +139,57 @@ export interface WorkerProcess {
   stderr(): string;
 }
 
-/** Start `node dist/workers/cli.js worker` and wait for its "serving" line. */
-export function startCliWorker(env: NodeJS.ProcessEnv, startTimeoutMs = 20_000): Promise<WorkerProcess> {
-  const child = spawn(process.execPath, [cliPath, 'worker'], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
+export interface StartedCli {
+  child: ChildProcess;
+  stdout(): string;
+  stderr(): string;
+}
+
+/**
+ * Start `node dist/workers/cli.js <args>` and wait until its standard error
+ * matches `ready` (a condition, not a delay). Rejects when the child exits
+ * first or when `startTimeoutMs` passes: generous, since a loaded machine
+ * can take long to start a Node process.
+ */
+export function startCliUntil(args: string[], env: NodeJS.ProcessEnv, ready: RegExp, startTimeoutMs = 180_000): Promise<StartedCli> {
+  const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
   children.add(child);
   child.once('exit', () => children.delete(child));
+  let out = '';
   let err = '';
-  child.stdout!.resume();
+  child.stdout!.on('data', (d) => { out += d; });
   return new Promise((resolve, reject) => {
-    const t = setTimeout(() => reject(new Error(`worker did not report "serving" within ${startTimeoutMs} ms: ${err}`)), startTimeoutMs);
+    const t = setTimeout(() => reject(new Error(`heatledger ${args[0]} did not print ${ready} within ${startTimeoutMs} ms: ${err}`)), startTimeoutMs);
+    const onExit = (code: number | null, signal: NodeJS.Signals | null) => { clearTimeout(t); reject(new Error(`heatledger ${args[0]} exited (${code ?? signal}) before ${ready}: ${err}`)); };
     child.stderr!.on('data', (d) => {
       err += d;
-      if (err.includes('heatledger worker: serving')) { clearTimeout(t); resolve({ child, stderr: () => err }); }
+      if (ready.test(err)) {
+        clearTimeout(t);
+        child.off('exit', onExit);
+        resolve({ child, stdout: () => out, stderr: () => err });
+      }
     });
-    child.once('exit', (code, signal) => { clearTimeout(t); reject(new Error(`worker exited (${code ?? signal}) before serving: ${err}`)); });
+    child.once('exit', onExit);
   });
 }
 
+/** Start `node dist/workers/cli.js worker` and wait for its "serving" line. */
+export async function startCliWorker(env: NodeJS.ProcessEnv, startTimeoutMs = 180_000): Promise<WorkerProcess> {
+  const started = await startCliUntil(['worker'], env, /heatledger worker: serving/, startTimeoutMs);
+  return { child: started.child, stderr: started.stderr };
+}
+
+/** Wait until `check()` holds, looking again every 100 ms; fails after `timeoutMs` (generous: a condition, not a delay). */
+export async function waitFor(check: () => boolean | Promise<boolean>, what: string, timeoutMs = 180_000): Promise<void> {
+  const deadline = Date.now() + timeoutMs;
+  while (!(await check())) {
+    if (Date.now() > deadline) throw new Error(`waited ${timeoutMs} ms for ${what}`);
+    await new Promise((r) => setTimeout(r, 100));
+  }
+}
+
 /** Send `signal` and wait for the exit (at most `timeoutMs`, then SIGKILL); returns how it ended and how long it took. */
-export function stopChild(child: ChildProcess, signal: NodeJS.Signals, timeoutMs = 10_000): Promise<{ code: number | null; signal: NodeJS.Signals | null; ms: number; forced: boolean }> {
+export function stopChild(child: ChildProcess, signal: NodeJS.Signals, timeoutMs = 120_000): Promise<{ code: number | null; signal: NodeJS.Signals | null; ms: number; forced: boolean }> {
   const started = performance.now();
   if (child.exitCode !== null || child.signalCode !== null) {
     return Promise.resolve({ code: child.exitCode, signal: child.signalCode, ms: 0, forced: false });

@@ -27,7 +27,7 @@ function stale(): boolean {
 export function ensureQueueBuild(): string {
   if (stale()) {
     try {
-      execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 120_000 });
+      execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 900_000 });
     } catch {
       // Type errors elsewhere in the tree still emit; the check below decides.
     }

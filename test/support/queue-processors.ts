@@ -22,6 +22,7 @@ const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
 interface TestRepo {
   insertRow?(id: string, value: number): Promise<void>;
+  gateOpen?(gate: string): Promise<boolean>;
   lookup?(key: string): Promise<unknown>;
 }
 
@@ -62,8 +63,13 @@ export const processors: Record<string, Processor<any, any, TestRepo>> = {
       throw new Error(`not an InputError: ${(e as Error).name}`);
     }
   },
-  /** Writes one row (idempotent) after an optional delay, returns the value. */
-  async pgRow(data: { value: number; delayMs?: number }, ctx) {
+  /**
+   * Writes one row (idempotent) after an optional delay, returns the value. With
+   * `gate`, it first waits until the test opens that gate (a row in queue_gates),
+   * so a test can hold jobs in a worker's hands for as long as it needs.
+   */
+  async pgRow(data: { value: number; delayMs?: number; gate?: string }, ctx) {
+    if (data.gate) while (!(await ctx.repo.gateOpen!(data.gate))) await sleep(100);
     if (data.delayMs) await sleep(data.delayMs);
     await ctx.repo.insertRow!(ctx.jobId, data.value);
     return { value: data.value };
@@ -79,18 +85,26 @@ export const processors: Record<string, Processor<any, any, TestRepo>> = {
 
 /**
  * Repository for the fault tests: a pg pool at QUEUE_TEST_DATABASE_URL writing
- * `queue_rows(id, value)` with INSERT ... ON CONFLICT DO NOTHING.
+ * `queue_rows(id, value)` with INSERT ... ON CONFLICT DO NOTHING, and reading
+ * `queue_gates(id)` for gated jobs.
  */
 export async function createRepo(env: Record<string, string | undefined>): Promise<{ repo: TestRepo; close(): Promise<void> }> {
   const url = env.QUEUE_TEST_DATABASE_URL;
   if (!url) return { repo: {}, close: async () => undefined };
-  const pool = new pg.Pool({ connectionString: url, connectionTimeoutMillis: 2_000, max: 4 });
+  const pool = new pg.Pool({ connectionString: url, connectionTimeoutMillis: 60_000, max: 4 });
   pool.on('error', () => undefined);
   return {
     repo: {
       async insertRow(id, value) {
         try {
           await pool.query('INSERT INTO queue_rows (id, value) VALUES ($1, $2) ON CONFLICT (id) DO NOTHING', [id, value]);
+        } catch (e) {
+          throw new ServiceError(`database unreachable at ${new URL(url).host}: ${(e as Error).message}`, { cause: e });
+        }
+      },
+      async gateOpen(gate) {
+        try {
+          return (await pool.query('SELECT 1 FROM queue_gates WHERE id = $1', [gate])).rowCount === 1;
         } catch (e) {
           throw new ServiceError(`database unreachable at ${new URL(url).host}: ${(e as Error).message}`, { cause: e });
         }

@@ -12,12 +12,12 @@ export const testDatabaseUrl =
   process.env.HEATLEDGER_TEST_DATABASE_URL ?? 'postgres://postgres@127.0.0.1:5432/test';
 export const testRedisUrl = process.env.HEATLEDGER_TEST_REDIS_URL ?? 'redis://127.0.0.1:6379';
 
-/** Whether a TCP connection to the URL's host and port opens within 1.5 s. */
+/** Whether a TCP connection to the URL's host and port opens (within a generous 15 s: the machine may be loaded). */
 export function reachable(url: string, defaultPort: number): Promise<boolean> {
   const u = new URL(url);
   const port = Number(u.port || defaultPort);
   return new Promise((resolve) => {
-    const socket = net.connect({ host: u.hostname, port, timeout: 1500 });
+    const socket = net.connect({ host: u.hostname, port, timeout: 15_000 });
     socket.once('connect', () => { socket.destroy(); resolve(true); });
     socket.once('timeout', () => { socket.destroy(); resolve(false); });
     socket.once('error', () => resolve(false));

@@ -193,8 +193,7 @@ describe('bounded random sweep (seeded; 300 sites and instants)', () => {
       seed = (seed * 1103515245 + 12345) % 2147483648;
       return seed / 2147483648;
     };
-    const started = Date.now();
-    for (let i = 0; i < 300 && Date.now() - started < 5000; i++) {
+    for (let i = 0; i < 300; i++) {
       const lat = -90 + 180 * rnd();
       const lon = -180 + 360 * rnd();
       const d = new Date(Date.UTC(1990, 0, 1) + rnd() * 50 * 365.25 * 86_400_000);

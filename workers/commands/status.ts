@@ -1,4 +1,4 @@
-import { formatRows, type OutputFormat } from '../format.js';
+import { failureLine, formatRows, type OutputFormat } from '../format.js';
 import { withStore } from './common.js';
 
 export async function runStatusCommand(opts: { dataDir?: string; format: OutputFormat }): Promise<void> {
@@ -25,7 +25,7 @@ export async function runStatusCommand(opts: { dataDir?: string; format: OutputF
     if (byKind.length) process.stdout.write('\n' + formatRows(byKind.map((r) => ({ kind: r.kind ?? '-', pass: r.pass ?? '-', status: r.status, scenes: r.n })), opts.format === 'csv' ? 'csv' : 'table'));
     if (fails.length) {
       process.stdout.write('\nfailed scenes:\n');
-      for (const f of fails) process.stdout.write(`  ${f.path}: ${f.error}\n`);
+      for (const f of fails) process.stdout.write(`  ${failureLine(f.path, f.error)}\n`);
     }
   });
 }

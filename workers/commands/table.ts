@@ -1,4 +1,5 @@
 import { InputError } from '../core/errors.js';
+import { YEAR_MAX, YEAR_MIN } from '../core/year.js';
 import { formatRows, type OutputFormat, type Row } from '../format.js';
 import type { Store } from '../store/index.js';
 import { withStore } from './common.js';
@@ -46,8 +47,8 @@ export function renderTable(rows: Row[], level: 'date' | 'year', format: OutputF
 }
 
 export async function runTableCommand(opts: TableCommandOptions): Promise<void> {
-  if (opts.year !== undefined && !(Number.isInteger(opts.year) && opts.year > 1900 && opts.year < 2200)) {
-    throw new InputError(`--year must be a calendar year, got ${opts.year}`);
+  if (opts.year !== undefined && !(Number.isInteger(opts.year) && opts.year >= YEAR_MIN && opts.year <= YEAR_MAX)) {
+    throw new InputError(`--year must be a year from ${YEAR_MIN} to ${YEAR_MAX}, got ${opts.year}`);
   }
   await withStore(opts, async (store) => {
     const rows = await districtTable(store, opts.level, opts.year);

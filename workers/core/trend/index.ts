@@ -6,3 +6,6 @@ export { seasonalKendall, type SeasonalObservation, type SeasonalKendallResult }
 export { benjaminiHochberg } from './fdr.js';
 export { twoSidedP, normalQuantile } from './normal.js';
 export { trendOfSeries, directionOf, yearRanges, MIN_TREND_YEARS, type TrendOptions, type TrendResult, type Direction, type SerialCorrection } from './series.js';
+export { parseMonths, seasonMonths, hemisphereOf, seasonYear, monthSelected, SEASON_NAMES, type SeasonName, type Hemisphere, type MonthSelection } from './season.js';
+export { yearlySeries, datesPerYearText, type PeriodMean, type YearlySeries } from './yearly.js';
+export { parseSeriesCsv, type ParsedSeries } from './seriesFile.js';

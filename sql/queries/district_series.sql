@@ -35,4 +35,4 @@ JOIN districts d ON d.id = p.district_id AND d.role = 'district'
 WHERE $2::text IS NULL OR p.obs_month = ANY (string_to_array($2::text, ',')::integer[])
 GROUP BY 1, 2, 3, 4
 HAVING count(p.value) > 0
-ORDER BY 1 COLLATE "C", 3, 4
+ORDER BY d.id COLLATE "C", 3, 4

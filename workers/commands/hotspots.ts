@@ -50,8 +50,8 @@ export interface HotspotRow {
   value: number;
   years: number;
   neighbours: number;
-  gi_z: number;
-  gi_p: number;
+  gi_z: number | null;
+  gi_p: number | null;
   gi_q: number | null;
   spot: 'hot' | 'cold' | 'none';
   confidence: 99 | 95 | 90 | null;
@@ -87,7 +87,7 @@ export async function districtHotspots(store: Store, q: HotspotQuery): Promise<H
   const gi = giStar(x, nb);
   const qs = q.fdr ? benjaminiHochberg(gi.p) : kept.map(() => null);
   const rows: HotspotRow[] = kept.map((d, i) => {
-    const cls = classifySpot(gi.z[i], q.fdr ? (qs[i] as number) : gi.p[i]);
+    const cls = classifySpot(gi.z[i], q.fdr ? qs[i] : gi.p[i]);
     return {
       district: d.id, name: d.name, value: x[i], years: values.get(d.id)!.years, neighbours: nb[i].length,
       gi_z: gi.z[i], gi_p: gi.p[i], gi_q: qs[i], spot: cls.spot, confidence: cls.confidence,

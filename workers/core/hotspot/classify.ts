@@ -12,8 +12,8 @@ export interface SpotClass {
 }
 
 /** @example classifySpot(2.7, 0.007) // { spot: 'hot', confidence: 99 } */
-export function classifySpot(z: number, p: number): SpotClass {
-  if (!Number.isFinite(z) || !Number.isFinite(p) || z === 0) return { spot: 'none', confidence: null };
+export function classifySpot(z: number | null, p: number | null): SpotClass {
+  if (z === null || p === null || !Number.isFinite(z) || !Number.isFinite(p) || z === 0) return { spot: 'none', confidence: null };
   const confidence = p <= 0.01 ? 99 : p <= 0.05 ? 95 : p <= 0.1 ? 90 : null;
   if (confidence === null) return { spot: 'none', confidence: null };
   return { spot: z > 0 ? 'hot' : 'cold', confidence };

@@ -17,8 +17,9 @@
 import { twoSidedP } from '../trend/normal.js';
 
 export interface GiStarResult {
-  z: number[];
-  p: number[];
+  /** null where Gi* is undefined: constant values, or a district whose neighbourhood is every district. */
+  z: (number | null)[];
+  p: (number | null)[];
 }
 
 /**
@@ -34,16 +35,17 @@ export function giStar(values: readonly number[], neighbourLists: readonly (read
   let ss = 0;
   for (const x of values) ss += (x - mean) ** 2;
   const s = Math.sqrt(ss / n);
-  const z: number[] = new Array(n);
-  const p: number[] = new Array(n);
+  const z: (number | null)[] = new Array(n);
+  const p: (number | null)[] = new Array(n);
   for (let i = 0; i < n; i++) {
     const list = neighbourLists[i];
     let lag = values[i];
     for (const j of list) lag += values[j];
     const w = list.length + 1; // binary weights with self: W_i = S1_i
     const denom = s * Math.sqrt((n * w - w * w) / (n - 1));
-    z[i] = (lag - mean * w) / denom;
-    p[i] = twoSidedP(z[i]);
+    const zi = (lag - mean * w) / denom;
+    z[i] = Number.isFinite(zi) && denom > 0 ? zi : null;
+    p[i] = z[i] === null ? null : twoSidedP(zi);
   }
   return { z, p };
 }

@@ -61,7 +61,7 @@ export function hamedRao(
   alpha = 0.05,
 ): HamedRaoResult {
   const n = values.length;
-  const detrended = new Array<number>(n);
+  const detrended = new Float64Array(n);
   for (let i = 0; i < n; i++) detrended[i] = values[i] - slopePerTime * times[i];
   const acf = autocorrelation(averageRanks(detrended));
   const bound = normalQuantile(1 - alpha / 2) / Math.sqrt(n);

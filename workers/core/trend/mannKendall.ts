@@ -69,7 +69,7 @@ export function continuityZ(s: number, varS: number): number {
 export function mannKendall(values: ArrayLike<number>): MannKendallResult {
   const n = values.length;
   const s = mannKendallS(values);
-  const ties = tieGroupSizes(Array.from(values));
+  const ties = tieGroupSizes(values);
   const varS = mannKendallVariance(n, ties);
   const z = continuityZ(s, varS);
   const n0 = (n * (n - 1)) / 2;

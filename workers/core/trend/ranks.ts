@@ -1,7 +1,7 @@
 /** Small sorting and ranking helpers shared by the trend tests. */
 
 /** Sizes of the groups of equal values (only groups of 2 or more), for tie corrections. */
-export function tieGroupSizes(values: readonly number[]): number[] {
+export function tieGroupSizes(values: ArrayLike<number>): number[] {
   const sorted = Float64Array.from(values).sort();
   const out: number[] = [];
   let run = 1;
@@ -16,7 +16,7 @@ export function tieGroupSizes(values: readonly number[]): number[] {
 }
 
 /** Ranks 1..n with ties given their average rank (the "average" method). */
-export function averageRanks(values: readonly number[]): Float64Array {
+export function averageRanks(values: ArrayLike<number>): Float64Array {
   const n = values.length;
   const order = Array.from({ length: n }, (_, i) => i).sort((a, b) => values[a] - values[b]);
   const ranks = new Float64Array(n);

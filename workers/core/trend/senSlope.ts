@@ -14,7 +14,7 @@
  * order statistics around the fractional ranks. Ranks are clamped to 1..N'.
  */
 import { normalQuantile } from './normal.js';
-import { roundHalfEven, sortedMedian } from './ranks.js';
+import { roundHalfEven } from './ranks.js';
 
 export type CiRanks = 'rounded' | 'interpolate';
 
@@ -27,25 +27,56 @@ export interface SenSlopeResult {
   pairs: number;
 }
 
-/** All pairwise slopes (times strictly increasing), sorted ascending. */
+/** All pairwise slopes (times strictly increasing), unsorted. */
 export function pairwiseSlopes(times: ArrayLike<number>, values: ArrayLike<number>): Float64Array {
   const n = values.length;
   const out = new Float64Array((n * (n - 1)) / 2);
   let k = 0;
   for (let i = 0; i < n - 1; i++) {
-    for (let j = i + 1; j < n; j++) out[k++] = (values[j] - values[i]) / (times[j] - times[i]);
+    const ti = times[i], xi = values[i];
+    for (let j = i + 1; j < n; j++) out[k++] = (values[j] - xi) / (times[j] - ti);
   }
-  return out.sort();
+  return out;
+}
+
+/**
+ * Rearrange `a` so that a[k] is the value a full ascending sort would put
+ * there, smaller-or-equal values before it and larger-or-equal after it
+ * (Hoare's selection, "Find", 1961); O(N) on average, no allocation.
+ */
+export function selectInPlace(a: Float64Array, k: number, lo = 0, hi = a.length - 1): number {
+  while (hi > lo) {
+    // median of three as pivot
+    const mid = (lo + hi) >>> 1;
+    let x = a[lo], y = a[mid], z = a[hi];
+    const pivot = x < y ? (y < z ? y : x < z ? z : x) : x < z ? x : y < z ? z : y;
+    let i = lo, j = hi;
+    while (i <= j) {
+      while (a[i] < pivot) i++;
+      while (a[j] > pivot) j--;
+      if (i <= j) { x = a[i]; a[i] = a[j]; a[j] = x; i++; j--; }
+    }
+    if (k <= j) hi = j;
+    else if (k >= i) lo = i;
+    else break;
+  }
+  return a[k];
+}
+
+/** The 1-based order statistic r of `a` (partially reordering it). */
+function orderAt(a: Float64Array, r: number): number {
+  return selectInPlace(a, r - 1);
 }
 
 /** Order statistic at a 1-based, possibly fractional rank, clamped to 1..N. */
-function orderStatistic(sorted: Float64Array, rank: number, mode: CiRanks): number {
-  const n = sorted.length;
+function orderStatistic(a: Float64Array, rank: number, mode: CiRanks): number {
+  const n = a.length;
   const r = Math.min(n, Math.max(1, mode === 'rounded' ? roundHalfEven(rank) : rank));
   const lo = Math.floor(r);
   const frac = r - lo;
-  if (frac === 0 || lo >= n) return sorted[lo - 1];
-  return sorted[lo - 1] + frac * (sorted[lo] - sorted[lo - 1]);
+  if (frac === 0 || lo >= n) return orderAt(a, lo);
+  const below = orderAt(a, lo);
+  return below + frac * (orderAt(a, lo + 1) - below);
 }
 
 /**
@@ -64,12 +95,16 @@ export function senSlope(
   return senFromSlopes(slopes, varS, options);
 }
 
-/** Sen's slope and interval from already sorted pairwise slopes. */
+/**
+ * Sen's slope and interval from the pairwise slopes (in any order; the array
+ * is reordered in place by selection rather than sorted).
+ */
 export function senFromSlopes(slopes: Float64Array, varS: number, options: { alpha?: number; ciRanks?: CiRanks } = {}): SenSlopeResult {
   const alpha = options.alpha ?? 0.05;
   const mode = options.ciRanks ?? 'rounded';
   const pairs = slopes.length;
-  const slope = sortedMedian(slopes);
+  const h = pairs >> 1;
+  const slope = pairs % 2 === 1 ? orderAt(slopes, h + 1) : (orderAt(slopes, h) + orderAt(slopes, h + 1)) / 2;
   const c = normalQuantile(1 - alpha / 2) * Math.sqrt(varS);
   const m1 = (pairs - c) / 2;
   const m2 = (pairs + c) / 2;

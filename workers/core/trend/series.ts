@@ -83,20 +83,29 @@ export function trendOfSeries(years: readonly number[], values: readonly (number
   if (years.length !== values.length) throw new Error('trendOfSeries: years and values differ in length');
   const alpha = options.alpha ?? 0.05;
   const corrected = options.serialCorrection === 'hamed-rao';
-  const pairs = years
-    .map((y, i) => ({ y, v: values[i] }))
-    .filter((o): o is { y: number; v: number } => o.v !== null && Number.isFinite(o.v))
-    .sort((a, b) => a.y - b.y);
-  for (let i = 1; i < pairs.length; i++) {
-    if (pairs[i].y === pairs[i - 1].y) throw new Error(`trendOfSeries: year ${pairs[i].y} appears twice`);
+  // Years with a value, in time order, as typed arrays (no per-year objects).
+  let n = 0;
+  for (let i = 0; i < values.length; i++) { const v = values[i]; if (v !== null && Number.isFinite(v)) n++; }
+  const order = Array.from({ length: values.length }, (_, i) => i);
+  let sortedInput = true;
+  for (let i = 1; i < years.length; i++) if (years[i] <= years[i - 1]) { sortedInput = false; break; }
+  if (!sortedInput) order.sort((a, b) => years[a] - years[b]);
+  const t = new Float64Array(n);
+  const x = new Float64Array(n);
+  let k = 0;
+  for (const i of order) {
+    const v = values[i];
+    if (v !== null && Number.isFinite(v)) { t[k] = years[i]; x[k] = v; k++; }
   }
-  const t = pairs.map((o) => o.y);
-  const x = pairs.map((o) => o.v);
-  const n = x.length;
-  const used = yearRanges(t);
+  for (let i = 1; i < n; i++) {
+    if (t[i] === t[i - 1]) throw new Error(`trendOfSeries: year ${t[i]} appears twice`);
+  }
+  const used = yearRanges(Array.from(t));
   if (n === 0) return empty(0, used, 'no year has a value', corrected);
   if (n < MIN_TREND_YEARS) return empty(n, used, `only ${n} year${n === 1 ? '' : 's'} with a value; a trend needs at least ${MIN_TREND_YEARS}`, corrected);
-  if (x.every((v) => v === x[0])) return empty(n, used, 'the series is constant: no trend can be estimated', corrected);
+  let constant = true;
+  for (let i = 1; i < n; i++) if (x[i] !== x[0]) { constant = false; break; }
+  if (constant) return empty(n, used, 'the series is constant: no trend can be estimated', corrected);
   const mk = mannKendall(x);
   const sen = senSlope(t, x, mk.varS, { alpha, ciRanks: options.ciRanks });
   const r: TrendResult = {

@@ -235,7 +235,7 @@ export async function runTrendCommand(o: TrendCommandOptions): Promise<void> {
       metric, season: o.season, months: o.months, hemisphere: o.hemisphere, from: o.from, to: o.to, districts: o.district,
       alpha: o.alpha, serialCorrection: corrected ? 'hamed-rao' : 'none', ciRanks: o.ciRanks, minDates: o.minDates, seasonalKendall: o.seasonalKendall,
     });
-    if (rows.length === 0) process.stderr.write('heatledger: the store holds no values of this metric yet; run `heatledger ingest` first\n');
+    if (rows.length === 0) process.stderr.write(`heatledger: no district has a ${metric} value in ${selection.label}${o.from || o.to ? ` between ${o.from ?? 'the first year'} and ${o.to ?? 'the last'}` : ''} (has \`heatledger ingest\` run?)\n`);
     const columns = fieldsFor(corrected && !o.seasonalKendall, true);
     const rounded = rows.map((r) => pick(roundTrendRow(r as unknown as Record<string, unknown>, metric), columns));
     if (o.format === 'table') {

@@ -12,7 +12,7 @@
  * district (demo-data/generate.ts); the rural reference does not warm, so
  * night SUHI rises by the same slope.
  */
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -104,4 +104,29 @@ describe('trend finds the built-in warming', () => {
     const fromServer = await cliOk(['trend', '--metric', 'suhi_night', '--min-dates', '1', '--format', 'json'], env);
     expect(fromServer).toBe(json);
   }, 180_000);
+});
+
+describe('trend --series: one series from a file', () => {
+  it('a year file with a missing year gives the documented JSON fields', async () => {
+    const file = path.join(tmp, 'series.csv');
+    writeFileSync(file, 'year,value\n2015,1.2\n2016,NA\n2017,1.5\n2018,1.4\n2019,\n2020,1.9\n2021,2.2\n');
+    const r = JSON.parse(await cliOk(['trend', '--series', file, '--format', 'json', '--serial-correction', 'hamed-rao'], cleanEnv()));
+    expect(Object.keys(r)).toEqual([
+      'n', 's', 'var_s', 'z', 'p', 'tau', 'slope_per_year', 'slope_per_decade', 'slope_ci_lower', 'slope_ci_upper', 'direction',
+      'z_corrected', 'p_corrected', 'years_used', 'dates_per_year', 'note',
+    ]);
+    // 5 years with values: S counted by hand = 8 (one decrease, 1.5 → 1.4); Var = 5·4·15/18 (Gilbert 1987 eq. 16.4)
+    expect(r).toMatchObject({ n: 5, s: 8, var_s: 16.6667, years_used: '2015,2017-2018,2020-2021' });
+  });
+
+  it('bad files exit 2 with the file name and the problem', async () => {
+    const missing = await runCli(['trend', '--series', path.join(tmp, 'nope.csv')], cleanEnv());
+    expect(missing.code).toBe(2);
+    expect(missing.stderr).toContain('nope.csv: cannot read the series file');
+    const bad = path.join(tmp, 'bad.csv');
+    writeFileSync(bad, 'year,value\n2019,warm\n');
+    const r = await runCli(['trend', '--series', bad], cleanEnv());
+    expect(r.code).toBe(2);
+    expect(r.stderr).toContain('bad.csv: line 2: value "warm" is not a number');
+  });
 });

@@ -39,6 +39,12 @@ export interface ArchiveOptions {
   pixelSizeMetres?: number;
   /** Rural margin around the city grid, metres. Default 12000. */
   ruralMarginMetres?: number;
+  /**
+   * Warming built into the archive, Kelvin per year by district id; when given it
+   * replaces the city's own (`trendKelvinPerYear` in city.ts) and districts not
+   * listed do not warm. Default: the city's own.
+   */
+  trendsKelvinPerYear?: Record<string, number>;
 }
 
 export interface ArchiveResult {
@@ -126,7 +132,7 @@ interface Scenery {
   albedo: Float32Array;
 }
 
-function buildScenery(pixel: number, margin: number, seed: number): Scenery {
+function buildScenery(pixel: number, margin: number, seed: number, trends: readonly number[]): Scenery {
   const gridW = CITY_GRID.cols * CITY_GRID.blockMetres;
   const gridH = CITY_GRID.rows * CITY_GRID.blockMetres;
   const x0 = CITY_GRID.originXMetres - margin;
@@ -157,7 +163,7 @@ function buildScenery(pixel: number, margin: number, seed: number): Scenery {
         dayOff = districtDayOffset[d];
         nightOff = districtNightOffset[d];
         alb = spec.albedo;
-        trendKPerYear[k] = spec.trendKelvinPerYear;
+        trendKPerYear[k] = trends[d];
       } else if (y < coastY || (y < CITY_GRID.originYMetres && Math.abs(x - mouthX) < 1500)) {
         surface = 'sea'; // open sea, and the estuary from the harbour basin to it
         alb = RURAL_ALBEDO.sea;
@@ -235,6 +241,7 @@ function kelvinToDn(t: Kelvin): number {
 
 function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
   const r: Required<ArchiveOptions> = {
+    trendsKelvinPerYear: o.trendsKelvinPerYear ?? Object.fromEntries(DISTRICTS.map((d) => [d.id, d.trendKelvinPerYear])),
     seed: o.seed ?? 20190601,
     firstYear: o.firstYear ?? 2019,
     years: o.years ?? 6,
@@ -249,6 +256,10 @@ function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
   if (!Number.isInteger(r.pairsPerYear) || r.pairsPerYear < 1 || r.pairsPerYear > 50) throw new InputError(`pairsPerYear must be an integer 1-50, got ${r.pairsPerYear}`, where);
   if (!(r.pixelSizeMetres >= 10 && r.pixelSizeMetres <= 1000)) throw new InputError(`pixelSizeMetres must be 10-1000, got ${r.pixelSizeMetres}`, where);
   if (!(r.ruralMarginMetres >= 0 && r.ruralMarginMetres <= 50000)) throw new InputError(`ruralMarginMetres must be 0-50000, got ${r.ruralMarginMetres}`, where);
+  for (const [id, k] of Object.entries(r.trendsKelvinPerYear)) {
+    if (!DISTRICTS.some((d) => d.id === id)) throw new InputError(`trendsKelvinPerYear names no district "${id}" (the city has ${DISTRICTS.map((d) => d.id).join(', ')})`, where);
+    if (!(Number.isFinite(k) && Math.abs(k) <= 2)) throw new InputError(`trendsKelvinPerYear for ${id} must be within ±2 K per year, got ${k}`, where);
+  }
   return r;
 }
 
@@ -268,7 +279,7 @@ function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
 export async function generateArchive(outDir: string, options: ArchiveOptions = {}): Promise<ArchiveResult> {
   const o = checkOptions(options);
   await mkdir(outDir, { recursive: true });
-  const scenery = buildScenery(o.pixelSizeMetres as Metres, o.ruralMarginMetres, o.seed);
+  const scenery = buildScenery(o.pixelSizeMetres as Metres, o.ruralMarginMetres, o.seed, DISTRICTS.map((d) => o.trendsKelvinPerYear[d.id] ?? 0));
   const n = scenery.width * scenery.height;
   const rand = mulberry32(o.seed);
   const normal = normalSource(rand);

@@ -154,6 +154,68 @@ export function buildProgram(): Command {
       await runTableCommand(opts);
     });
 
+  const seasonOption = () =>
+    new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
+  const hemisphereOption = () =>
+    new Option('--hemisphere <h>', 'hemisphere for --season (default: from the stored districts; north for --series)').choices(['north', 'south']);
+  const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
+
+  program
+    .command('trend')
+    .description(
+      'Trend of yearly means: Mann–Kendall S, Var(S) (tie-corrected), Z (continuity-corrected), two-sided p, Kendall tau-b; Sen slope with its (1 − alpha) interval.\n' +
+        'One series from a CSV file (--series), or every stored district (--metric) with Benjamini–Hochberg q across districts.\n' +
+        'Units: slope_per_year, slope_ci_lower and slope_ci_upper in K per year (1/K per year for ati), slope_per_decade in K per decade; ' +
+        'slopes rounded to 0.0001 K (1e-8 1/K for ati), p and q to 6 significant digits in JSON and CSV.\n' +
+        'direction: increasing / decreasing / none at alpha after FDR (q); direction_raw from p alone. A series with fewer than 4 years, or constant, gives n and a note, other fields null.\n' +
+        CAUTION,
+    )
+    .option('--series <file>', 'CSV with a header "year,value" or "date,value" (YYYY-MM-DD); blank or NA = missing')
+    .option('--metric <metric>', metricHelp)
+    .addOption(seasonOption())
+    .option('--months <range>', 'months used instead of --season, e.g. 6-8, 12-2 or 6,7,8')
+    .addOption(hemisphereOption())
+    .option('--from <year>', 'first year', parseYearOption('--from'))
+    .option('--to <year>', 'last year', parseYearOption('--to'))
+    .option('--district <ids...>', 'only these district ids')
+    .option('--alpha <a>', 'significance level of direction and of the slope interval', parseNumber('--alpha'), 0.05)
+    .addOption(new Option('--serial-correction <method>', 'hamed-rao: Var(S) corrected for serial correlation (adds z_corrected, p_corrected; they then give q and direction)').choices(['none', 'hamed-rao']).default('none'))
+    .addOption(new Option('--ci-ranks <mode>', 'slope interval ranks: rounded to the nearest integer, or interpolated between order statistics').choices(['rounded', 'interpolate']).default('rounded'))
+    .option('--min-dates <n>', 'a year (or month, with --seasonal-kendall) counts only with at least this many dates', parseInteger('--min-dates', 1, 366), 3)
+    .option('--seasonal-kendall', 'Seasonal Kendall test over monthly means (seasons = months), slope = median of within-month slopes')
+    .addOption(formatOption('table'))
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runTrendCommand } = await import('./commands/trend.js');
+      await runTrendCommand(opts);
+    });
+
+  program
+    .command('hotspots')
+    .description(
+      'Hot and cold spots of one metric for a year (or the mean of yearly means over --from..--to): Getis–Ord Gi* z and p per district ' +
+        '(binary weights including the district itself), classes at 90/95/99 % confidence, and global Moran\'s I (row-standardised weights) ' +
+        'with its expectation, variance, z and two-sided p under normality and under randomisation. Values in K (1/K for ati).\n' + CAUTION,
+    )
+    .requiredOption('--metric <metric>', metricHelp)
+    .option('--year <year>', 'the year', parseYearOption('--year'))
+    .option('--from <year>', 'first year of a range', parseYearOption('--from'))
+    .option('--to <year>', 'last year of a range', parseYearOption('--to'))
+    .addOption(seasonOption())
+    .option('--months <range>', 'months used instead of --season, e.g. 6-8')
+    .addOption(hemisphereOption())
+    .addOption(new Option('--weights <kind>', 'queen: districts sharing a boundary point; knn: k nearest centroids (no district left without neighbours)').choices(['queen', 'knn']).default('queen'))
+    .option('--k <n>', 'neighbours per district for --weights knn', parseInteger('--k', 1, 100), 4)
+    .option('--tolerance-metres <m>', 'boundary points closer than this count as shared (queen)', parseNumber('--tolerance-metres'), 1)
+    .option('--fdr', 'classify on Benjamini–Hochberg q across districts instead of p')
+    .option('--min-dates <n>', 'a year counts only with at least this many dates', parseInteger('--min-dates', 1, 366), 3)
+    .addOption(formatOption('table'))
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runHotspotsCommand } = await import('./commands/hotspots.js');
+      await runHotspotsCommand(opts);
+    });
+
   program
     .command('worker')
     .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')

@@ -2,6 +2,7 @@
  * `npm run bench`: the zonal job against a rasterio + NumPy peer.
  *
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
+ *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -25,6 +26,7 @@ import { ensureBenchData } from './generate.js';
 import { loadTargets, measureCoverage, measureDecode, measureStats, type PhaseProfile } from './profile.js';
 import { median, timeProcess } from './timing.js';
 import { pipelineFlags, runPipelineBench } from './pipeline.js';
+import { runTrendsBench } from './trends.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -179,7 +181,14 @@ function phaseLine(p: PhaseProfile): string {
 }
 
 async function main(): Promise<void> {
-  const pipelineArgs = pipelineFlags(process.argv.slice(2)); // --pipeline / --all and the section's own flags
+  const all = process.argv.includes('--all');
+  if (process.argv.includes('--trends') && !all) {
+    // Trend and hot-spot statistics alone: pure computation, seconds.
+    const trends = runTrendsBench(say);
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ trends }) + '\n');
+    return;
+  }
+  const pipelineArgs = pipelineFlags(process.argv.slice(2).filter((a) => a !== '--trends')); // --pipeline / --all and the section's own flags
   const args = parseArgs(pipelineArgs.argv);
   if (!existsSync(CLI) || !existsSync(CHILD)) fail('dist/ is missing; run `npm run build` first (npm run bench does)');
   const started = performance.now();
@@ -251,6 +260,7 @@ async function main(): Promise<void> {
   }
 
   const pipeline = pipelineArgs.pipeline ? await runPipelineBench({ ...pipelineArgs.options, say }) : null;
+  const trends = all ? runTrendsBench(say) : null;
 
   const med = (s: Size, k: 'oursSeconds' | 'peerSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
   const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
@@ -277,6 +287,7 @@ async function main(): Promise<void> {
     compression_ratio: files.compressionRatio,
     machine: { cpus: cpus().length, loadavg_at_end: loadavg() },
     pipeline,
+    trends,
     bench_seconds: (performance.now() - started) / 1000,
   };
   say(`\nbench took ${summary.bench_seconds.toFixed(0)} s; speedup vs peer (smaller of the sizes' ratios): ${summary.speedup_vs_peer === null ? 'n/a (no peer)' : summary.speedup_vs_peer.toFixed(2)}; agree: ${summary.agree === null ? 'n/a' : summary.agree ? 'yes' : 'NO'}`);

@@ -1,0 +1,165 @@
+/**
+ * `heatledger hotspots`: Getis–Ord Gi* hot and cold spots of one metric for a
+ * year (or the mean of a range of years), and global Moran's I, over the
+ * stored districts.
+ */
+import { InputError } from '../core/errors.js';
+import { benjaminiHochberg, parseMonths, seasonMonths, yearlySeries, type Hemisphere, type SeasonName } from '../core/trend/index.js';
+import { classifySpot, giStar, moranI, neighbours, type MoranResult, type WeightsKind } from '../core/hotspot/index.js';
+import { formatRows, type OutputFormat, type Row } from '../format.js';
+import type { Store } from '../store/index.js';
+import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
+import { CAUTION_SHORT, withStore } from './common.js';
+import { metricUnit, roundSignificant, roundTo, storedHemisphere } from './trend.js';
+
+export interface HotspotsCommandOptions {
+  metric: string;
+  year?: number;
+  from?: number;
+  to?: number;
+  season?: SeasonName;
+  months?: string;
+  hemisphere?: Hemisphere;
+  weights: WeightsKind;
+  k: number;
+  toleranceMetres: number;
+  fdr?: boolean;
+  minDates: number;
+  format: OutputFormat;
+  dataDir?: string;
+}
+
+export interface HotspotQuery {
+  metric: SeriesMetric;
+  from: number;
+  to: number;
+  season?: SeasonName;
+  months?: string;
+  hemisphere?: Hemisphere;
+  weights: WeightsKind;
+  k?: number;
+  toleranceMetres?: number;
+  fdr?: boolean;
+  minDates: number;
+}
+
+export interface HotspotRow {
+  district: string;
+  name: string;
+  /** Mean of the yearly means over the years asked for (K, or 1/K for ATI). */
+  value: number;
+  years: number;
+  neighbours: number;
+  gi_z: number | null;
+  gi_p: number | null;
+  gi_q: number | null;
+  spot: 'hot' | 'cold' | 'none';
+  confidence: 99 | 95 | 90 | null;
+}
+
+export interface HotspotReport {
+  rows: HotspotRow[];
+  moran: MoranResult | null;
+  /** Districts left out for lack of a value in the years asked for. */
+  leftOut: string[];
+  monthsLabel: string;
+}
+
+/** Gi* per district and Moran's I for one metric over [from, to]. */
+export async function districtHotspots(store: Store, q: HotspotQuery): Promise<HotspotReport> {
+  const { districtSeries, storedDistricts } = await import('../store/series.js');
+  const hemisphere = q.hemisphere ?? (await storedHemisphere(store));
+  const sel = q.months ? parseMonths(q.months) : seasonMonths(q.season ?? 'all', hemisphere);
+  const series = await districtSeries(store, { metric: q.metric, months: sel.months, wrapFromMonth: sel.wrapFromMonth, byMonth: false });
+  const districts = await storedDistricts(store);
+  const values = new Map<string, { value: number; years: number }>();
+  for (const d of districts) {
+    const ys = yearlySeries(series.filter((r) => r.district_id === d.id).map((r) => ({ year: r.season_year, dates: r.dates, value: r.value })), q.minDates, q.from, q.to);
+    if (ys.values.length) values.set(d.id, { value: ys.values.reduce((s, v) => s + v, 0) / ys.values.length, years: ys.values.length });
+  }
+  const kept = districts.filter((d) => values.has(d.id));
+  const leftOut = districts.filter((d) => !values.has(d.id)).map((d) => d.id);
+  if (kept.length < 3) {
+    throw new InputError(`hot spots need values for at least 3 districts in ${q.from === q.to ? q.from : `${q.from}-${q.to}`} (${sel.label}, ≥ ${q.minDates} dates a year); the store has ${kept.length}`);
+  }
+  const nb = neighbours(kept, { kind: q.weights, k: q.k, toleranceMetres: q.toleranceMetres });
+  const x = kept.map((d) => values.get(d.id)!.value);
+  const gi = giStar(x, nb);
+  const qs = q.fdr ? benjaminiHochberg(gi.p) : kept.map(() => null);
+  const rows: HotspotRow[] = kept.map((d, i) => {
+    const cls = classifySpot(gi.z[i], q.fdr ? qs[i] : gi.p[i]);
+    return {
+      district: d.id, name: d.name, value: x[i], years: values.get(d.id)!.years, neighbours: nb[i].length,
+      gi_z: gi.z[i], gi_p: gi.p[i], gi_q: qs[i], spot: cls.spot, confidence: cls.confidence,
+    };
+  });
+  return { rows, moran: moranI(x, nb), leftOut, monthsLabel: sel.label };
+}
+
+const FIELDS = ['district', 'name', 'value', 'years', 'neighbours', 'gi_z', 'gi_p', 'gi_q', 'spot', 'confidence'];
+
+function roundRow(r: HotspotRow, metric: SeriesMetric): Row {
+  return {
+    ...r,
+    value: roundTo(r.value, metric === 'ati' ? 7 : 4),
+    gi_z: roundTo(r.gi_z, 4),
+    gi_p: roundSignificant(r.gi_p, 6),
+    gi_q: roundSignificant(r.gi_q, 6),
+  };
+}
+
+function roundMoran(m: MoranResult | null): Record<string, number> | null {
+  if (!m) return null;
+  return {
+    i: roundTo(m.i, 6) as number, expected: roundTo(m.expected, 6) as number,
+    variance_normal: roundSignificant(m.variance_normal, 6) as number, z_normal: roundTo(m.z_normal, 4) as number, p_normal: roundSignificant(m.p_normal, 6) as number,
+    variance_randomisation: roundSignificant(m.variance_randomisation, 6) as number, z_randomisation: roundTo(m.z_randomisation, 4) as number,
+    p_randomisation: roundSignificant(m.p_randomisation, 6) as number, islands: m.islands,
+  };
+}
+
+export async function runHotspotsCommand(o: HotspotsCommandOptions): Promise<void> {
+  if (!(SERIES_METRICS as readonly string[]).includes(o.metric)) throw new InputError(`--metric must be one of ${SERIES_METRICS.join(', ')}, got "${o.metric}"`);
+  if (o.year !== undefined && (o.from !== undefined || o.to !== undefined)) throw new InputError('give --year, or --from and --to, not both');
+  const from = o.year ?? o.from;
+  const to = o.year ?? o.to ?? o.from;
+  if (from === undefined || to === undefined) throw new InputError('give --year <year>, or --from <year> --to <year>');
+  for (const y of [from, to]) if (!(Number.isInteger(y) && y > 1900 && y < 2200)) throw new InputError(`years must be calendar years, got ${y}`);
+  if (from > to) throw new InputError(`--from ${from} is after --to ${to}`);
+  if (o.season && o.months) throw new InputError('give --season or --months, not both');
+  if (!Number.isInteger(o.minDates) || o.minDates < 1) throw new InputError(`--min-dates must be a whole number ≥ 1, got ${o.minDates}`);
+  if (!(o.toleranceMetres >= 0)) throw new InputError(`--tolerance-metres must be ≥ 0, got ${o.toleranceMetres}`);
+  const metric = o.metric as SeriesMetric;
+  await withStore(o, async (store) => {
+    const report = await districtHotspots(store, {
+      metric, from, to, season: o.season, months: o.months, hemisphere: o.hemisphere, weights: o.weights, k: o.k,
+      toleranceMetres: o.toleranceMetres, fdr: o.fdr, minDates: o.minDates,
+    });
+    const rows = report.rows.map((r) => roundRow(r, metric));
+    const period = from === to ? String(from) : `${from}-${to}`;
+    const weightsText = o.weights === 'knn' ? `${o.k} nearest centroids` : `queen contiguity (tolerance ${o.toleranceMetres} m)`;
+    if (report.leftOut.length) process.stderr.write(`heatledger: left out (no ${metric} value in ${period}): ${report.leftOut.join(', ')}\n`);
+    if (o.format === 'json') {
+      process.stdout.write(JSON.stringify({
+        metric, unit: metricUnit(metric).value, years: period, months: report.monthsLabel,
+        weights: o.weights, k: o.weights === 'knn' ? o.k : null, fdr: !!o.fdr,
+        moran_i: roundMoran(report.moran), districts: rows, left_out: report.leftOut,
+      }, null, 2) + '\n');
+      return;
+    }
+    if (o.format === 'csv') {
+      process.stdout.write(formatRows(rows, 'csv', { columns: FIELDS }));
+      return;
+    }
+    const unit = metricUnit(metric).value;
+    process.stdout.write(`Getis–Ord Gi* of ${metric} (${unit}), ${period}, ${report.monthsLabel}; weights: ${weightsText}, binary with self; ${o.fdr ? 'classes from Benjamini–Hochberg q' : 'classes from p'} (90/95/99 %)\n`);
+    process.stdout.write(formatRows(rows, 'table', { columns: FIELDS.filter((c) => o.fdr || c !== 'gi_q'), decimals: { value: metric === 'ati' ? 6 : 3, gi_z: 3, gi_p: 6, gi_q: 6 } }));
+    const m = report.moran;
+    process.stdout.write(m
+      ? `Global Moran's I (row-standardised weights): I = ${m.i.toFixed(4)}, E[I] = ${m.expected.toFixed(4)}; ` +
+        `normality z = ${m.z_normal.toFixed(3)}, p = ${m.p_normal.toPrecision(4)}; randomisation z = ${m.z_randomisation.toFixed(3)}, p = ${m.p_randomisation.toPrecision(4)}` +
+        (m.islands ? `; ${m.islands} district(s) without neighbours` : '') + '\n'
+      : "Global Moran's I: not defined here (fewer than 4 districts with neighbours, or constant values)\n");
+    process.stdout.write(`${CAUTION_SHORT}\n`);
+  });
+}

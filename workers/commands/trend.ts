@@ -1,0 +1,253 @@
+/**
+ * `heatledger trend`: Mann–Kendall trend and Sen's slope of a yearly (or
+ * seasonal) series — one series from a CSV file, or every stored district with
+ * Benjamini–Hochberg q across the districts.
+ */
+import { readFile } from 'node:fs/promises';
+import { InputError } from '../core/errors.js';
+import {
+  benjaminiHochberg, datesPerYearText, directionOf, hemisphereOf, parseMonths, parseSeriesCsv, seasonalKendall,
+  seasonMonths, trendOfSeries, yearlySeries,
+  type CiRanks, type Hemisphere, type MonthSelection, type SeasonName, type SerialCorrection, type TrendResult,
+} from '../core/trend/index.js';
+import { centroidLonLat } from '../core/hotspot/weights.js';
+import { formatRows, type OutputFormat, type Row } from '../format.js';
+import type { Store } from '../store/index.js';
+import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
+import { CAUTION_SHORT, withStore } from './common.js';
+
+export interface TrendCommandOptions {
+  series?: string;
+  metric?: string;
+  season?: SeasonName;
+  months?: string;
+  hemisphere?: Hemisphere;
+  from?: number;
+  to?: number;
+  district?: string[];
+  alpha: number;
+  serialCorrection: 'none' | SerialCorrection;
+  ciRanks: CiRanks;
+  minDates: number;
+  seasonalKendall?: boolean;
+  format: OutputFormat;
+  dataDir?: string;
+}
+
+/** Unit of a metric's values and of its slopes per year. */
+export function metricUnit(metric: SeriesMetric): { value: string; slope: string } {
+  return metric === 'ati' ? { value: '1/K', slope: '1/K per year' } : { value: 'K', slope: 'K per year' };
+}
+
+/** Round to `decimals` places (null stays null). */
+export function roundTo(x: number | null | undefined, decimals: number): number | null {
+  if (x === null || x === undefined || !Number.isFinite(x)) return null;
+  const r = Number(x.toFixed(decimals));
+  return Object.is(r, -0) ? 0 : r;
+}
+
+/** Round to `digits` significant digits (null stays null). */
+export function roundSignificant(x: number | null | undefined, digits: number): number | null {
+  if (x === null || x === undefined || !Number.isFinite(x)) return null;
+  return x === 0 ? 0 : Number(x.toPrecision(digits));
+}
+
+/**
+ * Published precision: temperature slopes 0.0001 K (ATI slopes 1e-8 1/K);
+ * p, q and p_corrected 6 significant digits; z, tau and Var(S) 4 decimals.
+ */
+export function roundTrendRow(r: Record<string, unknown>, metric: SeriesMetric | null): Row {
+  const slopeDecimals = metric === 'ati' ? 8 : 4;
+  const out: Record<string, string | number | boolean | null> = {};
+  for (const [k, v] of Object.entries(r)) {
+    if (typeof v !== 'number') { out[k] = (v ?? null) as string | boolean | null; continue; }
+    if (k.startsWith('slope')) out[k] = roundTo(v, slopeDecimals);
+    else if (k === 'p' || k === 'q' || k === 'p_corrected' || k === 'p_raw') out[k] = roundSignificant(v, 6);
+    else if (k === 'z' || k === 'z_corrected' || k === 'tau' || k === 'var_s') out[k] = roundTo(v, 4);
+    else out[k] = v;
+  }
+  return out;
+}
+
+const BASE_FIELDS = ['n', 's', 'var_s', 'z', 'p', 'tau', 'slope_per_year', 'slope_per_decade', 'slope_ci_lower', 'slope_ci_upper', 'direction'];
+
+function fieldsFor(corrected: boolean, many: boolean): string[] {
+  const f = many ? ['district', 'name', ...BASE_FIELDS.slice(0, 5), 'q', ...BASE_FIELDS.slice(5), 'direction_raw'] : [...BASE_FIELDS];
+  if (corrected) f.push('z_corrected', 'p_corrected');
+  f.push('years_used', 'dates_per_year', 'note');
+  return f;
+}
+
+/** The row's fields in column order (missing ones null). */
+export function pick(row: Row, columns: readonly string[]): Row {
+  const out: Record<string, Row[string]> = {};
+  for (const c of columns) out[c] = row[c] ?? null;
+  return out;
+}
+
+function checkOptions(o: TrendCommandOptions): void {
+  if (!(o.alpha > 0 && o.alpha < 1)) throw new InputError(`--alpha must be between 0 and 1, got ${o.alpha}`);
+  if (!Number.isInteger(o.minDates) || o.minDates < 1) throw new InputError(`--min-dates must be a whole number ≥ 1, got ${o.minDates}`);
+  for (const [name, y] of [['--from', o.from], ['--to', o.to]] as const) {
+    if (y !== undefined && !(Number.isInteger(y) && y > 1900 && y < 2200)) throw new InputError(`${name} must be a calendar year, got ${y}`);
+  }
+  if (o.from !== undefined && o.to !== undefined && o.from > o.to) throw new InputError(`--from ${o.from} is after --to ${o.to}`);
+  if (o.season && o.months) throw new InputError('give --season or --months, not both');
+  if (o.series && (o.metric || (o.district && o.district.length))) throw new InputError('--series reads one series from a file; --metric and --district select stored districts: use one or the other');
+  if (!o.series && !o.metric) throw new InputError('give --metric (every stored district) or --series <file.csv> (one series)');
+  if (o.metric && !(SERIES_METRICS as readonly string[]).includes(o.metric)) throw new InputError(`--metric must be one of ${SERIES_METRICS.join(', ')}, got "${o.metric}"`);
+  if (o.seasonalKendall && o.series) throw new InputError('--seasonal-kendall works on stored districts (monthly means); it does not apply to --series');
+}
+
+function monthSelection(o: TrendCommandOptions, hemisphere: Hemisphere): MonthSelection {
+  if (o.months) return parseMonths(o.months);
+  return seasonMonths(o.season ?? 'all', hemisphere);
+}
+
+/** One series from a CSV file. */
+export async function trendOfFile(o: TrendCommandOptions): Promise<Row> {
+  const path = o.series as string;
+  let text: string;
+  try {
+    text = await readFile(path, 'utf8');
+  } catch (e) {
+    throw new InputError(`cannot read the series file (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+  }
+  const sel = monthSelection(o, o.hemisphere ?? 'north');
+  const parsed = parseSeriesCsv(text, path, sel);
+  const minDates = parsed.kind === 'year' ? 1 : o.minDates;
+  const ys = yearlySeries(parsed.periods, minDates, o.from, o.to);
+  const result = trendOfSeries(ys.years, ys.values, { alpha: o.alpha, serialCorrection: o.serialCorrection === 'hamed-rao' ? 'hamed-rao' : 'none', ciRanks: o.ciRanks });
+  return { ...result, dates_per_year: parsed.kind === 'date' ? datesPerYearText(ys) : null, note: noteWithDrops(result.note, ys.tooFew, minDates) };
+}
+
+function noteWithDrops(note: string | null, tooFew: { year: number; dates: number }[], minDates: number): string | null {
+  if (tooFew.length === 0) return note;
+  const drop = `left out for fewer than ${minDates} dates: ${tooFew.map((t) => `${t.year} (${t.dates})`).join(', ')}`;
+  return note ? `${note}; ${drop}` : drop;
+}
+
+export interface DistrictTrendRow extends Omit<TrendResult, 'direction'> {
+  district: string;
+  name: string;
+  q: number | null;
+  direction: TrendResult['direction'];
+  direction_raw: TrendResult['direction'];
+  dates_per_year: string;
+}
+
+export interface DistrictTrendQuery {
+  metric: SeriesMetric;
+  season?: SeasonName;
+  months?: string;
+  hemisphere?: Hemisphere;
+  from?: number;
+  to?: number;
+  districts?: string[];
+  alpha: number;
+  serialCorrection: SerialCorrection;
+  ciRanks: CiRanks;
+  minDates: number;
+  seasonalKendall?: boolean;
+}
+
+/** The hemisphere of the stored districts, from the mean latitude of their centroids. */
+export async function storedHemisphere(store: Store): Promise<Hemisphere> {
+  const { storedDistricts } = await import('../store/series.js');
+  const ds = await storedDistricts(store);
+  if (ds.length === 0) return 'north';
+  return hemisphereOf(ds.reduce((s, d) => s + centroidLonLat(d)[1], 0) / ds.length);
+}
+
+/**
+ * Trend of every stored district (or the ones asked for), with BH q across
+ * them; `direction` is the verdict after FDR (q ≤ alpha), `direction_raw` from p
+ * alone. With the Hamed–Rao correction, p_corrected is what q and both verdicts use.
+ */
+export async function districtTrends(store: Store, q: DistrictTrendQuery): Promise<{ rows: DistrictTrendRow[]; selection: MonthSelection }> {
+  const { districtSeries } = await import('../store/series.js');
+  const hemisphere = q.hemisphere ?? (await storedHemisphere(store));
+  const sel = q.months ? parseMonths(q.months) : seasonMonths(q.season ?? 'all', hemisphere);
+  const rows = await districtSeries(store, { metric: q.metric, months: sel.months, wrapFromMonth: sel.wrapFromMonth, byMonth: !!q.seasonalKendall });
+  const byDistrict = new Map<string, { name: string; rows: typeof rows }>();
+  for (const r of rows) {
+    const e = byDistrict.get(r.district_id) ?? { name: r.district_name, rows: [] };
+    e.rows.push(r);
+    byDistrict.set(r.district_id, e);
+  }
+  if (q.districts && q.districts.length) {
+    const { storedDistricts } = await import('../store/series.js');
+    const known = new Set((await storedDistricts(store)).map((d) => d.id));
+    const unknown = q.districts.filter((d) => !known.has(d));
+    if (unknown.length) throw new InputError(`--district: no stored district ${unknown.map((u) => `"${u}"`).join(', ')} (known: ${[...known].join(', ') || 'none'})`);
+  }
+  const ids = q.districts && q.districts.length ? q.districts : [...byDistrict.keys()];
+  const corrected = q.serialCorrection === 'hamed-rao';
+  const out: DistrictTrendRow[] = [];
+  for (const id of ids) {
+    const e = byDistrict.get(id) ?? { name: id, rows: [] };
+    let result: TrendResult;
+    let datesText: string;
+    if (q.seasonalKendall) {
+      const kept = e.rows.filter((r) => r.dates >= q.minDates && (q.from === undefined || r.season_year >= q.from) && (q.to === undefined || r.season_year <= q.to));
+      const years = [...new Set(kept.map((r) => r.season_year))].sort((a, b) => a - b);
+      const sk = years.length >= 4 ? seasonalKendall(kept.map((r) => ({ year: r.season_year, season: r.month, value: r.value }))) : null;
+      const { yearRanges } = await import('../core/trend/series.js');
+      const constant = kept.every((r) => r.value === kept[0]?.value);
+      const note = years.length < 4 ? `only ${years.length} years with a monthly value; a trend needs at least 4` : !sk ? 'no month has values in two years' : constant ? 'the series is constant: no trend can be estimated' : null;
+      const ok = sk && !note;
+      result = {
+        n: sk?.n ?? kept.length, s: ok ? sk.s : null, var_s: ok ? sk.varS : null, z: ok ? sk.z : null, p: ok ? sk.p : null, tau: null,
+        slope_per_year: ok ? sk.slope : null, slope_per_decade: ok ? sk.slope * 10 : null, slope_ci_lower: null, slope_ci_upper: null,
+        direction: ok ? directionOf(sk.s, sk.p, q.alpha) : null, years_used: yearRanges(years), note,
+      };
+      datesText = kept.map((r) => `${r.season_year}-${String(r.month).padStart(2, '0')}:${r.dates}`).join(',');
+    } else {
+      const ys = yearlySeries(e.rows.map((r) => ({ year: r.season_year, dates: r.dates, value: r.value })), q.minDates, q.from, q.to);
+      result = trendOfSeries(ys.years, ys.values, { alpha: q.alpha, serialCorrection: q.serialCorrection, ciRanks: q.ciRanks });
+      result.note = noteWithDrops(result.note, ys.tooFew, q.minDates);
+      datesText = datesPerYearText(ys);
+    }
+    out.push({ district: id, name: e.name, q: null, ...result, direction_raw: result.direction, dates_per_year: datesText });
+  }
+  const pOf = (r: DistrictTrendRow): number | null => (corrected && !q.seasonalKendall ? r.p_corrected ?? null : r.p);
+  const qs = benjaminiHochberg(out.map(pOf));
+  out.forEach((r, i) => {
+    r.q = qs[i];
+    r.direction = directionOf(r.s, r.q, q.alpha);
+  });
+  return { rows: out, selection: sel };
+}
+
+export async function runTrendCommand(o: TrendCommandOptions): Promise<void> {
+  checkOptions(o);
+  const corrected = o.serialCorrection === 'hamed-rao';
+  if (o.series) {
+    const row = await trendOfFile(o);
+    const rounded = pick(roundTrendRow(row, null), fieldsFor(corrected, false));
+    if (o.format === 'json') process.stdout.write(JSON.stringify(rounded, null, 2) + '\n');
+    else process.stdout.write(formatRows([rounded], o.format, { columns: fieldsFor(corrected, false), decimals: { slope_per_year: 4, slope_per_decade: 4, slope_ci_lower: 4, slope_ci_upper: 4, p: 6, tau: 4, z: 4 } }));
+    return;
+  }
+  const metric = o.metric as SeriesMetric;
+  await withStore(o, async (store) => {
+    const { rows, selection } = await districtTrends(store, {
+      metric, season: o.season, months: o.months, hemisphere: o.hemisphere, from: o.from, to: o.to, districts: o.district,
+      alpha: o.alpha, serialCorrection: corrected ? 'hamed-rao' : 'none', ciRanks: o.ciRanks, minDates: o.minDates, seasonalKendall: o.seasonalKendall,
+    });
+    if (rows.length === 0) process.stderr.write(`heatledger: no district has a ${metric} value in ${selection.label}${o.from || o.to ? ` between ${o.from ?? 'the first year'} and ${o.to ?? 'the last'}` : ''} (has \`heatledger ingest\` run?)\n`);
+    const columns = fieldsFor(corrected && !o.seasonalKendall, true);
+    const rounded = rows.map((r) => pick(roundTrendRow(r as unknown as Record<string, unknown>, metric), columns));
+    if (o.format === 'table') {
+      const unit = metricUnit(metric);
+      process.stdout.write(
+        `${o.seasonalKendall ? 'Seasonal Kendall test (monthly means)' : 'Mann–Kendall test'} of ${metric} (${unit.value}), ${selection.label}, ` +
+          `years with ≥ ${o.minDates} dates; slopes in ${unit.slope} (per decade ×10); q = Benjamini–Hochberg across ${rows.length} districts; alpha ${o.alpha}\n`,
+      );
+      process.stdout.write(formatRows(rounded, 'table', { columns: columns.filter((c) => c !== 'dates_per_year'), decimals: { slope_per_year: metric === 'ati' ? 8 : 4, slope_per_decade: metric === 'ati' ? 7 : 3, slope_ci_lower: metric === 'ati' ? 8 : 4, slope_ci_upper: metric === 'ati' ? 8 : 4, p: 6, q: 6, p_corrected: 6, tau: 3, z: 3, z_corrected: 3, var_s: 2 } }));
+      process.stdout.write(`Yearly means depend on the clear dates each year had; SUHI depends on the rural reference. ${CAUTION_SHORT}\n`);
+    } else {
+      process.stdout.write(formatRows(rounded, o.format, { columns }));
+    }
+  });
+}

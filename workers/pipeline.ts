@@ -21,6 +21,7 @@ import type { FlowProgress, JobFailure, JobSpec, Runner } from './queue/types.js
 import type { Store } from './store/index.js';
 import { openConfiguredStore } from './store/configured.js';
 import { startRun, finishRun, upsertDistricts } from './store/repo.js';
+import { onInterrupt } from './store/interrupt.js';
 import { runtimeConfig, type RuntimeConfig, ENV } from './config.js';
 import { VERSION } from './version.js';
 
@@ -201,12 +202,26 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
 
   const store = await openConfiguredStore(config);
   let runner: Runner | null = null;
+  let unregisterInterrupt = () => {};
+  let interrupted = false;
   try {
     await upsertDistricts(store, [
       ...districts.map((d) => ({ id: d.id, name: d.name, role: 'district' as const, geometry: d.geometry, areaSquareMetres: d.areaSquareMetres, properties: d.properties })),
       { id: RURAL_ID, name: 'rural reference', role: 'rural' as const, geometry: rural.geometry, areaSquareMetres: rural.areaSquareMetres, properties: { description: ruralDescription } },
     ]);
-    const runId = await startRun(store, { softwareVersion: VERSION, mode: config.mode, parameters: params });
+    const runId = await startRun(store, {
+      softwareVersion: VERSION, mode: config.mode, parameters: params, ownerHost: os.hostname(), ownerPid: process.pid, scenesAsked: files.length,
+    });
+    // SIGINT/SIGTERM: stop the jobs, then say in the store how far the run got (the store closes after this handler)
+    unregisterInterrupt = onInterrupt(async (signal) => {
+      interrupted = true;
+      // stop handing out jobs (not awaited: a job blocked in a read must not hold up the exit)
+      if (runner) void runner.close().catch(() => undefined);
+      runner = null;
+      const left = await scenesLeft(store, files.map((f) => f.contentHash));
+      await finishRun(store, runId, { status: 'interrupted', error: `stopped by ${signal}`, scenesLeft: left });
+      return { message: `interrupted; run ${runId} marked interrupted, ${left} scene(s) left — run the same ingest again to finish them` };
+    });
     const identity = await storeIdentity(store);
     const root = buildFlow({
       identity,
@@ -224,10 +239,17 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       },
     });
     runner = await createRunner(config, store, options.threads);
-    const result = await runner.runFlow(root, {
-      onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
-      onNotice: options.onNotice,
-    });
+    const result = await runner
+      .runFlow(root, {
+        onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
+        onNotice: options.onNotice,
+      })
+      .catch((e: unknown) => {
+        if (!interrupted) throw e;
+        return null;
+      });
+    // stopped by a signal: the interrupt handler records the run, closes the store and exits the process
+    if (interrupted || result === null) return await untilExit();
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
     const deriveFailure = result.failures.find((f) => f.id === root.id);
     await finishRun(store, runId, deriveFailure ? { status: 'failed', error: deriveFailure.error } : { status: 'succeeded' });
@@ -241,7 +263,22 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       seconds: (performance.now() - started) / 1000,
     };
   } finally {
+    unregisterInterrupt();
     if (runner) await runner.close();
     await store.close();
   }
+}
+
+/** A promise that never settles: the run was stopped by a signal and the process is exiting. */
+function untilExit(): Promise<never> {
+  return new Promise<never>(() => undefined);
+}
+
+/** Scene files of a run (by content hash) not yet stored as processed. */
+async function scenesLeft(store: Store, contentHashes: string[]): Promise<number> {
+  const rows = await store.query<{ n: number }>(
+    `SELECT count(*)::int AS n FROM scenes WHERE content_hash = ANY($1::text[]) AND status = 'processed'`,
+    [contentHashes],
+  );
+  return contentHashes.length - rows[0].n;
 }

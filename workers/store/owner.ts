@@ -98,20 +98,22 @@ async function acquire(dataDir: string, me: LockOwner, writer: boolean): Promise
     if (!(writer && alive && READ_COMMANDS.has(owner.command) && owner.socket)) throw new StoreBusyError(dataDir, owner, busyHint(dataDir, owner));
     // a reading owner: ask it to hand the store over
     let conn: RemoteConnection | null = null;
+    let refusal: string | null = null;
     try {
       conn = await RemoteConnection.connect(owner.socket);
       await conn.request({ op: 'handover', to: me });
     } catch (e) {
-      if (!(e instanceof OwnerGoneError)) throw e;
+      // not listening yet (still opening), leaving, or busy handing over to another writer
+      if (!(e instanceof OwnerGoneError)) refusal = (e as Error).message;
     } finally {
       conn?.close();
     }
     const now = readLock(dataDir);
     if (now?.token === me.token) return;
-    // not answering yet (still opening) or just leaving: ask again while it lives
+    // ask again while it lives; a new owner (another writer) is reported on the next round
     waitingSince ??= Date.now();
     if (Date.now() - waitingSince > OWNER_PATIENCE_MS) {
-      throw new StoreBusyError(dataDir, owner, `it did not hand the store over on its socket ${owner.socket}`);
+      throw new StoreBusyError(dataDir, owner, `it did not hand the store over on its socket ${owner.socket}${refusal ? ` (${refusal})` : ''}`);
     }
     await pause(RETRY_PAUSE_MS);
   }
@@ -279,10 +281,12 @@ export class SharedReadStore implements Store {
     let waitingSince: number | null = null;
     for (;;) {
       if (this.closed) throw new ServiceError(`the store at ${this.dataDir} was closed`);
-      if (!isStoreDir(this.dataDir)) throw noStoreError(this.dataDir);
-      const owner = readLock(this.dataDir);
+      const owner = fs.existsSync(this.dataDir) ? readLock(this.dataDir) : null;
       const alive = owner ? ownerAlive(owner) : false;
+      // a store being created by its owner has no PG_VERSION yet, but is one
+      if (!isStoreDir(this.dataDir) && !(owner && alive)) throw noStoreError(this.dataDir);
       if (owner && alive === null) throw new StoreBusyError(this.dataDir, owner, busyHint(this.dataDir, owner));
+      if (owner && alive && !owner.socket) throw new StoreBusyError(this.dataDir, owner, busyHint(this.dataDir, owner));
       if (owner && alive && owner.socket) {
         try {
           this.current = { remote: await RemoteConnection.connect(owner.socket) };
@@ -351,7 +355,7 @@ export function openOwnedStore(dataDir: string, command: string, prepare: (s: St
 /** Open `dataDir` for reading (see SharedReadStore); InputError when it holds no store. */
 export async function openSharedReadStore(dataDir: string, command: string, prepare: (s: Store) => Promise<void>): Promise<SharedReadStore> {
   const dir = path.resolve(dataDir);
-  if (!isStoreDir(dir)) throw noStoreError(dir);
+  if (!fs.existsSync(dir)) throw noStoreError(dir);
   const store = new SharedReadStore(dir, command, prepare);
   try {
     await store.query('SELECT 1');

@@ -204,6 +204,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   let runner: Runner | null = null;
   let unregisterInterrupt = () => {};
   let interrupted = false;
+  let finishing: Promise<void> | null = null;
   try {
     await upsertDistricts(store, [
       ...districts.map((d) => ({ id: d.id, name: d.name, role: 'district' as const, geometry: d.geometry, areaSquareMetres: d.areaSquareMetres, properties: d.properties })),
@@ -214,6 +215,11 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     });
     // SIGINT/SIGTERM: stop the jobs, then say in the store how far the run got (the store closes after this handler)
     unregisterInterrupt = onInterrupt(async (signal) => {
+      // every job is done: let the run's own end be recorded
+      if (finishing) {
+        await finishing.catch(() => undefined);
+        return { message: `interrupted after run ${runId} had finished its jobs; its state is recorded` };
+      }
       interrupted = true;
       // stop handing out jobs (not awaited: a job blocked in a read must not hold up the exit)
       if (runner) void runner.close().catch(() => undefined);
@@ -252,7 +258,8 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     if (interrupted || result === null) return await untilExit();
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
     const deriveFailure = result.failures.find((f) => f.id === root.id);
-    await finishRun(store, runId, deriveFailure ? { status: 'failed', error: deriveFailure.error } : { status: 'succeeded' });
+    finishing = finishRun(store, runId, deriveFailure ? { status: 'failed', error: deriveFailure.error } : { status: 'succeeded' });
+    await finishing;
     return {
       runId,
       mode: config.mode,

@@ -13,6 +13,8 @@
  *   128 + N is the shells' common practice, signal numbers from signal(7) on Linux);
  * - a SIGKILLed process runs no handler at all (POSIX.1-2017 signal.h: SIGKILL
  *   cannot be caught), so its lock stays behind and must be detected as stale;
+ * - distributed mode: with no `heatledger worker` running, no queued job can
+ *   finish, so every scene file of the run is left (derived from the setup);
  * - exit 2 for a wrong --data-dir: the project's exit-code contract (bad input = 2),
  *   common practice, no source.
  *
@@ -33,9 +35,15 @@ import type { ArchiveResult } from '../../demo-data/generate.js';
 import { districtTable } from '../../workers/commands/table.js';
 import type { Row } from '../../workers/format.js';
 import { openStore } from '../../workers/store/store.js';
-import { SMALL_ARCHIVE, cleanEnv, cliOk, cliPath, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli, stopChild } from '../support/pipeline-harness.js';
+import pg from 'pg';
+import {
+  SMALL_ARCHIVE, cleanEnv, cleanRedisPrefix, cliOk, cliPath, createTempDatabase, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli,
+  stopChild, uniquePrefix,
+} from '../support/pipeline-harness.js';
+import { serviceAvailable, testRedisUrl } from '../support/services.js';
 
 await ensurePipelineBuild();
+const serversUp = (await serviceAvailable('postgres', 'interrupted distributed ingest')) && (await serviceAvailable('redis', 'interrupted distributed ingest'));
 
 const FILES = SMALL_ARCHIVE.years! * (2 * SMALL_ARCHIVE.pairsPerYear! + 1); // derived from the generator's options
 const LONG = 120_000;
@@ -71,8 +79,8 @@ function ingestArgs(dataDir: string): string[] {
 
 interface Child { child: ChildProcess; stdout(): string; stderr(): string; exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }> }
 
-function startCli(args: string[]): Child {
-  const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
+function startCli(args: string[], childEnv: NodeJS.ProcessEnv = env): Child {
+  const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env: childEnv, stdio: ['ignore', 'pipe', 'pipe'] });
   started.add(child);
   let out = '';
   let err = '';
@@ -280,6 +288,39 @@ describe('interrupted ingest', () => {
     expect(ingest.stderr()).toContain(`run ${runId} marked interrupted`);
     expect(await lastRun(dataDir)).toEqual({ id: runId, status: 'interrupted' });
     await releaseHold();
+  }, 600_000);
+});
+
+describe.runIf(serversUp)('interrupted distributed ingest', () => {
+  it('SIGINT to the ingest command: exit 130, one line, the run marked interrupted with every scene left (no worker ran)', async () => {
+    const db = await createTempDatabase('lock');
+    const prefix = uniquePrefix('lock');
+    const client = new pg.Client({ connectionString: db.url });
+    try {
+      // no `heatledger worker` runs, so the ingest waits on its queued jobs: certainly mid-run
+      const ingest = startCli(
+        ['ingest', archiveDir, '--districts', archive.districtsPath, '--no-progress'],
+        cleanEnv({ DATABASE_URL: db.url, REDIS_URL: testRedisUrl, HEATLEDGER_QUEUE_PREFIX: prefix }),
+      );
+      await client.connect();
+      const runId = await waitFor('the distributed run to start', async () => {
+        if (ingest.child.exitCode !== null) throw new Error(`the ingest exited early (${ingest.child.exitCode}): ${ingest.stderr()}`);
+        const r = await client.query<{ id: number }>(`SELECT id FROM runs WHERE status = 'running'`).catch(() => ({ rows: [] as { id: number }[] }));
+        return r.rows[0]?.id;
+      });
+      const stop = await stopChild(ingest.child, 'SIGINT', LONG);
+      expect(stop.code).toBe(130); // 128 + SIGINT (2)
+      await ingest.exited;
+      expect(ingest.stderr().trim().split('\n')).toEqual([
+        `heatledger: interrupted; run ${runId} marked interrupted, ${FILES} scene(s) left — run the same ingest again to finish them`,
+      ]);
+      const runs = await client.query('SELECT id, status, owner_host, owner_pid, scenes_asked, scenes_left FROM runs');
+      expect(runs.rows).toEqual([{ id: runId, status: 'interrupted', owner_host: os.hostname(), owner_pid: ingest.child.pid, scenes_asked: FILES, scenes_left: FILES }]);
+    } finally {
+      await client.end().catch(() => undefined);
+      await db.drop();
+      await cleanRedisPrefix(testRedisUrl, prefix);
+    }
   }, 600_000);
 });
 

@@ -309,9 +309,40 @@ export function reportError(e: unknown): number {
   return 1;
 }
 
+const SIGNAL_NUMBERS: Partial<Record<NodeJS.Signals, number>> = { SIGINT: 2, SIGTERM: 15 };
+
+/**
+ * SIGINT / SIGTERM: run the registered stop handlers (a run in progress is
+ * marked 'interrupted', stores close and release their lock), print their
+ * lines, exit 128 + the signal number (130, 143) unless a handler says the stop
+ * is the normal end (a server: 0). A second signal exits at once.
+ */
+export function installSignalHandlers(): void {
+  let stopping = false;
+  const onSignal = (signal: NodeJS.Signals) => {
+    const code = 128 + (SIGNAL_NUMBERS[signal] ?? 0);
+    if (stopping) {
+      process.stderr.write(`heatledger: ${signal} again; stopping now\n`);
+      process.exit(code);
+    }
+    stopping = true;
+    void (async () => {
+      const { runInterruptHandlers } = await import('./store/interrupt.js');
+      const { messages, exitCode } = await runInterruptHandlers(signal);
+      if (messages.length === 0) messages.push(`interrupted by ${signal}`);
+      for (const m of messages) process.stderr.write(`heatledger: ${m}\n`);
+      process.exit(exitCode ?? code);
+    })();
+  };
+  process.on('SIGINT', onSignal);
+  process.on('SIGTERM', onSignal);
+}
+
 // Run when executed directly (not when imported by tests).
 const invokedDirectly = process.argv[1] && import.meta.url === new URL(`file://${(await import('node:fs')).realpathSync(process.argv[1])}`).href;
 if (invokedDirectly) {
+  // `worker` stops gracefully on its own signal handlers (it finishes or returns its jobs)
+  if (process.argv[2] !== 'worker') installSignalHandlers();
   const code = await main(process.argv);
   process.exitCode = code;
 }

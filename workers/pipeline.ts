@@ -23,6 +23,7 @@ import { withServiceRetry } from './queue/retry.js';
 import type { Store } from './store/index.js';
 import { openConfiguredStore } from './store/configured.js';
 import { startRun, finishRun, markSceneFailed, upsertDistricts } from './store/repo.js';
+import { onInterrupt } from './store/interrupt.js';
 import { runtimeConfig, type RuntimeConfig, ENV } from './config.js';
 import { VERSION } from './version.js';
 
@@ -272,13 +273,33 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   const onServer = <T>(fn: () => Promise<T>): Promise<T> => (config.databaseUrl ? withServiceRetry(fn, budgetMs) : fn());
   const store = await onServer(() => openConfiguredStore(config));
   let runner: Runner | null = null;
+  let unregisterInterrupt = () => {};
+  let interrupted = false;
+  let finishing: Promise<void> | null = null;
   try {
     await onServer(() => upsertDistricts(store, [
       ...districts.map((d) => ({ id: d.id, name: d.name, role: 'district' as const, geometry: d.geometry, areaSquareMetres: d.areaSquareMetres, properties: d.properties })),
       { id: RURAL_ID, name: 'rural reference', role: 'rural' as const, geometry: rural.geometry, areaSquareMetres: rural.areaSquareMetres, properties: { description: ruralDescription } },
     ]));
-    const runId = await onServer(() => startRun(store, { softwareVersion: VERSION, mode: config.mode, parameters: params }));
+    const runId = await onServer(() => startRun(store, {
+      softwareVersion: VERSION, mode: config.mode, parameters: params, ownerHost: os.hostname(), ownerPid: process.pid, scenesAsked: files.length,
+    }));
     for (const u of unreadable) await onServer(() => markSceneFailed(store, { path: u.path, error: `${u.path}: ${u.reason}`, runId }));
+    // SIGINT/SIGTERM: stop the jobs, then say in the store how far the run got (the store closes after this handler)
+    unregisterInterrupt = onInterrupt(async (signal) => {
+      // every job is done: let the run's own end be recorded
+      if (finishing) {
+        await finishing.catch(() => undefined);
+        return { message: `interrupted after run ${runId} had finished its jobs; its state is recorded` };
+      }
+      interrupted = true;
+      // stop handing out jobs (not awaited: a job blocked in a read must not hold up the exit)
+      if (runner) void runner.close().catch(() => undefined);
+      runner = null;
+      const left = await scenesLeft(store, files.map((f) => f.contentHash));
+      await finishRun(store, runId, { status: 'interrupted', error: `stopped by ${signal}`, scenesLeft: left });
+      return { message: `interrupted; run ${runId} marked interrupted, ${left} scene(s) left — run the same ingest again to finish them` };
+    });
     const identity = await onServer(() => storeIdentity(store));
     const root = buildFlow({
       identity,
@@ -299,24 +320,28 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       serviceRetryBudgetMs: budgetMs,
       stallTimeoutMs: options.stallTimeoutSeconds !== undefined ? options.stallTimeoutSeconds * 1000 : undefined,
     });
-    let result: FlowResult;
+    let result: FlowResult | null;
     try {
       result = await runner.runFlow(root, {
         onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
         onNotice: options.onNotice,
       });
     } catch (e) {
+      if (interrupted) result = null;
       // The queue itself went away (Redis past the budget): nothing is known done; the run is left for the next ingest.
-      if (!isServiceError(e)) throw e;
-      result = { results: new Map(), failures: [], stopped: { error: e.message, kind: 'service', service: e.service } };
+      else if (!isServiceError(e)) throw e;
+      else result = { results: new Map(), failures: [], stopped: { error: e.message, kind: 'service', service: e.service } };
     }
+    // stopped by a signal: the interrupt handler records the run, closes the store and exits the process
+    if (interrupted || result === null) return await untilExit();
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
     const outcome = runOutcome(root, result, unreadable.length);
-    await onServer(() => finishRun(store, runId, {
+    finishing = onServer(() => finishRun(store, runId, {
       status: outcome.status,
       error: outcome.error,
       scenesLeft: outcome.status === 'succeeded' ? 0 : outcome.scenesLeft,
     }));
+    await finishing;
     return {
       runId,
       mode: config.mode,
@@ -329,7 +354,22 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       seconds: (performance.now() - started) / 1000,
     };
   } finally {
+    unregisterInterrupt();
     if (runner) await runner.close();
     await store.close();
   }
+}
+
+/** A promise that never settles: the run was stopped by a signal and the process is exiting. */
+function untilExit(): Promise<never> {
+  return new Promise<never>(() => undefined);
+}
+
+/** Scene files of a run (by content hash) not yet stored as processed. */
+async function scenesLeft(store: Store, contentHashes: string[]): Promise<number> {
+  const rows = await store.query<{ n: number }>(
+    `SELECT count(*)::int AS n FROM scenes WHERE content_hash = ANY($1::text[]) AND status = 'processed'`,
+    [contentHashes],
+  );
+  return contentHashes.length - rows[0].n;
 }

@@ -3,11 +3,15 @@ import { InputError } from '../core/errors.js';
 import { runtimeConfig, type RuntimeConfig } from '../config.js';
 import type { Store } from '../store/index.js';
 
-/** Open the configured store (embedded PGlite in --data-dir, or DATABASE_URL), run `fn`, close. */
+/**
+ * Open the configured store for reading (embedded PGlite in --data-dir, or DATABASE_URL), run `fn`, close.
+ * An embedded store must exist (a mistyped --data-dir is an InputError, nothing is created) and is
+ * read through its owner's socket while another process (an ingest) owns it.
+ */
 export async function withStore<T>(opts: { dataDir?: string }, fn: (store: Store, config: RuntimeConfig) => Promise<T>): Promise<T> {
   const config = runtimeConfig({ dataDir: opts.dataDir });
   const { openConfiguredStore } = await import('../store/configured.js');
-  const store = await openConfiguredStore(config);
+  const store = await openConfiguredStore(config, { readOnly: true });
   try {
     return await fn(store, config);
   } finally {

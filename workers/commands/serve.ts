@@ -39,10 +39,14 @@ export async function runServeCommand(opts: { port?: number; host?: string; data
     const address = app.server.address();
     const bound = address && typeof address === 'object' ? address.port : port;
     process.stderr.write(`heatledger API on http://${host}:${bound}/ (page) and /api/table, /api/status, /api/districts, /api/health\n`);
+    // SIGINT/SIGTERM are the normal way to stop a server: exit 0 once it has closed
+    const { onInterrupt } = await import('../store/interrupt.js');
     await new Promise<void>((resolve) => {
-      const stop = () => { void app.close().then(() => resolve()); };
-      process.once('SIGTERM', stop);
-      process.once('SIGINT', stop);
+      onInterrupt(async () => {
+        await app.close();
+        resolve();
+        return { exitCode: 0, message: 'serve stopped' };
+      });
     });
   });
 }

@@ -135,13 +135,18 @@ export interface RunInput {
   softwareVersion: string;
   mode: 'embedded' | 'distributed';
   parameters: RunParameters;
+  /** The process that runs it (host name and pid), so a later command can tell a run whose process died. */
+  ownerHost?: string;
+  ownerPid?: number;
+  /** Scene files the run was asked to process. */
+  scenesAsked?: number;
 }
 
 /** Record the start of a run; returns its id. */
 export async function startRun(db: Db, run: RunInput): Promise<number> {
   const rows = await db.query<{ id: number }>(
-    `INSERT INTO runs (software_version, mode, parameters) VALUES ($1, $2, $3::text::jsonb) RETURNING id`,
-    [run.softwareVersion, run.mode, json(run.parameters)],
+    `INSERT INTO runs (software_version, mode, parameters, owner_host, owner_pid, scenes_asked) VALUES ($1, $2, $3::text::jsonb, $4, $5, $6) RETURNING id`,
+    [run.softwareVersion, run.mode, json(run.parameters), run.ownerHost ?? null, run.ownerPid ?? null, run.scenesAsked ?? null],
   );
   return rows[0].id;
 }

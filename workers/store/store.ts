@@ -45,6 +45,14 @@ export interface OpenStoreOptions {
   dataDir?: string;
   /** Embedded engine in memory only (tests); ignores `dataDir`. */
   memory?: boolean;
+  /**
+   * Only read (status, table, serve): an embedded `dataDir` must already hold
+   * a store (else InputError naming it) and is read through its owner's socket
+   * when another process owns it (see ./owner.ts).
+   */
+  readOnly?: boolean;
+  /** The command named in the embedded store's lock file (default: this process's heatledger command). */
+  command?: string;
 }
 
 /** Default embedded data directory, relative to the working directory. */
@@ -65,17 +73,38 @@ export async function openStore(options: OpenStoreOptions = {}): Promise<Store> 
   if (options.databaseUrl) {
     const { openPgStore } = await import('./pg.js');
     store = await openPgStore(options.databaseUrl);
-  } else {
+  } else if (options.memory) {
     const { openPgliteStore } = await import('./pglite.js');
-    store = await openPgliteStore({ dataDir: options.dataDir ?? DEFAULT_DATA_DIR, memory: options.memory ?? false });
+    store = await openPgliteStore({ dataDir: '', memory: true });
+  } else {
+    // one owner per data directory: the lock, the read socket and the migrations happen in ./owner.ts
+    const { openOwnedStore, openSharedReadStore, currentCommand } = await import('./owner.js');
+    const dataDir = options.dataDir ?? DEFAULT_DATA_DIR;
+    const command = options.command ?? currentCommand();
+    return options.readOnly ? openSharedReadStore(dataDir, command, prepareStore) : openOwnedStore(dataDir, command, prepareStore);
   }
+  try {
+    await prepareStore(store);
+  } catch (e) {
+    await store.close().catch(() => undefined);
+    throw e;
+  }
+  return store;
+}
+
+/**
+ * Bring a freshly opened store up to date: migrations, then runs left
+ * 'running' by a process of this host that no longer exists are marked
+ * 'abandoned' (a run of another host cannot be checked from here and is left alone).
+ */
+export async function prepareStore(store: Store): Promise<void> {
   try {
     await migrate(store);
   } catch (e) {
-    await store.close().catch(() => undefined);
     throw e instanceof ServiceError ? e : new ServiceError(`cannot migrate the ${store.kind} database: ${(e as Error).message}`, { cause: e });
   }
-  return store;
+  const { markAbandonedRuns } = await import('./abandoned.js');
+  await markAbandonedRuns(store);
 }
 
 /** First line of a statement, for error messages. */

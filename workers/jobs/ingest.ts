@@ -28,6 +28,8 @@ export interface IngestResult {
   acquiredAt: string | null;
   /** True when the same content was already stored and processed. */
   alreadyStored: boolean;
+  /** Problems found while reading the scene (also stored with it). */
+  warnings: string[];
 }
 
 export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): Promise<IngestResult> {
@@ -67,6 +69,7 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
         offset: h.offset,
         nodata: Number.isNaN(h.nodata) ? null : h.nodata,
         runId: data.runId,
+        warnings: h.warnings,
       });
       result = {
         sceneId,
@@ -74,6 +77,7 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
         pass: timing.pass,
         acquiredAt: acquiredAt ?? null,
         alreadyStored: previousStatus === 'processed',
+        warnings: h.warnings,
       };
     } finally {
       await raster.close();

@@ -217,6 +217,8 @@ export interface SceneInput {
   offset: number;
   nodata: number | null;
   runId?: number | null;
+  /** Problems found while reading the scene that did not stop its use (stored in scenes.warnings, migration 004). */
+  warnings?: string[];
 }
 
 export interface SceneRow {
@@ -301,16 +303,16 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
      stale AS (DELETE FROM scenes WHERE content_hash IS NULL AND path = $2)
      INSERT INTO scenes (content_hash, path, kind, sensor, product_notes, acquired_at, pass, sun_elevation_deg,
                          solar_time_hours, timing_rating, epsg, crs_definition, width, height, pixel_size_m,
-                         scale, add_offset, nodata, status, run_id)
+                         scale, add_offset, nodata, status, run_id, warnings)
      VALUES ($1, $2, $3, $4, $5, $6::timestamptz, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18,
-             'registered', $19)
+             'registered', $19, $20::jsonb)
      ON CONFLICT (content_hash) DO UPDATE SET
        path = EXCLUDED.path, kind = EXCLUDED.kind, sensor = EXCLUDED.sensor, product_notes = EXCLUDED.product_notes,
        acquired_at = EXCLUDED.acquired_at, pass = EXCLUDED.pass, sun_elevation_deg = EXCLUDED.sun_elevation_deg,
        solar_time_hours = EXCLUDED.solar_time_hours, timing_rating = EXCLUDED.timing_rating, epsg = EXCLUDED.epsg,
        crs_definition = EXCLUDED.crs_definition, width = EXCLUDED.width, height = EXCLUDED.height,
        pixel_size_m = EXCLUDED.pixel_size_m, scale = EXCLUDED.scale, add_offset = EXCLUDED.add_offset,
-       nodata = EXCLUDED.nodata, run_id = coalesce(EXCLUDED.run_id, scenes.run_id),
+       nodata = EXCLUDED.nodata, run_id = coalesce(EXCLUDED.run_id, scenes.run_id), warnings = EXCLUDED.warnings,
        status = CASE WHEN scenes.status = 'failed' THEN 'registered' ELSE scenes.status END,
        error = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error END
      RETURNING id, (SELECT status FROM prev) AS "previousStatus"`,
@@ -334,6 +336,7 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
       num(scene.offset, 'offset'),
       num(scene.nodata, 'nodata'),
       scene.runId ?? null,
+      JSON.stringify(scene.warnings ?? []),
     ],
   );
   return { id: rows[0].id, previousStatus: rows[0].previousStatus ?? null };

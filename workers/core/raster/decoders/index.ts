@@ -31,9 +31,15 @@ const registry = new Map<number, Entry>([
   [32946, { name: 'DEFLATE', decode: deflateDecode }],
   [32773, { name: 'PackBits', decode: onDemand(() => import('./packbits.js').then((m) => m.packbitsDecode)) }],
   [50000, { name: 'ZSTD', decode: onDemand(() => import('./zstd.js').then((m) => m.zstdDecode)) }],
+  [34887, { name: 'LERC', decode: onDemand(() => import('./lerc.js').then((m) => m.lercDecode)) }],
 ]);
 
-/** Well-known names of codes we do not decode, for a clear error message. */
+/**
+ * Well-known names of codes we do not decode, for a clear error message.
+ * JPEG and WebP are lossy image codecs that change the values of a
+ * temperature band beyond any stated bound, and WebP decoding in the geotiff
+ * package needs a browser's image decoder; both are refused.
+ */
 const KNOWN_NAMES: Record<number, string> = {
   2: 'CCITT RLE', 3: 'CCITT Group 3', 4: 'CCITT Group 4', 6: 'old-style JPEG', 7: 'JPEG',
   34712: 'JPEG 2000', 34887: 'LERC', 34925: 'LZMA', 50001: 'WebP', 50002: 'JPEG XL',

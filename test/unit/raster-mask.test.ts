@@ -77,7 +77,7 @@ function differences(actual: readonly Record<string, unknown>[], c: Case): strin
 describe('fixtures', () => {
   it('hold every case make_mask_fixtures.py writes', () => {
     expect(cases.map((c) => c.case)).toEqual([
-      'alpha', 'alpha_assoc', 'aux', 'aux_override', 'cog_mask', 'corrupt_meta', 'internal_mask', 'internal_mask_fraction',
+      'alpha', 'alpha_assoc', 'aux', 'aux_override', 'cog_mask', 'corrupt_meta', 'ext_mask', 'internal_mask', 'internal_mask_fraction',
       'lerc_deflate_f32', 'lerc_u16', 'lerc_zstd_f32', 'mask8', 'mask_nodata', 'mask_nodata_fraction',
     ]);
   });
@@ -124,14 +124,15 @@ describe('header values as GDAL reads them (reference: rasterio ds.scales, ds.of
 
 describe('the mask itself (reference: rasterio dataset_mask)', () => {
   /** GDAL's mask kind (rasterio mask_flag_enums of band 1) as header.mask names it. */
-  const kindOf = (flags: string[]) => (flags.includes('alpha') ? 'alpha' : flags.includes('per_dataset') ? 'internal' : null);
+  // (per_dataset is the flag of both internal and .msk masks: which one is where the mask lives, named in the case)
+  const kindOf = (c: Case) => (c.maskFlags.includes('alpha') ? 'alpha' : c.maskFlags.includes('per_dataset') ? (c.case === 'ext_mask' ? 'external' : 'internal') : null);
   for (const c of cases.filter((x) => x.coverage === 'centre')) {
     it(`${c.case}: mask kind as rasterio's mask_flag_enums (${c.maskFlags.join(', ')}); masked cells as dataset_mask() zeros`, async () => {
       const r = await openRaster(fx(c.raster));
       try {
-        expect(r.header.mask).toBe(kindOf(c.maskFlags));
+        expect(r.header.mask).toBe(kindOf(c));
         const m = await r.validMask({ colOff: 0, rowOff: 0, width: r.header.width, height: r.header.height });
-        if (kindOf(c.maskFlags) === null) {
+        if (kindOf(c) === null) {
           // no mask: dataset_mask() is the nodata test alone, which the zonal statistics check covers
           expect(m).toBeNull();
         } else {

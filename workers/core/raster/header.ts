@@ -11,7 +11,7 @@ import { acquisitionTime } from './acqtime.js';
 import { compressionName, decoderFor } from './decoders/index.js';
 import { parseGdalMetadata, parseNodata } from './gdalmeta.js';
 import { crsDefinitionOf, epsgOf, geotransform, isPixelIsPoint, parseGeoKeys, type GeoKeyValue } from './geokeys.js';
-import { alphaBandOf, findInternalMask, type MaskLayout } from './mask.js';
+import { alphaBandOf, findExternalMask, findInternalMask, type MaskLayout } from './mask.js';
 import { readSidecar } from './sidecar.js';
 import { readAscii, readFirstDirectory, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
 
@@ -60,10 +60,11 @@ export interface RasterHeader {
   /**
    * Which pixels a mask marks invalid besides nodata: 'internal' = a
    * transparency-mask image directory of the full-resolution image (GDAL
-   * internal mask, COG mask); 'alpha' = an alpha band (`alphaBand`); both may
-   * be present; null = none. RasterFile.validMask reads it.
+   * internal mask, COG mask); 'external' = a `.msk` mask file beside the raster;
+   * 'alpha' = an alpha band (`alphaBand`); a mask and alpha may both be
+   * present; null = none. RasterFile.validMask reads it.
    */
-  mask: 'internal' | 'alpha' | 'internal+alpha' | null;
+  mask: 'internal' | 'external' | 'alpha' | 'internal+alpha' | 'external+alpha' | null;
   /** 0-based band holding alpha (ExtraSamples 1 or 2), or null. */
   alphaBand: number | null;
   /** Problems found while reading that did not stop the raster from being used, each naming the file. */
@@ -92,8 +93,10 @@ export interface BlockLayout {
 export interface ParsedRaster {
   readonly header: RasterHeader;
   readonly layout: BlockLayout;
-  /** Block layout of the internal transparency mask, or null. */
+  /** Block layout of the internal transparency mask or of the external mask file, or null. */
   readonly maskLayout: MaskLayout | null;
+  /** The external mask file (`.msk`) when the mask is there: open (the reader closes it). */
+  readonly maskFile: { fh: FileHandle; path: string } | null;
 }
 
 /** Tile or strip geometry of one image directory and where its blocks are. */
@@ -267,10 +270,17 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   // Masks: an internal transparency mask of the full-resolution image, an alpha band.
   const extra = await readNumbers(fh, dir, path, TAG.ExtraSamples, 'ExtraSamples', spp);
   const alphaBand = alphaBandOf(extra, spp, path);
-  const maskLayout = await findInternalMask(fh, dir, path, { width, height, bands: spp });
-  const mask: RasterHeader['mask'] = maskLayout && alphaBand !== null ? 'internal+alpha' : maskLayout ? 'internal' : alphaBand !== null ? 'alpha' : null;
+  const internal = await findInternalMask(fh, dir, path, { width, height, bands: spp });
 
   const epsg = epsgOf(keys);
+  const crsDefinition = epsg !== null ? await projectDefinition(epsg, path) : crsDefinitionOf(keys, path);
+  const acquiredAt = acquisitionTime(metadata, tiffDateTime, path);
+  // Last, as it opens a file the reader must close: GDAL looks for scene.tif.msk
+  // only when the file has no mask of its own.
+  const external = internal === null ? await findExternalMask(path, { width, height, bands: spp }) : null;
+  const maskLayout = internal ?? external?.layout ?? null;
+  const maskSource = internal ? 'internal' : external ? 'external' : null;
+  const mask = (maskSource && alphaBand !== null ? `${maskSource}+alpha` : maskSource ?? (alphaBand !== null ? 'alpha' : null)) as RasterHeader['mask'];
   const header: RasterHeader = {
     path,
     width,
@@ -280,11 +290,11 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     bitsPerSample: bits,
     transform,
     epsg,
-    crsDefinition: epsg !== null ? await projectDefinition(epsg, path) : crsDefinitionOf(keys, path),
+    crsDefinition,
     nodata: side?.nodata ?? tiffNodata,
     scale: meta.scale ?? side?.scale ?? 1,
     offset: meta.offset ?? side?.offset ?? 0,
-    acquiredAt: acquisitionTime(metadata, tiffDateTime, path),
+    acquiredAt,
     metadata,
     blockWidth,
     blockHeight,
@@ -307,7 +317,7 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     byteCounts,
     fileSize: dir.fileSize,
   };
-  return { header, layout, maskLayout };
+  return { header, layout, maskLayout, maskFile: external ? { fh: external.fh, path: external.path } : null };
 }
 
 /**

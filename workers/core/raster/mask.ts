@@ -10,6 +10,8 @@
  *   GDAL_TIFF_INTERNAL_MASK and the COG driver writes one per level; only the
  *   full-resolution one is used (overviews and their masks are skipped).
  *   One sample = one mask for every band; as many samples as bands = one per band.
+ * - External mask: `scene.tif.msk` beside the raster (RFC 15), used when the
+ *   file has no internal mask, as GDAL does; its first image is the mask.
  * - Alpha band: ExtraSamples 1 (associated alpha) or 2 (unassociated alpha)
  *   (TIFF 6.0 section 18). GDAL uses an 8-bit alpha as the mask and rescales
  *   a 16-bit one to 8 bits keeping every non-zero value non-zero, so in both
@@ -17,13 +19,13 @@
  *   read_masks). Alpha of other sample types gets the same rule here (GDAL
  *   would ignore it and count every pixel valid).
  */
-import type { FileHandle } from 'node:fs/promises';
+import { open, type FileHandle } from 'node:fs/promises';
 import { InputError } from '../errors.js';
 import { intersectWindows, type Window } from './affine.js';
 import { CorruptBlockError, compressionName, decoderFor } from './decoders/index.js';
 import { undoHorizontal } from './decoders/predictor.js';
 import { readBlockGeometry, TAG, type BlockGeometry } from './header.js';
-import { followingDirectories, readExactlySync, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
+import { followingDirectories, readExactlySync, readFirstDirectory, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
 
 /** NewSubfileType bits (TIFF 6.0 section 8). */
 const REDUCED_RESOLUTION = 1, TRANSPARENCY_MASK = 4;
@@ -74,35 +76,75 @@ export async function findInternalMask(
     const width = await readScalar(fh, dir, path, TAG.ImageWidth, 'ImageWidth');
     const height = await readScalar(fh, dir, path, TAG.ImageLength, 'ImageLength');
     if (width !== image.width || height !== image.height) continue; // a mask of some other image
-    const what = 'internal mask: ';
-    const samples = (await readScalar(fh, dir, path, TAG.SamplesPerPixel, 'SamplesPerPixel')) ?? 1;
-    if (samples !== 1 && samples !== image.bands) {
-      throw new InputError(`${what}${samples} samples per pixel, but a mask has 1 or one per band (${image.bands})`, path);
-    }
-    const bitsList = (await readNumbers(fh, dir, path, TAG.BitsPerSample, 'BitsPerSample', samples)) ?? [1];
-    const bits = bitsList[0];
-    if ((bits !== 1 && bits !== 8) || bitsList.some((b) => b !== bits)) {
-      throw new InputError(`${what}${bitsList.join('/')} bits per sample are not supported (masks have 1 or 8)`, path);
-    }
-    const format = (await readScalar(fh, dir, path, TAG.SampleFormat, 'SampleFormat')) ?? 1;
-    if (format !== 1) throw new InputError(`${what}sample format ${format} is not unsigned integer`, path);
-    const compression = (await readScalar(fh, dir, path, TAG.Compression, 'Compression')) ?? 1;
-    if (!decoderFor(compression)) throw new InputError(`${what}compression ${compressionName(compression)} is not supported`, path);
-    const predictor = (await readScalar(fh, dir, path, TAG.Predictor, 'Predictor')) ?? 1;
-    if (predictor !== 1 && !(predictor === 2 && bits === 8)) {
-      throw new InputError(`${what}predictor ${predictor} with ${bits}-bit samples is not supported`, path);
-    }
-    const fill = (await readScalar(fh, dir, path, FILL_ORDER, 'FillOrder')) ?? 1;
-    if (fill !== 1 && fill !== 2) throw new InputError(`${what}FillOrder ${fill} is invalid`, path);
-    const planarCode = (await readScalar(fh, dir, path, TAG.PlanarConfiguration, 'PlanarConfiguration')) ?? 1;
-    if (planarCode !== 1 && planarCode !== 2) throw new InputError(`${what}PlanarConfiguration ${planarCode} is invalid`, path);
-    const planar: 1 | 2 = samples === 1 ? 1 : planarCode;
-    const geometry = await readBlockGeometry(fh, dir, path, {
-      width, height, bitsPerBlockPixel: (planar === 1 ? samples : 1) * bits, planes: planar === 2 ? samples : 1,
-    }, what);
-    return { littleEndian: dir.littleEndian, compression, predictor, bits, samples, planar, lsbFirst: fill === 2, geometry };
+    return maskLayoutOf(fh, dir, path, image, 'internal mask: ');
   }
   return null;
+}
+
+/**
+ * The external mask GDAL keeps beside a raster when it cannot write one into
+ * the file (`scene.tif.msk`, a TIFF whose first image is the mask, one band
+ * per dataset or one per band), or null when there is none.
+ * @returns the open mask file (the caller closes it) and its layout
+ * @throws InputError naming the mask file when it cannot be applied
+ */
+export async function findExternalMask(
+  rasterPath: string, image: { width: number; height: number; bands: number },
+): Promise<{ fh: FileHandle; path: string; layout: MaskLayout } | null> {
+  const path = `${rasterPath}.msk`;
+  let fh: FileHandle;
+  try {
+    fh = await open(path, 'r');
+  } catch (e) {
+    const code = (e as NodeJS.ErrnoException).code;
+    if (code === 'ENOENT' || code === 'ENOTDIR') return null;
+    throw new InputError(`cannot open the mask file (${code ?? (e as Error).message})`, path);
+  }
+  try {
+    const dir = await readFirstDirectory(fh, path);
+    const width = await readScalar(fh, dir, path, TAG.ImageWidth, 'ImageWidth');
+    const height = await readScalar(fh, dir, path, TAG.ImageLength, 'ImageLength');
+    if (width !== image.width || height !== image.height) {
+      throw new InputError(`mask is ${width} x ${height} pixels but ${rasterPath} is ${image.width} x ${image.height}`, path);
+    }
+    return { fh, path, layout: await maskLayoutOf(fh, dir, path, image, 'mask file: ') };
+  } catch (e) {
+    await fh.close();
+    throw e;
+  }
+}
+
+/** Check a mask image directory and read its block layout. */
+async function maskLayoutOf(
+  fh: FileHandle, dir: TiffDirectory, path: string, image: { width: number; height: number; bands: number }, what: string,
+): Promise<MaskLayout> {
+  const { width, height } = image;
+  const samples = (await readScalar(fh, dir, path, TAG.SamplesPerPixel, 'SamplesPerPixel')) ?? 1;
+  if (samples !== 1 && samples !== image.bands) {
+    throw new InputError(`${what}${samples} samples per pixel, but a mask has 1 or one per band (${image.bands})`, path);
+  }
+  const bitsList = (await readNumbers(fh, dir, path, TAG.BitsPerSample, 'BitsPerSample', samples)) ?? [1];
+  const bits = bitsList[0];
+  if ((bits !== 1 && bits !== 8) || bitsList.some((b) => b !== bits)) {
+    throw new InputError(`${what}${bitsList.join('/')} bits per sample are not supported (masks have 1 or 8)`, path);
+  }
+  const format = (await readScalar(fh, dir, path, TAG.SampleFormat, 'SampleFormat')) ?? 1;
+  if (format !== 1) throw new InputError(`${what}sample format ${format} is not unsigned integer`, path);
+  const compression = (await readScalar(fh, dir, path, TAG.Compression, 'Compression')) ?? 1;
+  if (!decoderFor(compression)) throw new InputError(`${what}compression ${compressionName(compression)} is not supported`, path);
+  const predictor = (await readScalar(fh, dir, path, TAG.Predictor, 'Predictor')) ?? 1;
+  if (predictor !== 1 && !(predictor === 2 && bits === 8)) {
+    throw new InputError(`${what}predictor ${predictor} with ${bits}-bit samples is not supported`, path);
+  }
+  const fill = (await readScalar(fh, dir, path, FILL_ORDER, 'FillOrder')) ?? 1;
+  if (fill !== 1 && fill !== 2) throw new InputError(`${what}FillOrder ${fill} is invalid`, path);
+  const planarCode = (await readScalar(fh, dir, path, TAG.PlanarConfiguration, 'PlanarConfiguration')) ?? 1;
+  if (planarCode !== 1 && planarCode !== 2) throw new InputError(`${what}PlanarConfiguration ${planarCode} is invalid`, path);
+  const planar: 1 | 2 = samples === 1 ? 1 : planarCode;
+  const geometry = await readBlockGeometry(fh, dir, path, {
+    width, height, bitsPerBlockPixel: (planar === 1 ? samples : 1) * bits, planes: planar === 2 ? samples : 1,
+  }, what);
+  return { littleEndian: dir.littleEndian, compression, predictor, bits, samples, planar, lsbFirst: fill === 2, geometry };
 }
 
 /** Reverse the bit order of every byte (FillOrder 2). */

@@ -86,16 +86,21 @@ class GeoTiffFile implements RasterFile {
   private fh: FileHandle | null;
   private readonly ctor: ArrayCtor & AllocCtor;
   private readonly mask: InternalMaskReader | null;
+  private maskFh: FileHandle | null;
 
-  constructor(fh: FileHandle, header: RasterHeader, layout: BlockLayout, maskLayout: MaskLayout | null) {
+  constructor(fh: FileHandle, header: RasterHeader, layout: BlockLayout, maskLayout: MaskLayout | null, maskFile: { fh: FileHandle; path: string } | null) {
     this.fh = fh;
     this.header = header;
     this.layout = layout;
     this.ctor = arrayType(header);
+    this.maskFh = maskFile?.fh ?? null;
+    // The mask's bytes are in the raster file itself, or in the .msk file beside it.
+    const maskPath = maskFile?.path ?? header.path;
     this.mask = maskLayout === null ? null : new InternalMaskReader(() => {
-      if (!this.fh) throw new InputError('raster file is already closed', header.path);
-      return this.fh.fd;
-    }, header.path, maskLayout, header.width, header.height);
+      const f = maskFile ? this.maskFh : this.fh;
+      if (!f) throw new InputError('raster file is already closed', maskPath);
+      return f.fd;
+    }, maskPath, maskLayout, header.width, header.height);
   }
 
   async validMask(window: Window, band = 0): Promise<Uint8Array | null> {
@@ -257,9 +262,11 @@ class GeoTiffFile implements RasterFile {
   }
 
   async close(): Promise<void> {
-    const fh = this.fh;
+    const fh = this.fh, maskFh = this.maskFh;
     this.fh = null;
+    this.maskFh = null;
     if (fh) await fh.close();
+    if (maskFh) await maskFh.close();
   }
 }
 
@@ -282,8 +289,8 @@ export async function openRaster(path: string): Promise<RasterFile> {
     throw new InputError(code === 'ENOENT' ? 'file does not exist' : `cannot open file (${code ?? (e as Error).message})`, path);
   }
   try {
-    const { header, layout, maskLayout } = await readRasterHeader(fh, path);
-    return new GeoTiffFile(fh, header, layout, maskLayout);
+    const { header, layout, maskLayout, maskFile } = await readRasterHeader(fh, path);
+    return new GeoTiffFile(fh, header, layout, maskLayout, maskFile);
   } catch (e) {
     await fh.close();
     if (e instanceof InputError) throw e;

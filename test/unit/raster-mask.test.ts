@@ -19,12 +19,15 @@ import { openRaster } from '../../workers/core/raster/index.js';
 import { parseXml, XmlSyntaxError } from '../../workers/core/raster/xml.js';
 import { parseSidecar } from '../../workers/core/raster/sidecar.js';
 import { parseGdalMetadata } from '../../workers/core/raster/gdalmeta.js';
+import { unsupportedCompression } from '../../workers/core/raster/decoders/index.js';
 import { zonalTable } from '../../workers/jobs/zonal-table.js';
 import { ingest } from '../../workers/jobs/ingest.js';
 import { hashFile } from '../../workers/jobs/archive.js';
 import { createPipelineRepo, type PipelineRepo } from '../../workers/jobs/repo.js';
 import { openStore } from '../../workers/store/store.js';
 import type { JobContext } from '../../workers/queue/types.js';
+import { isInputError } from '../../workers/core/errors.js';
+import { mulberry32 } from '../../workers/core/prng.js';
 
 const HERE = dirname(fileURLToPath(import.meta.url));
 const ROOT = resolve(HERE, '../..');
@@ -209,6 +212,30 @@ describe('corrupt GDAL_METADATA and sidecars: read, with a warning naming the fi
     expect((err as Error).name).toBe('InputError');
     expect((err as Error).message).toContain(`${path}.aux.xml`);
   });
+  it('a broken link after the first image directory is reported; the image is still read', async () => {
+    // TIFF 6.0 section 2: the 4-byte offset of the next IFD follows the 12-byte entries of a classic IFD
+    const path = join(tmp, 'broken_chain.tif');
+    const bytes = Buffer.from(readFileSync(fx('internal_mask_u16.tif')));
+    expect(bytes.toString('latin1', 0, 4)).toBe('II*\0');
+    const ifd = bytes.readUInt32LE(4);
+    const n = bytes.readUInt16LE(ifd);
+    bytes.writeUInt32LE(bytes.length + 4096, ifd + 2 + 12 * n);
+    writeFileSync(path, bytes);
+    const r = await openRaster(path);
+    try {
+      expect(r.header.mask).toBeNull();
+      expect(r.header.warnings).toHaveLength(1);
+      expect(r.header.warnings[0]).toMatch(/could not be read.*mask/);
+      expect(r.header.warnings[0]).toContain(path);
+    } finally {
+      await r.close();
+    }
+  });
+  it('JPEG and WebP are refused with the reason and the way out', () => {
+    // JPEG baseline is a lossy DCT codec (ITU-T T.81, 1992)
+    expect(unsupportedCompression(7)).toMatch(/^compression JPEG \(7\) is not supported: .*lossy.*re-encode/);
+    expect(unsupportedCompression(50001)).toMatch(/^compression WebP \(50001\) is not supported: .*browser.*re-encode/);
+  });
   it('ingest stores the warning with the scene (scenes.warnings, migration 004)', async () => {
     const store = await openStore({ memory: true });
     try {
@@ -236,6 +263,51 @@ describe('corrupt GDAL_METADATA and sidecars: read, with a warning naming the fi
     // reference: rasterio + NumPy (expected_corrupt_meta.json)
     expect(differences(JSON.parse(r.stdout) as Record<string, unknown>[], byName('corrupt_meta'))).toEqual([]);
   });
+});
+
+describe('malformed masks: InputError or a reading, never another exception (the reader contract, DEVELOPERS.md)', () => {
+  const tmp = mkdtempSync(join(tmpdir(), 'mask-fuzz-'));
+  afterAll(() => rmSync(tmp, { recursive: true, force: true }));
+  // seeded: the same mutations on every run
+  const rand = mulberry32(20240715);
+  const bases: Array<{ file: string; mutate: 'tif' | 'msk' }> = [
+    { file: 'cog_mask_u16.tif', mutate: 'tif' }, { file: 'internal_mask_u16.tif', mutate: 'tif' },
+    { file: 'mask8_u16.tif', mutate: 'tif' }, { file: 'ext_mask_u16.tif', mutate: 'msk' },
+  ];
+  for (const base of bases) {
+    it(`${base.file}: 80 mutated copies (${base.mutate === 'msk' ? 'the .msk file' : 'the TIFF'})`, async () => {
+      const src = readFileSync(fx(base.mutate === 'msk' ? `${base.file}.msk` : base.file));
+      const outcomes = { ok: 0, inputError: 0 };
+      for (let k = 0; k < 80; k++) {
+        const path = join(tmp, `${k}-${base.file}`);
+        let bytes = Buffer.from(src);
+        if (k % 4 === 0) bytes = bytes.subarray(0, Math.floor(rand() * bytes.length));
+        else for (let j = 0; j < 1 + Math.floor(rand() * 6); j++) bytes[Math.floor(rand() * bytes.length)] ^= 1 << Math.floor(rand() * 8);
+        if (base.mutate === 'msk') {
+          copyFileSync(fx(base.file), path);
+          writeFileSync(`${path}.msk`, bytes);
+        } else {
+          writeFileSync(path, bytes);
+        }
+        try {
+          const r = await openRaster(path);
+          try {
+            const w = { colOff: 0, rowOff: 0, width: r.header.width, height: r.header.height };
+            await r.validMask(w);
+            await r.readWindow(w);
+          } finally {
+            await r.close();
+          }
+          outcomes.ok++;
+        } catch (e) {
+          if (!isInputError(e)) throw e;
+          outcomes.inputError++;
+        }
+      }
+      expect(outcomes.ok + outcomes.inputError).toBe(80);
+      expect(outcomes.inputError).toBeGreaterThan(0);
+    }, 120_000);
+  }
 });
 
 describe('XML well-formedness (XML 1.0, W3C 2008, section 2.1 and 3)', () => {

@@ -8,7 +8,7 @@ import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
 import { acquisitionTime } from './acqtime.js';
-import { compressionName, decoderFor } from './decoders/index.js';
+import { decoderFor, unsupportedCompression } from './decoders/index.js';
 import { parseGdalMetadata, parseNodata } from './gdalmeta.js';
 import { crsDefinitionOf, epsgOf, geotransform, isPixelIsPoint, parseGeoKeys, type GeoKeyValue } from './geokeys.js';
 import { alphaBandOf, findExternalMask, findInternalMask, type MaskLayout } from './mask.js';
@@ -218,7 +218,7 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   const bytesPerSample = bits / 8;
 
   const compression = (await scalar(TAG.Compression, 'Compression')) ?? 1;
-  if (!decoderFor(compression)) throw new InputError(`compression ${compressionName(compression)} is not supported`, path);
+  if (!decoderFor(compression)) throw new InputError(unsupportedCompression(compression), path);
   const predictor = (await scalar(TAG.Predictor, 'Predictor')) ?? 1;
   if (predictor !== 1 && predictor !== 2 && predictor !== 3) throw new InputError(`predictor ${predictor} is not supported`, path);
   if (predictor === 3 && sampleFormat !== 'float') throw new InputError('predictor 3 (floating point) on integer samples is invalid', path);
@@ -270,7 +270,7 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   // Masks: an internal transparency mask of the full-resolution image, an alpha band.
   const extra = await readNumbers(fh, dir, path, TAG.ExtraSamples, 'ExtraSamples', spp);
   const alphaBand = alphaBandOf(extra, spp, path);
-  const internal = await findInternalMask(fh, dir, path, { width, height, bands: spp });
+  const internal = await findInternalMask(fh, dir, path, { width, height, bands: spp }, warnings);
 
   const epsg = epsgOf(keys);
   const crsDefinition = epsg !== null ? await projectDefinition(epsg, path) : crsDefinitionOf(keys, path);

@@ -22,7 +22,7 @@
 import { open, type FileHandle } from 'node:fs/promises';
 import { InputError } from '../errors.js';
 import { intersectWindows, type Window } from './affine.js';
-import { CorruptBlockError, compressionName, decoderFor } from './decoders/index.js';
+import { CorruptBlockError, decoderFor, unsupportedCompression } from './decoders/index.js';
 import { undoHorizontal } from './decoders/predictor.js';
 import { readBlockGeometry, TAG, type BlockGeometry } from './header.js';
 import { followingDirectories, readExactlySync, readFirstDirectory, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
@@ -66,9 +66,23 @@ export function alphaBandOf(extra: number[] | null, bands: number, path: string)
  */
 export async function findInternalMask(
   fh: FileHandle, first: TiffDirectory, path: string, image: { width: number; height: number; bands: number },
+  warnings: string[],
 ): Promise<MaskLayout | null> {
   if (first.nextOffset === 0) return null;
-  for await (const dir of followingDirectories(fh, path, first)) {
+  const chain = followingDirectories(fh, path, first)[Symbol.asyncIterator]();
+  for (;;) {
+    let step: IteratorResult<TiffDirectory>;
+    try {
+      step = await chain.next();
+    } catch (e) {
+      // The image itself is readable; a broken link after it (some writers leave a
+      // stray next-directory offset) costs only what may lie beyond: say so.
+      if (!(e instanceof InputError)) throw e;
+      warnings.push(`${path}: the image directories after the first could not be read (${e.message.replace(`${path}: `, '')}); a mask stored there, if any, was not applied`);
+      return null;
+    }
+    if (step.done) return null;
+    const dir = step.value;
     const type = (await readScalar(fh, dir, path, TAG.NewSubfileType, 'NewSubfileType')) ?? 0;
     if ((type & TRANSPARENCY_MASK) === 0 || (type & REDUCED_RESOLUTION) !== 0) continue;
     const photometric = await readScalar(fh, dir, path, TAG.PhotometricInterpretation, 'PhotometricInterpretation');
@@ -78,7 +92,6 @@ export async function findInternalMask(
     if (width !== image.width || height !== image.height) continue; // a mask of some other image
     return maskLayoutOf(fh, dir, path, image, 'internal mask: ');
   }
-  return null;
 }
 
 /**
@@ -131,7 +144,7 @@ async function maskLayoutOf(
   const format = (await readScalar(fh, dir, path, TAG.SampleFormat, 'SampleFormat')) ?? 1;
   if (format !== 1) throw new InputError(`${what}sample format ${format} is not unsigned integer`, path);
   const compression = (await readScalar(fh, dir, path, TAG.Compression, 'Compression')) ?? 1;
-  if (!decoderFor(compression)) throw new InputError(`${what}compression ${compressionName(compression)} is not supported`, path);
+  if (!decoderFor(compression)) throw new InputError(`${what}${unsupportedCompression(compression)}`, path);
   const predictor = (await readScalar(fh, dir, path, TAG.Predictor, 'Predictor')) ?? 1;
   if (predictor !== 1 && !(predictor === 2 && bits === 8)) {
     throw new InputError(`${what}predictor ${predictor} with ${bits}-bit samples is not supported`, path);

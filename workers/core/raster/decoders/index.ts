@@ -58,6 +58,24 @@ export function decoderFor(code: number): BlockDecoder | null {
   return registry.get(code)?.decode ?? null;
 }
 
+/** Why a well-known code is refused, for the error message. */
+const REFUSED_BECAUSE: Record<number, string> = {
+  6: 'JPEG is a lossy 8-bit image codec that alters temperature values beyond any stated bound',
+  7: 'JPEG is a lossy 8-bit image codec that alters temperature values beyond any stated bound',
+  50001: 'WebP decoding needs a web browser\'s image decoder, which a server does not have',
+};
+
+/**
+ * The full "not supported" sentence for a compression code without a decoder,
+ * with the reason and the way out where one is known.
+ * @example unsupportedCompression(7) // 'compression JPEG (7) is not supported: JPEG is a lossy ...; re-encode ...'
+ */
+export function unsupportedCompression(code: number): string {
+  const why = REFUSED_BECAUSE[code];
+  const base = `compression ${compressionName(code)} is not supported`;
+  return why ? `${base}: ${why}; re-encode the scene with DEFLATE, LZW, ZSTD or LERC` : base;
+}
+
 /** Human-readable name of a compression code, e.g. "LZW (5)". */
 export function compressionName(code: number): string {
   const name = registry.get(code)?.name ?? KNOWN_NAMES[code] ?? 'unknown';

@@ -174,7 +174,6 @@ export async function readBlockGeometry(
   return { tiled, blockWidth, blockHeight, blocksAcross, blocksDown, blocksPerBand, offsets, byteCounts };
 }
 
-
 const SAMPLE_FORMATS: Record<number, RasterHeader['sampleFormat']> = { 1: 'uint', 2: 'int', 3: 'float' };
 
 function uniform(values: number[], name: string, path: string): number {

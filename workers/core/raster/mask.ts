@@ -16,8 +16,10 @@
  *   (TIFF 6.0 section 18). GDAL uses an 8-bit alpha as the mask and rescales
  *   a 16-bit one to 8 bits keeping every non-zero value non-zero, so in both
  *   cases alpha 0 is invalid and any other value valid (checked with rasterio's
- *   read_masks). Alpha of other sample types gets the same rule here (GDAL
- *   would ignore it and count every pixel valid).
+ *   read_masks). GDAL uses alpha only as the 2nd of 2 or the 4th of 4 bands
+ *   and only of those two sample types; here alpha of any type, in any band
+ *   count, gets the same rule (where GDAL would ignore it and count every
+ *   pixel valid, which for a temperature band is a silently wrong mean).
  */
 import { open, type FileHandle } from 'node:fs/promises';
 import { InputError } from '../errors.js';
@@ -172,6 +174,10 @@ function reverseBits(x: Uint8Array): void {
 
 /** Reads an internal mask block by block and clears the invalid pixels of a window. */
 export class InternalMaskReader {
+  /** The last block decoded (image blocks and mask blocks need not line up, e.g. strips of other heights). */
+  private lastIndex = -1;
+  private lastBlock: Uint8Array | null = null;
+
   constructor(
     private readonly fd: () => number,
     private readonly path: string,
@@ -202,7 +208,11 @@ export class InternalMaskReader {
         if (part === null) continue;
         const index = plane * g.blocksPerBand + br * g.blocksAcross + bc;
         const storedRows = g.tiled ? bh : place.height;
-        const raw = await this.block(index, rowBytes, storedRows, bh);
+        if (index !== this.lastIndex) {
+          this.lastBlock = await this.block(index, rowBytes, storedRows, bh);
+          this.lastIndex = index;
+        }
+        const raw = this.lastBlock;
         for (let r = part.rowOff; r < part.rowOff + part.height; r++) {
           const rowAt = (r - place.rowOff) * rowBytes;
           const outAt = (r - window.rowOff) * window.width - window.colOff;

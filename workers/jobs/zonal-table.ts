@@ -136,7 +136,7 @@ export async function zonalTable(options: ZonalTableOptions): Promise<ZonalTable
     return {
       rows: results.map((r) => ({ district: r.id, ...r.stats })),
       counts: results.map((r) => ({ district: r.id, ...r.counts })),
-      warnings: [...raster.header.warnings],
+      warnings: [...raster.header.warnings, ...(qa?.header.warnings ?? [])],
     };
   } finally {
     await raster.close();

@@ -1,7 +1,8 @@
 /**
  * Validity masks stored with a GeoTIFF besides nodata, read the way GDAL
- * applies them (GDAL RFC 15, "Band Masks"): a mask value of 0 marks a pixel
- * invalid and any non-zero value valid.
+ * applies them (F. Warmerdam, GDAL RFC 15 "Band Masks", adopted 2007: masks
+ * are 8-bit, zero marks a pixel as nodata and any non-zero value as valid,
+ * 255 being the usual valid value; a 1-bit mask's 1 reads as 255).
  *
  * - Internal mask: an image directory after the full-resolution image with
  *   NewSubfileType bit 2 ("transparency mask", value 4) and without bit 0

@@ -271,7 +271,7 @@ describe('corrupt GDAL_METADATA and sidecars: read, with a warning naming the fi
   });
 });
 
-describe('malformed masks: InputError or a reading, never another exception (the reader contract, DEVELOPERS.md)', () => {
+describe('malformed masks and LERC tiles: InputError or a reading, never another exception (the reader contract, DEVELOPERS.md)', () => {
   const tmp = mkdtempSync(join(tmpdir(), 'mask-fuzz-'));
   afterAll(() => rmSync(tmp, { recursive: true, force: true }));
   // seeded: the same mutations on every run
@@ -279,6 +279,7 @@ describe('malformed masks: InputError or a reading, never another exception (the
   const bases: Array<{ file: string; mutate: 'tif' | 'msk' }> = [
     { file: 'cog_mask_u16.tif', mutate: 'tif' }, { file: 'internal_mask_u16.tif', mutate: 'tif' },
     { file: 'mask8_u16.tif', mutate: 'tif' }, { file: 'ext_mask_u16.tif', mutate: 'msk' },
+    { file: 'lerc_u16.tif', mutate: 'tif' }, { file: 'lerc_deflate_f32.tif', mutate: 'tif' }, { file: 'lerc_zstd_f32.tif', mutate: 'tif' },
   ];
   for (const base of bases) {
     it(`${base.file}: 80 mutated copies (${base.mutate === 'msk' ? 'the .msk file' : 'the TIFF'})`, async () => {

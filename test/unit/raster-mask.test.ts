@@ -254,6 +254,19 @@ describe('corrupt GDAL_METADATA and sidecars: read, with a warning naming the fi
       const rows = await store.query<{ warnings: string[] }>('SELECT warnings FROM scenes WHERE id = $1', [res.sceneId]);
       expect(rows[0].warnings).toEqual(res.warnings);
       expect(rows[0].warnings[0]).toContain(path);
+
+      // Same TIFF bytes read again once its broken sidecar is gone: the stored warning goes too.
+      const copy = join(tmp, 'aux_ingest.tif');
+      copyFileSync(fx('aux_u16.tif'), copy);
+      writeFileSync(`${copy}.aux.xml`, '<PAMDataset><Metadata>');
+      const manifest = { path: copy, kind: 'lst' as const, acquiredAt: '2024-07-15T21:12:03Z' };
+      const first = await ingest({ path: copy, contentHash: await hashFile(copy), runId: run[0].id, manifest }, ctx);
+      const q = 'SELECT warnings FROM scenes WHERE id = $1';
+      expect((await store.query<{ warnings: string[] }>(q, [first.sceneId]))[0].warnings).toHaveLength(1);
+      rmSync(`${copy}.aux.xml`);
+      const again = await ingest({ path: copy, contentHash: await hashFile(copy), runId: run[0].id, manifest }, ctx);
+      expect(again.sceneId).toBe(first.sceneId);
+      expect((await store.query<{ warnings: string[] }>(q, [first.sceneId]))[0].warnings).toEqual([]);
     } finally {
       await store.close();
     }

@@ -69,8 +69,10 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
         offset: h.offset,
         nodata: Number.isNaN(h.nodata) ? null : h.nodata,
         runId: data.runId,
-        warnings: h.warnings,
       });
+      // Stored apart from the registration: only scenes with something to say (or a
+      // re-read scene whose earlier warnings may be gone, e.g. a sidecar fixed) pay a round trip.
+      if (h.warnings.length > 0 || previousStatus !== null) await repo.setSceneWarnings(sceneId, h.warnings);
       result = {
         sceneId,
         kind,

@@ -217,8 +217,6 @@ export interface SceneInput {
   offset: number;
   nodata: number | null;
   runId?: number | null;
-  /** Problems found while reading the scene that did not stop its use (stored in scenes.warnings, migration 004). */
-  warnings?: string[];
 }
 
 export interface SceneRow {
@@ -303,16 +301,16 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
      stale AS (DELETE FROM scenes WHERE content_hash IS NULL AND path = $2)
      INSERT INTO scenes (content_hash, path, kind, sensor, product_notes, acquired_at, pass, sun_elevation_deg,
                          solar_time_hours, timing_rating, epsg, crs_definition, width, height, pixel_size_m,
-                         scale, add_offset, nodata, status, run_id, warnings)
+                         scale, add_offset, nodata, status, run_id)
      VALUES ($1, $2, $3, $4, $5, $6::timestamptz, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18,
-             'registered', $19, $20::jsonb)
+             'registered', $19)
      ON CONFLICT (content_hash) DO UPDATE SET
        path = EXCLUDED.path, kind = EXCLUDED.kind, sensor = EXCLUDED.sensor, product_notes = EXCLUDED.product_notes,
        acquired_at = EXCLUDED.acquired_at, pass = EXCLUDED.pass, sun_elevation_deg = EXCLUDED.sun_elevation_deg,
        solar_time_hours = EXCLUDED.solar_time_hours, timing_rating = EXCLUDED.timing_rating, epsg = EXCLUDED.epsg,
        crs_definition = EXCLUDED.crs_definition, width = EXCLUDED.width, height = EXCLUDED.height,
        pixel_size_m = EXCLUDED.pixel_size_m, scale = EXCLUDED.scale, add_offset = EXCLUDED.add_offset,
-       nodata = EXCLUDED.nodata, run_id = coalesce(EXCLUDED.run_id, scenes.run_id), warnings = EXCLUDED.warnings,
+       nodata = EXCLUDED.nodata, run_id = coalesce(EXCLUDED.run_id, scenes.run_id),
        status = CASE WHEN scenes.status = 'failed' THEN 'registered' ELSE scenes.status END,
        error = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error END
      RETURNING id, (SELECT status FROM prev) AS "previousStatus"`,
@@ -336,10 +334,21 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
       num(scene.offset, 'offset'),
       num(scene.nodata, 'nodata'),
       scene.runId ?? null,
-      JSON.stringify(scene.warnings ?? []),
     ],
   );
   return { id: rows[0].id, previousStatus: rows[0].previousStatus ?? null };
+}
+
+/**
+ * Replace the warnings stored with a scene (scenes.warnings, migration 004):
+ * problems found while reading it that did not stop its use, e.g. a metadata
+ * block that could not be parsed. An empty list clears them.
+ */
+export async function setSceneWarnings(db: Db, sceneId: number, warnings: readonly string[]): Promise<void> {
+  if (!Array.isArray(warnings) || !warnings.every((w) => typeof w === 'string')) {
+    throw new Error('store: scene warnings must be a list of strings');
+  }
+  await db.query('UPDATE scenes SET warnings = $2::jsonb WHERE id = $1', [sceneId, JSON.stringify(warnings)]);
 }
 
 /**

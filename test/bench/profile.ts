@@ -60,6 +60,7 @@ class TimedRaster implements RasterFile {
     }
   }
   readWindow(window: Window, band?: number) { return this.inner.readWindow(window, band); }
+  validMask(window: Window, band?: number) { return this.inner.validMask(window, band); }
   close() { return this.inner.close(); }
 }
 
@@ -199,6 +200,7 @@ function cachedRaster(inner: RasterFile, blocks: RasterBlock[]): RasterFile {
       for (const b of blocks) if (intersectWindows(b.window, window) !== null) yield b;
     },
     readWindow: () => Promise.reject(new Error('not used by the bench')),
+    validMask: (window: Window, band?: number) => inner.validMask(window, band),
     close: () => Promise.resolve(),
   };
 }

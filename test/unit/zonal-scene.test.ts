@@ -18,7 +18,8 @@ class FakeRaster implements RasterFile {
   constructor(private readonly pixels: TypedArray, h: Partial<RasterHeader> & Pick<RasterHeader, 'width' | 'height' | 'sampleFormat' | 'bitsPerSample' | 'transform'>) {
     this.header = {
       path: 'fake.tif', bands: 1, epsg: null, crsDefinition: null, nodata: null, scale: 1, offset: 0,
-      acquiredAt: null, metadata: {}, blockWidth: 8, blockHeight: 8, tiled: true, compression: 1, predictor: 1, ...h,
+      acquiredAt: null, metadata: {}, blockWidth: 8, blockHeight: 8, tiled: true, compression: 1, predictor: 1,
+      mask: null, alphaBand: null, warnings: [], ...h,
     };
   }
   async *blocks(window: Window, band = 0): AsyncIterable<RasterBlock> {
@@ -45,6 +46,16 @@ class FakeRaster implements RasterFile {
     const out = new (this.pixels.constructor as new (n: number) => TypedArray)(window.width * window.height);
     for (let r = 0; r < window.height; r++) {
       for (let c = 0; c < window.width; c++) out[r * window.width + c] = this.pixels[(window.rowOff + r) * this.header.width + window.colOff + c];
+    }
+    return out;
+  }
+  /** Validity flags of the whole image (1 = valid) standing for an internal mask; null = no mask. */
+  maskValid: Uint8Array | null = null;
+  async validMask(window: Window): Promise<Uint8Array | null> {
+    if (this.maskValid === null) return null;
+    const out = new Uint8Array(window.width * window.height);
+    for (let r = 0; r < window.height; r++) {
+      for (let c = 0; c < window.width; c++) out[r * window.width + c] = this.maskValid[(window.rowOff + r) * this.header.width + window.colOff + c];
     }
     return out;
   }
@@ -238,5 +249,31 @@ describe('zonalScene behaviour', () => {
     const [r] = await zonalScene(raster, [{ id: 'x', geometry: rect(0, 0, 2, 2) }], { coverage: 'centre', qa: { raster: qa, maskBits: 4, maskValues: [9] } });
     expect(r.counts).toEqual({ nodata: 1, masked: 2, implausible: 0 });
     expect(r.stats.valid).toBe(1);
+  });
+
+  test('the raster\'s own mask drops cells as nodata, together with nodata and before QA, on every value path and rule', async () => {
+    // cells: nodata | mask 0 | mask 0 + QA flag | QA flag | valid 300 K | valid 310 K
+    // GDAL RFC 15: mask value 0 = invalid; the counting order (nodata and mask, then QA, then plausibility) is zonalScene's contract
+    const dn = [0, 15000, 15000, 15000, 15000, 15500];
+    const valid = Uint8Array.of(1, 0, 0, 1, 1, 1);
+    const flags = Uint16Array.of(0, 0, 4, 4, 0, 0);
+    const kinds = [
+      { pixels: Uint16Array.from(dn), sampleFormat: 'uint' as const, bitsPerSample: 16, nodata: 0, scale: 0.02 },
+      { pixels: Float32Array.from(dn.map((v) => v * 0.02)), sampleFormat: 'float' as const, bitsPerSample: 32, nodata: 0, scale: 1 },
+    ];
+    for (const k of kinds) {
+      for (const coverage of ['centre', 'fraction'] as const) {
+        const raster = new FakeRaster(k.pixels, { width: 6, height: 1, sampleFormat: k.sampleFormat, bitsPerSample: k.bitsPerSample, transform: grid, nodata: k.nodata, scale: k.scale, mask: 'internal' });
+        raster.maskValid = valid;
+        const qa = new FakeRaster(flags, { path: 'qa.tif', width: 6, height: 1, sampleFormat: 'uint', bitsPerSample: 16, transform: grid });
+        const [r] = await zonalScene(raster, [{ id: 'x', geometry: rect(0, 0, 6, 1) }], { coverage, qa: { raster: qa, maskBits: 4 } });
+        expect([k.sampleFormat, coverage, r.counts]).toEqual([k.sampleFormat, coverage, { nodata: 3, masked: 1, implausible: 0 }]);
+        expect(r.stats.valid).toBe(2);
+        expect(r.stats.mean).toBeCloseTo(305, 9); // (300 + 310) / 2, derived
+        const [noQa] = await zonalScene(raster, [{ id: 'x', geometry: rect(0, 0, 6, 1) }], { coverage });
+        expect(noQa.counts).toEqual({ nodata: 3, masked: 0, implausible: 0 });
+        expect(noQa.stats.valid).toBe(3);
+      }
+    }
   });
 });

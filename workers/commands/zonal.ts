@@ -29,7 +29,7 @@ export async function runZonalCommand(raster: string, opts: ZonalCommandOptions)
   if (opts.qa && opts.qaMask === undefined && opts.qaValues === undefined) {
     throw new InputError('--qa needs --qa-mask <bits> or --qa-values <list> to say which QA values mask a pixel');
   }
-  const { rows, counts } = await zonalTable({
+  const { rows, counts, warnings } = await zonalTable({
     rasterPath: raster,
     districtsPath: opts.districts,
     ruralPath: opts.rural,
@@ -41,6 +41,8 @@ export async function runZonalCommand(raster: string, opts: ZonalCommandOptions)
     coverage: opts.coverage,
     plausibleKelvin: parsePlausible(opts.plausible),
   });
+  // Warnings go to stderr in every format, so JSON and CSV on stdout stay clean.
+  for (const w of warnings) process.stderr.write(`warning: ${w}\n`);
   process.stdout.write(
     formatRows(rows as unknown as Row[], opts.format, {
       columns: ZONAL_FIELDS,

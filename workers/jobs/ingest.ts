@@ -28,6 +28,8 @@ export interface IngestResult {
   acquiredAt: string | null;
   /** True when the same content was already stored and processed. */
   alreadyStored: boolean;
+  /** Problems found while reading the scene (also stored with it). */
+  warnings: string[];
 }
 
 export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): Promise<IngestResult> {
@@ -68,12 +70,16 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
         nodata: Number.isNaN(h.nodata) ? null : h.nodata,
         runId: data.runId,
       });
+      // Stored apart from the registration: only scenes with something to say (or a
+      // re-read scene whose earlier warnings may be gone, e.g. a sidecar fixed) pay a round trip.
+      if (h.warnings.length > 0 || previousStatus !== null) await repo.setSceneWarnings(sceneId, h.warnings);
       result = {
         sceneId,
         kind,
         pass: timing.pass,
         acquiredAt: acquiredAt ?? null,
         alreadyStored: previousStatus === 'processed',
+        warnings: h.warnings,
       };
     } finally {
       await raster.close();

@@ -16,6 +16,8 @@ export function createPipelineRepo(store: Store) {
     registerScene: (scene: repo.SceneInput) => repo.registerScene(store, scene),
     /** Register and say what the status was before (null for a new scene), in one round trip. */
     registerSceneReporting: (scene: repo.SceneInput) => repo.registerSceneReporting(store, scene),
+    /** Replace the reading warnings stored with a scene. */
+    setSceneWarnings: (sceneId: number, warnings: string[]) => repo.setSceneWarnings(store, sceneId, warnings),
     markSceneFailed: (f: { contentHash?: string | null; path: string; error: string; runId?: number | null }) => repo.markSceneFailed(store, f),
     listDistricts: () => repo.listDistricts(store),
     listScenes: (filter: { kind?: repo.SceneKind; status?: repo.SceneStatus }) => repo.listScenes(store, filter),

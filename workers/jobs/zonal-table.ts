@@ -35,6 +35,8 @@ export type ZonalRow = { district: string } & ZonalStats;
 export interface ZonalTableResult {
   rows: ZonalRow[];
   counts: Array<{ district: string } & ZonalCounts>;
+  /** Problems found while reading the raster that did not stop its use, each naming the file. */
+  warnings: string[];
 }
 
 /** Field order of a zonal row; CSV and JSON follow it. */
@@ -134,6 +136,7 @@ export async function zonalTable(options: ZonalTableOptions): Promise<ZonalTable
     return {
       rows: results.map((r) => ({ district: r.id, ...r.stats })),
       counts: results.map((r) => ({ district: r.id, ...r.counts })),
+      warnings: [...raster.header.warnings, ...(qa?.header.warnings ?? [])],
     };
   } finally {
     await raster.close();

@@ -345,6 +345,18 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
 }
 
 /**
+ * Replace the warnings stored with a scene (scenes.warnings, migration 004):
+ * problems found while reading it that did not stop its use, e.g. a metadata
+ * block that could not be parsed. An empty list clears them.
+ */
+export async function setSceneWarnings(db: Db, sceneId: number, warnings: readonly string[]): Promise<void> {
+  if (!Array.isArray(warnings) || !warnings.every((w) => typeof w === 'string')) {
+    throw new Error('store: scene warnings must be a list of strings');
+  }
+  await db.query('UPDATE scenes SET warnings = $2::jsonb WHERE id = $1', [sceneId, JSON.stringify(warnings)]);
+}
+
+/**
  * Record that a file failed (unreadable, bad header, failed processing).
  * Keyed by content hash when the bytes could be hashed, else by path; a file
  * without a readable header still gets a row. Returns the scene id.

@@ -4,6 +4,7 @@
  * (GDAL GTiff driver documentation), not part of TIFF or GeoTIFF.
  */
 import { InputError } from '../errors.js';
+import { parseXml, XmlSyntaxError } from './xml.js';
 
 export interface GdalMetadata {
   /** Dataset-level items of the default domain. */
@@ -11,6 +12,8 @@ export interface GdalMetadata {
   /** Band scale and offset of sample 0 (band 1), when given. */
   readonly scale: number | null;
   readonly offset: number | null;
+  /** Why the block was ignored (not well-formed XML, another root element), or null. */
+  readonly warning: string | null;
 }
 
 function unescapeXml(s: string): string {
@@ -40,6 +43,19 @@ function parseNumber(text: string, what: string, path: string): number {
  * @returns dataset items and band-1 scale/offset (null where absent)
  */
 export function parseGdalMetadata(xml: string, path: string): GdalMetadata {
+  // A block that is not a well-formed <GDALMetadata> document is ignored as a
+  // whole, as GDAL ignores it (GTiff driver, metadata loading); the caller
+  // passes the warning on so that the loss is said, not silent.
+  let rootName: string;
+  try {
+    rootName = parseXml(xml).name;
+  } catch (e) {
+    if (!(e instanceof XmlSyntaxError)) throw e;
+    return { dataset: {}, scale: null, offset: null, warning: `GDAL_METADATA tag is not well-formed XML (${e.message}); its items (scale, offset, acquisition time, ...) were ignored` };
+  }
+  if (rootName !== 'GDALMetadata') {
+    return { dataset: {}, scale: null, offset: null, warning: `GDAL_METADATA tag holds a <${rootName}> document, not <GDALMetadata>; its items were ignored` };
+  }
   const dataset: Record<string, string> = {};
   let scale: number | null = null;
   let offset: number | null = null;
@@ -77,7 +93,7 @@ export function parseGdalMetadata(xml: string, path: string): GdalMetadata {
   const plainOffset = bandOffsetItem ?? findItem(dataset, 'add_offset');
   if (scale === null && plainScale !== null) scale = typeof plainScale === 'number' ? plainScale : parseNumber(plainScale, 'scale_factor', path);
   if (offset === null && plainOffset !== null) offset = typeof plainOffset === 'number' ? plainOffset : parseNumber(plainOffset, 'add_offset', path);
-  return { dataset, scale, offset };
+  return { dataset, scale, offset, warning: null };
 }
 
 function findItem(items: Record<string, string>, wanted: string): string | null {

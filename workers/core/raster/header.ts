@@ -8,17 +8,20 @@ import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
 import { acquisitionTime } from './acqtime.js';
-import { compressionName, decoderFor } from './decoders/index.js';
+import { decoderFor, unsupportedCompression } from './decoders/index.js';
 import { parseGdalMetadata, parseNodata } from './gdalmeta.js';
 import { crsDefinitionOf, epsgOf, geotransform, isPixelIsPoint, parseGeoKeys, type GeoKeyValue } from './geokeys.js';
+import { alphaBandOf, findExternalMask, findInternalMask, type MaskLayout } from './mask.js';
+import { readSidecar } from './sidecar.js';
 import { readAscii, readFirstDirectory, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
 
 /** TIFF tag numbers (TIFF 6.0; GeoTIFF 1.1; GDAL private tags). */
 export const TAG = {
   ImageWidth: 256, ImageLength: 257, BitsPerSample: 258, Compression: 259,
   StripOffsets: 273, SamplesPerPixel: 277, RowsPerStrip: 278, StripByteCounts: 279,
+  NewSubfileType: 254, PhotometricInterpretation: 262,
   PlanarConfiguration: 284, DateTime: 306, Predictor: 317,
-  TileWidth: 322, TileLength: 323, TileOffsets: 324, TileByteCounts: 325, SampleFormat: 339,
+  TileWidth: 322, TileLength: 323, TileOffsets: 324, TileByteCounts: 325, ExtraSamples: 338, SampleFormat: 339,
   ModelPixelScale: 33550, ModelTiepoint: 33922, ModelTransformation: 34264,
   GeoKeyDirectory: 34735, GeoDoubleParams: 34736, GeoAsciiParams: 34737,
   GdalMetadata: 42112, GdalNodata: 42113,
@@ -42,15 +45,30 @@ export interface RasterHeader {
   epsg: Epsg | null;
   /** proj4 definition (also for user-defined CRSs); null = no CRS. */
   crsDefinition: string | null;
-  /** GDAL_NODATA tag; NaN for "nan". */
+  /** GDAL_NODATA tag, or the `.aux.xml` sidecar's band-1 <NoDataValue>, which overrides it as in GDAL; NaN for "nan". */
   nodata: number | null;
-  /** Physical value = DN * scale + offset (GDAL metadata); default 1 / 0. */
+  /**
+   * Physical value = DN * scale + offset: GDAL metadata of the TIFF, else the
+   * `.aux.xml` sidecar (GDAL keeps the TIFF's when both have one); default 1 / 0.
+   */
   scale: number;
   offset: number;
   /** UTC "YYYY-MM-DDTHH:MM:SSZ". */
   acquiredAt: string | null;
-  /** GDAL metadata items (dataset level, default domain). */
+  /** GDAL metadata items (dataset level, default domain), sidecar items overriding the TIFF's. */
   metadata: Record<string, string>;
+  /**
+   * Which pixels a mask marks invalid besides nodata: 'internal' = a
+   * transparency-mask image directory of the full-resolution image (GDAL
+   * internal mask, COG mask); 'external' = a `.msk` mask file beside the raster;
+   * 'alpha' = an alpha band (`alphaBand`); a mask and alpha may both be
+   * present; null = none. RasterFile.validMask reads it.
+   */
+  mask: 'internal' | 'external' | 'alpha' | 'internal+alpha' | 'external+alpha' | null;
+  /** 0-based band holding alpha (ExtraSamples 1 or 2), or null. */
+  alphaBand: number | null;
+  /** Problems found while reading that did not stop the raster from being used, each naming the file. */
+  warnings: string[];
   blockWidth: number;
   blockHeight: number;
   tiled: boolean;
@@ -75,6 +93,85 @@ export interface BlockLayout {
 export interface ParsedRaster {
   readonly header: RasterHeader;
   readonly layout: BlockLayout;
+  /** Block layout of the internal transparency mask or of the external mask file, or null. */
+  readonly maskLayout: MaskLayout | null;
+  /** The external mask file (`.msk`) when the mask is there: open (the reader closes it). */
+  readonly maskFile: { fh: FileHandle; path: string } | null;
+}
+
+/** Tile or strip geometry of one image directory and where its blocks are. */
+export interface BlockGeometry {
+  readonly tiled: boolean;
+  readonly blockWidth: number;
+  readonly blockHeight: number;
+  readonly blocksAcross: number;
+  readonly blocksDown: number;
+  readonly blocksPerBand: number;
+  readonly offsets: Float64Array;
+  readonly byteCounts: Float64Array;
+}
+
+/**
+ * Block geometry of an image directory, every size, count, offset and byte
+ * count checked against the file before anything is allocated for pixels.
+ * @param size.bitsPerBlockPixel bits of one pixel within a block (all samples when chunky)
+ * @param size.planes number of separate planes (samples when PlanarConfiguration is 2, else 1)
+ * @param what what the directory is, for messages ('' for the image itself, else e.g. 'mask: ')
+ */
+export async function readBlockGeometry(
+  fh: FileHandle, dir: TiffDirectory, path: string,
+  size: { width: number; height: number; bitsPerBlockPixel: number; planes: number }, what = '',
+): Promise<BlockGeometry> {
+  const scalar = (tag: number, name: string) => readScalar(fh, dir, path, tag, name);
+  const { width, height, bitsPerBlockPixel, planes } = size;
+  const tiled = dir.entries.has(TAG.TileWidth) || dir.entries.has(TAG.TileOffsets);
+  let blockWidth: number;
+  let blockHeight: number;
+  if (tiled) {
+    const tw = await scalar(TAG.TileWidth, 'TileWidth');
+    const th = await scalar(TAG.TileLength, 'TileLength');
+    if (tw === null || th === null || !Number.isInteger(tw) || !Number.isInteger(th) || tw < 1 || th < 1) {
+      throw new InputError(`${what}tile size ${tw} x ${th} is invalid`, path);
+    }
+    blockWidth = tw;
+    blockHeight = th;
+  } else {
+    const rps = (await scalar(TAG.RowsPerStrip, 'RowsPerStrip')) ?? height;
+    if (!Number.isInteger(rps) || rps < 1) throw new InputError(`${what}RowsPerStrip ${rps} is invalid`, path);
+    blockWidth = width;
+    blockHeight = Math.min(rps, height); // 2^32-1 means "one strip" (TIFF 6.0)
+  }
+  // Rows of a block start on byte boundaries (TIFF 6.0 section 2, for bit depths below 8).
+  const blockBytes = Math.ceil((blockWidth * bitsPerBlockPixel) / 8) * blockHeight;
+  if (blockBytes > MAX_BLOCK_BYTES) {
+    throw new InputError(`${what}blocks of ${blockWidth} x ${blockHeight} pixels (${blockBytes} bytes) exceed the ${MAX_BLOCK_BYTES}-byte limit`, path);
+  }
+  const blocksAcross = Math.ceil(width / blockWidth);
+  const blocksDown = Math.ceil(height / blockHeight);
+  const blocksPerBand = blocksAcross * blocksDown;
+  const expectedBlocks = blocksPerBand * planes;
+  const [offTag, cntTag, offName, cntName] = tiled
+    ? [TAG.TileOffsets, TAG.TileByteCounts, 'TileOffsets', 'TileByteCounts']
+    : [TAG.StripOffsets, TAG.StripByteCounts, 'StripOffsets', 'StripByteCounts'];
+  for (const [tag, name] of [[offTag, offName], [cntTag, cntName]] as const) {
+    const e = dir.entries.get(tag);
+    if (!e) throw new InputError(`${what}${name} tag is missing`, path);
+    if (e.count !== expectedBlocks) {
+      throw new InputError(`${what}${name} has ${e.count} entries but the image needs ${expectedBlocks} blocks`, path);
+    }
+  }
+  const offsets = Float64Array.from((await readNumbers(fh, dir, path, offTag, offName, expectedBlocks))!);
+  const byteCounts = Float64Array.from((await readNumbers(fh, dir, path, cntTag, cntName, expectedBlocks))!);
+  for (let i = 0; i < expectedBlocks; i++) {
+    const o = offsets[i], n = byteCounts[i];
+    if (!Number.isInteger(o) || !Number.isInteger(n) || o < 0 || n < 0) {
+      throw new InputError(`${what}block ${i} has an invalid offset ${o} or byte count ${n}`, path);
+    }
+    if (o + n > dir.fileSize) {
+      throw new InputError(`file is truncated: ${what}block ${i} (${n} bytes at ${o}) ends past the end of the file (${dir.fileSize} bytes)`, path);
+    }
+  }
+  return { tiled, blockWidth, blockHeight, blocksAcross, blocksDown, blocksPerBand, offsets, byteCounts };
 }
 
 const SAMPLE_FORMATS: Record<number, RasterHeader['sampleFormat']> = { 1: 'uint', 2: 'int', 3: 'float' };
@@ -120,7 +217,7 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   const bytesPerSample = bits / 8;
 
   const compression = (await scalar(TAG.Compression, 'Compression')) ?? 1;
-  if (!decoderFor(compression)) throw new InputError(`compression ${compressionName(compression)} is not supported`, path);
+  if (!decoderFor(compression)) throw new InputError(unsupportedCompression(compression), path);
   const predictor = (await scalar(TAG.Predictor, 'Predictor')) ?? 1;
   if (predictor !== 1 && predictor !== 2 && predictor !== 3) throw new InputError(`predictor ${predictor} is not supported`, path);
   if (predictor === 3 && sampleFormat !== 'float') throw new InputError('predictor 3 (floating point) on integer samples is invalid', path);
@@ -128,53 +225,15 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   if (planarCode !== 1 && planarCode !== 2) throw new InputError(`PlanarConfiguration ${planarCode} is invalid`, path);
   const planar: 1 | 2 = spp === 1 ? 1 : planarCode;
 
-  const tiled = dir.entries.has(TAG.TileWidth) || dir.entries.has(TAG.TileOffsets);
-  let blockWidth: number;
-  let blockHeight: number;
-  if (tiled) {
-    const tw = await scalar(TAG.TileWidth, 'TileWidth');
-    const th = await scalar(TAG.TileLength, 'TileLength');
-    if (tw === null || th === null || !Number.isInteger(tw) || !Number.isInteger(th) || tw < 1 || th < 1) {
-      throw new InputError(`tile size ${tw} x ${th} is invalid`, path);
-    }
-    blockWidth = tw;
-    blockHeight = th;
-  } else {
-    const rps = (await scalar(TAG.RowsPerStrip, 'RowsPerStrip')) ?? height;
-    if (!Number.isInteger(rps) || rps < 1) throw new InputError(`RowsPerStrip ${rps} is invalid`, path);
-    blockWidth = width;
-    blockHeight = Math.min(rps, height); // 2^32-1 means "one strip" (TIFF 6.0)
+  if (compression === 34887) {
+    // The LERC decoder hands out samples in the machine's (little-endian) order and
+    // GDAL writes LERC without a predictor; anything else is not a file GDAL makes.
+    if (!dir.littleEndian) throw new InputError('LERC compression in a big-endian TIFF is not supported', path);
+    if (predictor !== 1) throw new InputError(`LERC compression with predictor ${predictor} is not supported`, path);
   }
   const samplesPerBlockPixel = planar === 1 ? spp : 1;
-  const blockBytes = blockWidth * blockHeight * samplesPerBlockPixel * bytesPerSample;
-  if (blockBytes > MAX_BLOCK_BYTES) {
-    throw new InputError(`blocks of ${blockWidth} x ${blockHeight} pixels (${blockBytes} bytes) exceed the ${MAX_BLOCK_BYTES}-byte limit`, path);
-  }
-  const blocksAcross = Math.ceil(width / blockWidth);
-  const blocksDown = Math.ceil(height / blockHeight);
-  const blocksPerBand = blocksAcross * blocksDown;
-  const expectedBlocks = blocksPerBand * (planar === 2 ? spp : 1);
-  const [offTag, cntTag, offName, cntName] = tiled
-    ? [TAG.TileOffsets, TAG.TileByteCounts, 'TileOffsets', 'TileByteCounts']
-    : [TAG.StripOffsets, TAG.StripByteCounts, 'StripOffsets', 'StripByteCounts'];
-  for (const [tag, name] of [[offTag, offName], [cntTag, cntName]] as const) {
-    const e = dir.entries.get(tag);
-    if (!e) throw new InputError(`${name} tag is missing`, path);
-    if (e.count !== expectedBlocks) {
-      throw new InputError(`${name} has ${e.count} entries but the image needs ${expectedBlocks} blocks`, path);
-    }
-  }
-  const offsets = Float64Array.from((await readNumbers(fh, dir, path, offTag, offName, expectedBlocks))!);
-  const byteCounts = Float64Array.from((await readNumbers(fh, dir, path, cntTag, cntName, expectedBlocks))!);
-  for (let i = 0; i < expectedBlocks; i++) {
-    const o = offsets[i], n = byteCounts[i];
-    if (!Number.isInteger(o) || !Number.isInteger(n) || o < 0 || n < 0) {
-      throw new InputError(`block ${i} has an invalid offset ${o} or byte count ${n}`, path);
-    }
-    if (o + n > dir.fileSize) {
-      throw new InputError(`file is truncated: block ${i} (${n} bytes at ${o}) ends past the end of the file (${dir.fileSize} bytes)`, path);
-    }
-  }
+  const geometry = await readBlockGeometry(fh, dir, path, { width, height, bitsPerBlockPixel: samplesPerBlockPixel * bits, planes: planar === 2 ? spp : 1 });
+  const { tiled, blockWidth, blockHeight, blocksAcross, blocksDown, blocksPerBand, offsets, byteCounts } = geometry;
 
   // Georeferencing.
   let keys: Map<number, GeoKeyValue> | null = null;
@@ -192,13 +251,35 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     path,
   );
 
-  // GDAL metadata and nodata.
+  // GDAL metadata and nodata, then the .aux.xml sidecar. GDAL 3.6 (checked with
+  // rasterio on files holding both): the sidecar's nodata and metadata items
+  // override the TIFF's; the TIFF's scale/offset win over the sidecar's.
+  const warnings: string[] = [];
   const xml = await readAscii(fh, dir, path, TAG.GdalMetadata, 'GDAL_METADATA');
-  const meta = xml === null ? { dataset: {}, scale: null, offset: null } : parseGdalMetadata(xml, path);
+  const meta = xml === null ? { dataset: {}, scale: null, offset: null, warning: null } : parseGdalMetadata(xml, path);
+  if (meta.warning !== null) warnings.push(`${path}: ${meta.warning}`);
   const nodataText = await readAscii(fh, dir, path, TAG.GdalNodata, 'GDAL_NODATA');
   const tiffDateTime = await readAscii(fh, dir, path, TAG.DateTime, 'DateTime');
+  const pam = await readSidecar(path);
+  warnings.push(...pam.warnings);
+  const side = pam.sidecar;
+  const metadata = side ? { ...meta.dataset, ...side.metadata } : meta.dataset;
+  const tiffNodata = nodataText === null ? null : parseNodata(nodataText, path);
+
+  // Masks: an internal transparency mask of the full-resolution image, an alpha band.
+  const extra = await readNumbers(fh, dir, path, TAG.ExtraSamples, 'ExtraSamples', spp);
+  const alphaBand = alphaBandOf(extra, spp, path);
+  const internal = await findInternalMask(fh, dir, path, { width, height, bands: spp }, warnings);
 
   const epsg = epsgOf(keys);
+  const crsDefinition = epsg !== null ? await projectDefinition(epsg, path) : crsDefinitionOf(keys, path);
+  const acquiredAt = acquisitionTime(metadata, tiffDateTime, path);
+  // Last, as it opens a file the reader must close: GDAL looks for scene.tif.msk
+  // only when the file has no mask of its own.
+  const external = internal === null ? await findExternalMask(path, { width, height, bands: spp }) : null;
+  const maskLayout = internal ?? external?.layout ?? null;
+  const maskSource = internal ? 'internal' : external ? 'external' : null;
+  const mask = (maskSource && alphaBand !== null ? `${maskSource}+alpha` : maskSource ?? (alphaBand !== null ? 'alpha' : null)) as RasterHeader['mask'];
   const header: RasterHeader = {
     path,
     width,
@@ -208,17 +289,20 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     bitsPerSample: bits,
     transform,
     epsg,
-    crsDefinition: epsg !== null ? await projectDefinition(epsg, path) : crsDefinitionOf(keys, path),
-    nodata: nodataText === null ? null : parseNodata(nodataText, path),
-    scale: meta.scale ?? 1,
-    offset: meta.offset ?? 0,
-    acquiredAt: acquisitionTime(meta.dataset, tiffDateTime, path),
-    metadata: meta.dataset,
+    crsDefinition,
+    nodata: side?.nodata ?? tiffNodata,
+    scale: meta.scale ?? side?.scale ?? 1,
+    offset: meta.offset ?? side?.offset ?? 0,
+    acquiredAt,
+    metadata,
     blockWidth,
     blockHeight,
     tiled,
     compression,
     predictor,
+    mask,
+    alphaBand,
+    warnings,
   };
   const layout: BlockLayout = {
     littleEndian: dir.littleEndian,
@@ -232,7 +316,7 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     byteCounts,
     fileSize: dir.fileSize,
   };
-  return { header, layout };
+  return { header, layout, maskLayout, maskFile: external ? { fh: external.fh, path: external.path } : null };
 }
 
 /**

@@ -3,38 +3,17 @@
  * decodes them with the decoder registry, undoes byte order and predictor,
  * and hands out single-band typed arrays.
  */
-import { readSync } from 'node:fs';
 import { open, type FileHandle } from 'node:fs/promises';
 import { InputError } from '../errors.js';
 import { intersectWindows, type Window } from './affine.js';
 import { CorruptBlockError, compressionName, decoderFor } from './decoders/index.js';
 import { swapBytes, undoFloatingPoint, undoHorizontal } from './decoders/predictor.js';
 import { readRasterHeader, type BlockLayout, type RasterHeader } from './header.js';
+import { InternalMaskReader, type MaskLayout } from './mask.js';
+import { readExactlySync } from './tiff.js';
 
 /** Blocks read and started ahead of the one in use. */
 const AHEAD = 1;
-
-/**
- * Read exactly `length` bytes at `position` into a new array, synchronously.
- * @throws InputError naming the file when it ends first
- */
-function readExactlySync(fd: number, path: string, position: number, length: number, what: string): Uint8Array {
-  const buf = new Uint8Array(length);
-  let done = 0;
-  while (done < length) {
-    let bytesRead: number;
-    try {
-      bytesRead = readSync(fd, buf, done, length - done, position + done);
-    } catch (e) {
-      throw new InputError(`cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
-    }
-    if (bytesRead === 0) {
-      throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);
-    }
-    done += bytesRead;
-  }
-  return buf;
-}
 
 export type TypedArray = Uint8Array | Int8Array | Uint16Array | Int16Array | Uint32Array | Int32Array | Float32Array | Float64Array;
 
@@ -53,6 +32,13 @@ export interface RasterFile {
   blocks(window: Window, band?: number): AsyncIterable<RasterBlock>;
   /** Row-major pixels of the window clamped to the image (see {@link clampWindow}). `band` is 0-based. */
   readWindow(window: Window, band?: number): Promise<TypedArray>;
+  /**
+   * Validity of the pixels of `window` (clamped to the image) under the
+   * raster's mask (header.mask: internal mask and/or alpha band), row-major:
+   * 1 = valid, 0 = masked out. Null when the raster has no mask for `band`.
+   * Nodata is not part of it (the caller tests values).
+   */
+  validMask(window: Window, band?: number): Promise<Uint8Array | null>;
   close(): Promise<void>;
 }
 
@@ -99,12 +85,41 @@ class GeoTiffFile implements RasterFile {
   private readonly layout: BlockLayout;
   private fh: FileHandle | null;
   private readonly ctor: ArrayCtor & AllocCtor;
+  private readonly mask: InternalMaskReader | null;
+  private maskFh: FileHandle | null;
 
-  constructor(fh: FileHandle, header: RasterHeader, layout: BlockLayout) {
+  constructor(fh: FileHandle, header: RasterHeader, layout: BlockLayout, maskLayout: MaskLayout | null, maskFile: { fh: FileHandle; path: string } | null) {
     this.fh = fh;
     this.header = header;
     this.layout = layout;
     this.ctor = arrayType(header);
+    this.maskFh = maskFile?.fh ?? null;
+    // The mask's bytes are in the raster file itself, or in the .msk file beside it.
+    const maskPath = maskFile?.path ?? header.path;
+    this.mask = maskLayout === null ? null : new InternalMaskReader(() => {
+      const f = maskFile ? this.maskFh : this.fh;
+      if (!f) throw new InputError('raster file is already closed', maskPath);
+      return f.fd;
+    }, maskPath, maskLayout, header.width, header.height);
+  }
+
+  async validMask(window: Window, band = 0): Promise<Uint8Array | null> {
+    const h = this.header;
+    this.checkBand(band);
+    const alpha = h.alphaBand !== null && h.alphaBand !== band ? h.alphaBand : null;
+    if (this.mask === null && alpha === null) return null;
+    const w = clampWindow(window, h.width, h.height, h.path);
+    if (!w) return new Uint8Array(0);
+    const out = new Uint8Array(w.width * w.height).fill(1);
+    if (this.mask !== null) await this.mask.clearInvalid(w, band, out);
+    if (alpha !== null) {
+      const a = await this.readWindow(w, alpha);
+      for (let i = 0; i < out.length; i++) {
+        const v = a[i];
+        if (v === 0 || v !== v) out[i] = 0; // alpha 0 (or NaN) = invalid (GDAL RFC 15)
+      }
+    }
+    return out;
   }
 
   private checkBand(band: number): void {
@@ -247,9 +262,11 @@ class GeoTiffFile implements RasterFile {
   }
 
   async close(): Promise<void> {
-    const fh = this.fh;
+    const fh = this.fh, maskFh = this.maskFh;
     this.fh = null;
+    this.maskFh = null;
     if (fh) await fh.close();
+    if (maskFh) await maskFh.close();
   }
 }
 
@@ -272,8 +289,8 @@ export async function openRaster(path: string): Promise<RasterFile> {
     throw new InputError(code === 'ENOENT' ? 'file does not exist' : `cannot open file (${code ?? (e as Error).message})`, path);
   }
   try {
-    const { header, layout } = await readRasterHeader(fh, path);
-    return new GeoTiffFile(fh, header, layout);
+    const { header, layout, maskLayout, maskFile } = await readRasterHeader(fh, path);
+    return new GeoTiffFile(fh, header, layout, maskLayout, maskFile);
   } catch (e) {
     await fh.close();
     if (e instanceof InputError) throw e;

@@ -9,6 +9,7 @@
  * Layout per TIFF 6.0 (Adobe, 1992) section 2 and BigTIFF (Aware Systems /
  * libtiff, 2007): header "II"/"MM", magic 42 (classic) or 43 (BigTIFF).
  */
+import { readSync } from 'node:fs';
 import type { FileHandle } from 'node:fs/promises';
 import { InputError } from '../errors.js';
 
@@ -51,7 +52,14 @@ export interface TiffDirectory {
   readonly bigTiff: boolean;
   readonly fileSize: number;
   readonly entries: ReadonlyMap<number, TiffEntry>;
+  /** File offset of this directory. */
+  readonly offset: number;
+  /** File offset of the next directory in the chain, 0 for none. */
+  readonly nextOffset: number;
 }
+
+/** Most directories followed along one chain (a COG with masks has two per level; real files stay far below). */
+export const MAX_DIRECTORIES = 256;
 
 /** Reads `length` bytes at `position`, raising InputError when the file is shorter. */
 export async function readExactly(
@@ -66,6 +74,28 @@ export async function readExactly(
   let done = 0;
   while (done < length) {
     const { bytesRead } = await fh.read(buf, done, length - done, position + done);
+    if (bytesRead === 0) {
+      throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);
+    }
+    done += bytesRead;
+  }
+  return buf;
+}
+
+/**
+ * Read exactly `length` bytes at `position` into a new array, synchronously.
+ * @throws InputError naming the file when it ends first
+ */
+export function readExactlySync(fd: number, path: string, position: number, length: number, what: string): Uint8Array {
+  const buf = new Uint8Array(length);
+  let done = 0;
+  while (done < length) {
+    let bytesRead: number;
+    try {
+      bytesRead = readSync(fd, buf, done, length - done, position + done);
+    } catch (e) {
+      throw new InputError(`cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+    }
     if (bytesRead === 0) {
       throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);
     }
@@ -111,20 +141,37 @@ export async function readFirstDirectory(fh: FileHandle, path: string): Promise<
   } else {
     throw new InputError(`not a TIFF file (magic number ${magic}, expected 42 or 43)`, path);
   }
+  return readDirectoryAt(fh, path, ifdOffset, { littleEndian: le, bigTiff, fileSize }, 'first image directory');
+}
+
+/**
+ * Parse the image directory at `ifdOffset` (TIFF 6.0 section 2: entry count,
+ * 12- or 20-byte entries, then the offset of the next directory).
+ * @param what which directory, for messages
+ */
+export async function readDirectoryAt(
+  fh: FileHandle,
+  path: string,
+  ifdOffset: number,
+  file: { littleEndian: boolean; bigTiff: boolean; fileSize: number },
+  what: string,
+): Promise<TiffDirectory> {
+  const { littleEndian: le, bigTiff, fileSize } = file;
   const countSize = bigTiff ? 8 : 2;
   const entrySize = bigTiff ? 20 : 12;
+  const nextSize = bigTiff ? 8 : 4;
   if (ifdOffset < 8 || ifdOffset + countSize > fileSize) {
-    throw new InputError(`first image directory offset ${ifdOffset} lies outside the file (${fileSize} bytes)`, path);
+    throw new InputError(`${what} offset ${ifdOffset} lies outside the file (${fileSize} bytes)`, path);
   }
-  const cbuf = await readExactly(fh, path, ifdOffset, countSize, 'image directory');
+  const cbuf = await readExactly(fh, path, ifdOffset, countSize, what);
   const cv = new DataView(cbuf.buffer, cbuf.byteOffset, cbuf.length);
   const n = bigTiff ? u64(cv, 0, le) : cv.getUint16(0, le);
-  if (n === 0 || n > MAX_IFD_ENTRIES) throw new InputError(`image directory has an implausible entry count ${n}`, path);
+  if (n === 0 || n > MAX_IFD_ENTRIES) throw new InputError(`${what} has an implausible entry count ${n}`, path);
   const entriesStart = ifdOffset + countSize;
   if (entriesStart + n * entrySize > fileSize) {
-    throw new InputError(`file is truncated inside the image directory (${n} entries)`, path);
+    throw new InputError(`file is truncated inside the ${what} (${n} entries)`, path);
   }
-  const ebuf = await readExactly(fh, path, entriesStart, n * entrySize, 'image directory entries');
+  const ebuf = await readExactly(fh, path, entriesStart, n * entrySize, `${what} entries`);
   const ev = new DataView(ebuf.buffer, ebuf.byteOffset, ebuf.length);
   const entries = new Map<number, TiffEntry>();
   for (let i = 0; i < n; i++) {
@@ -144,7 +191,32 @@ export async function readFirstDirectory(fh: FileHandle, path: string): Promise<
     }
     entries.set(tag, { tag, type, count, valueOffset, byteLength });
   }
-  return { littleEndian: le, bigTiff, fileSize, entries };
+  // A file cut right after the entries has no next-directory offset: treat it as the last directory.
+  let nextOffset = 0;
+  const nextAt = entriesStart + n * entrySize;
+  if (nextAt + nextSize <= fileSize) {
+    const nbuf = await readExactly(fh, path, nextAt, nextSize, `${what} link`);
+    const nv = new DataView(nbuf.buffer, nbuf.byteOffset, nbuf.length);
+    nextOffset = bigTiff ? u64(nv, 0, le) : nv.getUint32(0, le);
+  }
+  return { littleEndian: le, bigTiff, fileSize, entries, offset: ifdOffset, nextOffset };
+}
+
+/**
+ * The directories after `first` along the chain (overviews, masks), each
+ * once; a loop in the chain or more than MAX_DIRECTORIES is an InputError.
+ */
+export async function* followingDirectories(fh: FileHandle, path: string, first: TiffDirectory): AsyncIterable<TiffDirectory> {
+  const seen = new Set<number>([first.offset]);
+  let next = first.nextOffset;
+  for (let i = 1; next !== 0; i++) {
+    if (seen.has(next)) throw new InputError(`image directory ${i} points back to an earlier directory (a loop in the chain)`, path);
+    if (i >= MAX_DIRECTORIES) throw new InputError(`the file has more than ${MAX_DIRECTORIES} image directories`, path);
+    seen.add(next);
+    const dir = await readDirectoryAt(fh, path, next, first, `image directory ${i}`);
+    yield dir;
+    next = dir.nextOffset;
+  }
 }
 
 function checkEntry(dir: TiffDirectory, e: TiffEntry, path: string, name: string): void {

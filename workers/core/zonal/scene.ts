@@ -42,6 +42,24 @@ export interface ZonalSceneResult {
 
 // Cell classes in the lookup tables; tally slots use the same numbers.
 const VALID = 0, NODATA = 1, MASKED = 2, IMPLAUSIBLE = 3, VALID_WEIGHT = 4;
+// Per-block exclusion codes handed to the hot loops (null when nothing is excluded):
+// 0 = keep, QA_MASKED = flagged by the QA raster, MASK_INVALID = invalid under the
+// raster's own mask (internal mask or alpha band), counted with nodata as GDAL treats it.
+const QA_MASKED = 1, MASK_INVALID = 2;
+
+/**
+ * Exclusion codes of one block: the raster's own mask (1 = valid) and the QA
+ * mask (1 = flagged), either may be null. The mask wins where both exclude.
+ */
+function exclusions(valid: Uint8Array | null, qa: Uint8Array | null, n: number, buffer: { codes: Uint8Array }): Uint8Array | null {
+  if (valid === null && qa === null) return null;
+  if (buffer.codes.length < n) buffer.codes = new Uint8Array(n);
+  const out = buffer.codes;
+  for (let i = 0; i < n; i++) {
+    out[i] = valid !== null && valid[i] === 0 ? MASK_INVALID : qa !== null && qa[i] !== 0 ? QA_MASKED : 0;
+  }
+  return out;
+}
 
 function integerKind(sampleFormat: string, bits: number): IntegerKind | null {
   if ((sampleFormat === 'uint' || sampleFormat === 'int') && (bits === 8 || bits === 16)) {
@@ -156,8 +174,9 @@ function centreInteger(block: RasterBlock, m: CentreMask, acc: IntegerAccumulato
         for (let c = cs; c < ce; c++) {
           const b = data[base + c] + bias;
           const cls = classes[b];
-          if (cls === NODATA) nodata++;
-          else if (qa[qBase + c] !== 0) masked++;
+          const q = qa[qBase + c];
+          if (cls === NODATA || q === MASK_INVALID) nodata++;
+          else if (q !== 0) masked++;
           else if (cls === VALID) {
             hist[b]++; valid++;
             if (b < lo) lo = b;
@@ -187,7 +206,7 @@ function centreFloat(block: RasterBlock, m: CentreMask, acc: FloatAccumulator, n
       for (let c = cs; c < ce; c++) {
         const v = data[base + c];
         if (v !== v || v === nodataValue) { nodata++; continue; }
-        if (qa !== null && qa[qBase + c] !== 0) { masked++; continue; }
+        if (qa !== null && qa[qBase + c] !== 0) { if (qa[qBase + c] === MASK_INVALID) nodata++; else masked++; continue; }
         const kelvin = v * scale + offset;
         if (kelvin >= lo && kelvin <= hi) { acc.add(kelvin); valid++; } else implausible++;
       }
@@ -213,8 +232,9 @@ function fractionInteger(block: RasterBlock, m: FractionMask, acc: IntegerAccumu
       if (f === 0) continue;
       const b = data[base + c] + bias;
       const cls = classes[b];
-      if (cls === NODATA) nodata++;
-      else if (qa !== null && qa[qBase + c] !== 0) masked++;
+      const q = qa === null ? 0 : qa[qBase + c];
+      if (cls === NODATA || q === MASK_INVALID) nodata++;
+      else if (q !== 0) masked++;
       else if (cls === VALID) {
         hist[b]++; weights[b] += f; valid++; validWeight += f;
         if (b < lo) lo = b;
@@ -242,7 +262,7 @@ function fractionFloat(block: RasterBlock, m: FractionMask, acc: FloatAccumulato
       if (f === 0) continue;
       const v = data[base + c];
       if (v !== v || v === nodataValue) { nodata++; continue; }
-      if (qa !== null && qa[qBase + c] !== 0) { masked++; continue; }
+      if (qa !== null && qa[qBase + c] !== 0) { if (qa[qBase + c] === MASK_INVALID) nodata++; else masked++; continue; }
       const kelvin = v * scale + offset;
       if (kelvin >= lo && kelvin <= hi) { acc.addWeighted(kelvin, f); valid++; validWeight += f; } else implausible++;
     }
@@ -302,9 +322,11 @@ function prepareQa(raster: RasterFile, qa: NonNullable<ZonalSceneOptions['qa']>)
  *
  * Values are Kelvin after the header's scale/offset (K = DN * scale + offset).
  * A cell is dropped, and counted once in this order, when it is nodata
- * (header nodata, or NaN in float data; tested before scale/offset), masked
- * by the QA raster, or implausible (outside `plausibleKelvin`, default
- * [170, 360] K). 8- and 16-bit integer rasters use the exact histogram
+ * (header nodata, NaN in float data, or 0 under the raster's own mask:
+ * internal mask or alpha band; tested before scale/offset), masked by the QA
+ * raster, or implausible (outside `plausibleKelvin`, default [170, 360] K).
+ * Nodata and mask both apply where a raster has both (GDAL would use only
+ * its mask band there). 8- and 16-bit integer rasters use the exact histogram
  * accumulator, everything else the float accumulator.
  *
  * Only the blocks meeting the union of the targets' windows are decoded,
@@ -389,6 +411,10 @@ export async function zonalScene(
     });
   }
   const union = unionWindows(active.map((s) => s.window!));
+  // The raster's own mask (GDAL internal mask or alpha band) excludes pixels besides nodata;
+  // with both, a pixel is dropped when either says so.
+  const hasMask = h.mask !== null && !(h.mask === 'alpha' && h.alphaBand === band);
+  const codes = { codes: new Uint8Array(0) };
   if (union !== null) {
     const hits: TargetState[] = [];
     for await (const block of raster.blocks(union, band)) {
@@ -398,7 +424,10 @@ export async function zonalScene(
       if (kind !== null && !isExpectedArray(block.data, kind)) {
         throw new Error(`reader returned ${block.data.constructor.name} for ${h.sampleFormat}${h.bitsPerSample} data`);
       }
-      const qaMask = qa === null ? null : await qa.maskFor(block.window);
+      const n = block.window.width * block.window.height;
+      const valid = hasMask ? await raster.validMask(block.window, band) : null;
+      if (valid !== null && valid.length !== n) throw new Error(`mask reader returned ${valid.length} flags for a ${block.window.width} x ${block.window.height} block`);
+      const qaMask = exclusions(valid, qa === null ? null : await qa.maskFor(block.window), n, codes);
       for (const s of hits) {
         if (s.int !== null) {
           if (fraction) fractionInteger(block, s.fraction!, s.int, bias, classes!, qaMask, s.tally);

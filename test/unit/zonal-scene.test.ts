@@ -152,7 +152,7 @@ describe('zonalScene behaviour', () => {
   const grid: Affine = { a: 30, b: 0, c: 0, d: 0, e: -30, f: 0 };
   const rect = (c0: number, r0: number, c1: number, r1: number) => [[[[c0 * 30, -r0 * 30], [c1 * 30, -r0 * 30], [c1 * 30, -r1 * 30], [c0 * 30, -r1 * 30], [c0 * 30, -r0 * 30]]]];
 
-  test('two cells 300 K and 310 K, coverage 1 and 0.5 with the second centre outside -> 303.333 / 300.0 K (METHODS.md 10 item 25, derived)', async () => {
+  test('two cells 300 K and 310 K, coverage 1 and 0.5 with the second centre outside -> 303.333 / 300.0 K (derived from mean = sum c x / sum c and the centre rule)', async () => {
     const raster = new FakeRaster(Float32Array.of(300, 310), { width: 2, height: 1, sampleFormat: 'float', bitsPerSample: 32, transform: grid });
     // Both cells, minus a square hole of area 0.5 cell centred on the second cell's centre.
     const s = Math.sqrt(0.5) * 30, cx = 45, cy = -15;

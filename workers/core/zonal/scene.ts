@@ -13,7 +13,7 @@ import type { FloatAccumulator } from './float.js';
 import { IntegerAccumulator, type IntegerKind } from './integer.js';
 import { emptyStats, type ValueSummary, type ZonalCounts, type ZonalStats } from './types.js';
 
-/** Hard-reject window for LST, K: observed satellite skin-temperature extremes with margin (METHODS.md section 8). */
+/** Hard-reject window for LST, K: observed satellite skin-temperature extremes with a margin (~175 K, Scambos et al. 2018, GRL 45; 343.9 K, Mildrexler, Zhao & Running 2011, BAMS 92:855-860; the margin is a rule of thumb, from memory). */
 export const DEFAULT_PLAUSIBLE_KELVIN: readonly [number, number] = [170, 360];
 
 /** A district (or any zone) with its geometry already in the raster's CRS. */

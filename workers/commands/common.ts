@@ -1,6 +1,6 @@
 /** Pieces the store-using commands share. */
 import { InputError } from '../core/errors.js';
-import { runtimeConfig, type RuntimeConfig } from '../config.js';
+import { runtimeConfig, type RuntimeConfig } from '../run/config.js';
 import type { Store } from '../store/index.js';
 
 /**

@@ -5,7 +5,7 @@
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { mkdir, rm, writeFile } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
-import { runtimeConfig } from '../config.js';
+import { runtimeConfig } from '../run/config.js';
 import type { Row } from '../format.js';
 import { CAUTION_SHORT } from './common.js';
 import { summaryLines, throwIfRunFailed } from './ingest.js';
@@ -58,7 +58,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     process.stderr.write(`Using the demo archive in ${archive}\n`);
   }
   const config = runtimeConfig({ dataDir: opts.dataDir });
-  const { runPipeline } = await import('../pipeline.js');
+  const { runPipeline } = await import('../run/pipeline.js');
   const { openConfiguredStore } = await import('../store/configured.js');
   process.stderr.write(`Running the pipeline (${config.mode}; results in ${config.databaseUrl ? 'the PostgreSQL server' : resolve(config.dataDir)}) ...\n`);
   const summary = await runPipeline({ inputs: [archive], districtsPath, threads: opts.threads }, config);

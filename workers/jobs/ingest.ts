@@ -7,9 +7,11 @@
 import { InputError, isInputError } from '../core/errors.js';
 import { openRaster } from '../core/raster/index.js';
 import type { JobContext } from '../queue/types.js';
-import type { ManifestEntry, SceneKind } from './archive.js';
-import type { PipelineRepo } from './repo.js';
-import { pixelSizeMetres, sceneCentreLonLat, sceneKind, sceneTiming } from './scene-info.js';
+import { pixelSizeMetres, sceneCentreLonLat } from '../core/raster/placement.js';
+import { sceneTiming } from '../core/solar/index.js';
+import { sceneKind, type ManifestEntry, type SceneKind } from '../run/archive.js';
+import type { PipelineRepo } from '../store/pipeline-repo.js';
+import { rasterCrs } from './zonal-table.js';
 
 export interface IngestData {
   path: string;
@@ -47,7 +49,7 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
           data.path,
         );
       }
-      const [lon, lat] = sceneCentreLonLat(h);
+      const [lon, lat] = sceneCentreLonLat(h, rasterCrs(h));
       const timing = kind === 'lst' ? sceneTiming(acquiredAt, lon, lat, data.dayElevationDeg) : sceneTiming(null, lon, lat);
       const { id: sceneId, previousStatus } = await repo.registerSceneReporting({
         contentHash: data.contentHash,

@@ -159,7 +159,7 @@ class ThreadPool {
 /**
  * Create the embedded runner.
  * @example
- * const runner = createInProcessRunner({ processorsModule: new URL('./jobs/registry.js', import.meta.url), repo: store, threadedJobs: ['zonal'] });
+ * const runner = createInProcessRunner({ processorsModule: new URL('./run/registry.js', import.meta.url), repo: store, threadedJobs: ['zonal'] });
  * const { results, failures } = await runner.runFlow(tree);
  * await runner.close();
  */

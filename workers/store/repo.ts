@@ -195,6 +195,7 @@ export async function getRun(db: Db, runId: number): Promise<RunRow | null> {
 // scenes
 
 export type SceneKind = 'lst' | 'albedo' | 'qa';
+export const SCENE_KINDS: readonly SceneKind[] = ['lst', 'albedo', 'qa'];
 export type ScenePass = 'day' | 'night';
 export type TimingRating = 'predawn' | 'midday' | 'crossover' | 'other';
 export type SceneStatus = 'registered' | 'processed' | 'failed';

@@ -4,6 +4,7 @@
  * embedded engine PGlite (the default, a data directory on disk). Both run the
  * same SQL and return the same JavaScript values (see ./types.ts).
  */
+import { DATA_DIR_NAME } from '../core/defaults.js';
 import { ServiceError } from '../core/errors.js';
 import { migrate } from './migrate.js';
 
@@ -56,7 +57,7 @@ export interface OpenStoreOptions {
 }
 
 /** Default embedded data directory, relative to the working directory. */
-export const DEFAULT_DATA_DIR = './.heatledger';
+export const DEFAULT_DATA_DIR = `./${DATA_DIR_NAME}`;
 
 /**
  * Open the store the options describe and bring its schema up to date

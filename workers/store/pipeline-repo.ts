@@ -5,10 +5,13 @@
  * the main thread (where the embedded database lives); everywhere else it is
  * the object itself. Processors never know which.
  */
-import * as repo from '../store/repo.js';
-import type { Store } from '../store/store.js';
+import { ENV } from '../config.js';
+import { InputError } from '../core/errors.js';
+import * as repo from './repo.js';
+import { openStore, type Store } from './store.js';
 
-export function createPipelineRepo(store: Store) {
+/** The store's repository functions bound to one store. */
+function bindPipelineRepo(store: Store) {
   return {
     getRun: (runId: number) => repo.getRun(store, runId),
     findSceneByHash: (hash: string) => repo.findSceneByHash(store, hash),
@@ -40,4 +43,32 @@ export function createPipelineRepo(store: Store) {
   };
 }
 
-export type PipelineRepo = ReturnType<typeof createPipelineRepo>;
+export type PipelineRepo = ReturnType<typeof bindPipelineRepo>;
+
+/** Something that wraps each repository a process makes (e.g. to time its calls). */
+export type PipelineRepoWrapper = (repo: PipelineRepo) => PipelineRepo;
+
+let wrapper: PipelineRepoWrapper | null = null;
+
+/**
+ * Have every repository this process makes from now on go through `wrap`
+ * (null: none). A process calls it before its runners start; worker threads
+ * do not need it, their repository is a proxy of the main thread's.
+ */
+export function wrapPipelineRepos(wrap: PipelineRepoWrapper | null): void {
+  wrapper = wrap;
+}
+
+/** The processors' repository over `store` (through the registered wrapper, if any). */
+export function createPipelineRepo(store: Store): PipelineRepo {
+  const bound = bindPipelineRepo(store);
+  return wrapper ? wrapper(bound) : bound;
+}
+
+/** The repository of a worker process: the PostgreSQL server named by DATABASE_URL in `env`. */
+export async function openWorkerRepo(env: Record<string, string | undefined>): Promise<{ repo: PipelineRepo; close(): Promise<void> }> {
+  const url = env[ENV.databaseUrl];
+  if (!url) throw new InputError(`a worker needs ${ENV.databaseUrl} (a PostgreSQL server shared by all workers)`);
+  const store = await openStore({ databaseUrl: url });
+  return { repo: createPipelineRepo(store), close: () => store.close() };
+}

@@ -5,27 +5,28 @@
  * which runner and which store `openRuntime` hands back.
  */
 import os from 'node:os';
-import { InputError, isServiceError, type ServiceName } from './core/errors.js';
-import { readDistricts, ruralRing, subtractPolygons, type District } from './core/districts/index.js';
-import type { DeriveOptions } from './core/derive/metrics.js';
-import { DEFAULT_DERIVE_OPTIONS } from './core/derive/metrics.js';
-import { fingerprint, listScenes, readManifest, type ManifestEntry, type SceneKind, type UnreadablePath } from './jobs/archive.js';
-import { readMergedPolygons, readRuralReference } from './jobs/zonal-table.js';
-import { registryModuleUrl, THREADED_JOBS } from './jobs/registry.js';
-import { createPipelineRepo } from './jobs/repo.js';
-import type { IngestData } from './jobs/ingest.js';
-import type { ZonalData } from './jobs/zonal.js';
-import type { DeriveData, DeriveResult } from './jobs/derive.js';
-import { deriveJobId } from './queue/tree.js';
-import type { FlowProgress, FlowResult, JobFailure, JobSpec, Runner } from './queue/types.js';
-import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS } from './queue/settings.js';
-import { withServiceRetry } from './queue/retry.js';
-import type { Store } from './store/index.js';
-import { openConfiguredStore } from './store/configured.js';
-import { startRun, finishRun, markSceneFailed, upsertDistricts } from './store/repo.js';
-import { onInterrupt } from './store/interrupt.js';
-import { runtimeConfig, type RuntimeConfig, ENV } from './config.js';
-import { VERSION } from './version.js';
+import { InputError, isServiceError } from '../core/errors.js';
+import { readDistricts, ruralRing, subtractPolygons, type District } from '../core/districts/index.js';
+import type { DeriveOptions } from '../core/derive/metrics.js';
+import { DEFAULT_DERIVE_OPTIONS } from '../core/derive/metrics.js';
+import { fingerprint } from '../core/hash.js';
+import { listScenes, readManifest, type ManifestEntry, type UnreadablePath } from './archive.js';
+import { readMergedPolygons, readRuralReference } from '../jobs/zonal-table.js';
+import { registryModuleUrl, THREADED_JOBS } from './registry.js';
+import { createPipelineRepo } from '../store/pipeline-repo.js';
+import type { DeriveResult } from '../jobs/derive.js';
+import type { FlowProgress, FlowResult, JobFailure, Runner } from '../queue/types.js';
+import { DEFAULT_SERVICE_RETRY_BUDGET_MS } from '../queue/settings.js';
+import { withServiceRetry } from '../queue/retry.js';
+import { createConfiguredRunner } from '../queue/configured.js';
+import type { Store } from '../store/index.js';
+import { openConfiguredStore } from '../store/configured.js';
+import { startRun, finishRun, markSceneFailed, upsertDistricts } from '../store/repo.js';
+import { onInterrupt } from '../store/interrupt.js';
+import { runtimeConfig, type RuntimeConfig } from './config.js';
+import { buildFlow } from './flow.js';
+import { runOutcome, type RunOutcome } from './outcome.js';
+import { VERSION } from '../version.js';
 
 export const RURAL_ID = 'rural';
 
@@ -74,76 +75,6 @@ export interface PipelineSummary {
   seconds: number;
 }
 
-/** How a run ended: every scene stored and the table derived, or not (and why). */
-export interface RunOutcome {
-  status: 'succeeded' | 'incomplete' | 'failed';
-  /** Scenes not finished (neither stored nor refused as bad input); the next ingest finishes them. */
-  scenesLeft: number;
-  /** Files asked for that were refused as bad input (unreadable paths, corrupt scenes); recorded with their reasons. */
-  refused: number;
-  /** Whether the derive step produced the district table. */
-  derived: boolean;
-  /** Why the run is not 'succeeded'. */
-  error: string | null;
-  /** The service that kept the run from finishing, when one did, and how long (s) it kept failing. */
-  service?: ServiceName;
-  serviceFailingSeconds?: number;
-}
-
-/**
- * The outcome of a run from its job tree (derive ← zonal ← ingest) and what
- * the runner reported. A scene is finished when both its jobs completed or one
- * refused it as bad input (recorded as a failed scene); anything else —
- * a service that stayed away past the budget, a bug, a runner that stopped
- * waiting — leaves it for the next ingest. A derive step failing on a service
- * leaves the run incomplete; failing on anything else fails it. Files refused
- * as bad input (and `unreadable` paths that never became jobs) also keep the
- * run from 'succeeded' — not everything asked for was stored — but re-running
- * will not change them: the error names them, and they stay in the store.
- */
-export function runOutcome(root: JobSpec, result: FlowResult, unreadable = 0): RunOutcome {
-  const failures = new Map(result.failures.map((f) => [f.id, f]));
-  const reasons: JobFailure[] = [];
-  const finished = (id: string): boolean => {
-    if (result.results.has(id)) return true;
-    const f = failures.get(id);
-    if (f?.kind === 'input') return true;
-    if (f) reasons.push(f);
-    return false;
-  };
-  let scenesLeft = 0;
-  let refused = unreadable;
-  for (const zonalJob of root.children ?? []) {
-    const ingestDone = (zonalJob.children ?? []).every((c) => finished(c.id));
-    const zonalDone = finished(zonalJob.id);
-    if (!(ingestDone && zonalDone)) scenesLeft++;
-    else if ([zonalJob, ...(zonalJob.children ?? [])].some((j) => failures.get(j.id)?.kind === 'input')) refused++;
-  }
-  const derived = result.results.has(root.id);
-  const deriveFailure = failures.get(root.id);
-  const first = (kind?: string) => reasons.find((f) => kind === undefined || f.kind === kind);
-  const pick = result.stopped ? { error: result.stopped.error, service: result.stopped.service, serviceFailingSeconds: undefined }
-    : deriveFailure ?? first('service') ?? first();
-  if (deriveFailure && deriveFailure.kind !== 'service' && !result.stopped) {
-    return { status: 'failed', scenesLeft, refused, derived, error: deriveFailure.error, service: deriveFailure.service };
-  }
-  if (!derived || scenesLeft > 0 || result.stopped) {
-    return {
-      status: 'incomplete', scenesLeft, refused, derived,
-      error: pick?.error ?? 'the run did not finish',
-      ...(pick?.service ? { service: pick.service } : {}),
-      ...(pick?.serviceFailingSeconds !== undefined ? { serviceFailingSeconds: pick.serviceFailingSeconds } : {}),
-    };
-  }
-  if (refused > 0) {
-    return {
-      status: 'incomplete', scenesLeft: 0, refused, derived,
-      error: `${refused} file(s) asked for were refused as bad input and are recorded with their reasons (heatledger status); every other scene is stored`,
-    };
-  }
-  return { status: 'succeeded', scenesLeft: 0, refused: 0, derived, error: null };
-}
-
 /** Store identity: part of every job id, so a fresh database never inherits another's completed jobs. */
 async function storeIdentity(store: Store): Promise<string> {
   const rows = await store.query<{ sys: string; db: number; name: string }>(
@@ -165,61 +96,12 @@ function asNumber(v: unknown): number | null {
   return typeof n === 'number' && Number.isFinite(n) && n >= 0 && n <= 1 ? n : null;
 }
 
-/** Build the job tree: derive ← zonal (one per scene) ← ingest. */
-export function buildFlow(args: {
-  identity: string;
-  runId: number;
-  files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[];
-  targetIds: string[];
-  params: Record<string, unknown>;
-  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds' | 'targetsKey' | 'qa'>;
-  derive: Omit<DeriveData, 'runId'>;
-  qaMaskBits?: number;
-}): JobSpec {
-  const targetsKey = fingerprint(args.targetIds, args.params);
-  const children: JobSpec[] = args.files.map((f) => {
-    const ingestData: IngestData = { path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind };
-    const qa = f.manifest?.qa && args.qaMaskBits !== undefined ? { path: f.manifest.qa, maskBits: args.qaMaskBits } : undefined;
-    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, targetsKey, qa };
-    return {
-      name: 'zonal',
-      id: deriveJobId('zonal', args.identity, f.contentHash, targetsKey),
-      data: zonalData,
-      children: [{ name: 'ingest', id: deriveJobId('ingest', args.identity, f.contentHash, f.manifest ?? null, f.kind ?? null), data: ingestData }],
-    };
-  });
-  return {
-    name: 'derive',
-    id: deriveJobId('derive', args.identity, targetsKey, children.map((c) => c.id).sort()),
-    data: { ...args.derive, runId: args.runId } satisfies DeriveData,
-    children,
-  };
-}
-
-/** Make the runner for a configuration. */
-export async function createRunner(
-  config: RuntimeConfig, store: Store, threads?: number,
-  limits: { serviceRetryBudgetMs?: number; stallTimeoutMs?: number } = {},
+/** The runner for a configuration; embedded mode runs the registry's processors on this store. */
+function createRunner(
+  config: RuntimeConfig, store: Store, threads: number | undefined,
+  limits: { serviceRetryBudgetMs?: number; stallTimeoutMs?: number },
 ): Promise<Runner> {
-  const serviceRetryBudgetMs = limits.serviceRetryBudgetMs ?? DEFAULT_SERVICE_RETRY_BUDGET_MS;
-  if (config.mode === 'distributed') {
-    const { createBullRunner } = await import('./queue/bull.js');
-    return createBullRunner({
-      redisUrl: config.redisUrl!,
-      prefix: process.env[ENV.queuePrefix] || undefined,
-      serviceRetryBudgetMs,
-      redisBudgetMs: serviceRetryBudgetMs,
-      stallTimeoutMs: limits.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS,
-    });
-  }
-  const { createInProcessRunner } = await import('./queue/in-process.js');
-  return createInProcessRunner({
-    processorsModule: registryModuleUrl(),
-    repo: createPipelineRepo(store),
-    threads: threads ?? Math.max(1, os.availableParallelism()),
-    threadedJobs: THREADED_JOBS,
-    serviceRetryBudgetMs,
-  });
+  return createConfiguredRunner(config, { processorsModule: registryModuleUrl(), repo: createPipelineRepo(store), threads, threadedJobs: THREADED_JOBS }, limits);
 }
 
 /** Run the whole job. */

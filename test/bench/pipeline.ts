@@ -414,7 +414,7 @@ function runLine(f: RunFigures): string {
     `job phase ${s2(f.jobsSeconds)} s = ${s2(f.jobsScenesPerSecond)} scenes/s` +
     (f.startupSeconds !== null ? `, before it ${s2(f.startupSeconds)} s, after it ${s2(f.finishSeconds!)} s); ` : `, outside it ${s2(f.seconds - f.jobsSeconds)} s); `) +
     `result writes ${f.writeMs.toFixed(0)} ms summed, ${f.writeBusyMs.toFixed(0)} ms busy -> storage ${pct(f.storageFraction)}; ` +
-    [ms('registerScene'), ms('findSceneByHash'), ms('listDistricts')].filter(Boolean).join(', ') +
+    [ms('registerSceneReporting'), ms('listDistricts')].filter(Boolean).join(', ') +
     `; ${f.zonalRows} zonal rows, ${f.derivedRows} derived (${f.derivedOk} complete)` +
     (f.failures ? `; ${f.failures} FAILED job(s), first: ${f.firstFailure}` : f.firstFailure ? `; PROBLEM: ${f.firstFailure}` : '');
 }

@@ -82,7 +82,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     if (Number.isFinite(lastYear)) {
       hotspots = await districtHotspots(store, { metric: 'suhi_night', from: lastYear, to: lastYear, season: 'summer', weights: 'queen', minDates: 3 });
     }
-    const { listDistricts } = await import('../store/repo.js');
+    const { listDistricts } = await import('../store/districts.js');
     for (const d of await listDistricts(store)) {
       if (typeof d.properties.land_use === 'string') landUse.set(d.id, d.properties.land_use.replace(/_/g, ' '));
     }

@@ -2,7 +2,7 @@ import { failureLine, formatRows, type OutputFormat } from '../format.js';
 import { withStore } from './common.js';
 
 export async function runStatusCommand(opts: { dataDir?: string; format: OutputFormat }): Promise<void> {
-  const { sceneStatusCounts, failures } = await import('../store/repo.js');
+  const { sceneStatusCounts, failures } = await import('../store/index.js');
   await withStore(opts, async (store, config) => {
     const counts = await sceneStatusCounts(store);
     const fails = await failures(store);

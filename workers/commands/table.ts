@@ -23,7 +23,7 @@ export const TABLE_LABELS: Record<string, string> = {
 
 /** The district table rows with the public field names. */
 export async function districtTable(store: Store, level: 'date' | 'year', year?: number): Promise<Row[]> {
-  const { districtTableByDate, districtTableByYear } = await import('../store/repo.js');
+  const { districtTableByDate, districtTableByYear } = await import('../store/index.js');
   if (level === 'date') {
     return (await districtTableByDate(store, { year: year ?? null })).map((r) => ({
       district: r.district_id, name: r.district_name, date: r.obs_date,

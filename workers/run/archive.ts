@@ -7,7 +7,7 @@ import { basename, extname, join, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
 import { hashFile } from '../core/hash.js';
 import type { RasterHeader } from '../core/raster/index.js';
-import { SCENE_KINDS, type SceneKind } from '../store/repo.js';
+import { SCENE_KINDS, type SceneKind } from '../store/scenes.js';
 
 export { SCENE_KINDS, type SceneKind };
 

@@ -7,16 +7,12 @@
  */
 import { ENV } from '../config.js';
 import { InputError } from '../core/errors.js';
-import * as repo from './repo.js';
+import * as repo from './index.js';
 import { openStore, type Store } from './store.js';
 
 /** The store's repository functions bound to one store. */
 function bindPipelineRepo(store: Store) {
   return {
-    getRun: (runId: number) => repo.getRun(store, runId),
-    findSceneByHash: (hash: string) => repo.findSceneByHash(store, hash),
-    getScene: (sceneId: number) => repo.getScene(store, sceneId),
-    registerScene: (scene: repo.SceneInput) => repo.registerScene(store, scene),
     /** Register and say what the status was before (null for a new scene), in one round trip. */
     registerSceneReporting: (scene: repo.SceneInput) => repo.registerSceneReporting(store, scene),
     /** Replace the reading warnings stored with a scene. */
@@ -39,7 +35,6 @@ function bindPipelineRepo(store: Store) {
         await tx.query('DELETE FROM derived_metrics WHERE district_id = ANY($1::text[])', [districtIds]);
         return repo.replaceDerived(tx, rows);
       }),
-    finishRun: (runId: number, status: 'succeeded' | 'failed', error?: string) => repo.finishRun(store, runId, { status, error }),
   };
 }
 

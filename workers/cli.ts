@@ -7,15 +7,21 @@
  * 1 anything else (a service failed, or a bug).
  */
 import { Command, CommanderError, Option } from 'commander';
-import { isInputError } from './core/errors.js';
+import { isInputError, isServiceError } from './core/errors.js';
+import {
+  ALBEDO_WINDOW_DAYS, CAUTION_TEXT, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
+  RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES,
+} from './core/defaults.js';
 import { parseYear, quoteGiven } from './core/year.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
 import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS, STALLED_INTERVAL_MS } from './queue/settings.js';
 
-const CAUTION =
-  'LST is land-surface (skin) temperature, not air temperature. Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+const CAUTION = CAUTION_TEXT;
+
+/** `--plausible` default as the option takes it: "min,max" in Kelvin. */
+const PLAUSIBLE_DEFAULT = PLAUSIBLE_RANGE_KELVIN.join(',');
 
 function badOption(message: string): CommanderError {
   return new CommanderError(2, 'heatledger.badOption', message);
@@ -87,7 +93,7 @@ export function buildProgram(): Command {
     .option('--qa-mask <bits>', 'mask pixels whose QA value has any of these bits set (e.g. 24, 0x18, 0b11000)', parseBitMask('--qa-mask'))
     .option('--qa-values <list>', 'mask pixels whose QA value is one of these (comma-separated integers)')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre (pixel centre inside) or fraction (area-weighted)').choices(['centre', 'fraction']).default('centre'))
-    .option('--plausible <min,max>', 'plausible LST range in Kelvin; values outside count as invalid', '170,360')
+    .option('--plausible <min,max>', 'plausible LST range in Kelvin; values outside count as invalid', PLAUSIBLE_DEFAULT)
     .addOption(formatOption('table'))
     .action(async (raster: string, opts) => {
       const { runZonalCommand } = await import('./commands/zonal.js');
@@ -106,8 +112,8 @@ export function buildProgram(): Command {
     .argument('<inputs...>', 'LST GeoTIFF files or folders (searched recursively)')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
     .option('--rural <file>', 'rural reference polygon(s), GeoJSON (default: a ring around the districts)')
-    .option('--rural-inner <metres>', 'inner edge of the default rural ring, metres outside the districts', parseNumber('--rural-inner'), 2000)
-    .option('--rural-outer <metres>', 'outer edge of the default rural ring, metres outside the districts', parseNumber('--rural-outer'), 10000)
+    .option('--rural-inner <metres>', 'inner edge of the default rural ring, metres outside the districts', parseNumber('--rural-inner'), RURAL_RING_INNER_METRES)
+    .option('--rural-outer <metres>', 'outer edge of the default rural ring, metres outside the districts', parseNumber('--rural-outer'), RURAL_RING_OUTER_METRES)
     .option('--water <file>', 'water polygons (GeoJSON) to leave out of the default rural ring')
     .option('--albedo <rasters...>', 'albedo rasters or folders; one raster without a date serves the whole archive')
     .option('--manifest <file>', 'CSV or JSON with columns path, kind (lst|albedo|qa), acquired_at (UTC ISO 8601), sensor, qa (QA raster of the scene); it overrides the files\' own kind and time')
@@ -115,10 +121,10 @@ export function buildProgram(): Command {
     .option('--id-field <name>', 'feature property holding the district id', 'id')
     .option('--name-field <name>', 'feature property holding the district name', 'name')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre or fraction').choices(['centre', 'fraction']).default('centre'))
-    .option('--plausible <min,max>', 'plausible LST range in Kelvin', '170,360')
-    .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), 0.5)
-    .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), 18)
-    .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), 32)
+    .option('--plausible <min,max>', 'plausible LST range in Kelvin', PLAUSIBLE_DEFAULT)
+    .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), MIN_VALID_FRACTION)
+    .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), PAIRING_WINDOW_HOURS)
+    .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), ALBEDO_WINDOW_DAYS)
     .addOption(new Option('--service-retry-budget <seconds>', 'how long PostgreSQL or Redis may stay unreachable before the run gives up on them; unfinished scenes are left for the next ingest (exit 1)')
       .env(ENV.serviceRetryBudget).argParser(parseNumber('--service-retry-budget')).default(DEFAULT_SERVICE_RETRY_BUDGET_MS / 1000))
     .addOption(new Option('--stall-timeout <seconds>', 'distributed mode: end the run incomplete (exit 1) when no worker has made progress for this long')
@@ -300,7 +306,7 @@ export function reportError(e: unknown): number {
     return 2;
   }
   const err = e as Error;
-  if (err?.name === 'ServiceError') {
+  if (isServiceError(e)) {
     process.stderr.write(`heatledger: service error: ${err.message}\n`);
   } else {
     process.stderr.write(`heatledger: internal error: ${err?.message ?? String(e)} (set HEATLEDGER_DEBUG=1 for details)\n`);

@@ -19,8 +19,8 @@ export async function withStore<T>(opts: { dataDir?: string }, fn: (store: Store
   }
 }
 
-export const CAUTION_SHORT =
-  'LST is surface (skin) temperature, not air temperature; these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+/** The one-line caution printed under results (from the defaults module). */
+export { CAUTION_SHORT_TEXT as CAUTION_SHORT } from '../core/defaults.js';
 
 /** `--plausible min,max` (Kelvin) or `none`. */
 export function parsePlausible(text: string): [number, number] | null {

@@ -10,6 +10,7 @@ import { readDistricts, ruralRing, subtractPolygons, type District } from '../co
 import type { DeriveOptions } from '../core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from '../core/derive/metrics.js';
 import { fingerprint } from '../core/hash.js';
+import { PLAUSIBLE_RANGE_KELVIN, RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES } from '../core/defaults.js';
 import { listScenes, readManifest, type ManifestEntry, type UnreadablePath } from './archive.js';
 import { readMergedPolygons, readRuralReference } from '../jobs/zonal-table.js';
 import { registryModuleUrl, THREADED_JOBS } from './registry.js';
@@ -113,8 +114,8 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   if (districts.some((d) => d.id === RURAL_ID)) {
     throw new InputError(`a district has the id "${RURAL_ID}", which is reserved for the rural reference`, options.districtsPath);
   }
-  const inner = options.ruralInnerMetres ?? 2000;
-  const outer = options.ruralOuterMetres ?? 10000;
+  const inner = options.ruralInnerMetres ?? RURAL_RING_INNER_METRES;
+  const outer = options.ruralOuterMetres ?? RURAL_RING_OUTER_METRES;
   let rural: District;
   let ruralDescription: string;
   if (options.ruralPath) {
@@ -139,7 +140,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
 
   const deriveOptions: DeriveOptions = { ...DEFAULT_DERIVE_OPTIONS, ...options.derive };
   const coverage = options.coverage ?? 'centre';
-  const plausibleKelvin = options.plausibleKelvin === undefined ? ([170, 360] as [number, number]) : options.plausibleKelvin;
+  const plausibleKelvin = options.plausibleKelvin === undefined ? ([...PLAUSIBLE_RANGE_KELVIN] as [number, number]) : options.plausibleKelvin;
   const params = {
     coverageRule: coverage,
     ruralReference: { districtId: RURAL_ID, description: ruralDescription },

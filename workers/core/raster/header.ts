@@ -4,7 +4,7 @@
  * allocates anything for pixels.
  */
 import type { FileHandle } from 'node:fs/promises';
-import { InputError } from '../errors.js';
+import { InputError, isInputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
 import { acquisitionTime } from './acqtime.js';
@@ -331,7 +331,7 @@ async function projectDefinition(epsg: Epsg, path: string): Promise<string> {
   try {
     return crs.crsDefinitionForEpsg(epsg);
   } catch (e) {
-    if ((e as Error).name === 'InputError') throw new InputError((e as Error).message, path);
+    if (isInputError(e)) throw new InputError(e.message, path);
     throw e;
   }
 }

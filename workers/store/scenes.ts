@@ -1,11 +1,12 @@
 /** The scenes table: one row per scene file (keyed by content hash), its header facts and status. */
 import type { Epsg, UtcIso } from '../core/units.js';
+import type { TimingRating } from '../core/solar/index.js';
 import { type Db, num } from './db.js';
 
 export type SceneKind = 'lst' | 'albedo' | 'qa';
 export const SCENE_KINDS: readonly SceneKind[] = ['lst', 'albedo', 'qa'];
 export type ScenePass = 'day' | 'night';
-export type TimingRating = 'predawn' | 'midday' | 'crossover' | 'other';
+export type { TimingRating };
 export type SceneStatus = 'registered' | 'processed' | 'failed';
 
 /** What ingest knows about a readable scene file. */

@@ -68,19 +68,19 @@ function formatOption(defaultFormat: 'json' | 'csv' | 'table' = 'table'): Option
   return new Option('--format <format>', 'output format').choices([...OUTPUT_FORMATS]).default(defaultFormat);
 }
 
-export function buildProgram(): Command {
-  const program = new Command();
-  program
-    .name('heatledger')
-    .description(
-      'District land-surface-temperature statistics, apparent thermal inertia and surface heat island intensity from GeoTIFF scene archives.\n\n' +
-        CAUTION,
-    )
-    .version(VERSION, '-V, --version')
-    .showHelpAfterError('(run with --help for usage)')
-    .exitOverride()
-    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+const dataDirOption = () =>
+  new Option('--data-dir <dir>', 'embedded database folder (ignored when DATABASE_URL is set)').env(ENV.dataDir).default(DEFAULT_DATA_DIR);
 
+const seasonOption = () =>
+  new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
+
+const hemisphereOption = () =>
+  new Option('--hemisphere <h>', 'hemisphere for --season (default: from the stored districts; north for --series)').choices(['north', 'south']);
+
+const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
+
+/** `heatledger zonal`. */
+function addZonalCommand(program: Command): void {
   program
     .command('zonal')
     .description('Statistics of one raster per district (Kelvin after scale/offset; pixel-centre rule; type-7 percentiles).')
@@ -99,10 +99,10 @@ export function buildProgram(): Command {
       const { runZonalCommand } = await import('./commands/zonal.js');
       await runZonalCommand(raster, opts);
     });
+}
 
-  const dataDirOption = () =>
-    new Option('--data-dir <dir>', 'embedded database folder (ignored when DATABASE_URL is set)').env(ENV.dataDir).default(DEFAULT_DATA_DIR);
-
+/** `heatledger ingest`. */
+function addIngestCommand(program: Command): void {
   program
     .command('ingest')
     .description(
@@ -137,7 +137,10 @@ export function buildProgram(): Command {
       const { runIngestCommand } = await import('./commands/ingest.js');
       await runIngestCommand(inputs, opts);
     });
+}
 
+/** `heatledger status`. */
+function addStatusCommand(program: Command): void {
   program
     .command('status')
     .description('Scenes in the store by state, and failed scenes with their reasons.')
@@ -147,7 +150,10 @@ export function buildProgram(): Command {
       const { runStatusCommand } = await import('./commands/status.js');
       await runStatusCommand(opts);
     });
+}
 
+/** `heatledger table`. */
+function addTableCommand(program: Command): void {
   program
     .command('table')
     .description('The district table: per district and date (or year) mean day and night LST (K), SUHI day and night (K), ATI (1/K) and scene counts.')
@@ -159,13 +165,10 @@ export function buildProgram(): Command {
       const { runTableCommand } = await import('./commands/table.js');
       await runTableCommand(opts);
     });
+}
 
-  const seasonOption = () =>
-    new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
-  const hemisphereOption = () =>
-    new Option('--hemisphere <h>', 'hemisphere for --season (default: from the stored districts; north for --series)').choices(['north', 'south']);
-  const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
-
+/** `heatledger trend`. */
+function addTrendCommand(program: Command): void {
   program
     .command('trend')
     .description(
@@ -195,7 +198,10 @@ export function buildProgram(): Command {
       const { runTrendCommand } = await import('./commands/trend.js');
       await runTrendCommand(opts);
     });
+}
 
+/** `heatledger hotspots`. */
+function addHotspotsCommand(program: Command): void {
   program
     .command('hotspots')
     .description(
@@ -221,7 +227,10 @@ export function buildProgram(): Command {
       const { runHotspotsCommand } = await import('./commands/hotspots.js');
       await runHotspotsCommand(opts);
     });
+}
 
+/** `heatledger worker`. */
+function addWorkerCommand(program: Command): void {
   program
     .command('worker')
     .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
@@ -232,7 +241,10 @@ export function buildProgram(): Command {
       const { runWorkerCommand } = await import('./commands/worker.js');
       await runWorkerCommand(opts);
     });
+}
 
+/** `heatledger demo`. */
+function addDemoCommand(program: Command): void {
   program
     .command('demo')
     .description('Generate an invented city and its multi-year scene archive (first run only), run the whole pipeline and print the hottest districts.')
@@ -243,7 +255,10 @@ export function buildProgram(): Command {
       const { runDemoCommand } = await import('./commands/demo.js');
       await runDemoCommand(opts);
     });
+}
 
+/** `heatledger serve`. */
+function addServeCommand(program: Command): void {
   program
     .command('serve')
     .description('HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).')
@@ -254,7 +269,30 @@ export function buildProgram(): Command {
       const { runServeCommand } = await import('./commands/serve.js');
       await runServeCommand(opts);
     });
+}
 
+export function buildProgram(): Command {
+  const program = new Command();
+  program
+    .name('heatledger')
+    .description(
+      'District land-surface-temperature statistics, apparent thermal inertia and surface heat island intensity from GeoTIFF scene archives.\n\n' +
+        CAUTION,
+    )
+    .version(VERSION, '-V, --version')
+    .showHelpAfterError('(run with --help for usage)')
+    .exitOverride()
+    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+
+  addZonalCommand(program);
+  addIngestCommand(program);
+  addStatusCommand(program);
+  addTableCommand(program);
+  addTrendCommand(program);
+  addHotspotsCommand(program);
+  addWorkerCommand(program);
+  addDemoCommand(program);
+  addServeCommand(program);
   return program;
 }
 

@@ -107,37 +107,41 @@ function createRunner(
   return createConfiguredRunner(config, { processorsModule: registryModuleUrl(), repo: createPipelineRepo(store), threads, threadedJobs: THREADED_JOBS }, limits);
 }
 
-/** Run the whole job. */
-export async function runPipeline(options: PipelineOptions, config: RuntimeConfig = runtimeConfig({ dataDir: options.dataDir })): Promise<PipelineSummary> {
-  const started = performance.now();
+/** The districts of a run; none may take the rural reference's id. */
+async function runDistricts(options: PipelineOptions): Promise<District[]> {
   const districts = await readDistricts(options.districtsPath, { idField: options.idField, nameField: options.nameField });
   if (districts.some((d) => d.id === RURAL_ID)) {
     throw new InputError(`a district has the id "${RURAL_ID}", which is reserved for the rural reference`, options.districtsPath);
   }
+  return districts;
+}
+
+/** The rural reference: the user's polygons, else a ring around the districts (without water), and how it was made. */
+async function ruralReference(options: PipelineOptions, districts: District[]): Promise<{ rural: District; description: string }> {
+  if (options.ruralPath) {
+    return { rural: await readRuralReference(options.ruralPath), description: `user polygon(s) from ${options.ruralPath}` };
+  }
   const inner = options.ruralInnerMetres ?? RURAL_RING_INNER_METRES;
   const outer = options.ruralOuterMetres ?? RURAL_RING_OUTER_METRES;
-  let rural: District;
-  let ruralDescription: string;
-  if (options.ruralPath) {
-    rural = await readRuralReference(options.ruralPath);
-    ruralDescription = `user polygon(s) from ${options.ruralPath}`;
-  } else {
-    rural = ruralRing(districts, inner, outer, { source: options.districtsPath });
-    ruralDescription = `ring ${inner}-${outer} m outside the union of the districts`;
-    if (options.waterPath) {
-      rural = await subtractWater(rural, options.waterPath);
-      ruralDescription += `, water from ${options.waterPath} excluded`;
-    }
-  }
+  const ring = ruralRing(districts, inner, outer, { source: options.districtsPath });
+  const description = `ring ${inner}-${outer} m outside the union of the districts`;
+  if (!options.waterPath) return { rural: ring, description };
+  return { rural: await subtractWater(ring, options.waterPath), description: `${description}, water from ${options.waterPath} excluded` };
+}
 
+/** The scene files of a run (hashed, duplicates and unreadable paths apart), each with its manifest entry. */
+async function runScenes(options: PipelineOptions) {
   const manifest = options.manifestPath ? await readManifest(options.manifestPath) : new Map<string, ManifestEntry>();
-  const { files, duplicates, unreadable } = await listScenes(options.inputs, options.albedoInputs ?? []);
-  for (const f of files) f.manifest = manifest.get(f.path);
-
+  const listing = await listScenes(options.inputs, options.albedoInputs ?? []);
+  for (const f of listing.files) f.manifest = manifest.get(f.path);
   if (options.qaMaskBits === undefined && [...manifest.values()].some((m) => m.qa)) {
     throw new InputError('the manifest gives QA rasters; say which QA bits mask a pixel with --qa-mask', options.manifestPath);
   }
+  return listing;
+}
 
+/** The run's parameters as stored with it (and fingerprinted into its job ids). */
+function runParameters(options: PipelineOptions, districts: District[], ruralDescription: string) {
   const deriveOptions: DeriveOptions = { ...DEFAULT_DERIVE_OPTIONS, ...options.derive };
   const coverage = options.coverage ?? 'centre';
   const plausibleKelvin = options.plausibleKelvin === undefined ? ([...PLAUSIBLE_RANGE_KELVIN] as [number, number]) : options.plausibleKelvin;
@@ -152,6 +156,24 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     qaMaskBits: options.qaMaskBits ?? null,
     districtIds: districts.map((d) => d.id),
   };
+  return { params, deriveOptions, coverage, plausibleKelvin };
+}
+
+/** The districts and the rural reference as stored rows. */
+function districtRows(districts: District[], rural: District, ruralDescription: string) {
+  return [
+    ...districts.map((d) => ({ id: d.id, name: d.name, role: 'district' as const, geometry: d.geometry, areaSquareMetres: d.areaSquareMetres, properties: d.properties })),
+    { id: RURAL_ID, name: 'rural reference', role: 'rural' as const, geometry: rural.geometry, areaSquareMetres: rural.areaSquareMetres, properties: { description: ruralDescription } },
+  ];
+}
+
+/** Run the whole job: read the inputs, record the run, run its job tree, record how it ended. */
+export async function runPipeline(options: PipelineOptions, config: RuntimeConfig = runtimeConfig({ dataDir: options.dataDir })): Promise<PipelineSummary> {
+  const started = performance.now();
+  const districts = await runDistricts(options);
+  const { rural, description: ruralDescription } = await ruralReference(options, districts);
+  const { files, duplicates, unreadable } = await runScenes(options);
+  const { params, deriveOptions, coverage, plausibleKelvin } = runParameters(options, districts, ruralDescription);
 
   const budgetMs = options.serviceRetryBudgetSeconds !== undefined ? options.serviceRetryBudgetSeconds * 1000 : DEFAULT_SERVICE_RETRY_BUDGET_MS;
   // A database server that is away is waited for (within the budget); an embedded store is not a service.
@@ -162,10 +184,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   let interrupted = false;
   let finishing: Promise<void> | null = null;
   try {
-    await onServer(() => upsertDistricts(store, [
-      ...districts.map((d) => ({ id: d.id, name: d.name, role: 'district' as const, geometry: d.geometry, areaSquareMetres: d.areaSquareMetres, properties: d.properties })),
-      { id: RURAL_ID, name: 'rural reference', role: 'rural' as const, geometry: rural.geometry, areaSquareMetres: rural.areaSquareMetres, properties: { description: ruralDescription } },
-    ]));
+    await onServer(() => upsertDistricts(store, districtRows(districts, rural, ruralDescription)));
     const runId = await onServer(() => startRun(store, {
       softwareVersion: VERSION, mode: config.mode, parameters: params, ownerHost: os.hostname(), ownerPid: process.pid, scenesAsked: files.length,
     }));

@@ -107,7 +107,7 @@ function addIngestCommand(program: Command): void {
     .command('ingest')
     .description(
       'Process a scene archive: register scenes, compute district statistics, pair day/night passes, derive ATI and SUHI, store them.\n' +
-        'Embedded (in-process, PGlite in --data-dir) unless REDIS_URL and DATABASE_URL are set (then jobs go to `heatledger worker` processes).',
+        'Embedded (in-process, an embedded database in --data-dir) unless REDIS_URL and DATABASE_URL are set (then jobs go to `heatledger worker` processes).',
     )
     .argument('<inputs...>', 'LST GeoTIFF files or folders (searched recursively)')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')

@@ -21,7 +21,7 @@ export const ENV = {
   serviceRetryBudget: 'HEATLEDGER_SERVICE_RETRY_BUDGET',
   /** Seconds ingest waits with no worker activity before it ends the run incomplete (ingest --stall-timeout). */
   stallTimeout: 'HEATLEDGER_STALL_TIMEOUT',
-  /** Seconds between BullMQ's checks for jobs of dead workers (worker --stalled-interval; the same on every worker). */
+  /** Seconds between the queue's checks for jobs of dead workers (worker --stalled-interval; the same on every worker). */
   stalledInterval: 'HEATLEDGER_STALLED_INTERVAL',
   /** Folder the API shows scene paths relative to (default: the common folder of the stored scenes). */
   dataRoot: 'HEATLEDGER_DATA_ROOT',

@@ -4,7 +4,7 @@ import { runtimeConfig, type RuntimeConfig } from '../run/config.js';
 import type { Store } from '../store/index.js';
 
 /**
- * Open the configured store for reading (embedded PGlite in --data-dir, or DATABASE_URL), run `fn`, close.
+ * Open the configured store for reading (the embedded database in --data-dir, or the server the store side is configured with), run `fn`, close.
  * An embedded store must exist (a mistyped --data-dir is an InputError, nothing is created) and is
  * read through its owner's socket while another process (an ingest) owns it.
  */

@@ -1,8 +1,9 @@
 /**
  * The main job: districts + a scene archive → zonal statistics, ATI and SUHI
- * in the store. The same code runs embedded (in-process runner, PGlite) and
- * distributed (BullMQ on Redis, PostgreSQL server); the only difference is
- * which runner and which store `openRuntime` hands back.
+ * in the store. The same code runs embedded (in-process runner, embedded
+ * database) and distributed (queue workers on Redis, PostgreSQL server); the
+ * only difference is which runner queue/configured.ts and which store
+ * store/configured.ts hand back.
  */
 import os from 'node:os';
 import { InputError, isServiceError } from '../core/errors.js';

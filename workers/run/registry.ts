@@ -1,5 +1,5 @@
 /**
- * The processors registry: what runners (in-process threads, BullMQ worker
+ * The processors registry: what runners (in-process threads, queue worker
  * processes) import to find the processors and make their repository.
  */
 import { existsSync } from 'node:fs';

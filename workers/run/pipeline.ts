@@ -25,7 +25,8 @@ import type { Store } from '../store/index.js';
 import { openConfiguredStore } from '../store/configured.js';
 import { upsertDistricts } from '../store/districts.js';
 import { startRun, finishRun } from '../store/runs.js';
-import { markSceneFailed } from '../store/scenes.js';
+import { markSceneFailed, scenesNotProcessed } from '../store/scenes.js';
+import { storeIdentity } from '../store/identity.js';
 import { onInterrupt } from '../store/interrupt.js';
 import { runtimeConfig, type RuntimeConfig } from './config.js';
 import { buildFlow } from './flow.js';
@@ -77,16 +78,6 @@ export interface PipelineSummary {
   /** How the run ended, as stored in its row. */
   outcome: RunOutcome;
   seconds: number;
-}
-
-/** Store identity: part of every job id, so a fresh database never inherits another's completed jobs. */
-async function storeIdentity(store: Store): Promise<string> {
-  const rows = await store.query<{ sys: string; db: number; name: string }>(
-    `SELECT (SELECT system_identifier::text FROM pg_control_system()) AS sys,
-            (SELECT oid::int FROM pg_database WHERE datname = current_database()) AS db,
-            current_database() AS name`,
-  );
-  return `${rows[0].sys}/${rows[0].db}/${rows[0].name}`;
 }
 
 /** The rural ring without the water polygons of `waterPath` (GeoJSON; ids optional). */
@@ -201,7 +192,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       // stop handing out jobs (not awaited: a job blocked in a read must not hold up the exit)
       if (runner) void runner.close().catch(() => undefined);
       runner = null;
-      const left = await scenesLeft(store, files.map((f) => f.contentHash));
+      const left = await scenesNotProcessed(store, files.map((f) => f.contentHash));
       await finishRun(store, runId, { status: 'interrupted', error: `stopped by ${signal}`, scenesLeft: left });
       return { message: `interrupted; run ${runId} marked interrupted, ${left} scene(s) left — run the same ingest again to finish them` };
     });
@@ -268,13 +259,4 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
 /** A promise that never settles: the run was stopped by a signal and the process is exiting. */
 function untilExit(): Promise<never> {
   return new Promise<never>(() => undefined);
-}
-
-/** Scene files of a run (by content hash) not yet stored as processed. */
-async function scenesLeft(store: Store, contentHashes: string[]): Promise<number> {
-  const rows = await store.query<{ n: number }>(
-    `SELECT count(*)::int AS n FROM scenes WHERE content_hash = ANY($1::text[]) AND status = 'processed'`,
-    [contentHashes],
-  );
-  return contentHashes.length - rows[0].n;
 }

@@ -1,6 +1,7 @@
 /** The derived_metrics table: LST, SUHI and ATI per district and date. */
 import type { AlbedoSource, DerivedRow as DerivedValues } from '../core/derive/metrics.js';
 import { type Db, BATCH_ROWS, inTransaction, num } from './db.js';
+import type { Store } from './store.js';
 
 export type { AlbedoSource };
 
@@ -78,4 +79,12 @@ export function listDerived(db: Db, filter: { districtId?: string } = {}): Promi
      ORDER BY district_id COLLATE "C", obs_date, day_scene_id, night_scene_id`,
     [filter.districtId ?? null],
   );
+}
+
+/** Replace every derived row of these districts with `rows`, in one transaction. */
+export function replaceDerivedFor(store: Store, districtIds: string[], rows: DerivedInput[]): Promise<number> {
+  return store.transaction(async (tx) => {
+    await tx.query('DELETE FROM derived_metrics WHERE district_id = ANY($1::text[])', [districtIds]);
+    return replaceDerived(tx, rows);
+  });
 }

@@ -10,3 +10,4 @@ export * from './scenes.js';
 export * from './zonal-stats.js';
 export * from './derived.js';
 export * from './district-tables.js';
+export { storeIdentity } from './identity.js';

@@ -22,19 +22,11 @@ function bindPipelineRepo(store: Store) {
     listScenes: (filter: { kind?: repo.SceneKind; status?: repo.SceneStatus }) => repo.listScenes(store, filter),
     zonalStatsForScenes: (ids: number[]) => repo.zonalStatsForScenes(store, ids),
     /** District ids with stored statistics for a scene under a coverage rule. */
-    zonalDistrictsOfScene: async (sceneId: number, coverageRule: string): Promise<string[]> =>
-      (await store.query<{ id: string }>(
-        `SELECT district_id AS id FROM zonal_stats WHERE scene_id = $1 AND coverage_rule = $2 ORDER BY district_id COLLATE "C"`,
-        [sceneId, coverageRule],
-      )).map((r) => r.id),
+    zonalDistrictsOfScene: (sceneId: number, coverageRule: string) => repo.zonalDistrictsOfScene(store, sceneId, coverageRule),
     replaceZonalStats: (sceneId: number, rows: repo.ZonalStatsInput[], runId: number | null) =>
       repo.replaceZonalStats(store, sceneId, rows, { runId }),
     /** Replace every derived row of these districts with `rows`, in one transaction. */
-    replaceDerivedFor: (districtIds: string[], rows: repo.DerivedInput[]) =>
-      store.transaction(async (tx) => {
-        await tx.query('DELETE FROM derived_metrics WHERE district_id = ANY($1::text[])', [districtIds]);
-        return repo.replaceDerived(tx, rows);
-      }),
+    replaceDerivedFor: (districtIds: string[], rows: repo.DerivedInput[]) => repo.replaceDerivedFor(store, districtIds, rows),
   };
 }
 

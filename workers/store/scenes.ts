@@ -219,3 +219,12 @@ export function failures(db: Db): Promise<FailureRow[]> {
      FROM scenes WHERE status = 'failed' ORDER BY path COLLATE "C", id`,
   );
 }
+
+/** Scene files of a run (by content hash) not yet stored as processed. */
+export async function scenesNotProcessed(db: Db, contentHashes: string[]): Promise<number> {
+  const rows = await db.query<{ n: number }>(
+    `SELECT count(*)::int AS n FROM scenes WHERE content_hash = ANY($1::text[]) AND status = 'processed'`,
+    [contentHashes],
+  );
+  return contentHashes.length - rows[0].n;
+}

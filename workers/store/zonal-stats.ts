@@ -124,3 +124,11 @@ export function zonalStatsForScenes(db: Db, sceneIds: number[]): Promise<ZonalSt
     [sceneIds],
   );
 }
+
+/** District ids with stored statistics for a scene under a coverage rule. */
+export async function zonalDistrictsOfScene(db: Db, sceneId: number, coverageRule: string): Promise<string[]> {
+  return (await db.query<{ id: string }>(
+    `SELECT district_id AS id FROM zonal_stats WHERE scene_id = $1 AND coverage_rule = $2 ORDER BY district_id COLLATE "C"`,
+    [sceneId, coverageRule],
+  )).map((r) => r.id);
+}

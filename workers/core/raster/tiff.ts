@@ -74,7 +74,9 @@ export function readExactlySync(fd: number, path: string, position: number, leng
     try {
       bytesRead = readSync(fd, buf, done, length - done, position + done);
     } catch (e) {
-      throw new InputError(`cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+      const code = (e as NodeJS.ErrnoException).code;
+      if (code === 'EISDIR') throw new InputError('is a directory, not a GeoTIFF', path);
+      throw new InputError(`cannot read ${what} (${code ?? (e as Error).message})`, path);
     }
     if (bytesRead === 0) {
       throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);

@@ -128,18 +128,24 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push('Water holds the day\'s heat into the night, so rivers and lakes often top the night list;');
   out.push('for heat exposure look at the built-up districts among them.');
   out.push('');
+  const builtInOf = (id: string): number => (DISTRICTS.find((d) => d.id === id)?.trendKelvinPerYear ?? 0) * DEMO_ARCHIVE.warmingScale;
   const rising = trends.filter((t) => t.direction === 'increasing').sort((a, b) => (b.slope_per_year as number) - (a.slope_per_year as number));
   out.push(`Night heat island rising significantly, summers ${years[0]}–${years[years.length - 1]} (Mann–Kendall, Benjamini–Hochberg q ≤ 0.05 across ${trends.length} districts;`);
   out.push('Sen slope per decade with its 95 % interval):');
   if (rising.length === 0) out.push('  none');
   for (const t of rising) {
     const dec = (x: number | null): string => (x === null ? '-' : `${x * 10 >= 0 ? '+' : ''}${(x * 10).toFixed(2)}`);
-    const builtIn = (DISTRICTS.find((d) => d.id === t.district)?.trendKelvinPerYear ?? 0) * DEMO_ARCHIVE.warmingScale;
+    const builtIn = builtInOf(t.district);
     out.push(`  ${label({ id: t.district, name: t.name }).padEnd(34)} ${dec(t.slope_per_year)} K/decade [${dec(t.slope_ci_lower)}, ${dec(t.slope_ci_upper)}]  q = ${(t.q as number).toPrecision(2)}  (built into the demo: ${dec(builtIn)})`);
+  }
+  if (rising.some((t) => t.slope_ci_lower !== null && t.slope_ci_upper !== null
+    && (builtInOf(t.district) < t.slope_ci_lower || builtInOf(t.district) > t.slope_ci_upper))) {
+    out.push('  A 95 % interval misses the true slope about one time in twenty, so with several warming districts');
+    out.push('  one interval that leaves out the built-in warming is no surprise.');
   }
   if (rising.some((t) => !(DISTRICTS.find((d) => d.id === t.district)?.trendKelvinPerYear))) {
     out.push('  A district the demo does not warm is listed: a false discovery, which FDR control at q ≤ 0.05 allows');
-    out.push('  now and then (clouds change which dates each summer\'s mean rests on).');
+    out.push('  now and then (summer means vary with the weather and with which dates were clear).');
   }
   if (hotspots) {
     const hot = hotspots.rows.filter((r) => r.spot === 'hot').sort((a, b) => (b.gi_z as number) - (a.gi_z as number));

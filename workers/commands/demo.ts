@@ -62,8 +62,8 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   const { runPipeline } = await import('../pipeline.js');
   const { openConfiguredStore } = await import('../store/configured.js');
   process.stderr.write(`Running the pipeline (${config.mode}; results in ${config.databaseUrl ? 'the PostgreSQL server' : resolve(config.dataDir)}) ...\n`);
-  // The rural ring on land only: the sea fills about a third of the default ring, is some 6 K warmer
-  // than the fields at night and 10 K cooler by day, and clouds hide a different share of it on every
+  // The rural ring on land only: the sea fills about a quarter of the default ring, is some 6 K warmer
+  // than the fields at night and 9.5 K cooler by day, and clouds hide a different share of it on every
   // date, so a ring with the sea in it would add the same year-to-year noise to every district's SUHI.
   const summary = await runPipeline({ inputs: [archive], districtsPath, waterPath, threads: opts.threads }, config);
   process.stdout.write(summaryLines(summary).join('\n') + '\n');

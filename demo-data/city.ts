@@ -80,6 +80,29 @@ export function riverCentreX(northingMetres: number): Metres {
   return CITY_GRID.originXMetres + 6300 + 700 * Math.sin(y / 1800) - 400 * Math.cos(y / 3100);
 }
 
+/** Northing of the coast (UTM 25N metres): open sea south of it. */
+export const COAST_NORTHING_METRES = (CITY_GRID.originYMetres - 4000) as Metres;
+/** Half-width of the estuary that joins the harbour basin to the open sea, metres. */
+export const ESTUARY_HALF_WIDTH_METRES = 1500 as Metres;
+/** Half-width of the river outside the city, metres. */
+export const RIVER_HALF_WIDTH_METRES = 120 as Metres;
+
+/** Surfaces outside the districts. */
+export type OuterSurface = 'sea' | 'water' | 'farmland';
+
+/**
+ * Surface of a UTM 25N point (metres) outside the districts: the open sea
+ * south of the coast and the estuary from the harbour basin to it, the river
+ * through the farmland, and farmland everywhere else.
+ */
+export function outerSurfaceAt(eastingMetres: number, northingMetres: number): OuterSurface {
+  const mouthX = riverCentreX(CITY_GRID.originYMetres);
+  if (northingMetres < COAST_NORTHING_METRES) return 'sea';
+  if (northingMetres < CITY_GRID.originYMetres && Math.abs(eastingMetres - mouthX) < ESTUARY_HALF_WIDTH_METRES) return 'sea';
+  if (Math.abs(eastingMetres - riverCentreX(northingMetres)) < RIVER_HALF_WIDTH_METRES) return 'water';
+  return 'farmland';
+}
+
 /** District index (into DISTRICTS) of a city-relative point X, Y in metres from the grid origin; -1 outside the city. */
 function districtOfCityPoint(X: number, Y: number): number {
   const W = CITY_GRID.cols * CITY_GRID.blockMetres;
@@ -313,4 +336,77 @@ export function districtCollection(): DistrictCollection {
 export async function writeDistrictsGeoJson(path: string): Promise<void> {
   await mkdir(dirname(path), { recursive: true });
   await writeFile(path, JSON.stringify(districtCollection()) + '\n');
+}
+
+/** Points every `stepMetres` or closer from a to b, a included, b not. */
+function densify(a: [number, number], b: [number, number], stepMetres: number): [number, number][] {
+  const n = Math.max(1, Math.ceil(Math.hypot(b[0] - a[0], b[1] - a[1]) / stepMetres));
+  return Array.from({ length: n }, (_, i) => [a[0] + ((b[0] - a[0]) * i) / n, a[1] + ((b[1] - a[1]) * i) / n] as [number, number]);
+}
+
+export interface WaterFeature {
+  type: 'Feature';
+  properties: { name: string };
+  geometry: { type: 'Polygon'; coordinates: number[][][] };
+}
+
+/**
+ * The water outside the districts (see {@link outerSurfaceAt}) as a GeoJSON
+ * FeatureCollection (lon/lat WGS 84, outer rings counter-clockwise): the open
+ * sea with the estuary, and the river north of the city, both reaching
+ * `marginMetres` beyond the block grid. Straight edges are split every 500 m
+ * (the coast and estuary banks) or 50 m (the meandering river banks) so that
+ * their lon/lat chords stay within a metre of the UTM lines. Deterministic.
+ * @example waterCollection(12000).features.length // 2
+ */
+export function waterCollection(marginMetres: number): { type: 'FeatureCollection'; features: WaterFeature[] } {
+  const toLonLat = proj4(UTM_25N_PROJ4, 'WGS84');
+  const conv = ([x, y]: [number, number]): number[] => {
+    const [lon, lat] = toLonLat.forward([x, y]);
+    return [round7(lon), round7(lat)];
+  };
+  const ring = (corners: [number, number][], stepMetres: number): number[][] => {
+    const pts = corners.flatMap((p, i) => densify(p, corners[(i + 1) % corners.length], stepMetres));
+    const out = pts.map(conv);
+    out.push(out[0]);
+    return out;
+  };
+  const west = CITY_GRID.originXMetres - marginMetres;
+  const east = CITY_GRID.originXMetres + CITY_GRID.cols * CITY_GRID.blockMetres + marginMetres;
+  const south = CITY_GRID.originYMetres - marginMetres;
+  const north = CITY_GRID.originYMetres + CITY_GRID.rows * CITY_GRID.blockMetres + marginMetres;
+  const mouthX = riverCentreX(CITY_GRID.originYMetres);
+  const coast = COAST_NORTHING_METRES;
+  const half = ESTUARY_HALF_WIDTH_METRES;
+  // Counter-clockwise: along the southern edge eastwards, then back west along the coast and around the estuary.
+  const sea: [number, number][] = [
+    [west, south], [east, south], [east, coast], [mouthX + half, coast],
+    [mouthX + half, CITY_GRID.originYMetres], [mouthX - half, CITY_GRID.originYMetres], [mouthX - half, coast], [west, coast],
+  ];
+  // The river from the middle of the city (inside the districts, so the cut is not changed by it) to the northern edge:
+  // up the east bank, down the west bank.
+  const riverFrom = CITY_GRID.originYMetres + (CITY_GRID.rows * CITY_GRID.blockMetres) / 2;
+  const steps = Math.ceil((north - riverFrom) / 50);
+  const northings = Array.from({ length: steps + 1 }, (_, i) => riverFrom + ((north - riverFrom) * i) / steps);
+  const river: number[][] = [
+    ...northings.map((y) => conv([riverCentreX(y) + RIVER_HALF_WIDTH_METRES, y])),
+    ...northings.slice().reverse().map((y) => conv([riverCentreX(y) - RIVER_HALF_WIDTH_METRES, y])),
+  ];
+  river.push(river[0]);
+  return {
+    type: 'FeatureCollection',
+    features: [
+      { type: 'Feature', properties: { name: 'open sea and estuary' }, geometry: { type: 'Polygon', coordinates: [ring(sea, 500)] } },
+      { type: 'Feature', properties: { name: 'Corven River outside the city' }, geometry: { type: 'Polygon', coordinates: [river] } },
+    ],
+  };
+}
+
+/**
+ * Write the water GeoJSON (see {@link waterCollection}) to `path`, creating its folder.
+ * @example await writeWaterGeoJson('demo-data/.generated/corvenmouth_water.geojson', 12000)
+ */
+export async function writeWaterGeoJson(path: string, marginMetres: number): Promise<void> {
+  await mkdir(dirname(path), { recursive: true });
+  await writeFile(path, JSON.stringify(waterCollection(marginMetres)) + '\n');
 }

@@ -22,7 +22,7 @@ import { InputError, isInputError } from '../workers/core/errors.js';
 import type { Affine } from '../workers/core/raster/affine.js';
 import { writeGeoTiff } from '../workers/core/raster/write.js';
 import type { Kelvin, Metres } from '../workers/core/units.js';
-import { CITY_EPSG, CITY_GRID, CITY_NAME, CITY_SLUG, DISTRICTS, districtAt, riverCentreX, writeDistrictsGeoJson, type LandUse } from './city.js';
+import { CITY_EPSG, CITY_GRID, CITY_NAME, CITY_SLUG, DISTRICTS, districtAt, outerSurfaceAt, writeDistrictsGeoJson, writeWaterGeoJson, type LandUse } from './city.js';
 import { mulberry32 } from '../workers/core/prng.js';
 export { mulberry32 };
 
@@ -52,6 +52,8 @@ export interface ArchiveResult {
   files: string[];
   /** The districts GeoJSON written beside them. */
   districtsPath: string;
+  /** The water outside the districts (sea, estuary, river) as GeoJSON, written beside them. */
+  waterPath: string;
 }
 
 /** Landsat Collection 2 Level-2 ST scaling (USGS LSDS-1328). */
@@ -144,8 +146,6 @@ function buildScenery(pixel: number, margin: number, seed: number, trends: reado
   const nightBaseK = new Float32Array(n);
   const trendKPerYear = new Float32Array(n);
   const albedo = new Float32Array(n);
-  const coastY = CITY_GRID.originYMetres - 4000; // open sea south of this line
-  const mouthX = riverCentreX(CITY_GRID.originYMetres);
   // A small per-district offset so districts of one land use differ a little.
   const districtDayOffset = DISTRICTS.map((_, i) => (hash2(i, 1, seed) - 0.5) * 1.4);
   const districtNightOffset = DISTRICTS.map((_, i) => (hash2(i, 2, seed) - 0.5) * 0.6);
@@ -164,19 +164,16 @@ function buildScenery(pixel: number, margin: number, seed: number, trends: reado
         nightOff = districtNightOffset[d];
         alb = spec.albedo;
         trendKPerYear[k] = trends[d];
-      } else if (y < coastY || (y < CITY_GRID.originYMetres && Math.abs(x - mouthX) < 1500)) {
-        surface = 'sea'; // open sea, and the estuary from the harbour basin to it
-        alb = RURAL_ALBEDO.sea;
-      } else if (Math.abs(x - riverCentreX(y)) < 120) {
-        surface = 'water';
-        alb = RURAL_ALBEDO.water;
       } else {
-        surface = 'farmland';
-        // Fields of about 600 m: bare or harvested fields run hotter by day than green crops.
-        const field = hash2(Math.floor(x / 600), Math.floor(y / 600), seed + 7) - 0.5;
-        dayOff = 5 * field;
-        nightOff = -1.2 * field;
-        alb = RURAL_ALBEDO.farmland - 0.05 * field;
+        surface = outerSurfaceAt(x, y); // open sea and estuary, the river, or farmland
+        alb = RURAL_ALBEDO[surface];
+        if (surface === 'farmland') {
+          // Fields of about 600 m: bare or harvested fields run hotter by day than green crops.
+          const field = hash2(Math.floor(x / 600), Math.floor(y / 600), seed + 7) - 0.5;
+          dayOff = 5 * field;
+          nightOff = -1.2 * field;
+          alb = RURAL_ALBEDO.farmland - 0.05 * field;
+        }
       }
       const isWater = surface === 'water' || surface === 'sea';
       const texture = valueNoise(x, y, 900, seed + 11) + 0.5 * valueNoise(x, y, 250, seed + 13);
@@ -267,7 +264,8 @@ function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
  * Generate the demo archive into `outDir` (created if needed): for every
  * summer `pairsPerYear` day scenes (~13:30 local solar time) each followed by a
  * night scene the following night (~01:30 local solar time), one albedo scene
- * per year, and the districts GeoJSON. File names:
+ * per year, the districts GeoJSON and the water outside the districts as GeoJSON
+ * (`corvenmouth_water.geojson`, for `--water`). File names:
  * `corvenmouth_<yyyymmdd>T<hhmm>_lst_day.tif`, `..._lst_night.tif`, `..._albedo.tif`
  * (UTC). Metadata: KIND (lst / albedo), PASS (day / night), ACQUISITION_TIME
  * (UTC ISO 8601), CLOUD_COVER (percent), CITY.
@@ -381,9 +379,11 @@ export async function generateArchive(outDir: string, options: ArchiveOptions = 
   await flush();
   const districtsPath = join(outDir, `${CITY_SLUG}_districts.geojson`);
   await writeDistrictsGeoJson(districtsPath);
+  const waterPath = join(outDir, `${CITY_SLUG}_water.geojson`);
+  await writeWaterGeoJson(waterPath, o.ruralMarginMetres + 1000);
   const stamp = (p: string): string => basename(p).split('_')[1];
   files.sort((p, q) => (stamp(p) < stamp(q) ? -1 : stamp(p) > stamp(q) ? 1 : 0));
-  return { files, districtsPath };
+  return { files, districtsPath, waterPath };
 }
 
 /** Default output folder, relative to the working directory (the repository root under `npm run`). */
@@ -396,8 +396,8 @@ export async function main(argv: string[] = process.argv.slice(2)): Promise<numb
   const outDir = resolve(argv[0] ?? defaultArchiveDir());
   try {
     const t0 = Date.now();
-    const { files, districtsPath } = await generateArchive(outDir);
-    console.log(`${CITY_NAME}: wrote ${files.length} scenes and ${districtsPath} into ${outDir} in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
+    const { files, districtsPath, waterPath } = await generateArchive(outDir);
+    console.log(`${CITY_NAME}: wrote ${files.length} scenes, ${districtsPath} and ${waterPath} into ${outDir} in ${((Date.now() - t0) / 1000).toFixed(1)} s`);
     return 0;
   } catch (e) {
     console.error(e instanceof Error ? e.message : String(e));

@@ -73,8 +73,11 @@ async function tablesOf(dataDir: string): Promise<Tables> {
   }
 }
 
+// The held scene's QA raster is a copy of an LST scene (UInt16 DNs): bit 16 is never set, so it masks no pixel.
+const QA_MASK_NONE = '0x10000';
+
 function ingestArgs(dataDir: string): string[] {
-  return ['ingest', archiveDir, '--districts', archive.districtsPath, '--manifest', manifestPath, '--qa-mask', '0', '--threads', '1', '--no-progress', '--data-dir', dataDir];
+  return ['ingest', archiveDir, '--districts', archive.districtsPath, '--manifest', manifestPath, '--qa-mask', QA_MASK_NONE, '--threads', '1', '--no-progress', '--data-dir', dataDir];
 }
 
 interface Child { child: ChildProcess; stdout(): string; stderr(): string; exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }> }
@@ -206,7 +209,7 @@ describe('one owner per embedded store', () => {
     await releaseHold();
     // a store with the first summer only (the files of 2019: generator default firstYear)
     const firstSummer = archive.files.filter((f) => path.basename(f).includes('_2019'));
-    await cliOk(['ingest', ...firstSummer, '--districts', archive.districtsPath, '--manifest', manifestPath, '--qa-mask', '0', '--threads', '1', '--no-progress', '--data-dir', dataDir], env, 300_000);
+    await cliOk(['ingest', ...firstSummer, '--districts', archive.districtsPath, '--manifest', manifestPath, '--qa-mask', QA_MASK_NONE, '--threads', '1', '--no-progress', '--data-dir', dataDir], env, 300_000);
     const before = await tablesOf(dataDir);
     expect(before.scenes).toBe(firstSummer.length);
 

@@ -125,10 +125,19 @@ export function zonalStatsForScenes(db: Db, sceneIds: number[]): Promise<ZonalSt
   );
 }
 
-/** District ids with stored statistics for a scene under a coverage rule. */
+/**
+ * District ids with statistics for a scene under a coverage rule that are still current: computed
+ * in a run that started after the district (its geometry, e.g. a rural ring with water cut out)
+ * was last changed. Statistics of a district changed since, or of an unknown run, are not counted.
+ */
 export async function zonalDistrictsOfScene(db: Db, sceneId: number, coverageRule: string): Promise<string[]> {
   return (await db.query<{ id: string }>(
-    `SELECT district_id AS id FROM zonal_stats WHERE scene_id = $1 AND coverage_rule = $2 ORDER BY district_id COLLATE "C"`,
+    `SELECT z.district_id AS id
+     FROM zonal_stats z
+     JOIN districts d ON d.id = z.district_id
+     JOIN runs r ON r.id = z.run_id
+     WHERE z.scene_id = $1 AND z.coverage_rule = $2 AND r.started_at >= d.updated_at
+     ORDER BY z.district_id COLLATE "C"`,
     [sceneId, coverageRule],
   )).map((r) => r.id);
 }

@@ -222,7 +222,7 @@ async function main(): Promise<void> {
 
   say('\n[start-up] whole-process medians of 5');
   const nodeBare = medianWall(NODE, ['-e', ''], 5);
-  const importZonal = medianWall(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/jobs/zonal-table.js'))})`], 5);
+  const importZonal = medianWall(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/commands/zonal-table.js'))})`], 5);
   const cliVersion = medianWall(NODE, [CLI, '--version'], 5);
   const pythonImport = withPeer ? medianWall(PYTHON, ['-c', 'import numpy, rasterio, rasterio.features, rasterio.warp'], 5) : null;
   say(`  node -e "" ${s3(nodeBare)} s; node -e "import('zonal-table.js')" ${s3(importZonal)} s; heatledger --version ${s3(cliVersion)} s` +

@@ -6,11 +6,11 @@
 import { InputError } from '../core/errors.js';
 import { benjaminiHochberg, parseMonths, seasonMonths, yearlySeries, type Hemisphere, type SeasonName } from '../core/trend/index.js';
 import { classifySpot, giStar, moranI, neighbours, type MoranResult, type WeightsKind } from '../core/hotspot/index.js';
-import { formatRows, type OutputFormat, type Row } from '../format.js';
+import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
 import type { Store } from '../store/index.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
 import { CAUTION_SHORT, withStore } from './common.js';
-import { metricUnit, roundSignificant, roundTo, storedHemisphere } from './trend.js';
+import { metricUnit, storedHemisphere } from './trend.js';
 
 export interface HotspotsCommandOptions {
   metric: string;
@@ -101,20 +101,20 @@ const FIELDS = ['district', 'name', 'value', 'years', 'neighbours', 'gi_z', 'gi_
 function roundRow(r: HotspotRow, metric: SeriesMetric): Row {
   return {
     ...r,
-    value: roundTo(r.value, metric === 'ati' ? 7 : 4),
-    gi_z: roundTo(r.gi_z, 4),
-    gi_p: roundSignificant(r.gi_p, 6),
-    gi_q: roundSignificant(r.gi_q, 6),
+    value: roundNumber(r.value, metric === 'ati' ? PRECISION.perKelvin : PRECISION.kelvin),
+    gi_z: roundNumber(r.gi_z, { decimals: 4 }),
+    gi_p: roundNumber(r.gi_p, PRECISION.probability),
+    gi_q: roundNumber(r.gi_q, PRECISION.probability),
   };
 }
 
 function roundMoran(m: MoranResult | null): Record<string, number> | null {
   if (!m) return null;
   return {
-    i: roundTo(m.i, 6) as number, expected: roundTo(m.expected, 6) as number,
-    variance_normal: roundSignificant(m.variance_normal, 6) as number, z_normal: roundTo(m.z_normal, 4) as number, p_normal: roundSignificant(m.p_normal, 6) as number,
-    variance_randomisation: roundSignificant(m.variance_randomisation, 6) as number, z_randomisation: roundTo(m.z_randomisation, 4) as number,
-    p_randomisation: roundSignificant(m.p_randomisation, 6) as number, islands: m.islands,
+    i: roundNumber(m.i, { decimals: 6 }) as number, expected: roundNumber(m.expected, { decimals: 6 }) as number,
+    variance_normal: roundNumber(m.variance_normal, PRECISION.plain) as number, z_normal: roundNumber(m.z_normal, { decimals: 4 }) as number, p_normal: roundNumber(m.p_normal, PRECISION.probability) as number,
+    variance_randomisation: roundNumber(m.variance_randomisation, PRECISION.plain) as number, z_randomisation: roundNumber(m.z_randomisation, { decimals: 4 }) as number,
+    p_randomisation: roundNumber(m.p_randomisation, PRECISION.probability) as number, islands: m.islands,
   };
 }
 

@@ -81,8 +81,10 @@ function peerAvailable(): boolean {
 
 function parseRows(text: string, who: string): StatsRow[] {
   try {
-    const rows = JSON.parse(text) as StatsRow[];
-    if (!Array.isArray(rows)) throw new Error('not an array');
+    // heatledger zonal prints { unit, values, rows }; the peer a plain array
+    const parsed = JSON.parse(text) as StatsRow[] | { rows: StatsRow[] };
+    const rows = Array.isArray(parsed) ? parsed : parsed.rows;
+    if (!Array.isArray(rows)) throw new Error('not an array of rows');
     return rows;
   } catch (e) {
     throw new Error(`${who} printed output that is not a JSON array of rows (${(e as Error).message})`);

@@ -13,7 +13,7 @@ import Fastify, { type FastifyError, type FastifyInstance } from 'fastify';
 import helmet from '@fastify/helmet';
 import type { Store } from '../workers/store/index.js';
 import { districtTable, roundTableRows, TABLE_FIELDS } from '../workers/store/district-table.js';
-import { snakeCaseKeys, toCsv } from '../workers/format.js';
+import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
 import { listDistricts, sceneStatusCounts, failures } from '../workers/store/repo.js';
 import { InputError, isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
@@ -158,7 +158,7 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     const fails = (await failures(store)).map((f) => {
       const rel = relativeToRoot(f.path, root);
       // the scene's own path first (it may hold blanks), then any other absolute path in the message
-      return { ...f, path: rel, error: relativeInText(f.error.split(f.path).join(rel), root) };
+      return { ...f, path: rel, error: relativeInText(problemText(f.error).split(f.path).join(rel), root) };
     });
     return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails });
   });

@@ -154,6 +154,25 @@ describe('district table: CSV and JSON numbers to the stated precision', () => {
   });
 });
 
+describe('hotspots: the value column is named after the metric and its unit', () => {
+  it('suhi_night_k in CSV and JSON, rounded to 0.0001 K', async () => {
+    // four districts with a 2024 value (test/support/heat-store.ts and mill above); knn keeps none without neighbours
+    const args = ['hotspots', '--metric', 'suhi_night', '--year', '2024', '--min-dates', '1', '--weights', 'knn', '--k', '2', '--data-dir', dataDir];
+    const csv = await runCli([...args, '--format', 'csv'], env());
+    expect(csv.code, csv.stderr).toBe(0);
+    const [header, ...rows] = readCsv(csv.stdout);
+    expect(header).toEqual(['district', 'name', 'suhi_night_k', 'years', 'neighbours', 'gi_z', 'gi_p', 'gi_q', 'spot', 'confidence']);
+    // reference: Python's .4f of the stored night SUHI (290.1 - 289 carries float noise)
+    const want = pythonFormat({ suhi_night_k: MILL_RAW.suhi_night_k }, '.4f');
+    expect(Number(rows.find((r) => r[0] === 'mill')![2])).toBe(want.suhi_night_k);
+    const json = await runCli([...args, '--format', 'json'], env());
+    expect(json.code, json.stderr).toBe(0);
+    const body = JSON.parse(json.stdout) as { unit: string; districts: Record<string, unknown>[] };
+    expect(body.unit).toBe('K');
+    for (const d of body.districts) expect(Object.keys(d)).toContain('suhi_night_k');
+  });
+});
+
 describe('status', () => {
   it('--format csv is one CSV table with one header line', async () => {
     const r = await runCli(['status', '--format', 'csv', '--data-dir', dataDir], env());

@@ -96,12 +96,21 @@ export async function districtHotspots(store: Store, q: HotspotQuery): Promise<H
   return { rows, moran: moranI(x, nb), leftOut, monthsLabel: sel.label };
 }
 
-const FIELDS = ['district', 'name', 'value', 'years', 'neighbours', 'gi_z', 'gi_p', 'gi_q', 'spot', 'confidence'];
+/** Output name of the value column: the metric with its unit (`suhi_night_k`, `ati_per_k`). */
+export function valueField(metric: SeriesMetric): string {
+  return metric === 'ati' ? 'ati_per_k' : `${metric}_k`;
+}
+
+function fieldsFor(metric: SeriesMetric): string[] {
+  return ['district', 'name', valueField(metric), 'years', 'neighbours', 'gi_z', 'gi_p', 'gi_q', 'spot', 'confidence'];
+}
 
 function roundRow(r: HotspotRow, metric: SeriesMetric): Row {
+  const { district, name, value, ...rest } = r;
   return {
-    ...r,
-    value: roundNumber(r.value, metric === 'ati' ? PRECISION.perKelvin : PRECISION.kelvin),
+    district, name,
+    [valueField(metric)]: roundNumber(value, metric === 'ati' ? PRECISION.perKelvin : PRECISION.kelvin),
+    ...rest,
     gi_z: roundNumber(r.gi_z, { decimals: 4 }),
     gi_p: roundNumber(r.gi_p, PRECISION.probability),
     gi_q: roundNumber(r.gi_q, PRECISION.probability),
@@ -148,12 +157,12 @@ export async function runHotspotsCommand(o: HotspotsCommandOptions): Promise<voi
       return;
     }
     if (o.format === 'csv') {
-      process.stdout.write(formatRows(rows, 'csv', { columns: FIELDS }));
+      process.stdout.write(formatRows(rows, 'csv', { columns: fieldsFor(metric) }));
       return;
     }
     const unit = metricUnit(metric).value;
     process.stdout.write(`Getis–Ord Gi* of ${metric} (${unit}), ${period}, ${report.monthsLabel}; weights: ${weightsText}, binary with self; ${o.fdr ? 'classes from Benjamini–Hochberg q' : 'classes from p'} (90/95/99 %)\n`);
-    process.stdout.write(formatRows(rows, 'table', { columns: FIELDS.filter((c) => o.fdr || c !== 'gi_q'), decimals: { value: metric === 'ati' ? 6 : 3, gi_z: 3, gi_p: 6, gi_q: 6 } }));
+    process.stdout.write(formatRows(rows, 'table', { columns: fieldsFor(metric).filter((c) => o.fdr || c !== 'gi_q'), decimals: { [valueField(metric)]: metric === 'ati' ? 6 : 3, gi_z: 3, gi_p: 6, gi_q: 6 } }));
     const m = report.moran;
     process.stdout.write(m
       ? `Global Moran's I (row-standardised weights): I = ${m.i.toFixed(4)}, E[I] = ${m.expected.toFixed(4)}; ` +

@@ -79,7 +79,7 @@ export function buildProgram(): Command {
     .command('zonal')
     .description(
       'Statistics of one raster per district: pixels, valid, valid_fraction, mean, std, min, max, median, p10, p90 (pixel-centre rule; type-7 percentiles).\n' +
-        'The unit of the statistics is stated once (JSON: top-level "unit", with "values" = lst, albedo or unknown, and the rows in "rows"; ' +
+        'The unit of the statistics is stated once (JSON: top-level "unit", with "kind" = lst, albedo or unknown, and the rows in "rows"; ' +
         'table: the first line; CSV: a line on standard error): K for an LST raster with a scale/offset or floating-point samples; ' +
         'no unit for an albedo raster (KIND=albedo metadata item or "albedo" in the file name; plausible range 0-1 instead of --plausible) ' +
         'or integer samples without scale/offset.\n' +

@@ -81,7 +81,7 @@ function peerAvailable(): boolean {
 
 function parseRows(text: string, who: string): StatsRow[] {
   try {
-    // heatledger zonal prints { unit, values, rows }; the peer a plain array
+    // heatledger zonal prints { unit, kind, rows }; the peer a plain array
     const parsed = JSON.parse(text) as StatsRow[] | { rows: StatsRow[] };
     const rows = Array.isArray(parsed) ? parsed : parsed.rows;
     if (!Array.isArray(rows)) throw new Error('not an array of rows');

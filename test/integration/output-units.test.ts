@@ -247,8 +247,8 @@ describe.skipIf(!hasGdal)('zonal states the unit of its statistics once (GDAL Py
     expect(lstScale.scale).not.toBe(1);
     const json = await zonal(lst, 'json');
     expect(json.code, json.stderr).toBe(0);
-    const body = JSON.parse(json.stdout) as { unit: string | null; values: string; rows: Record<string, unknown>[] };
-    expect({ unit: body.unit, values: body.values }).toEqual({ unit: 'K', values: 'lst' });
+    const body = JSON.parse(json.stdout) as { unit: string | null; kind: string; rows: Record<string, unknown>[] };
+    expect({ unit: body.unit, kind: body.kind }).toEqual({ unit: 'K', kind: 'lst' });
     for (const row of body.rows) expect(Object.keys(row)).toEqual(ZONAL_FIELDS);
     const table = await zonal(lst, 'table');
     expect(table.code, table.stderr).toBe(0);
@@ -265,8 +265,8 @@ describe.skipIf(!hasGdal)('zonal states the unit of its statistics once (GDAL Py
   it('no unit for an albedo raster, whose statistics follow the LST reference through a = (K - 170) / 190', async () => {
     const r = await zonal(albedo, 'json');
     expect(r.code, r.stderr).toBe(0);
-    const body = JSON.parse(r.stdout) as { unit: string | null; values: string; rows: Record<string, number | string | null>[] };
-    expect({ unit: body.unit, values: body.values }).toEqual({ unit: null, values: 'albedo' });
+    const body = JSON.parse(r.stdout) as { unit: string | null; kind: string; rows: Record<string, number | string | null>[] };
+    expect({ unit: body.unit, kind: body.kind }).toEqual({ unit: null, kind: 'albedo' });
     // reference: GDAL/rasterio + NumPy statistics of the LST raster (make_reference.py, case a_centre)
     const ref = JSON.parse(readFileSync(path.join(FIX, 'expected_a_centre.json'), 'utf8')) as { rows: Record<string, number | string | null>[] };
     expect(body.rows.map((x) => x.district)).toEqual(ref.rows.map((x) => x.district));
@@ -286,7 +286,7 @@ describe.skipIf(!hasGdal)('zonal states the unit of its statistics once (GDAL Py
   it('no unit for integer samples without scale/offset', async () => {
     const r = await zonal(plain, 'json');
     expect(r.code, r.stderr).toBe(0);
-    const body = JSON.parse(r.stdout) as { unit: string | null; values: string };
-    expect({ unit: body.unit, values: body.values }).toEqual({ unit: null, values: 'unknown' });
+    const body = JSON.parse(r.stdout) as { unit: string | null; kind: string };
+    expect({ unit: body.unit, kind: body.kind }).toEqual({ unit: null, kind: 'unknown' });
   });
 });

@@ -153,7 +153,7 @@ describe('zonal CLI (dist/workers/cli.js)', () => {
         expect(r.stderr).toBe('');
         expect(r.code).toBe(0);
         const body = JSON.parse(r.stdout) as { unit: string | null; rows: Record<string, unknown>[] };
-        expect(Object.keys(body)).toEqual(['unit', 'values', 'rows']);
+        expect(Object.keys(body)).toEqual(['unit', 'kind', 'rows']);
         // every reference raster is LST with a scale/offset or float samples (make_reference.py): Kelvin, said once
         expect(body.unit).toBe('K');
         const rows = body.rows;

@@ -67,7 +67,7 @@ export async function runZonalCommand(raster: string, opts: ZonalCommandOptions)
   // Warnings go to stderr in every format, so JSON and CSV on stdout stay clean.
   for (const w of warnings) process.stderr.write(`warning: ${w}\n`);
   if (opts.format === 'json') {
-    process.stdout.write(JSON.stringify({ unit: values.unit, values: values.kind, rows: zonalOutputRows(rows, values) }, null, 2) + '\n');
+    process.stdout.write(JSON.stringify({ unit: values.unit, kind: values.kind, rows: zonalOutputRows(rows, values) }, null, 2) + '\n');
   } else if (opts.format === 'csv') {
     // standard output stays one CSV table; the unit goes beside it, on standard error
     process.stderr.write(`heatledger: ${zonalUnitLine(values)}\n`);

@@ -10,7 +10,7 @@ import { readDistricts, ruralRing, subtractPolygons, type District } from './cor
 import type { DeriveOptions } from './core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from './core/derive/metrics.js';
 import { fingerprint, listScenes, readManifest, type ManifestEntry, type SceneKind, type UnreadablePath } from './jobs/archive.js';
-import { readMergedPolygons, readRuralReference } from './jobs/zonal-table.js';
+import { readMergedPolygons, readRuralReference } from './core/districts/merged.js';
 import { registryModuleUrl, THREADED_JOBS } from './jobs/registry.js';
 import { createPipelineRepo } from './jobs/repo.js';
 import type { IngestData } from './jobs/ingest.js';

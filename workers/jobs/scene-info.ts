@@ -8,7 +8,7 @@ import { pixelSize, pixelToMap } from '../core/raster/affine.js';
 import type { RasterHeader } from '../core/raster/index.js';
 import { crsDefinitionForEpsg, isGeographic, makeTransformer } from '../core/crs/index.js';
 import { classifyPass, rateTiming, type TimingRating } from '../core/solar/index.js';
-import { rasterCrs } from './zonal-table.js';
+import { rasterCrs } from '../core/raster/index.js';
 import { SCENE_KINDS, type ManifestEntry, type SceneKind } from './archive.js';
 
 /** Kind of a scene: the manifest, then the caller's default, then a KIND metadata item, then the file name; else 'lst'. */

@@ -447,11 +447,11 @@ export async function zonalScene(
     const summary: ValueSummary | null = s.int !== null ? s.int.summarize(scale, offset) : s.float!.summarize();
     const valid = s.tally[VALID];
     const validFraction = fraction ? s.tally[VALID_WEIGHT] / s.fraction!.sum : valid / s.pixels;
-    if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), valid_fraction: 0 }, counts };
+    if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), validFraction: 0 }, counts };
     const stats: ZonalStats = {
       pixels: s.pixels,
       valid,
-      valid_fraction: validFraction,
+      validFraction,
       mean: summary.mean,
       std: summary.std,
       min: summary.min,

@@ -12,8 +12,8 @@ import type { Writable } from 'node:stream';
 import Fastify, { type FastifyError, type FastifyInstance } from 'fastify';
 import helmet from '@fastify/helmet';
 import type { Store } from '../workers/store/index.js';
-import { districtTable, TABLE_FIELDS } from '../workers/commands/table.js';
-import { toCsv } from '../workers/format.js';
+import { districtTable, roundTableRows, TABLE_FIELDS } from '../workers/store/district-table.js';
+import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
 import { listDistricts, sceneStatusCounts, failures } from '../workers/store/index.js';
 import { InputError, isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
@@ -43,6 +43,9 @@ export interface AppOptions {
   /** Folder scene paths are shown relative to; default the common folder of the stored scenes. */
   dataRoot?: string;
 }
+
+/** Unit of each measured field of the district table (the suffix of its name). */
+export const TABLE_UNITS = { lst_day_k: 'K', lst_night_k: 'K', suhi_day_k: 'K', suhi_night_k: 'K', ati_per_k: '1/K' } as const;
 
 const tableQuery = {
   type: 'object',
@@ -141,12 +144,12 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     { schema: { querystring: tableQuery } },
     async (req, reply) => {
       const year = req.query.year === undefined ? undefined : parseYear(req.query.year, 'query parameter year');
-      const rows = await districtTable(store, req.query.level, year);
+      const rows = roundTableRows(await districtTable(store, req.query.level, year));
       if (req.query.format === 'csv') {
         reply.type('text/csv; charset=utf-8');
         return toCsv(rows, TABLE_FIELDS[req.query.level]);
       }
-      return { units: { lst: 'K', suhi: 'K', ati: '1/K' }, caution: CAUTION, rows };
+      return { units: TABLE_UNITS, caution: CAUTION, rows };
     },
   );
 
@@ -155,9 +158,9 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     const fails = (await failures(store)).map((f) => {
       const rel = relativeToRoot(f.path, root);
       // the scene's own path first (it may hold blanks), then any other absolute path in the message
-      return { ...f, path: rel, error: relativeInText(f.error.split(f.path).join(rel), root) };
+      return { ...f, path: rel, error: relativeInText(problemText(f.error).split(f.path).join(rel), root) };
     });
-    return { scenes: await sceneStatusCounts(store), failures: fails };
+    return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails });
   });
 
   app.get(PAGE_CSS_PATH, async (_req, reply) => {

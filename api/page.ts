@@ -34,14 +34,14 @@ export function renderPage(yearRows: Row[], caution: string): string {
   const years = [...new Set(yearRows.map((r) => Number(r.year)))].sort();
   const latest = years[years.length - 1];
   const rows = yearRows.filter((r) => Number(r.year) === latest && r.district !== 'rural')
-    .sort((a, b) => (Number(b.suhi_day ?? -Infinity) - Number(a.suhi_day ?? -Infinity)));
-  const maxAbs = Math.max(1, ...rows.flatMap((r) => [Math.abs(Number(r.suhi_day ?? 0)), Math.abs(Number(r.suhi_night ?? 0))]));
+    .sort((a, b) => (Number(b.suhi_day_k ?? -Infinity) - Number(a.suhi_day_k ?? -Infinity)));
+  const maxAbs = Math.max(1, ...rows.flatMap((r) => [Math.abs(Number(r.suhi_day_k ?? 0)), Math.abs(Number(r.suhi_night_k ?? 0))]));
   // bar lengths are whole-percent classes (w0 ... w100) defined in the stylesheet: no style attributes
   const bar = (v: unknown, cls: string) =>
     typeof v === 'number' && Number.isFinite(v) ? `<span class="bar ${cls}${v < 0 ? ' neg' : ''} w${Math.round((Math.abs(v) / maxAbs) * 100)}" title="${v < 0 ? 'cooler than the rural reference' : 'warmer than the rural reference'}"></span>` : '';
-  const body = rows.map((r) => `<tr><td>${esc(r.name)}</td><td class="n">${fmt(r.lst_day, 1)}</td><td class="n">${fmt(r.lst_night, 1)}</td>
-<td class="n">${fmt(r.suhi_day, 2)}</td><td class="b">${bar(r.suhi_day, 'day')}</td><td class="n">${fmt(r.suhi_night, 2)}</td><td class="b">${bar(r.suhi_night, 'night')}</td>
-<td class="n">${fmt(r.ati, 4)}</td><td class="n">${esc(r.dates)}</td></tr>`).join('\n');
+  const body = rows.map((r) => `<tr><td>${esc(r.name)}</td><td class="n">${fmt(r.lst_day_k, 1)}</td><td class="n">${fmt(r.lst_night_k, 1)}</td>
+<td class="n">${fmt(r.suhi_day_k, 2)}</td><td class="b">${bar(r.suhi_day_k, 'day')}</td><td class="n">${fmt(r.suhi_night_k, 2)}</td><td class="b">${bar(r.suhi_night_k, 'night')}</td>
+<td class="n">${fmt(r.ati_per_k, 4)}</td><td class="n">${esc(r.dates)}</td></tr>`).join('\n');
   return `<!doctype html>
 <html lang="en"><head><meta charset="utf-8"><title>heatledger: district heat table</title>
 <meta name="viewport" content="width=device-width, initial-scale=1">

@@ -83,7 +83,14 @@ const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
 function addZonalCommand(program: Command): void {
   program
     .command('zonal')
-    .description('Statistics of one raster per district (Kelvin after scale/offset; pixel-centre rule; type-7 percentiles).')
+    .description(
+      'Statistics of one raster per district: pixels, valid, valid_fraction, mean, std, min, max, median, p10, p90 (pixel-centre rule; type-7 percentiles).\n' +
+        'The unit of the statistics is stated once (JSON: top-level "unit", with "kind" = lst, albedo or unknown, and the rows in "rows"; ' +
+        'table: the first line; CSV: a line on standard error): K for an LST raster with a scale/offset or floating-point samples; ' +
+        'no unit for an albedo raster (KIND=albedo metadata item or "albedo" in the file name; plausible range 0-1 instead of --plausible) ' +
+        'or integer samples without scale/offset.\n' +
+        'JSON and CSV round K to 0.0001, albedo and valid_fraction to 6 decimals, values of no unit to 6 significant digits.',
+    )
     .argument('<raster>', 'LST GeoTIFF or COG (any EPSG CRS)')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
     .option('--rural <file>', 'rural reference polygon(s), GeoJSON; adds a row whose district is "rural"')
@@ -131,7 +138,7 @@ function addIngestCommand(program: Command): void {
       .env(ENV.stallTimeout).argParser(parseNumber('--stall-timeout')).default(DEFAULT_STALL_TIMEOUT_MS / 1000))
     .option('--threads <n>', 'worker threads in embedded mode (default: CPU cores)', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
-    .option('--json', 'print the run summary as JSON')
+    .option('--json', 'print the run summary as JSON (snake_case keys)')
     .option('--no-progress', 'no progress bar')
     .action(async (inputs: string[], opts) => {
       const { runIngestCommand } = await import('./commands/ingest.js');
@@ -143,7 +150,7 @@ function addIngestCommand(program: Command): void {
 function addStatusCommand(program: Command): void {
   program
     .command('status')
-    .description('Scenes in the store by state, and failed scenes with their reasons.')
+    .description('Scenes in the store by state, and failed scenes with their reasons. JSON keys are snake_case; CSV holds only the scene counts by kind, pass and status (one header line).')
     .addOption(dataDirOption())
     .addOption(formatOption('table'))
     .action(async (opts) => {
@@ -156,7 +163,10 @@ function addStatusCommand(program: Command): void {
 function addTableCommand(program: Command): void {
   program
     .command('table')
-    .description('The district table: per district and date (or year) mean day and night LST (K), SUHI day and night (K), ATI (1/K) and scene counts.')
+    .description(
+      'The district table: per district and date (or year) lst_day_k, lst_night_k (mean LST, K), suhi_day_k, suhi_night_k (SUHI, K), ati_per_k (ATI, 1/K) and scene counts.\n' +
+        'JSON and CSV round temperatures to 0.0001 K and ATI to 6 significant digits.',
+    )
     .addOption(new Option('--level <level>', 'one row per district and date, or per district and year').choices(['date', 'year']).default('date'))
     .option('--year <year>', 'only this year', parseYearOption('--year'))
     .addOption(formatOption('table'))

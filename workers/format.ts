@@ -9,6 +9,61 @@ export type OutputFormat = 'json' | 'csv' | 'table';
 
 export const OUTPUT_FORMATS: readonly OutputFormat[] = ['json', 'csv', 'table'];
 
+/**
+ * How many digits a number keeps in CSV and JSON output: a number of decimal
+ * places, or of significant digits.
+ */
+export type Precision = { readonly decimals: number } | { readonly significant: number };
+
+/** The stated precision of each kind of value in CSV and JSON output (the terminal table may show fewer). */
+export const PRECISION = {
+  /** Temperatures and temperature differences (LST, SUHI, zonal statistics in K): 0.0001 K. */
+  kelvin: { decimals: 4 },
+  /** Apparent thermal inertia (1/K): 6 significant digits. */
+  perKelvin: { significant: 6 },
+  /** Fractions (valid fraction, 0-1) and albedo: 6 decimals. */
+  fraction: { decimals: 6 },
+  /** p and q values: 6 significant digits. */
+  probability: { significant: 6 },
+  /** Values of no known unit (a raster without scale/offset): 6 significant digits. */
+  plain: { significant: 6 },
+} as const satisfies Record<string, Precision>;
+
+/**
+ * `x` rounded to `precision` (null, undefined and non-finite → null; -0 → 0).
+ * The result prints with at most the stated digits: 312.74024810000003 → 312.7402.
+ */
+export function roundNumber(x: number | null | undefined, precision: Precision): number | null {
+  if (x === null || x === undefined || !Number.isFinite(x)) return null;
+  const r = 'decimals' in precision ? Number(x.toFixed(precision.decimals)) : Number(x.toPrecision(precision.significant));
+  return Object.is(r, -0) ? 0 : r;
+}
+
+/** The row with the numbers of the listed fields rounded (other fields as they are). */
+export function roundRow(row: Row, precision: Readonly<Record<string, Precision>>): Row {
+  const out: Record<string, Cell> = {};
+  for (const [k, v] of Object.entries(row)) out[k] = typeof v === 'number' && precision[k] ? roundNumber(v, precision[k]) : v;
+  return out;
+}
+
+/** `sceneId` → `scene_id`: the one casing of JSON keys in every output. */
+export function snakeCase(key: string): string {
+  return key.replace(/([a-z0-9])([A-Z])/g, '$1_$2').replace(/([A-Z])([A-Z][a-z])/g, '$1_$2').toLowerCase();
+}
+
+/**
+ * A value with every object key in snake_case, at any depth (arrays and plain
+ * objects are copied; other values are kept). The output edge of JSON whose
+ * objects come from TypeScript (camelCase inside the code).
+ */
+export function snakeCaseKeys(value: unknown): unknown {
+  if (Array.isArray(value)) return value.map(snakeCaseKeys);
+  if (value && typeof value === 'object' && Object.getPrototypeOf(value) === Object.prototype) {
+    return Object.fromEntries(Object.entries(value).map(([k, v]) => [snakeCase(k), snakeCaseKeys(v)]));
+  }
+  return value;
+}
+
 /** JSON array, one object per row, `null` for undefined values. */
 export function toJson(rows: readonly Row[]): string {
   return JSON.stringify(rows, (_k, v) => (v === undefined ? null : v), 2);
@@ -31,7 +86,8 @@ function csvCell(v: Cell): string {
 }
 
 /**
- * RFC 4180 CSV with a header line; empty cells for null. Numbers at full precision.
+ * RFC 4180 CSV with a header line; empty cells for null. Numbers as given: round
+ * them first (`roundRow`) to their stated precision.
  * Text cells that a spreadsheet would read as a formula are escaped (see `csvCell`).
  */
 export function toCsv(rows: readonly Row[], columns?: readonly string[]): string {
@@ -78,9 +134,19 @@ export function formatRows(rows: readonly Row[], format: OutputFormat, options: 
 }
 
 /**
+ * A recorded problem without the internal class name the runners keep in front
+ * of it (`InputError: x.tif: not a TIFF file` → `x.tif: not a TIFF file`).
+ */
+export function problemText(error: string): string {
+  return error.replace(/^(?:[A-Z][A-Za-z]*)?Error: /, '');
+}
+
+/**
  * One line for a failed file: "path: problem". A stored problem that already
- * starts with the path (an InputError names its file) is not given it twice.
+ * starts with the path (an InputError names its file) is not given it twice;
+ * an internal class name in front of the problem is dropped.
  */
 export function failureLine(path: string, problem: string): string {
-  return problem.startsWith(`${path}: `) ? problem : `${path}: ${problem}`;
+  const text = problemText(problem);
+  return text.startsWith(`${path}: `) ? text : `${path}: ${text}`;
 }

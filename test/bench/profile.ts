@@ -3,7 +3,7 @@
  * (district file, header, reprojection, masks, decode, statistics, output) and
  * throughput figures of the decode, coverage and statistics stages.
  *
- * The phase profile follows workers/jobs/zonal-table.ts step by step and runs
+ * The phase profile follows workers/commands/zonal-table.ts step by step and runs
  * the real zonalScene; decode time is measured by wrapping the raster so that
  * every block the driver pulls is timed, and the mask phase is the time from
  * the zonalScene call to its first block request (it builds every mask first).
@@ -18,7 +18,9 @@ import { readRasterHeader } from '../../workers/core/raster/header.js';
 import { openRaster, type RasterBlock, type RasterFile } from '../../workers/core/raster/index.js';
 import { zonalScene, type ZonalTarget } from '../../workers/core/zonal/index.js';
 import { formatRows, type Row } from '../../workers/format.js';
-import { GEOJSON_CRS, rasterCrs, ZONAL_FIELDS } from '../../workers/jobs/zonal-table.js';
+import { GEOJSON_CRS } from '../../workers/core/crs/geojson.js';
+import { rasterCrs } from '../../workers/core/raster/placement.js';
+import { ZONAL_FIELDS } from '../../workers/commands/zonal-table.js';
 import { median } from './timing.js';
 
 /** Milliseconds per phase of one zonal run. */

@@ -81,8 +81,10 @@ function peerAvailable(): boolean {
 
 function parseRows(text: string, who: string): StatsRow[] {
   try {
-    const rows = JSON.parse(text) as StatsRow[];
-    if (!Array.isArray(rows)) throw new Error('not an array');
+    // heatledger zonal prints { unit, kind, rows }; the peer a plain array
+    const parsed = JSON.parse(text) as StatsRow[] | { rows: StatsRow[] };
+    const rows = Array.isArray(parsed) ? parsed : parsed.rows;
+    if (!Array.isArray(rows)) throw new Error('not an array of rows');
     return rows;
   } catch (e) {
     throw new Error(`${who} printed output that is not a JSON array of rows (${(e as Error).message})`);
@@ -222,7 +224,7 @@ async function main(): Promise<void> {
 
   say('\n[start-up] whole-process medians of 5');
   const nodeBare = medianWall(NODE, ['-e', ''], 5);
-  const importZonal = medianWall(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/jobs/zonal-table.js'))})`], 5);
+  const importZonal = medianWall(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/commands/zonal-table.js'))})`], 5);
   const cliVersion = medianWall(NODE, [CLI, '--version'], 5);
   const pythonImport = withPeer ? medianWall(PYTHON, ['-c', 'import numpy, rasterio, rasterio.features, rasterio.warp'], 5) : null;
   say(`  node -e "" ${s3(nodeBare)} s; node -e "import('zonal-table.js')" ${s3(importZonal)} s; heatledger --version ${s3(cliVersion)} s` +

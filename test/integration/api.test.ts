@@ -66,19 +66,20 @@ describe('HTTP API', () => {
     const r = await app.inject({ method: 'GET', url: '/api/table?level=date' });
     expect(r.statusCode).toBe(200);
     const body = r.json();
-    expect(body.units).toEqual({ lst: 'K', suhi: 'K', ati: '1/K' });
+    expect(body.units).toEqual({ lst_day_k: 'K', lst_night_k: 'K', suhi_day_k: 'K', suhi_night_k: 'K', ati_per_k: '1/K' });
     expect(body.caution).toBe(CAUTION);
     const core = body.rows.find((x: { district: string }) => x.district === 'core');
     // hand arithmetic: SUHI day 315 - 305 = 10 K, night 293 - 289 = 4 K; ATI (1 - 0.12) / 22
-    expect(core).toMatchObject({ date: '2024-07-14', lst_day: 315, lst_night: 293, suhi_day: 10, suhi_night: 4, day_scenes: 1, night_scenes: 1 });
-    expect(core.ati).toBeCloseTo(0.88 / 22, 12);
+    expect(core).toMatchObject({ date: '2024-07-14', lst_day_k: 315, lst_night_k: 293, suhi_day_k: 10, suhi_night_k: 4, day_scenes: 1, night_scenes: 1 });
+    // printed to 6 significant digits (README, `table`): 0.88 / 22 = 0.04 exactly in decimal
+    expect(core.ati_per_k).toBe(Number((0.88 / 22).toPrecision(6)));
   });
   it('serves CSV with the table header', async () => {
     const r = await app.inject({ method: 'GET', url: '/api/table?level=year&format=csv' });
     expect(r.statusCode).toBe(200);
     expect(r.headers['content-type']).toMatch(/text\/csv/);
     const lines = r.body.trim().split('\n');
-    expect(lines[0]).toBe('district,name,year,dates,lst_day,lst_night,suhi_day,suhi_night,ati,day_scenes,night_scenes');
+    expect(lines[0]).toBe('district,name,year,dates,lst_day_k,lst_night_k,suhi_day_k,suhi_night_k,ati_per_k,day_scenes,night_scenes');
     expect(lines[1]).toMatch(/^core,Core,2024,1,315,293,10,4,/);
   });
   it('escapes a formula-like district name in CSV but keeps a negative SUHI a number', async () => {
@@ -92,7 +93,7 @@ describe('HTTP API', () => {
     expect(quay[header.indexOf('name')]).toBe(`'${FORMULA_NAME}`);
     const park = rows.find((row) => row[0] === 'park')!;
     // hand arithmetic: SUHI day 304 - 305 = -1 K, written as the plain number -1
-    expect(park[header.indexOf('suhi_day')]).toBe('-1');
+    expect(park[header.indexOf('suhi_day_k')]).toBe('-1');
     expect(r.body).toContain('\npark,Park,2024-07-14,304,288,-1,-1,');
   });
   it('refuses a bad query with 400 and a message naming the parameter and what it accepts', async () => {

@@ -100,10 +100,10 @@ describe.skipIf(!canDrop)('ingest of a folder with bad paths beside good scenes'
     const status = JSON.parse(await cliOk(['status', '--format', 'json', '--data-dir', badData], env));
     expect(status.scenes).toEqual({ registered: 0, processed: archive.files.length, failed: 4, total: archive.files.length + 4 });
     const failed = [...status.failures].sort((a: { path: string }, b: { path: string }) => (a.path < b.path ? -1 : 1));
-    expect(failed.map((f: { path: string; contentHash: string | null }) => [f.path, f.contentHash])).toEqual(expected.map((e) => [e.path, null]));
+    expect(failed.map((f: { path: string; content_hash: string | null }) => [f.path, f.content_hash])).toEqual(expected.map((e) => [e.path, null]));
     for (const [i, f] of failed.entries()) {
       expect(f.error.startsWith(`${expected[i].path}: `)).toBe(true); // the reason names the path
-      expect(f.runId).toBe(summary.runId);
+      expect(f.run_id).toBe(summary.run_id);
     }
     // and the text form shows them
     const text = await cliOk(['status', '--data-dir', badData], env);

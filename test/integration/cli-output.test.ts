@@ -80,7 +80,7 @@ describe('output', () => {
     expect(rows.find((x) => x[0] === 'quay')![header.indexOf('name')]).toBe(`'${FORMULA_NAME}`);
     // hand arithmetic: park SUHI day 304 - 305 = -1 K, night 288 - 289 = -1 K
     const park = rows.find((x) => x[0] === 'park')!;
-    expect([park[header.indexOf('suhi_day')], park[header.indexOf('suhi_night')]]).toEqual(['-1', '-1']);
+    expect([park[header.indexOf('suhi_day_k')], park[header.indexOf('suhi_night_k')]]).toEqual(['-1', '-1']);
     expect(r.stdout).toContain('\npark,Park,2024-07-14,304,288,-1,-1,');
   });
   it('ends quietly with exit 0 when the reader of its output has gone (EPIPE)', () => {

@@ -158,7 +158,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     // The next ingest finishes what is left (or re-runs nothing) and the table equals the undisturbed one.
     const again = await runCli(ingestArgs(archive), env, 240_000);
     expect(again.code, again.stderr).toBe(0);
-    expect(JSON.parse(again.stdout).outcome).toEqual({ status: 'succeeded', scenesLeft: 0, refused: 0, derived: true, error: null });
+    expect(JSON.parse(again.stdout).outcome).toEqual({ status: 'succeeded', scenes_left: 0, refused: 0, derived: true, error: null });
     expect(await serverCounts(server.url('heat'))).toEqual({ scenes: files, zonal: files * TARGETS, derived: datesOf(HALF) * TARGETS, zonalDuplicates: 0 });
     expect(await cliOk(['table', '--format', 'json'], env)).toBe(await baseline);
     expect(worker.child.exitCode).toBe(null);

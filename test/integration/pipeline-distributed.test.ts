@@ -102,7 +102,7 @@ describe.skipIf(!up)('distributed pipeline: 2 worker processes, Redis, PostgreSQ
     // Same archive again: content-derived job ids, so the completed tree is reused.
     const again = JSON.parse(await cliOk(['ingest', archiveDir, '--districts', archive.districtsPath, '--json'], env));
     expect(again.failures).toEqual([]);
-    expect(again.runId).toBe(summary.runId + 1);
+    expect(again.run_id).toBe(summary.run_id + 1);
     expect(await cliOk(['table', '--format', 'json'], env)).toBe(date);
     expect(await serverCounts(db!.url)).toEqual({ scenes: FILES, zonal: FILES * TARGETS, derived: DATES * TARGETS, zonalDuplicates: 0 });
 

@@ -13,12 +13,12 @@
  */
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { Redis } from 'ioredis';
 import { createInProcessRunner } from '../../workers/queue/in-process.js';
 import { createBullRunner, startWorker, type WorkerHandle } from '../../workers/queue/bull.js';
 import type { Runner } from '../../workers/queue/types.js';
 import { serviceAvailable, testRedisUrl } from '../support/services.js';
 import { ensureQueueBuild } from '../support/queue-build.js';
+import { cleanRedisPrefix } from '../support/pipeline-harness.js';
 
 const processorsModule = ensureQueueBuild();
 const testProcs = (await import(processorsModule)) as typeof import('../support/queue-processors.js');
@@ -85,14 +85,7 @@ describe.skipIf(!redisUp)('retry rule: BullMQ runner', () => {
   });
   afterAll(async () => {
     await worker?.close();
-    const r = new Redis(testRedisUrl);
-    let cursor = '0';
-    do {
-      const [next, keys] = await r.scan(cursor, 'MATCH', `${prefix}:*`, 'COUNT', 500);
-      cursor = next;
-      if (keys.length) await r.del(...keys);
-    } while (cursor !== '0');
-    r.disconnect();
+    await cleanRedisPrefix(testRedisUrl, prefix);
   });
   retrySuite('BullMQ', `bq${randomUUID().slice(0, 6)}`, (budgetMs) =>
     createBullRunner({ redisUrl: testRedisUrl, prefix, attempts: ATTEMPTS, backoffMs: BACKOFF_MS, pollMs: 100, serviceRetryBudgetMs: budgetMs }));

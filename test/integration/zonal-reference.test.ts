@@ -16,7 +16,8 @@ import { tmpdir } from 'node:os';
 import { basename, dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, describe, expect, it } from 'vitest';
-import { zonalTable } from '../../workers/jobs/zonal-table.js';
+import { zonalTable } from '../../workers/commands/zonal-table.js';
+import { snakeCaseKeys } from '../../workers/format.js';
 
 const HERE = dirname(fileURLToPath(import.meta.url));
 const ROOT = resolve(HERE, '../..');
@@ -27,6 +28,8 @@ const CLI = join(ROOT, 'dist/workers/cli.js');
 const FIELDS = ['district', 'pixels', 'valid', 'valid_fraction', 'mean', 'std', 'min', 'max', 'median', 'p10', 'p90'];
 /** Kelvin statistics (and valid_fraction, dimensionless): within 1e-6 of the reference. */
 const TOL_KELVIN = 1e-6;
+/** The CLI prints K to 0.0001 (README, `zonal`): half of that on top of the tolerance. */
+const TOL_KELVIN_PRINTED = TOL_KELVIN + 0.00005;
 type Num = number | null;
 interface Row { district: string; pixels: number; valid: number; valid_fraction: Num; mean: Num; std: Num; min: Num; max: Num; median: Num; p10: Num; p90: Num }
 interface Case {
@@ -45,7 +48,7 @@ const cases: Case[] = readdirSync(FIX)
 const fx = (name: string) => join(FIX, name);
 
 /** Every mismatch as a readable line; an empty list means the rows agree. */
-function differences(actual: readonly Record<string, unknown>[], c: Case): string[] {
+function differences(actual: readonly Record<string, unknown>[], c: Case, tol = TOL_KELVIN): string[] {
   const out: string[] = [];
   const got = actual.map((r) => String(r.district));
   const want = c.rows.map((r) => r.district);
@@ -68,8 +71,8 @@ function differences(actual: readonly Record<string, unknown>[], c: Case): strin
       // cell counts (centre rule: centres inside; fraction rule: cells with coverage > 0) are exact
       if (key === 'pixels' || key === 'valid') {
         if (a !== e) out.push(`${where}: got ${a}, expected exactly ${e}`);
-      } else if (Math.abs(a - (e as number)) > TOL_KELVIN) {
-        out.push(`${where}: got ${a}, expected ${e} (diff ${(a - (e as number)).toExponential(3)}, tol ${TOL_KELVIN})`);
+      } else if (Math.abs(a - (e as number)) > tol) {
+        out.push(`${where}: got ${a}, expected ${e} (diff ${(a - (e as number)).toExponential(3)}, tol ${tol})`);
       }
     }
   }
@@ -108,10 +111,9 @@ function runCli(args: string[]): Promise<Run> {
   });
 }
 
-/** The rows of a zonalTable result: the brief's plain array, or `{ rows }`. */
-function rowsOf(result: unknown): Record<string, unknown>[] {
-  if (Array.isArray(result)) return result as Record<string, unknown>[];
-  return (result as { rows: Record<string, unknown>[] }).rows;
+/** The rows of a zonalTable result with the output field names (valid_fraction for validFraction). */
+function rowsOf(result: { rows: readonly object[] }): Record<string, unknown>[] {
+  return result.rows.map((r) => snakeCaseKeys(r) as Record<string, unknown>);
 }
 
 describe('fixtures', () => {
@@ -150,11 +152,14 @@ describe('zonal CLI (dist/workers/cli.js)', () => {
         const r = await runCli(cliArgs(c, 'json'));
         expect(r.stderr).toBe('');
         expect(r.code).toBe(0);
-        const rows = JSON.parse(r.stdout) as Record<string, unknown>[];
-        expect(Array.isArray(rows)).toBe(true);
+        const body = JSON.parse(r.stdout) as { unit: string | null; rows: Record<string, unknown>[] };
+        expect(Object.keys(body)).toEqual(['unit', 'kind', 'rows']);
+        // every reference raster is LST with a scale/offset or float samples (make_reference.py): Kelvin, said once
+        expect(body.unit).toBe('K');
+        const rows = body.rows;
         for (const row of rows) expect(Object.keys(row)).toEqual(FIELDS);
-        // reference: GDAL/rasterio + NumPy, as for zonalTable
-        expect(differences(rows, c)).toEqual([]);
+        // reference: GDAL/rasterio + NumPy, as for zonalTable; printed to 0.0001 K
+        expect(differences(rows, c, TOL_KELVIN_PRINTED)).toEqual([]);
       });
     }
   });
@@ -163,6 +168,7 @@ describe('zonal CLI (dist/workers/cli.js)', () => {
     const c = cases.find((x) => x.case === 'a_rural')!;
     const r = await runCli(cliArgs(c, 'csv'));
     expect(r.code).toBe(0);
+    expect(r.stderr).toMatch(/^heatledger: values: K \(/);
     const lines = r.stdout.trimEnd().split('\n');
     expect(lines[0]).toBe(FIELDS.join(','));
     expect(lines.length).toBe(c.rows.length + 1);

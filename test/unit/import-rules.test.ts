@@ -96,9 +96,7 @@ describe('import rules', () => {
     expect(found).toEqual([]);
   });
 
-  // Skipped while api/app.ts still takes the district table from workers/commands/table.ts; it is
-  // enabled (skip removed) when that query lives on the store side. It fails today, so it can fail.
-  it.skip('api/ imports nothing from workers/commands/', () => {
+  it('api/ imports nothing from workers/commands/', () => {
     const commands = join(ROOT, 'workers', 'commands');
     const found: string[] = [];
     for (const f of files.filter((x) => rel(x).startsWith('api/'))) {

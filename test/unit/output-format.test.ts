@@ -1,7 +1,9 @@
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
 import { commonDirectory, relativeInText, relativeToRoot } from '../../api/relative-paths.js';
-import { failureLine, toCsv } from '../../workers/format.js';
+import { failureLine, PRECISION, problemText, roundNumber, snakeCase, snakeCaseKeys, toCsv } from '../../workers/format.js';
+import { failedJobLine, summaryJson } from '../../workers/commands/ingest.js';
+import type { PipelineSummary } from '../../workers/run/pipeline.js';
 import { parseYear } from '../../workers/core/year.js';
 
 /** Python's csv module (an RFC 4180 reader) as the outside reference for what a CSV says. */
@@ -29,7 +31,63 @@ describe('CSV cells', () => {
   });
 });
 
+/** Python's decimal formatting (format spec `.4f`, `.6g`) as the outside reference for rounding. */
+function pythonRound(values: number[], spec: string): number[] {
+  return JSON.parse(execFileSync('/usr/bin/python3', ['-c', `import json, sys; print(json.dumps([float(format(x, sys.argv[2])) for x in json.loads(sys.argv[1])]))`, JSON.stringify(values), spec], { encoding: 'utf8' }));
+}
+
+describe('rounding to the stated precision', () => {
+  // float noise of the kind a mean of scaled integers leaves (0.1 + 0.2 = 0.30000000000000004, IEEE 754 binary64)
+  const kelvin = [312.74024810000003, 291.00005000000001, 300.85388856228184, 0.1 + 0.2, -1.23456789, 7.740248100000030, 310.0, -0.00004];
+  const ati = [0.863 / 22.64024810000003, 0.88 / 22, 0.018987654321, 1.2345678e-7, 0.5];
+  it('gives temperatures to 0.0001 K, as Python formats them with .4f', () => {
+    expect(roundNumber(312.74024810000003, PRECISION.kelvin)).toBe(312.7402);
+    expect(String(roundNumber(312.74024810000003, PRECISION.kelvin))).toBe('312.7402');
+    expect(kelvin.map((x) => roundNumber(x, PRECISION.kelvin))).toEqual(pythonRound(kelvin, '.4f').map((x) => (Object.is(x, -0) ? 0 : x)));
+  });
+  it('gives ATI and p values to 6 significant digits, as Python formats them with .6g', () => {
+    expect(ati.map((x) => roundNumber(x, PRECISION.perKelvin))).toEqual(pythonRound(ati, '.6g'));
+    expect(ati.map((x) => roundNumber(x, PRECISION.probability))).toEqual(pythonRound(ati, '.6g'));
+  });
+  it('gives fractions to 6 decimals and keeps null for missing values', () => {
+    const f = [0.9470338983050848, 1 / 3, 0.0000004, 1];
+    expect(f.map((x) => roundNumber(x, PRECISION.fraction))).toEqual(pythonRound(f, '.6f'));
+    expect([null, undefined, NaN, Infinity].map((x) => roundNumber(x as number | null, PRECISION.kelvin))).toEqual([null, null, null, null]);
+  });
+});
+
+describe('JSON keys', () => {
+  it('are snake_case at any depth', () => {
+    expect(['sceneId', 'contentHash', 'serviceFailingSeconds', 'runId', 'valid_fraction', 'p10', 'area_m2', 'byKind'].map(snakeCase))
+      .toEqual(['scene_id', 'content_hash', 'service_failing_seconds', 'run_id', 'valid_fraction', 'p10', 'area_m2', 'by_kind']);
+    expect(snakeCaseKeys({ runId: 1, outcome: { scenesLeft: 0 }, duplicates: [{ sameAs: '/a.tif', path: '/b.tif' }], note: null }))
+      .toEqual({ run_id: 1, outcome: { scenes_left: 0 }, duplicates: [{ same_as: '/a.tif', path: '/b.tif' }], note: null });
+  });
+  it('of the ingest summary are snake_case, its errors without class names and its seconds rounded', () => {
+    const summary: PipelineSummary = {
+      runId: 3, mode: 'embedded', scenes: 2, duplicates: [{ path: '/a/copy.tif', sameAs: '/a/x.tif' }], unreadable: [],
+      failures: [{ id: 'j1', name: 'ingest', kind: 'input', error: 'InputError: /a/bad.tif: not a TIFF file' }],
+      derive: { rows: 4, ok: 4, scenes: { processed: 1, failed: 1 } },
+      outcome: { status: 'incomplete', scenesLeft: 0, refused: 1, derived: true, error: 'InputError: 1 file refused' },
+      seconds: 12.345678901,
+    };
+    const json = summaryJson(summary) as Record<string, unknown>;
+    const keys = (v: unknown): string[] => (Array.isArray(v) ? v.flatMap(keys) : v && typeof v === 'object' ? Object.entries(v).flatMap(([k, x]) => [k, ...keys(x)]) : []);
+    for (const k of keys(json)) expect(k).toMatch(/^[a-z0-9_]+$/);
+    expect(json).toMatchObject({ run_id: 3, seconds: 12.346, duplicates: [{ same_as: '/a/x.tif' }], outcome: { scenes_left: 0, error: '1 file refused' } });
+    expect((json.failures as { error: string }[])[0].error).toBe('/a/bad.tif: not a TIFF file');
+  });
+});
+
 describe('failure lines', () => {
+  it('drop the internal class name in front of a problem', () => {
+    expect(problemText('InputError: /a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
+    expect(problemText('ServiceError: PostgreSQL is unreachable')).toBe('PostgreSQL is unreachable');
+    expect(problemText('/a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
+    expect(failureLine('/a/b.tif', 'InputError: /a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
+    expect(failedJobLine({ id: 'j', name: 'ingest', kind: 'input', error: 'InputError: /a/b.tif: not a TIFF file' })).toBe('/a/b.tif: not a TIFF file');
+    expect(failedJobLine({ id: 'j', name: 'zonal', kind: 'service', error: 'ServiceError: PostgreSQL is unreachable' })).toBe('zonal step: PostgreSQL is unreachable');
+  });
   it('name the file once', () => {
     expect(failureLine('/a/b.tif', '/a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
     expect(failureLine('/a/b.tif', 'not a TIFF file')).toBe('/a/b.tif: not a TIFF file');

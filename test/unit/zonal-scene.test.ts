@@ -101,11 +101,11 @@ function checkRow(got: ZonalSceneResult, want: RefRow, digits: number): void {
   expect(got.stats.valid).toBe(want.valid);
   expect(got.counts).toEqual({ nodata: want.nodata, masked: want.masked, implausible: want.implausible });
   if (want.pixels === 0) {
-    expect(got.stats.valid_fraction).toBeNull();
+    expect(got.stats.validFraction).toBeNull();
     expect(got.stats.mean).toBeNull();
     return;
   }
-  expect(got.stats.valid_fraction!).toBeCloseTo(want.valid_fraction!, 6);
+  expect(got.stats.validFraction!).toBeCloseTo(want.valid_fraction!, 6);
   for (const k of ['mean', 'std', 'min', 'max', 'p10', 'median', 'p90'] as const) {
     expect(got.stats[k]!, `${want.id} ${want.rule} ${k}`).toBeCloseTo(want[k]!, digits);
   }
@@ -130,7 +130,7 @@ describe('zonalScene vs NumPy over GDAL masks / GEOS fractions (test/fixtures/co
         checkRow(rows.find((r) => r.id === want.id)!, want, rule === 'centre' ? 9 : 5);
       }
       const off = rows.find((r) => r.id === 'offshore')!;
-      expect(off.stats).toEqual({ pixels: 0, valid: 0, valid_fraction: null, mean: null, std: null, min: null, max: null, median: null, p10: null, p90: null });
+      expect(off.stats).toEqual({ pixels: 0, valid: 0, validFraction: null, mean: null, std: null, min: null, max: null, median: null, p10: null, p90: null });
       // The LST raster is read by blocks only; QA once per decoded block that a target meets.
       expect(raster.windowReads.length).toBe(0);
       expect(new Set(raster.decoded).size).toBe(raster.decoded.length);
@@ -205,7 +205,7 @@ describe('zonalScene behaviour', () => {
     const [d] = await zonalScene(raster, t, { coverage: 'centre' });
     expect(d.counts.implausible).toBe(1);
     expect(d.stats.max).toBe(310);
-    expect(d.stats.valid_fraction).toBe(0.75);
+    expect(d.stats.validFraction).toBe(0.75);
     const [k] = await zonalScene(raster, t, { coverage: 'centre', plausibleKelvin: null });
     expect(k.counts.implausible).toBe(0);
     expect(k.stats.max).toBe(370);

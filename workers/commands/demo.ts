@@ -69,7 +69,8 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   process.stdout.write(summaryLines(summary).join('\n') + '\n');
   throwIfRunFailed(summary);
 
-  const { districtTable, renderTable } = await import('./table.js');
+  const { renderTable } = await import('./table.js');
+  const { districtTable } = await import('../store/district-table.js');
   const { districtTrends } = await import('./trend.js');
   const { districtHotspots } = await import('./hotspots.js');
   const store = await openConfiguredStore(config);
@@ -106,8 +107,8 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     return {
       id,
       name: String(rows[0]?.name ?? id),
-      day: mean(rows.map((r) => r.suhi_day as number | null)),
-      night: mean(rows.map((r) => r.suhi_night as number | null)),
+      day: mean(rows.map((r) => r.suhi_day_k as number | null)),
+      night: mean(rows.map((r) => r.suhi_night_k as number | null)),
       dates: rows.length,
     };
   });

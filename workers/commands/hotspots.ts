@@ -6,11 +6,11 @@
 import { InputError } from '../core/errors.js';
 import { benjaminiHochberg, parseMonths, seasonMonths, yearlySeries, type Hemisphere, type SeasonName } from '../core/trend/index.js';
 import { classifySpot, giStar, moranI, neighbours, type MoranResult, type WeightsKind } from '../core/hotspot/index.js';
-import { formatRows, type OutputFormat, type Row } from '../format.js';
+import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
 import type { Store } from '../store/index.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
 import { CAUTION_SHORT, withStore } from './common.js';
-import { metricUnit, roundSignificant, roundTo, storedHemisphere } from './trend.js';
+import { metricUnit, storedHemisphere } from './trend.js';
 
 export interface HotspotsCommandOptions {
   metric: string;
@@ -96,25 +96,34 @@ export async function districtHotspots(store: Store, q: HotspotQuery): Promise<H
   return { rows, moran: moranI(x, nb), leftOut, monthsLabel: sel.label };
 }
 
-const FIELDS = ['district', 'name', 'value', 'years', 'neighbours', 'gi_z', 'gi_p', 'gi_q', 'spot', 'confidence'];
+/** Output name of the value column: the metric with its unit (`suhi_night_k`, `ati_per_k`). */
+export function valueField(metric: SeriesMetric): string {
+  return metric === 'ati' ? 'ati_per_k' : `${metric}_k`;
+}
+
+function fieldsFor(metric: SeriesMetric): string[] {
+  return ['district', 'name', valueField(metric), 'years', 'neighbours', 'gi_z', 'gi_p', 'gi_q', 'spot', 'confidence'];
+}
 
 function roundRow(r: HotspotRow, metric: SeriesMetric): Row {
+  const { district, name, value, ...rest } = r;
   return {
-    ...r,
-    value: roundTo(r.value, metric === 'ati' ? 7 : 4),
-    gi_z: roundTo(r.gi_z, 4),
-    gi_p: roundSignificant(r.gi_p, 6),
-    gi_q: roundSignificant(r.gi_q, 6),
+    district, name,
+    [valueField(metric)]: roundNumber(value, metric === 'ati' ? PRECISION.perKelvin : PRECISION.kelvin),
+    ...rest,
+    gi_z: roundNumber(r.gi_z, { decimals: 4 }),
+    gi_p: roundNumber(r.gi_p, PRECISION.probability),
+    gi_q: roundNumber(r.gi_q, PRECISION.probability),
   };
 }
 
 function roundMoran(m: MoranResult | null): Record<string, number> | null {
   if (!m) return null;
   return {
-    i: roundTo(m.i, 6) as number, expected: roundTo(m.expected, 6) as number,
-    variance_normal: roundSignificant(m.variance_normal, 6) as number, z_normal: roundTo(m.z_normal, 4) as number, p_normal: roundSignificant(m.p_normal, 6) as number,
-    variance_randomisation: roundSignificant(m.variance_randomisation, 6) as number, z_randomisation: roundTo(m.z_randomisation, 4) as number,
-    p_randomisation: roundSignificant(m.p_randomisation, 6) as number, islands: m.islands,
+    i: roundNumber(m.i, { decimals: 6 }) as number, expected: roundNumber(m.expected, { decimals: 6 }) as number,
+    variance_normal: roundNumber(m.variance_normal, PRECISION.plain) as number, z_normal: roundNumber(m.z_normal, { decimals: 4 }) as number, p_normal: roundNumber(m.p_normal, PRECISION.probability) as number,
+    variance_randomisation: roundNumber(m.variance_randomisation, PRECISION.plain) as number, z_randomisation: roundNumber(m.z_randomisation, { decimals: 4 }) as number,
+    p_randomisation: roundNumber(m.p_randomisation, PRECISION.probability) as number, islands: m.islands,
   };
 }
 
@@ -148,12 +157,12 @@ export async function runHotspotsCommand(o: HotspotsCommandOptions): Promise<voi
       return;
     }
     if (o.format === 'csv') {
-      process.stdout.write(formatRows(rows, 'csv', { columns: FIELDS }));
+      process.stdout.write(formatRows(rows, 'csv', { columns: fieldsFor(metric) }));
       return;
     }
     const unit = metricUnit(metric).value;
     process.stdout.write(`Getis–Ord Gi* of ${metric} (${unit}), ${period}, ${report.monthsLabel}; weights: ${weightsText}, binary with self; ${o.fdr ? 'classes from Benjamini–Hochberg q' : 'classes from p'} (90/95/99 %)\n`);
-    process.stdout.write(formatRows(rows, 'table', { columns: FIELDS.filter((c) => o.fdr || c !== 'gi_q'), decimals: { value: metric === 'ati' ? 6 : 3, gi_z: 3, gi_p: 6, gi_q: 6 } }));
+    process.stdout.write(formatRows(rows, 'table', { columns: fieldsFor(metric).filter((c) => o.fdr || c !== 'gi_q'), decimals: { [valueField(metric)]: metric === 'ati' ? 6 : 3, gi_z: 3, gi_p: 6, gi_q: 6 } }));
     const m = report.moran;
     process.stdout.write(m
       ? `Global Moran's I (row-standardised weights): I = ${m.i.toFixed(4)}, E[I] = ${m.expected.toFixed(4)}; ` +

@@ -1,6 +1,7 @@
 import { InputError, isServiceError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../run/config.js';
 import { parsePlausible } from './common.js';
+import { failureLine, problemText, roundNumber, snakeCaseKeys } from '../format.js';
 import type { PipelineOptions, PipelineSummary } from '../run/pipeline.js';
 import type { FlowProgress } from '../queue/types.js';
 
@@ -42,6 +43,29 @@ export function sceneProgress(p: FlowProgress): { done: number; failed: number; 
   return { done: Math.max(0, zonal.done - ingest.failed), failed, total: zonal.total };
 }
 
+/**
+ * One line for a failed job: a file refused as bad input is named by its
+ * problem alone (the message starts with the file: `path: problem`); a service
+ * failure or a bug says which step it stopped.
+ */
+export function failedJobLine(f: PipelineSummary['failures'][number]): string {
+  const text = problemText(f.error);
+  return f.kind === 'input' ? text : `${f.name} step: ${text}`;
+}
+
+/**
+ * The run summary as `ingest --json` prints it: snake_case keys, job errors
+ * without internal class names, seconds to 0.001 s.
+ */
+export function summaryJson(s: PipelineSummary): unknown {
+  return snakeCaseKeys({
+    ...s,
+    seconds: roundNumber(s.seconds, { decimals: 3 }),
+    failures: s.failures.map((f) => ({ ...f, error: problemText(f.error) })),
+    outcome: { ...s.outcome, error: s.outcome.error === null ? null : problemText(s.outcome.error) },
+  });
+}
+
 export function summaryLines(s: PipelineSummary): string[] {
   const lines = [
     `run ${s.runId} (${s.mode}): ${s.scenes} scene file(s) in ${s.seconds.toFixed(1)} s` +
@@ -51,7 +75,7 @@ export function summaryLines(s: PipelineSummary): string[] {
   if (s.duplicates.length > 20) lines.push(`  ... and ${s.duplicates.length - 20} more duplicate file(s)`);
   if (s.unreadable.length) {
     lines.push(`${s.unreadable.length} path(s) could not be read and are recorded as failed; the rest were processed:`);
-    for (const u of s.unreadable.slice(0, 20)) lines.push(`  ${u.path}: ${u.reason}`);
+    for (const u of s.unreadable.slice(0, 20)) lines.push(`  ${failureLine(u.path, u.reason)}`);
     if (s.unreadable.length > 20) lines.push(`  ... and ${s.unreadable.length - 20} more (see \`heatledger status\`)`);
   }
   if (s.outcome.status !== 'succeeded') {
@@ -59,7 +83,7 @@ export function summaryLines(s: PipelineSummary): string[] {
   }
   if (s.failures.length) {
     lines.push(`${s.failures.length} job(s) failed or did not finish:`);
-    for (const f of s.failures.slice(0, 20)) lines.push(`  ${f.name}: ${f.error}`);
+    for (const f of s.failures.slice(0, 20)) lines.push(`  ${failedJobLine(f)}`);
     if (s.failures.length > 20) lines.push(`  ... and ${s.failures.length - 20} more (see \`heatledger status\`)`);
   }
   return lines;
@@ -129,7 +153,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     if (bar && started) bar.stop();
   }
   if (opts.json) {
-    process.stdout.write(JSON.stringify(summary, null, 2) + '\n');
+    process.stdout.write(JSON.stringify(summaryJson(summary), null, 2) + '\n');
   } else {
     process.stdout.write(summaryLines(summary).join('\n') + '\n');
   }
@@ -166,7 +190,7 @@ export function throwIfRunFailed(summary: PipelineSummary): void {
     : o.service ? `${o.service} failed${o.serviceFailingSeconds !== undefined ? ` for ${o.serviceFailingSeconds} s (longer than the service retry budget)` : ''}`
       : 'a job failed';
   const resume = o.service === 'worker' ? 'start `heatledger worker` and run the same command again' : 'run the same command again to finish the run';
-  const reason = (o.error ?? 'the run did not finish').replace(/^ServiceError: /, '');
+  const reason = problemText(o.error ?? 'the run did not finish');
   throw new ServiceError(
     `run ${summary.runId} is incomplete (${left}): ${service}: ${reason}${/[.?!]$/.test(reason) ? '' : '.'} Nothing stored is lost; ${resume}`,
     { service: o.service },

@@ -1,7 +1,7 @@
 import { InputError } from '../core/errors.js';
 import { YEAR_MAX, YEAR_MIN } from '../core/year.js';
 import { formatRows, type OutputFormat, type Row } from '../format.js';
-import type { Store } from '../store/index.js';
+import { districtTable, roundTableRows, TABLE_FIELDS, TABLE_LABELS } from '../store/district-table.js';
 import { withStore } from './common.js';
 
 export interface TableCommandOptions {
@@ -11,38 +11,11 @@ export interface TableCommandOptions {
   dataDir?: string;
 }
 
-/** Column order of the district table; Kelvin for LST and SUHI, K⁻¹ for ATI. */
-export const TABLE_FIELDS = {
-  date: ['district', 'name', 'date', 'lst_day', 'lst_night', 'suhi_day', 'suhi_night', 'ati', 'day_scenes', 'night_scenes'],
-  year: ['district', 'name', 'year', 'dates', 'lst_day', 'lst_night', 'suhi_day', 'suhi_night', 'ati', 'day_scenes', 'night_scenes'],
-} as const;
-
-export const TABLE_LABELS: Record<string, string> = {
-  lst_day: 'lst_day K', lst_night: 'lst_night K', suhi_day: 'suhi_day K', suhi_night: 'suhi_night K', ati: 'ati 1/K',
-};
-
-/** The district table rows with the public field names. */
-export async function districtTable(store: Store, level: 'date' | 'year', year?: number): Promise<Row[]> {
-  const { districtTableByDate, districtTableByYear } = await import('../store/index.js');
-  if (level === 'date') {
-    return (await districtTableByDate(store, { year: year ?? null })).map((r) => ({
-      district: r.district_id, name: r.district_name, date: r.obs_date,
-      lst_day: r.lst_day_k, lst_night: r.lst_night_k, suhi_day: r.suhi_day_k, suhi_night: r.suhi_night_k, ati: r.ati_per_k,
-      day_scenes: r.day_scenes, night_scenes: r.night_scenes,
-    }));
-  }
-  return (await districtTableByYear(store, { year: year ?? null })).map((r) => ({
-    district: r.district_id, name: r.district_name, year: r.year, dates: r.dates,
-    lst_day: r.lst_day_k, lst_night: r.lst_night_k, suhi_day: r.suhi_day_k, suhi_night: r.suhi_night_k, ati: r.ati_per_k,
-    day_scenes: r.day_scenes, night_scenes: r.night_scenes,
-  }));
-}
-
-export function renderTable(rows: Row[], level: 'date' | 'year', format: OutputFormat): string {
-  return formatRows(rows, format, {
+export function renderTable(rows: readonly Row[], level: 'date' | 'year', format: OutputFormat): string {
+  return formatRows(format === 'table' ? rows : roundTableRows(rows), format, {
     columns: TABLE_FIELDS[level],
     labels: TABLE_LABELS,
-    decimals: { lst_day: 2, lst_night: 2, suhi_day: 2, suhi_night: 2, ati: 5 },
+    decimals: { lst_day_k: 2, lst_night_k: 2, suhi_day_k: 2, suhi_night_k: 2, ati_per_k: 5 },
   });
 }
 

@@ -11,7 +11,7 @@ import {
   type CiRanks, type Hemisphere, type MonthSelection, type SeasonName, type SerialCorrection, type TrendResult,
 } from '../core/trend/index.js';
 import { centroidLonLat } from '../core/hotspot/weights.js';
-import { formatRows, type OutputFormat, type Row } from '../format.js';
+import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
 import type { Store } from '../store/index.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
 import { CAUTION_SHORT, withStore } from './common.js';
@@ -39,21 +39,8 @@ export function metricUnit(metric: SeriesMetric): { value: string; slope: string
   return metric === 'ati' ? { value: '1/K', slope: '1/K per year' } : { value: 'K', slope: 'K per year' };
 }
 
-/** Round to `decimals` places (null stays null). */
-export function roundTo(x: number | null | undefined, decimals: number): number | null {
-  if (x === null || x === undefined || !Number.isFinite(x)) return null;
-  const r = Number(x.toFixed(decimals));
-  return Object.is(r, -0) ? 0 : r;
-}
-
-/** Round to `digits` significant digits (null stays null). */
-export function roundSignificant(x: number | null | undefined, digits: number): number | null {
-  if (x === null || x === undefined || !Number.isFinite(x)) return null;
-  return x === 0 ? 0 : Number(x.toPrecision(digits));
-}
-
 /**
- * Published precision: temperature slopes 0.0001 K (ATI slopes 1e-8 1/K);
+ * Stated precision: temperature slopes 0.0001 K (ATI slopes 1e-8 1/K);
  * p, q and p_corrected 6 significant digits; z, tau and Var(S) 4 decimals.
  */
 export function roundTrendRow(r: Record<string, unknown>, metric: SeriesMetric | null): Row {
@@ -61,9 +48,9 @@ export function roundTrendRow(r: Record<string, unknown>, metric: SeriesMetric |
   const out: Record<string, string | number | boolean | null> = {};
   for (const [k, v] of Object.entries(r)) {
     if (typeof v !== 'number') { out[k] = (v ?? null) as string | boolean | null; continue; }
-    if (k.startsWith('slope')) out[k] = roundTo(v, slopeDecimals);
-    else if (k === 'p' || k === 'q' || k === 'p_corrected' || k === 'p_raw') out[k] = roundSignificant(v, 6);
-    else if (k === 'z' || k === 'z_corrected' || k === 'tau' || k === 'var_s') out[k] = roundTo(v, 4);
+    if (k.startsWith('slope')) out[k] = roundNumber(v, { decimals: slopeDecimals });
+    else if (k === 'p' || k === 'q' || k === 'p_corrected' || k === 'p_raw') out[k] = roundNumber(v, PRECISION.probability);
+    else if (k === 'z' || k === 'z_corrected' || k === 'tau' || k === 'var_s') out[k] = roundNumber(v, { decimals: 4 });
     else out[k] = v;
   }
   return out;

@@ -11,7 +11,6 @@ import { pixelSizeMetres, sceneCentreLonLat } from '../core/raster/placement.js'
 import { sceneTiming } from '../core/solar/index.js';
 import { sceneKind, type ManifestEntry, type SceneKind } from '../run/archive.js';
 import type { PipelineRepo } from '../store/pipeline-repo.js';
-import { rasterCrs } from './zonal-table.js';
 
 export interface IngestData {
   path: string;
@@ -49,7 +48,7 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
           data.path,
         );
       }
-      const [lon, lat] = sceneCentreLonLat(h, rasterCrs(h));
+      const [lon, lat] = sceneCentreLonLat(h);
       const timing = kind === 'lst' ? sceneTiming(acquiredAt, lon, lat, data.dayElevationDeg) : sceneTiming(null, lon, lat);
       const { id: sceneId, previousStatus } = await repo.registerSceneReporting({
         contentHash: data.contentHash,

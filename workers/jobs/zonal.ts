@@ -5,13 +5,12 @@
  * transaction per scene, replacing what the scene had.
  */
 import { isInputError } from '../core/errors.js';
-import { openRaster, type RasterFile } from '../core/raster/index.js';
-import { reprojectGeometry } from '../core/crs/index.js';
+import { openRaster, rasterCrs, type RasterFile } from '../core/raster/index.js';
+import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
 import { zonalScene, type ZonalTarget } from '../core/zonal/index.js';
 import type { JobContext } from '../queue/types.js';
 import type { PipelineRepo } from '../store/pipeline-repo.js';
 import type { IngestResult } from './ingest.js';
-import { GEOJSON_CRS, rasterCrs } from './zonal-table.js';
 
 export interface ZonalData {
   runId: number;
@@ -103,7 +102,7 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
       districtId: r.id,
       pixels: r.stats.pixels,
       valid: r.stats.valid,
-      validFraction: r.stats.valid_fraction,
+      validFraction: r.stats.validFraction,
       meanKelvin: r.stats.mean,
       stdKelvin: r.stats.std,
       minKelvin: r.stats.min,

@@ -13,7 +13,7 @@ import { DEFAULT_DERIVE_OPTIONS } from '../core/derive/metrics.js';
 import { fingerprint } from '../core/hash.js';
 import { PLAUSIBLE_RANGE_KELVIN, RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES } from '../core/defaults.js';
 import { listScenes, readManifest, type ManifestEntry, type UnreadablePath } from './archive.js';
-import { readMergedPolygons, readRuralReference } from '../jobs/zonal-table.js';
+import { readMergedPolygons, readRuralReference } from '../core/districts/merged.js';
 import { registryModuleUrl, THREADED_JOBS } from './registry.js';
 import { createPipelineRepo } from '../store/pipeline-repo.js';
 import type { DeriveResult } from '../jobs/derive.js';

@@ -22,3 +22,18 @@ export function districtsBBox(districts: readonly District[]): LonLatBBox {
   }
   return [minLon, minLat, maxLon, maxLat];
 }
+
+/**
+ * Bounding box [x0, y0, x1, y1] of MultiPolygon coordinates in any CRS (every
+ * ring, so it also holds for coordinates reprojected into a raster's CRS).
+ */
+export function geometryBBox(geometry: number[][][][]): [number, number, number, number] {
+  let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
+  for (const poly of geometry) for (const ring of poly) for (const [x, y] of ring) {
+    if (x < x0) x0 = x;
+    if (x > x1) x1 = x;
+    if (y < y0) y0 = y;
+    if (y > y1) y1 = y;
+  }
+  return [x0, y0, x1, y1];
+}

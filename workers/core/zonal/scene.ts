@@ -480,11 +480,11 @@ function resultOf(s: TargetState, fraction: boolean, v: ValuePath): ZonalSceneRe
   const summary: ValueSummary | null = s.int !== null ? s.int.summarize(v.scale, v.offset) : s.float!.summarize();
   const valid = s.tally[VALID];
   const validFraction = fraction ? s.tally[VALID_WEIGHT] / s.fraction!.sum : valid / s.pixels;
-  if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), valid_fraction: 0 }, counts };
+  if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), validFraction: 0 }, counts };
   const stats: ZonalStats = {
     pixels: s.pixels,
     valid,
-    valid_fraction: validFraction,
+    validFraction,
     mean: summary.mean,
     std: summary.std,
     min: summary.min,

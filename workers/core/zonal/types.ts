@@ -11,7 +11,7 @@ export interface ZonalStats {
   /** Cells that passed nodata, QA and plausibility checks. */
   valid: number;
   /** valid / pixels (fraction rule: valid coverage / total coverage); null when pixels = 0. */
-  valid_fraction: number | null;
+  validFraction: number | null;
   mean: Kelvin | null;
   /** Population standard deviation (ddof 0), K. */
   std: Kelvin | null;
@@ -52,7 +52,7 @@ export interface ValueSummary {
 /** Zonal statistics with nothing to report (district off the raster). */
 export function emptyStats(pixels = 0): ZonalStats {
   return {
-    pixels, valid: 0, valid_fraction: pixels > 0 ? 0 : null,
+    pixels, valid: 0, validFraction: pixels > 0 ? 0 : null,
     mean: null, std: null, min: null, max: null, median: null, p10: null, p90: null,
   };
 }

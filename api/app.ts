@@ -14,7 +14,7 @@ import helmet from '@fastify/helmet';
 import type { Store } from '../workers/store/index.js';
 import { districtTable, roundTableRows, TABLE_FIELDS } from '../workers/store/district-table.js';
 import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
-import { listDistricts, sceneStatusCounts, failures } from '../workers/store/repo.js';
+import { listDistricts, sceneStatusCounts, failures } from '../workers/store/index.js';
 import { InputError, isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
 import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';

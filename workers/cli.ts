@@ -7,15 +7,21 @@
  * 1 anything else (a service failed, or a bug).
  */
 import { Command, CommanderError, Option } from 'commander';
-import { isInputError } from './core/errors.js';
+import { isInputError, isServiceError } from './core/errors.js';
+import {
+  ALBEDO_WINDOW_DAYS, CAUTION_TEXT, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
+  RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES,
+} from './core/defaults.js';
 import { parseYear, quoteGiven } from './core/year.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
 import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS, STALLED_INTERVAL_MS } from './queue/settings.js';
 
-const CAUTION =
-  'LST is land-surface (skin) temperature, not air temperature. Results inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+const CAUTION = CAUTION_TEXT;
+
+/** `--plausible` default as the option takes it: "min,max" in Kelvin. */
+const PLAUSIBLE_DEFAULT = PLAUSIBLE_RANGE_KELVIN.join(',');
 
 function badOption(message: string): CommanderError {
   return new CommanderError(2, 'heatledger.badOption', message);
@@ -62,19 +68,19 @@ function formatOption(defaultFormat: 'json' | 'csv' | 'table' = 'table'): Option
   return new Option('--format <format>', 'output format').choices([...OUTPUT_FORMATS]).default(defaultFormat);
 }
 
-export function buildProgram(): Command {
-  const program = new Command();
-  program
-    .name('heatledger')
-    .description(
-      'District land-surface-temperature statistics, apparent thermal inertia and surface heat island intensity from GeoTIFF scene archives.\n\n' +
-        CAUTION,
-    )
-    .version(VERSION, '-V, --version')
-    .showHelpAfterError('(run with --help for usage)')
-    .exitOverride()
-    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+const dataDirOption = () =>
+  new Option('--data-dir <dir>', 'embedded database folder (ignored when DATABASE_URL is set)').env(ENV.dataDir).default(DEFAULT_DATA_DIR);
 
+const seasonOption = () =>
+  new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
+
+const hemisphereOption = () =>
+  new Option('--hemisphere <h>', 'hemisphere for --season (default: from the stored districts; north for --series)').choices(['north', 'south']);
+
+const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
+
+/** `heatledger zonal`. */
+function addZonalCommand(program: Command): void {
   program
     .command('zonal')
     .description(
@@ -94,27 +100,27 @@ export function buildProgram(): Command {
     .option('--qa-mask <bits>', 'mask pixels whose QA value has any of these bits set (e.g. 24, 0x18, 0b11000)', parseBitMask('--qa-mask'))
     .option('--qa-values <list>', 'mask pixels whose QA value is one of these (comma-separated integers)')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre (pixel centre inside) or fraction (area-weighted)').choices(['centre', 'fraction']).default('centre'))
-    .option('--plausible <min,max>', 'plausible LST range in Kelvin; values outside count as invalid', '170,360')
+    .option('--plausible <min,max>', 'plausible LST range in Kelvin; values outside count as invalid', PLAUSIBLE_DEFAULT)
     .addOption(formatOption('table'))
     .action(async (raster: string, opts) => {
       const { runZonalCommand } = await import('./commands/zonal.js');
       await runZonalCommand(raster, opts);
     });
+}
 
-  const dataDirOption = () =>
-    new Option('--data-dir <dir>', 'embedded database folder (ignored when DATABASE_URL is set)').env(ENV.dataDir).default(DEFAULT_DATA_DIR);
-
+/** `heatledger ingest`. */
+function addIngestCommand(program: Command): void {
   program
     .command('ingest')
     .description(
       'Process a scene archive: register scenes, compute district statistics, pair day/night passes, derive ATI and SUHI, store them.\n' +
-        'Embedded (in-process, PGlite in --data-dir) unless REDIS_URL and DATABASE_URL are set (then jobs go to `heatledger worker` processes).',
+        'Embedded (in-process, an embedded database in --data-dir) unless REDIS_URL and DATABASE_URL are set (then jobs go to `heatledger worker` processes).',
     )
     .argument('<inputs...>', 'LST GeoTIFF files or folders (searched recursively)')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
     .option('--rural <file>', 'rural reference polygon(s), GeoJSON (default: a ring around the districts)')
-    .option('--rural-inner <metres>', 'inner edge of the default rural ring, metres outside the districts', parseNumber('--rural-inner'), 2000)
-    .option('--rural-outer <metres>', 'outer edge of the default rural ring, metres outside the districts', parseNumber('--rural-outer'), 10000)
+    .option('--rural-inner <metres>', 'inner edge of the default rural ring, metres outside the districts', parseNumber('--rural-inner'), RURAL_RING_INNER_METRES)
+    .option('--rural-outer <metres>', 'outer edge of the default rural ring, metres outside the districts', parseNumber('--rural-outer'), RURAL_RING_OUTER_METRES)
     .option('--water <file>', 'water polygons (GeoJSON) to leave out of the default rural ring')
     .option('--albedo <rasters...>', 'albedo rasters or folders; one raster without a date serves the whole archive')
     .option('--manifest <file>', 'CSV or JSON with columns path, kind (lst|albedo|qa), acquired_at (UTC ISO 8601), sensor, qa (QA raster of the scene); it overrides the files\' own kind and time')
@@ -122,10 +128,10 @@ export function buildProgram(): Command {
     .option('--id-field <name>', 'feature property holding the district id', 'id')
     .option('--name-field <name>', 'feature property holding the district name', 'name')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre or fraction').choices(['centre', 'fraction']).default('centre'))
-    .option('--plausible <min,max>', 'plausible LST range in Kelvin', '170,360')
-    .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), 0.5)
-    .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), 18)
-    .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), 32)
+    .option('--plausible <min,max>', 'plausible LST range in Kelvin', PLAUSIBLE_DEFAULT)
+    .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), MIN_VALID_FRACTION)
+    .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), PAIRING_WINDOW_HOURS)
+    .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), ALBEDO_WINDOW_DAYS)
     .addOption(new Option('--service-retry-budget <seconds>', 'how long PostgreSQL or Redis may stay unreachable before the run gives up on them; unfinished scenes are left for the next ingest (exit 1)')
       .env(ENV.serviceRetryBudget).argParser(parseNumber('--service-retry-budget')).default(DEFAULT_SERVICE_RETRY_BUDGET_MS / 1000))
     .addOption(new Option('--stall-timeout <seconds>', 'distributed mode: end the run incomplete (exit 1) when no worker has made progress for this long')
@@ -138,7 +144,10 @@ export function buildProgram(): Command {
       const { runIngestCommand } = await import('./commands/ingest.js');
       await runIngestCommand(inputs, opts);
     });
+}
 
+/** `heatledger status`. */
+function addStatusCommand(program: Command): void {
   program
     .command('status')
     .description('Scenes in the store by state, and failed scenes with their reasons. JSON keys are snake_case; CSV holds only the scene counts by kind, pass and status (one header line).')
@@ -148,7 +157,10 @@ export function buildProgram(): Command {
       const { runStatusCommand } = await import('./commands/status.js');
       await runStatusCommand(opts);
     });
+}
 
+/** `heatledger table`. */
+function addTableCommand(program: Command): void {
   program
     .command('table')
     .description(
@@ -163,13 +175,10 @@ export function buildProgram(): Command {
       const { runTableCommand } = await import('./commands/table.js');
       await runTableCommand(opts);
     });
+}
 
-  const seasonOption = () =>
-    new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
-  const hemisphereOption = () =>
-    new Option('--hemisphere <h>', 'hemisphere for --season (default: from the stored districts; north for --series)').choices(['north', 'south']);
-  const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
-
+/** `heatledger trend`. */
+function addTrendCommand(program: Command): void {
   program
     .command('trend')
     .description(
@@ -199,7 +208,10 @@ export function buildProgram(): Command {
       const { runTrendCommand } = await import('./commands/trend.js');
       await runTrendCommand(opts);
     });
+}
 
+/** `heatledger hotspots`. */
+function addHotspotsCommand(program: Command): void {
   program
     .command('hotspots')
     .description(
@@ -225,7 +237,10 @@ export function buildProgram(): Command {
       const { runHotspotsCommand } = await import('./commands/hotspots.js');
       await runHotspotsCommand(opts);
     });
+}
 
+/** `heatledger worker`. */
+function addWorkerCommand(program: Command): void {
   program
     .command('worker')
     .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
@@ -236,7 +251,10 @@ export function buildProgram(): Command {
       const { runWorkerCommand } = await import('./commands/worker.js');
       await runWorkerCommand(opts);
     });
+}
 
+/** `heatledger demo`. */
+function addDemoCommand(program: Command): void {
   program
     .command('demo')
     .description('Generate an invented city and its multi-year scene archive (first run only), run the whole pipeline and print the hottest districts.')
@@ -247,7 +265,10 @@ export function buildProgram(): Command {
       const { runDemoCommand } = await import('./commands/demo.js');
       await runDemoCommand(opts);
     });
+}
 
+/** `heatledger serve`. */
+function addServeCommand(program: Command): void {
   program
     .command('serve')
     .description('HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).')
@@ -258,7 +279,30 @@ export function buildProgram(): Command {
       const { runServeCommand } = await import('./commands/serve.js');
       await runServeCommand(opts);
     });
+}
 
+export function buildProgram(): Command {
+  const program = new Command();
+  program
+    .name('heatledger')
+    .description(
+      'District land-surface-temperature statistics, apparent thermal inertia and surface heat island intensity from GeoTIFF scene archives.\n\n' +
+        CAUTION,
+    )
+    .version(VERSION, '-V, --version')
+    .showHelpAfterError('(run with --help for usage)')
+    .exitOverride()
+    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+
+  addZonalCommand(program);
+  addIngestCommand(program);
+  addStatusCommand(program);
+  addTableCommand(program);
+  addTrendCommand(program);
+  addHotspotsCommand(program);
+  addWorkerCommand(program);
+  addDemoCommand(program);
+  addServeCommand(program);
   return program;
 }
 
@@ -310,7 +354,7 @@ export function reportError(e: unknown): number {
     return 2;
   }
   const err = e as Error;
-  if (err?.name === 'ServiceError') {
+  if (isServiceError(e)) {
     process.stderr.write(`heatledger: service error: ${err.message}\n`);
   } else {
     process.stderr.write(`heatledger: internal error: ${err?.message ?? String(e)} (set HEATLEDGER_DEBUG=1 for details)\n`);

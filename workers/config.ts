@@ -3,10 +3,11 @@
  * the same names (a test checks that they stay in step).
  *
  * Embedded mode (default): neither DATABASE_URL nor REDIS_URL is set; jobs run
- * in-process and results go to a PGlite data directory (default ./.heatledger).
- * Distributed mode: REDIS_URL selects BullMQ workers; DATABASE_URL a
+ * in-process and results go to an embedded data directory (default ./.heatledger).
+ * Distributed mode: REDIS_URL selects queue workers; DATABASE_URL a
  * PostgreSQL server (both are needed: workers on several machines must share
- * one database).
+ * one database). Only workers/queue (queue/configured.ts) and workers/store
+ * (store/configured.ts) read the two URLs and decide the mode.
  */
 export const ENV = {
   databaseUrl: 'DATABASE_URL',
@@ -20,7 +21,7 @@ export const ENV = {
   serviceRetryBudget: 'HEATLEDGER_SERVICE_RETRY_BUDGET',
   /** Seconds ingest waits with no worker activity before it ends the run incomplete (ingest --stall-timeout). */
   stallTimeout: 'HEATLEDGER_STALL_TIMEOUT',
-  /** Seconds between BullMQ's checks for jobs of dead workers (worker --stalled-interval; the same on every worker). */
+  /** Seconds between the queue's checks for jobs of dead workers (worker --stalled-interval; the same on every worker). */
   stalledInterval: 'HEATLEDGER_STALLED_INTERVAL',
   /** Folder the API shows scene paths relative to (default: the common folder of the stored scenes). */
   dataRoot: 'HEATLEDGER_DATA_ROOT',
@@ -28,24 +29,5 @@ export const ENV = {
   logLevel: 'LOG_LEVEL',
 } as const;
 
-export const DEFAULT_DATA_DIR = '.heatledger';
-export const DEFAULT_API_PORT = 8080;
-
-export interface RuntimeConfig {
-  mode: 'embedded' | 'distributed';
-  databaseUrl?: string;
-  redisUrl?: string;
-  dataDir: string;
-}
-
-/** Resolve where the store and queue live, from options (first) and the environment. */
-export function runtimeConfig(options: { dataDir?: string } = {}, env: NodeJS.ProcessEnv = process.env): RuntimeConfig {
-  const redisUrl = env[ENV.redisUrl] || undefined;
-  const databaseUrl = env[ENV.databaseUrl] || undefined;
-  return {
-    mode: redisUrl ? 'distributed' : 'embedded',
-    redisUrl,
-    databaseUrl,
-    dataDir: options.dataDir ?? env[ENV.dataDir] ?? DEFAULT_DATA_DIR,
-  };
-}
+/** Defaults the CLI shows for --data-dir and --port (from the defaults module). */
+export { DATA_DIR_NAME as DEFAULT_DATA_DIR, API_PORT as DEFAULT_API_PORT } from './core/defaults.js';

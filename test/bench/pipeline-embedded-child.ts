@@ -6,7 +6,7 @@
  *
  * Runs runPipeline (in-process runner, PGlite in <data dir>) with <threads>
  * worker threads and prints one JSON line: the run summary, the timed
- * repository calls (pipeline-timing-repo.ts, loaded through the --import hook)
+ * repository calls (pipeline-timing-repo.ts, registered by the --import preload)
  * and when runPipeline started and ended (epoch ms and process.hrtime µs).
  * The data dir belongs to the caller, who removes it. When the bench that
  * spawned this process over IPC goes away, the process ends.
@@ -25,8 +25,8 @@ if (!archiveDir || !districtsPath || !dataDir || !Number.isInteger(threads) || t
   process.exit(2);
 }
 
-const { runPipeline } = await import('../../workers/pipeline.js');
-const { runtimeConfig } = await import('../../workers/config.js');
+const { runPipeline } = await import('../../workers/run/pipeline.js');
+const { runtimeConfig } = await import('../../workers/run/config.js');
 // An empty environment: embedded mode even when the bench's shell has REDIS_URL or DATABASE_URL set.
 const startedHrUs = Number(process.hrtime.bigint() / 1000n);
 const startedAt = performance.timeOrigin + performance.now();

@@ -1,18 +1,15 @@
 /**
- * A stand-in for workers/jobs/repo.js that the pipeline bench loads in place
- * of the real module (see pipeline-hooks.ts): `createPipelineRepo(store)`
- * returns the real repository with every method timed. Product code is not
- * changed; processors get the same object, only slower by a performance.now()
- * pair per call.
+ * The pipeline bench's repository wrapper (registered by pipeline-register.ts
+ * through the store's `wrapPipelineRepos`): every repository the process makes
+ * is the real one with each method timed. Processors get the same methods,
+ * only slower by a performance.now() pair per call.
  *
  * Figures are kept in `globalThis.__heatledgerBenchRepoTiming` (read by the
  * embedded child) and, when BENCH_REPO_TIMING_FILE is set, written to that
  * file as JSON when the process exits (read after a worker process stops).
  */
 import { writeFileSync } from 'node:fs';
-import type { Store } from '../../workers/store/store.js';
-
-type RealModule = typeof import('../../workers/jobs/repo.js');
+import type { PipelineRepo } from '../../workers/store/pipeline-repo.js';
 
 /** Calls of one repository method. */
 export interface MethodTiming {
@@ -39,10 +36,6 @@ export interface RepoTiming {
 /** Methods that write results: the storage share of a run is their time. */
 export const RESULT_WRITES = ['replaceZonalStats', 'replaceDerivedFor'];
 
-// The real module, under a query string so the resolve hook passes it through.
-const realUrl = new URL('../../workers/jobs/repo.js?bench-real', import.meta.url).href;
-const real = (await import(realUrl)) as RealModule;
-
 const timing: RepoTiming = { pid: process.pid, methods: {}, writeIntervals: [], firstCallAt: null, lastCallEnd: null, firstCallHrUs: null, lastCallEndHrUs: null };
 (globalThis as { __heatledgerBenchRepoTiming?: RepoTiming }).__heatledgerBenchRepoTiming = timing;
 
@@ -52,9 +45,9 @@ if (outFile) process.on('exit', () => { writeFileSync(outFile, JSON.stringify(ti
 const epochNow = () => performance.timeOrigin + performance.now();
 const hrUs = () => Number(process.hrtime.bigint() / 1000n);
 
-/** The real repository with each method timed (wall time from call to settlement). */
-export function createPipelineRepo(store: Store): ReturnType<RealModule['createPipelineRepo']> {
-  const repo = real.createPipelineRepo(store) as unknown as Record<string, (...args: unknown[]) => Promise<unknown>>;
+/** The repository with each method timed (wall time from call to settlement). */
+export function timePipelineRepo(real: PipelineRepo): PipelineRepo {
+  const repo = real as unknown as Record<string, (...args: unknown[]) => Promise<unknown>>;
   const out: Record<string, (...args: unknown[]) => Promise<unknown>> = {};
   for (const [name, fn] of Object.entries(repo)) {
     const m: MethodTiming = (timing.methods[name] ??= { calls: 0, totalMs: 0, rows: 0 });
@@ -79,7 +72,5 @@ export function createPipelineRepo(store: Store): ReturnType<RealModule['createP
       }
     };
   }
-  return out as unknown as ReturnType<RealModule['createPipelineRepo']>;
+  return out as unknown as PipelineRepo;
 }
-
-export type PipelineRepo = ReturnType<typeof createPipelineRepo>;

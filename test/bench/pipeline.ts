@@ -12,9 +12,9 @@
  *
  * Scenes per second = scenes / the run's own `seconds` (from runPipeline's
  * start to its end: districts, hashing, store open, every job, derive); the
- * process wall time is printed beside it. Storage share: every process loads
- * a timed stand-in of workers/jobs/repo.js (pipeline-hooks.ts, through
- * `node --import`), so the time inside replaceZonalStats / replaceDerivedFor
+ * process wall time is printed beside it. Storage share: every process times
+ * its repository (pipeline-register.ts, through `node --import`, registers the
+ * wrapper of pipeline-timing-repo.ts), so the time inside replaceZonalStats / replaceDerivedFor
  * is measured, not estimated. Embedded: time with at least one write in
  * flight (PGlite runs them one at a time on the main thread) / run time.
  * Distributed: summed write time of all workers / (workers x run time).
@@ -291,7 +291,7 @@ async function embeddedRun(data: PipelineBenchData, threads: number, cpuProfileD
     if (r.code !== 0) throw new Error(`embedded run (${threads} thread(s)) failed: ${describeExit(r)}`);
     const out = JSON.parse(r.stdout.trim().split('\n').pop()!) as EmbeddedOutput;
     const t = out.timing;
-    if (!t || t.firstCallAt === null || t.lastCallEnd === null) throw new Error('the embedded run did not load the timed repository (pipeline-hooks.js); storage time unknown');
+    if (!t || t.firstCallAt === null || t.lastCallEnd === null) throw new Error('the embedded run did not load the timed repository (pipeline-register.js); storage time unknown');
     const zonalRows = t.methods.replaceZonalStats?.rows ?? 0;
     const f = figuresOf(threads === 1 ? 'embedded_1' : 'embedded_2', out.summary, r.wallSeconds, [t], 'main-thread', zonalRows);
     return { ...f, startupSeconds: (t.firstCallAt - out.startedAt) / 1000, finishSeconds: (out.endedAt - t.lastCallEnd) / 1000, clocks: out };
@@ -396,7 +396,7 @@ async function profiledEmbeddedRun(data: PipelineBenchData, dir: string): Promis
     for (const name of files) {
       const tid = Number(name.split('.').at(-3));
       const w = await profileWindow(join(dir, name), ROOT, windows[phase]);
-      // leave out threads with nothing to do in the window (the module-hooks thread of --import)
+      // leave out threads with nothing to do in the window (e.g. a loader thread of --import)
       if (tid === 0 || w.busyMs > 0.05 * w.windowMs) threads[tid === 0 ? 'main' : `thread ${tid}`] = w;
     }
     phases[phase] = { seconds: (w1 - w0) / 1e6, threads };
@@ -414,7 +414,7 @@ function runLine(f: RunFigures): string {
     `job phase ${s2(f.jobsSeconds)} s = ${s2(f.jobsScenesPerSecond)} scenes/s` +
     (f.startupSeconds !== null ? `, before it ${s2(f.startupSeconds)} s, after it ${s2(f.finishSeconds!)} s); ` : `, outside it ${s2(f.seconds - f.jobsSeconds)} s); `) +
     `result writes ${f.writeMs.toFixed(0)} ms summed, ${f.writeBusyMs.toFixed(0)} ms busy -> storage ${pct(f.storageFraction)}; ` +
-    [ms('registerScene'), ms('findSceneByHash'), ms('listDistricts')].filter(Boolean).join(', ') +
+    [ms('registerSceneReporting'), ms('listDistricts')].filter(Boolean).join(', ') +
     `; ${f.zonalRows} zonal rows, ${f.derivedRows} derived (${f.derivedOk} complete)` +
     (f.failures ? `; ${f.failures} FAILED job(s), first: ${f.firstFailure}` : f.firstFailure ? `; PROBLEM: ${f.firstFailure}` : '');
 }
@@ -509,7 +509,7 @@ export async function runPipelineBench(options: PipelineBenchOptions = {}): Prom
     storage_fraction: { embedded: maxOf(storage.embedded_1, storage.embedded_2), distributed: maxOf(storage.distributed_1, storage.distributed_2) },
     storage_fraction_by_config: storage,
     storage_measurement:
-      'measured: every process loads a timed stand-in of workers/jobs/repo.js (node --import hook); embedded = time with a result write ' +
+      'measured: every process times its repository (wrapper registered by a node --import preload); embedded = time with a result write ' +
       '(replaceZonalStats/replaceDerivedFor) in flight on the PGlite main thread / run seconds; distributed = summed write time of the workers / (workers x run seconds)',
     seconds: Object.fromEntries(CONFIGS.map((c) => [c, runs[c].map((f) => f.seconds)])) as Record<PipelineConfig, number[]>,
     wall_seconds: Object.fromEntries(CONFIGS.map((c) => [c, runs[c].map((f) => f.wallSeconds)])) as Record<PipelineConfig, number[]>,

@@ -138,7 +138,7 @@ describe('docker-compose.yml', () => {
     expect([...new Set(named)].sort()).toEqual(declared.sort());
     expect(volumeSources(services.postgres)).toContainEqual({ source: 'pgdata', target: '/var/lib/postgresql/data', mode: 'rw' });
     expect(volumeSources(services.redis).map((v) => v.source)).toContain('redisdata');
-    // workers open scenes by the path the CLI enqueued (workers/pipeline.ts passes absolute paths)
+    // workers open scenes by the path the CLI enqueued (workers/run/pipeline.ts passes absolute paths)
     const archiveMount = (s: Service) => volumeSources(s).find((v) => v.target === '/archive');
     expect(archiveMount(services.worker)).toEqual({ source: './archive', target: '/archive', mode: 'ro' });
     expect(archiveMount(services.cli)).toEqual(archiveMount(services.worker));

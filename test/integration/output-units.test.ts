@@ -18,7 +18,7 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { buildApp } from '../../api/app.js';
 import { openStore } from '../../workers/store/store.js';
-import { replaceDerived, upsertDistricts } from '../../workers/store/repo.js';
+import { replaceDerived, upsertDistricts } from '../../workers/store/index.js';
 import { seedHeatStore } from '../support/heat-store.js';
 import { cleanEnv, cliPath, ensurePipelineBuild, repoRoot, runCli } from '../support/pipeline-harness.js';
 

@@ -19,9 +19,9 @@ import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { ArchiveResult } from '../../demo-data/generate.js';
-import { runtimeConfig } from '../../workers/config.js';
+import { runtimeConfig } from '../../workers/run/config.js';
 import { openConfiguredStore } from '../../workers/store/configured.js';
-import { listDistricts } from '../../workers/store/repo.js';
+import { listDistricts } from '../../workers/store/index.js';
 import { districtTable } from '../../workers/store/district-table.js';
 import { cleanEnv, cliOk, ensurePipelineBuild, killAllChildren, makeArchive, rasterioDistrictMeans, SMALL_ARCHIVE, type ReferencePass } from '../support/pipeline-harness.js';
 

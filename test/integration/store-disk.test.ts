@@ -27,7 +27,7 @@ import {
   upsertDistricts,
   type DerivedInput,
   type ZonalStatsInput,
-} from '../../workers/store/repo.js';
+} from '../../workers/store/index.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { serviceAvailable, testDatabaseUrl } from '../support/services.js';
 

@@ -39,7 +39,7 @@ import {
   type DistrictInput,
   type SceneInput,
   type ZonalStatsInput,
-} from '../../workers/store/repo.js';
+} from '../../workers/store/index.js';
 import { migrate } from '../../workers/store/migrate.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import { openStore, type Store } from '../../workers/store/store.js';

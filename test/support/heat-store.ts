@@ -11,7 +11,7 @@ import { mkdirSync, writeFileSync } from 'node:fs';
 import path from 'node:path';
 import { openRaster } from '../../workers/core/raster/index.js';
 import type { Store } from '../../workers/store/store.js';
-import { markSceneFailed, registerScene, replaceDerived, replaceZonalStats, upsertDistricts } from '../../workers/store/repo.js';
+import { markSceneFailed, registerScene, replaceDerived, replaceZonalStats, upsertDistricts } from '../../workers/store/index.js';
 
 export const FORMULA_NAME = '=HYPERLINK("https://example.invalid/","open")';
 

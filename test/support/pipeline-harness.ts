@@ -38,8 +38,8 @@ function newestSourceMs(dir: string): number {
 }
 
 function distStale(): boolean {
-  if (!existsSync(cliPath) || !existsSync(path.join(repoRoot, 'dist/workers/jobs/registry.js'))) return true;
-  const built = statSync(path.join(repoRoot, 'dist/workers/jobs/registry.js')).mtimeMs;
+  if (!existsSync(cliPath) || !existsSync(path.join(repoRoot, 'dist/workers/run/registry.js'))) return true;
+  const built = statSync(path.join(repoRoot, 'dist/workers/run/registry.js')).mtimeMs;
   return SOURCE_DIRS.some((d) => newestSourceMs(path.join(repoRoot, d)) > built);
 }
 

@@ -24,7 +24,7 @@ import { lstat, readdir, readlink, stat } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { hashSceneFiles, listSceneFiles, listScenes, type WalkFs } from '../../workers/jobs/archive.js';
+import { hashSceneFiles, listSceneFiles, listScenes, type WalkFs } from '../../workers/run/archive.js';
 
 let dir: string;
 beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'heatledger-walk-')); });

@@ -2,8 +2,9 @@ import { mkdtemp, rm, writeFile } from 'node:fs/promises';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { normaliseUtc, readManifest, listSceneFiles, fingerprint } from '../../workers/jobs/archive.js';
-import { sceneTiming } from '../../workers/jobs/scene-info.js';
+import { normaliseUtc, readManifest, listSceneFiles } from '../../workers/run/archive.js';
+import { fingerprint } from '../../workers/core/hash.js';
+import { sceneTiming } from '../../workers/core/solar/index.js';
 
 let dir: string;
 beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'heatledger-archive-')); });

@@ -18,7 +18,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { kinks, multiPolygon } from '@turf/turf';
 import { parseDistricts, ruralRing, SIMPLIFY_TOLERANCE_METRES, type District } from '../../workers/core/districts/index.js';
-import { subtractWater } from '../../workers/pipeline.js';
+import { subtractWater } from '../../workers/run/pipeline.js';
 import { InputError } from '../../workers/core/errors.js';
 import { denseCircle, denseHalfDiscs, denseStar, featureCollection, shapelyAvailable, shapelyRingArea } from '../support/dense-districts.js';
 

@@ -4,11 +4,12 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { writeGeoTiff } from '../../workers/core/raster/write.js';
 import { ingest } from '../../workers/jobs/ingest.js';
-import { hashFile } from '../../workers/jobs/archive.js';
+import { hashFile } from '../../workers/core/hash.js';
 import { ruralRing, parseDistricts } from '../../workers/core/districts/index.js';
-import { buildFlow, subtractWater } from '../../workers/pipeline.js';
+import { buildFlow } from '../../workers/run/flow.js';
+import { subtractWater } from '../../workers/run/pipeline.js';
 import type { JobContext } from '../../workers/queue/types.js';
-import type { PipelineRepo } from '../../workers/jobs/repo.js';
+import type { PipelineRepo } from '../../workers/store/pipeline-repo.js';
 
 let dir: string;
 beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'heatledger-jobs-')); });

@@ -3,7 +3,7 @@ import { describe, expect, it } from 'vitest';
 import { commonDirectory, relativeInText, relativeToRoot } from '../../api/relative-paths.js';
 import { failureLine, PRECISION, problemText, roundNumber, snakeCase, snakeCaseKeys, toCsv } from '../../workers/format.js';
 import { failedJobLine, summaryJson } from '../../workers/commands/ingest.js';
-import type { PipelineSummary } from '../../workers/pipeline.js';
+import type { PipelineSummary } from '../../workers/run/pipeline.js';
 import { parseYear } from '../../workers/core/year.js';
 
 /** Python's csv module (an RFC 4180 reader) as the outside reference for what a CSV says. */

@@ -23,8 +23,8 @@ import { unsupportedCompression } from '../../workers/core/raster/decoders/index
 import { zonalTable } from '../../workers/commands/zonal-table.js';
 import { snakeCaseKeys } from '../../workers/format.js';
 import { ingest } from '../../workers/jobs/ingest.js';
-import { hashFile } from '../../workers/jobs/archive.js';
-import { createPipelineRepo, type PipelineRepo } from '../../workers/jobs/repo.js';
+import { hashFile } from '../../workers/core/hash.js';
+import { createPipelineRepo, type PipelineRepo } from '../../workers/store/pipeline-repo.js';
 import { openStore } from '../../workers/store/store.js';
 import type { JobContext } from '../../workers/queue/types.js';
 import { isInputError } from '../../workers/core/errors.js';

@@ -1,6 +1,6 @@
 /**
  * How a run ends, from its job tree and what the runner reported
- * (workers/pipeline.ts runOutcome) — the run states of
+ * (workers/run/outcome.ts runOutcome) — the run states of
  * sql/migrations/004_run_states.sql: `succeeded` only when every scene was
  * stored and the table derived; `incomplete` (with the scenes left) when a
  * service or a bug kept scenes or the derive step from finishing, or the
@@ -11,7 +11,7 @@
  * no source: exit 0 means everything asked for was done).
  */
 import { describe, expect, it } from 'vitest';
-import { runOutcome } from '../../workers/pipeline.js';
+import { runOutcome } from '../../workers/run/outcome.js';
 import type { FlowResult, JobFailure, JobSpec } from '../../workers/queue/types.js';
 
 /** derive ← zonal-i ← ingest-i for scenes 1..n. */

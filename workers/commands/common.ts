@@ -1,10 +1,10 @@
 /** Pieces the store-using commands share. */
 import { InputError } from '../core/errors.js';
-import { runtimeConfig, type RuntimeConfig } from '../config.js';
+import { runtimeConfig, type RuntimeConfig } from '../run/config.js';
 import type { Store } from '../store/index.js';
 
 /**
- * Open the configured store for reading (embedded PGlite in --data-dir, or DATABASE_URL), run `fn`, close.
+ * Open the configured store for reading (the embedded database in --data-dir, or the server the store side is configured with), run `fn`, close.
  * An embedded store must exist (a mistyped --data-dir is an InputError, nothing is created) and is
  * read through its owner's socket while another process (an ingest) owns it.
  */
@@ -19,8 +19,8 @@ export async function withStore<T>(opts: { dataDir?: string }, fn: (store: Store
   }
 }
 
-export const CAUTION_SHORT =
-  'LST is surface (skin) temperature, not air temperature; these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+/** The one-line caution printed under results (from the defaults module). */
+export { CAUTION_SHORT_TEXT as CAUTION_SHORT } from '../core/defaults.js';
 
 /** `--plausible min,max` (Kelvin) or `none`. */
 export function parsePlausible(text: string): [number, number] | null {

@@ -5,7 +5,7 @@
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { mkdir, rm, writeFile } from 'node:fs/promises';
 import { join, resolve } from 'node:path';
-import { runtimeConfig } from '../config.js';
+import { runtimeConfig } from '../run/config.js';
 import type { Row } from '../format.js';
 import { CAUTION_SHORT } from './common.js';
 import { summaryLines, throwIfRunFailed } from './ingest.js';
@@ -59,7 +59,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     process.stderr.write(`Using the demo archive in ${archive}\n`);
   }
   const config = runtimeConfig({ dataDir: opts.dataDir });
-  const { runPipeline } = await import('../pipeline.js');
+  const { runPipeline } = await import('../run/pipeline.js');
   const { openConfiguredStore } = await import('../store/configured.js');
   process.stderr.write(`Running the pipeline (${config.mode}; results in ${config.databaseUrl ? 'the PostgreSQL server' : resolve(config.dataDir)}) ...\n`);
   // The rural ring on land only: the sea fills about a quarter of the default ring, is some 6 K warmer
@@ -87,7 +87,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     if (Number.isFinite(lastYear)) {
       hotspots = await districtHotspots(store, { metric: 'suhi_night', from: lastYear, to: lastYear, season: 'summer', weights: 'queen', minDates: 3 });
     }
-    const { listDistricts } = await import('../store/repo.js');
+    const { listDistricts } = await import('../store/districts.js');
     for (const d of await listDistricts(store)) {
       if (typeof d.properties.land_use === 'string') landUse.set(d.id, d.properties.land_use.replace(/_/g, ' '));
     }

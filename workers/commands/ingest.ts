@@ -1,8 +1,8 @@
 import { InputError, isServiceError, ServiceError } from '../core/errors.js';
-import { runtimeConfig } from '../config.js';
+import { runtimeConfig } from '../run/config.js';
 import { parsePlausible } from './common.js';
 import { failureLine, problemText, roundNumber, snakeCaseKeys } from '../format.js';
-import type { PipelineOptions, PipelineSummary } from '../pipeline.js';
+import type { PipelineOptions, PipelineSummary } from '../run/pipeline.js';
 import type { FlowProgress } from '../queue/types.js';
 
 export interface IngestCommandOptions {
@@ -95,7 +95,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   if (!(opts.albedoWindow > 0)) throw new InputError(`--albedo-window must be positive days, got ${opts.albedoWindow}`);
   if (opts.serviceRetryBudget !== undefined && !(opts.serviceRetryBudget >= 0)) throw new InputError(`--service-retry-budget must be seconds >= 0, got ${opts.serviceRetryBudget}`);
   if (opts.stallTimeout !== undefined && !(opts.stallTimeout > 0)) throw new InputError(`--stall-timeout must be positive seconds, got ${opts.stallTimeout}`);
-  const { runPipeline } = await import('../pipeline.js');
+  const { runPipeline } = await import('../run/pipeline.js');
   const config = runtimeConfig({ dataDir: opts.dataDir });
   let bar: { update(v: number, p?: object): void; setTotal(t: number): void; stop(): void } | null = null;
   const showBar = opts.progress && !opts.json;

@@ -11,7 +11,7 @@ export const STATUS_CSV_FIELDS = ['kind', 'pass', 'status', 'scenes'] as const;
  * in the other two formats).
  */
 export async function runStatusCommand(opts: { dataDir?: string; format: OutputFormat }): Promise<void> {
-  const { sceneStatusCounts, failures } = await import('../store/repo.js');
+  const { sceneStatusCounts, failures } = await import('../store/index.js');
   await withStore(opts, async (store, config) => {
     const counts = await sceneStatusCounts(store);
     const fails = (await failures(store)).map((f) => ({ ...f, error: problemText(f.error) }));

@@ -232,7 +232,7 @@ export async function runTrendCommand(o: TrendCommandOptions): Promise<void> {
           `years with ≥ ${o.minDates} dates; slopes in ${unit.slope} (per decade ×10); q = Benjamini–Hochberg across ${rows.length} districts; alpha ${o.alpha}\n`,
       );
       process.stdout.write(formatRows(rounded, 'table', { columns: columns.filter((c) => c !== 'dates_per_year'), decimals: { slope_per_year: metric === 'ati' ? 8 : 4, slope_per_decade: metric === 'ati' ? 7 : 3, slope_ci_lower: metric === 'ati' ? 8 : 4, slope_ci_upper: metric === 'ati' ? 8 : 4, p: 6, q: 6, p_corrected: 6, tau: 3, z: 3, z_corrected: 3, var_s: 2 } }));
-      process.stdout.write(`Yearly means depend on the clear dates each year had; SUHI depends on the rural reference. ${CAUTION_SHORT}\n`);
+      process.stdout.write(`${CAUTION_SHORT}\n`);
     } else {
       process.stdout.write(formatRows(rounded, o.format, { columns }));
     }

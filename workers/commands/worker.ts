@@ -1,5 +1,6 @@
 import { InputError } from '../core/errors.js';
-import { ENV, runtimeConfig } from '../config.js';
+import { ENV } from '../config.js';
+import { runtimeConfig } from '../run/config.js';
 
 export async function runWorkerCommand(opts: { concurrency: number; stalledInterval: number }): Promise<void> {
   const config = runtimeConfig();
@@ -8,14 +9,12 @@ export async function runWorkerCommand(opts: { concurrency: number; stalledInter
   if (!(Number.isInteger(opts.concurrency) && opts.concurrency >= 1)) throw new InputError(`--concurrency must be a whole number >= 1, got ${opts.concurrency}`);
   if (!(opts.stalledInterval >= 0.1 && opts.stalledInterval <= 3600)) throw new InputError(`--stalled-interval must be between 0.1 and 3600 seconds, got ${opts.stalledInterval}`);
   const stalledInterval = Math.round(opts.stalledInterval * 1000);
-  const { startWorker } = await import('../queue/bull.js');
-  const { registryModuleUrl } = await import('../jobs/registry.js');
-  const handle = await startWorker({
-    redisUrl: config.redisUrl,
+  const { startConfiguredWorker } = await import('../queue/configured.js');
+  const { registryModuleUrl } = await import('../run/registry.js');
+  const handle = await startConfiguredWorker({ ...config, redisUrl: config.redisUrl }, {
     processorsModule: registryModuleUrl(),
     concurrency: opts.concurrency,
     stalledInterval,
-    prefix: process.env[ENV.queuePrefix] || undefined,
   });
   process.stderr.write(`heatledger worker: serving ingest, zonal and derive jobs on ${new URL(config.redisUrl).host} (concurrency ${opts.concurrency}, stalled check every ${stalledInterval / 1000} s); SIGTERM to stop\n`);
   await handle.closed;

@@ -17,7 +17,7 @@ import { windowOfBounds } from '../core/raster/affine.js';
 import { zonalScene } from '../core/zonal/scene.js';
 import type { ZonalStats, ZonalCounts } from '../core/zonal/types.js';
 import type { RasterHeader } from '../core/raster/header.js';
-import { sceneKind } from '../jobs/scene-info.js';
+import { sceneKind } from '../run/archive.js';
 
 export interface ZonalTableOptions {
   rasterPath: string;

@@ -5,7 +5,7 @@
  */
 import { deriveMetrics, type DeriveOptions, type SceneInfo, type StatInfo } from '../core/derive/metrics.js';
 import type { JobContext } from '../queue/types.js';
-import type { PipelineRepo } from './repo.js';
+import type { PipelineRepo } from '../store/pipeline-repo.js';
 
 export interface DeriveData {
   runId: number;

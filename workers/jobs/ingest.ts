@@ -7,9 +7,10 @@
 import { InputError, isInputError } from '../core/errors.js';
 import { openRaster } from '../core/raster/index.js';
 import type { JobContext } from '../queue/types.js';
-import type { ManifestEntry, SceneKind } from './archive.js';
-import type { PipelineRepo } from './repo.js';
-import { pixelSizeMetres, sceneCentreLonLat, sceneKind, sceneTiming } from './scene-info.js';
+import { pixelSizeMetres, sceneCentreLonLat } from '../core/raster/placement.js';
+import { sceneTiming } from '../core/solar/index.js';
+import { sceneKind, type ManifestEntry, type SceneKind } from '../run/archive.js';
+import type { PipelineRepo } from '../store/pipeline-repo.js';
 
 export interface IngestData {
   path: string;

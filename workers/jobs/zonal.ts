@@ -9,7 +9,7 @@ import { openRaster, rasterCrs, type RasterFile } from '../core/raster/index.js'
 import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
 import { zonalScene, type ZonalTarget } from '../core/zonal/index.js';
 import type { JobContext } from '../queue/types.js';
-import type { PipelineRepo } from './repo.js';
+import type { PipelineRepo } from '../store/pipeline-repo.js';
 import type { IngestResult } from './ingest.js';
 
 export interface ZonalData {

@@ -281,6 +281,26 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     return n;
   }
 
+  /** A queue nobody serves waits for ever: say so (every 30 s, until a worker shows up). Returns when to look next. */
+  async function noticeUnservedQueues(nodes: FlatNode[], onNotice: (message: string) => void): Promise<number> {
+    const counts = await Promise.all([...new Set(nodes.map((n) => n.spec.name))].map((name) => queue(name).getWorkersCount().catch(() => 1)));
+    if (!counts.some((c) => c === 0)) return Infinity;
+    onNotice(`no heatledger worker is serving ${counts.every((c) => c === 0) ? 'the' : 'some of the'} queues yet; start one with \`heatledger worker\` (same REDIS_URL and DATABASE_URL)`);
+    return Date.now() + 30_000;
+  }
+
+  /** Why the run stops waiting when no worker made progress since `lastActivity`: what is still queued where. */
+  async function stalledStop(nodes: FlatNode[], lastActivity: number): Promise<NonNullable<FlowResult['stopped']>> {
+    const waiting = await waitingByQueue(nodes);
+    const seconds = Math.round((Date.now() - lastActivity) / 1000);
+    const queued = waiting.length ? waiting.map((w) => `${w.waiting} job(s) waiting in queue ${w.queue}`).join(', ') : 'no job waiting';
+    return {
+      kind: 'service',
+      service: 'worker',
+      error: `no heatledger worker made progress on this run for ${seconds} s (${queued}); is a \`heatledger worker\` running (same REDIS_URL and HEATLEDGER_QUEUE_PREFIX)?`,
+    };
+  }
+
   async function runFlow(rootSpec: JobSpec, opts: RunFlowOptions = {}): Promise<FlowResult> {
     if (closed) throw new ServiceError('the BullMQ runner is closed');
     const watch = watchRedis(connection, where, redisBudgetMs, onError.last);
@@ -351,14 +371,7 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
         let resubmits = 0;
         let nextWorkerCheck = 0;
         for (;;) {
-          if (opts.onNotice && Date.now() >= nextWorkerCheck) {
-            // A queue nobody serves waits for ever: say so, every 30 s, until a worker shows up.
-            const counts = await Promise.all([...new Set(nodes.map((n) => n.spec.name))].map((name) => queue(name).getWorkersCount().catch(() => 1)));
-            if (counts.some((c) => c === 0)) {
-              opts.onNotice(`no heatledger worker is serving ${counts.every((c) => c === 0) ? 'the' : 'some of the'} queues yet; start one with \`heatledger worker\` (same REDIS_URL and DATABASE_URL)`);
-              nextWorkerCheck = Date.now() + 30_000;
-            } else nextWorkerCheck = Infinity;
-          }
+          if (opts.onNotice && Date.now() >= nextWorkerCheck) nextWorkerCheck = await noticeUnservedQueues(nodes, opts.onNotice);
           const finishedByEvent = new Promise<void>((res) => { rootFinished = res; });
           let timer: NodeJS.Timeout | undefined;
           await Promise.race([finishedByEvent, new Promise<void>((res) => { timer = setTimeout(res, pollMs); })]);
@@ -370,14 +383,7 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
             // A job in hand is activity too (a long scene), as long as its worker holds the lock.
             if (await activeCount(nodes) > 0) lastActivity = Date.now();
             else {
-              const waiting = await waitingByQueue(nodes);
-              const seconds = Math.round((Date.now() - lastActivity) / 1000);
-              const queued = waiting.length ? waiting.map((w) => `${w.waiting} job(s) waiting in queue ${w.queue}`).join(', ') : 'no job waiting';
-              stopped = {
-                kind: 'service',
-                service: 'worker',
-                error: `no heatledger worker made progress on this run for ${seconds} s (${queued}); is a \`heatledger worker\` running (same REDIS_URL and HEATLEDGER_QUEUE_PREFIX)?`,
-              };
+              stopped = await stalledStop(nodes, lastActivity);
               break;
             }
           }

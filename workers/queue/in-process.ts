@@ -156,10 +156,65 @@ class ThreadPool {
   }
 }
 
+/** A limit on jobs running at once: `acquire` waits for a free slot, `release` hands it to the next waiter. */
+class Slots {
+  private running = 0;
+  private readonly waiting: (() => void)[] = [];
+  constructor(private readonly limit: number) {}
+  acquire(): Promise<void> {
+    return new Promise<void>((res) => {
+      if (this.running < this.limit) { this.running++; res(); } else this.waiting.push(() => { this.running++; res(); });
+    });
+  }
+  release(): void {
+    this.running--;
+    const next = this.waiting.shift();
+    if (next) next();
+  }
+}
+
+/** Jobs completed earlier in this runner's life count as done; every other job waits for its children that are not. */
+function takeReusable(
+  nodes: readonly FlatNode[], reusable: ReadonlySet<string>, completed: ReadonlyMap<string, unknown>,
+  values: Map<string, unknown>, doneIds: NamedIdSet, pendingChildren: Map<string, number>,
+): void {
+  for (const n of nodes) {
+    if (reusable.has(n.spec.id)) { values.set(n.spec.id, completed.get(n.spec.id)); doneIds.add(n.spec.id); }
+  }
+  for (const n of nodes) {
+    if (!reusable.has(n.spec.id)) pendingChildren.set(n.spec.id, n.childIds.filter((c) => !reusable.has(c)).length);
+  }
+}
+
+/** One try of a job: its data and what its children gave (or that they failed). */
+function jobAttempt(n: FlatNode, values: ReadonlyMap<string, unknown>, attempt: number): JobAttempt {
+  const childrenValues: Record<string, unknown> = {};
+  const failedChildren: string[] = [];
+  for (const c of n.childIds) {
+    if (values.has(c)) childrenValues[c] = values.get(c);
+    else failedChildren.push(c);
+  }
+  return {
+    jobId: n.spec.id, name: n.spec.name, data: n.spec.data,
+    childrenValues: sortedRecord(childrenValues), failedChildren: failedChildren.sort(), attempt,
+  };
+}
+
+/** The flow's result: every job's value, or its failure (a job that never ran is a bug). */
+function flowResult(nodes: readonly FlatNode[], values: ReadonlyMap<string, unknown>, failed: ReadonlyMap<string, FailureRecord>): FlowResult {
+  const results = new Map<string, unknown>();
+  const failures: JobFailure[] = [];
+  for (const n of nodes) {
+    if (values.has(n.spec.id)) results.set(n.spec.id, values.get(n.spec.id));
+    else failures.push(jobFailure(n.spec.id, n.spec.name, failed.get(n.spec.id), { kind: 'bug', error: 'Error: job did not run' }));
+  }
+  return { results, failures };
+}
+
 /**
  * Create the embedded runner.
  * @example
- * const runner = createInProcessRunner({ processorsModule: new URL('./jobs/registry.js', import.meta.url), repo: store, threadedJobs: ['zonal'] });
+ * const runner = createInProcessRunner({ processorsModule: new URL('./run/registry.js', import.meta.url), repo: store, threadedJobs: ['zonal'] });
  * const { results, failures } = await runner.runFlow(tree);
  * await runner.close();
  */
@@ -181,12 +236,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
   const aborts = new Set<(e: Error) => void>();
 
   // Main-thread jobs wait here for a free slot.
-  let mainRunning = 0;
-  const mainWaiting: (() => void)[] = [];
-  const acquireMain = () => new Promise<void>((res) => {
-    if (mainRunning < concurrency) { mainRunning++; res(); } else mainWaiting.push(() => { mainRunning++; res(); });
-  });
-  const releaseMain = () => { mainRunning--; const next = mainWaiting.shift(); if (next) next(); };
+  const mainSlots = new Slots(concurrency);
 
   async function attemptOnce(a: JobAttempt, log: (l: string) => void): Promise<Outcome> {
     if (threaded.has(a.name)) {
@@ -194,14 +244,14 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
       return pool.run(a, log);
     }
     const mod = await (modPromise ??= loadProcessors(href));
-    await acquireMain();
+    await mainSlots.acquire();
     try {
       const value = await runAttempt(mod.processors, a, repo, log);
       return { ok: true, value: asJsonValue(value) };
     } catch (e) {
       return { ok: false, error: e instanceof Error ? e : new Error(String(e)) };
     } finally {
-      releaseMain();
+      mainSlots.release();
     }
   }
 
@@ -224,12 +274,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
     const totals = totalsByName(nodes.map((n) => n.spec.name));
     const report = () => opts.onProgress?.(progressOf(doneIds, failedIds, totals, running));
 
-    for (const n of nodes) {
-      if (reusable.has(n.spec.id)) { values.set(n.spec.id, completed.get(n.spec.id)); doneIds.add(n.spec.id); }
-    }
-    for (const n of nodes) {
-      if (!reusable.has(n.spec.id)) pendingChildren.set(n.spec.id, n.childIds.filter((c) => !reusable.has(c)).length);
-    }
+    takeReusable(nodes, reusable, completed, values, doneIds, pendingChildren);
 
     return new Promise<FlowResult>((resolve, reject) => {
       let finished = false;
@@ -240,13 +285,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
         if (finished) return;
         finished = true;
         aborts.delete(abort);
-        const results = new Map<string, unknown>();
-        const failures: JobFailure[] = [];
-        for (const n of nodes) {
-          if (values.has(n.spec.id)) results.set(n.spec.id, values.get(n.spec.id));
-          else failures.push(jobFailure(n.spec.id, n.spec.name, failed.get(n.spec.id), { kind: 'bug', error: 'Error: job did not run' }));
-        }
-        resolve({ results, failures });
+        resolve(flowResult(nodes, values, failed));
       };
 
       const settleNode = (n: FlatNode) => {
@@ -259,16 +298,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
 
       const start = (n: FlatNode, attempt: number) => {
         if (finished) return;
-        const childrenValues: Record<string, unknown> = {};
-        const failedChildren: string[] = [];
-        for (const c of n.childIds) {
-          if (values.has(c)) childrenValues[c] = values.get(c);
-          else failedChildren.push(c);
-        }
-        const a: JobAttempt = {
-          jobId: n.spec.id, name: n.spec.name, data: n.spec.data,
-          childrenValues: sortedRecord(childrenValues), failedChildren: failedChildren.sort(), attempt,
-        };
+        const a = jobAttempt(n, values, attempt);
         if (attempt === 1) { running++; report(); }
         attemptOnce(a, () => undefined).then((o) => {
           if (finished) return;

@@ -1,7 +1,7 @@
 /**
  * Job trees: validation, flattening and the reuse rule both runners share.
  */
-import { createHash } from 'node:crypto';
+import { sha256Hex } from '../core/hash.js';
 import { InputError } from '../core/errors.js';
 import type { JobSpec } from './types.js';
 
@@ -88,6 +88,5 @@ export function asJsonValue(value: unknown): unknown {
  * @example deriveJobId('zonal', sceneSha256, { ring: 1000 }) // 'zonal-9f2c…' (64 hex digits after the name)
  */
 export function deriveJobId(name: string, ...parts: unknown[]): string {
-  const h = createHash('sha256').update(JSON.stringify([name, ...parts])).digest('hex');
-  return `${name}-${h}`;
+  return `${name}-${sha256Hex(JSON.stringify([name, ...parts]))}`;
 }

@@ -1,13 +1,32 @@
-/** The store a run configuration names: the PostgreSQL server of DATABASE_URL, else PGlite in the data directory. */
+/**
+ * Which store a process uses, decided here only: the PostgreSQL server of
+ * DATABASE_URL when it is set, else PGlite in the data directory.
+ */
 import { InputError } from '../core/errors.js';
-import { ENV, type RuntimeConfig } from '../config.js';
+import { ENV } from '../config.js';
+import { DATA_DIR_NAME } from '../core/defaults.js';
 import { openStore, type Store } from './store.js';
+
+/** Where the store lives: a server URL, or an embedded data directory. */
+export interface StoreConfig {
+  databaseUrl?: string;
+  dataDir: string;
+}
+
+/** The store configuration from options (first) and the environment. */
+export function storeConfig(options: { dataDir?: string } = {}, env: NodeJS.ProcessEnv = process.env): StoreConfig {
+  return {
+    databaseUrl: env[ENV.databaseUrl] || undefined,
+    dataDir: options.dataDir ?? env[ENV.dataDir] ?? DATA_DIR_NAME,
+  };
+}
 
 /**
  * The store for a configuration: a PostgreSQL server when DATABASE_URL is set, else PGlite in dataDir.
  * `readOnly` (status, table, serve): an embedded store must exist already, and is read through its owner when another process owns it.
+ * `mode` 'distributed' (a queue on Redis) needs a server: workers on several machines share it.
  */
-export async function openConfiguredStore(config: RuntimeConfig, options: { readOnly?: boolean } = {}): Promise<Store> {
+export async function openConfiguredStore(config: StoreConfig & { mode?: 'embedded' | 'distributed' }, options: { readOnly?: boolean } = {}): Promise<Store> {
   if (config.mode === 'distributed' && !config.databaseUrl) {
     throw new InputError(`${ENV.redisUrl} is set (distributed mode) but ${ENV.databaseUrl} is not: workers on several machines need one PostgreSQL server`);
   }

@@ -4,7 +4,7 @@
  * read it through `districtTable`, so a table means the same thing everywhere.
  */
 import { PRECISION, roundRow, type Precision, type Row } from '../format.js';
-import { districtTableByDate, districtTableByYear } from './repo.js';
+import { districtTableByDate, districtTableByYear } from './district-tables.js';
 import type { Store } from './store.js';
 
 /** One row of the district table; unit suffixes: `_k` Kelvin, `_per_k` 1/K. */

@@ -15,8 +15,8 @@
 import fs from 'node:fs';
 import os from 'node:os';
 import path from 'node:path';
-import { createHash } from 'node:crypto';
 import { InputError, ServiceError } from '../core/errors.js';
+import { sha256Hex } from '../core/hash.js';
 import { onInterrupt } from './interrupt.js';
 import {
   READ_COMMANDS, describeOwner, lockPath, ownerAlive, ownerRecord, readLock, releaseLock, removeStaleLock, transferLock, tryCreateLock,
@@ -52,7 +52,7 @@ export function noStoreError(dataDir: string): InputError {
 export function socketPathFor(dataDir: string): string {
   const inDir = path.join(path.resolve(dataDir), 'heatledger.sock');
   if (Buffer.byteLength(inDir) < 100) return inDir;
-  const hash = createHash('sha256').update(path.resolve(dataDir)).digest('hex').slice(0, 16);
+  const hash = sha256Hex(path.resolve(dataDir)).slice(0, 16);
   return path.join(os.tmpdir(), `heatledger-${hash}.sock`);
 }
 

@@ -6,8 +6,9 @@
 import pg from 'pg';
 import { ServiceError } from '../core/errors.js';
 import { TransactionGuard } from './guard.js';
-import { sqlHead, type Store, type Transaction } from './store.js';
-import { ARRAY_ELEMENT_OID, SCALAR_PARSERS } from './types.js';
+import { sqlHead } from './sql-head.js';
+import type { Store, Transaction } from './store.js';
+import { ARRAY_ELEMENT_OID, SCALAR_PARSERS } from './value-parsers.js';
 
 /** Where the server is, for messages: "host:port/database" (never the password). */
 export function describeDatabaseUrl(databaseUrl: string): string {

@@ -8,8 +8,9 @@ import path from 'node:path';
 import { PGlite, type Transaction as PgliteTransaction } from '@electric-sql/pglite';
 import { ServiceError } from '../core/errors.js';
 import { TransactionGuard } from './guard.js';
-import { sqlHead, type Store, type Transaction } from './store.js';
-import { SCALAR_PARSERS } from './types.js';
+import { sqlHead } from './sql-head.js';
+import type { Store, Transaction } from './store.js';
+import { SCALAR_PARSERS } from './value-parsers.js';
 
 export interface PgliteStoreOptions {
   /** Data directory, created if missing; ignored when `memory` is true. */

@@ -94,7 +94,7 @@ export async function startReadServer(socketPath: string, handlers: ReadHandlers
       void answer(req).then(
         (reply) => { if (!socket.destroyed) socket.write(encodeMessage({ id: req.id, ...reply })); },
         (e: unknown) => {
-          if (!socket.destroyed) socket.write(encodeMessage({ id: req.id, error: { name: (e as Error)?.name ?? 'Error', message: (e as Error)?.message ?? String(e) } }));
+          if (!socket.destroyed) socket.write(encodeMessage({ id: req.id, error: { name: (e as Error)?.name ?? 'Error', message: (e as Error)?.message ?? String(e), ownerGone: e instanceof OwnerGoneError } }));
         },
       );
     });
@@ -202,8 +202,8 @@ export class RemoteConnection {
     }).then((msg) => {
       const m = msg as Record<string, unknown>;
       if (m.error) {
-        const e = m.error as { name?: string; message?: string };
-        if (e.name === 'OwnerGoneError') throw new OwnerGoneError(e.message ?? 'the store owner left');
+        const e = m.error as { name?: string; message?: string; ownerGone?: boolean };
+        if (e.ownerGone === true) throw new OwnerGoneError(e.message ?? 'the store owner left');
         throw new ServiceError(`the store owner answered: ${e.message ?? 'error'}`);
       }
       return m;

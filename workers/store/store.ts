@@ -2,8 +2,9 @@
  * The one database interface of heatledger. Two implementations sit behind it:
  * the PostgreSQL server through `pg` (distributed mode, `DATABASE_URL`) and the
  * embedded engine PGlite (the default, a data directory on disk). Both run the
- * same SQL and return the same JavaScript values (see ./types.ts).
+ * same SQL and return the same JavaScript values (see ./value-parsers.ts).
  */
+import { DATA_DIR_NAME } from '../core/defaults.js';
 import { ServiceError } from '../core/errors.js';
 import { migrate } from './migrate.js';
 
@@ -56,7 +57,7 @@ export interface OpenStoreOptions {
 }
 
 /** Default embedded data directory, relative to the working directory. */
-export const DEFAULT_DATA_DIR = './.heatledger';
+export const DEFAULT_DATA_DIR = `./${DATA_DIR_NAME}`;
 
 /**
  * Open the store the options describe and bring its schema up to date
@@ -105,10 +106,4 @@ export async function prepareStore(store: Store): Promise<void> {
   }
   const { markAbandonedRuns } = await import('./abandoned.js');
   await markAbandonedRuns(store);
-}
-
-/** First line of a statement, for error messages. */
-export function sqlHead(sql: string): string {
-  const line = sql.trim().split('\n').find((l) => l.trim() !== '' && !l.trim().startsWith('--')) ?? '';
-  return line.length > 120 ? `${line.slice(0, 117)}...` : line.trim();
 }

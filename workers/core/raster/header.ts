@@ -4,7 +4,8 @@
  * allocates anything for pixels.
  */
 import type { FileHandle } from 'node:fs/promises';
-import { InputError } from '../errors.js';
+import { crsDefinitionForEpsg } from '../crs/index.js';
+import { InputError, isInputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
 import { acquisitionTime } from './acqtime.js';
@@ -13,25 +14,11 @@ import { parseGdalMetadata, parseNodata } from './gdalmeta.js';
 import { crsDefinitionOf, epsgOf, geotransform, isPixelIsPoint, parseGeoKeys, type GeoKeyValue } from './geokeys.js';
 import { alphaBandOf, findExternalMask, findInternalMask, type MaskLayout } from './mask.js';
 import { readSidecar } from './sidecar.js';
+import { readBlockGeometry, TAG } from './blocks.js';
 import { readAscii, readFirstDirectory, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
-
-/** TIFF tag numbers (TIFF 6.0; GeoTIFF 1.1; GDAL private tags). */
-export const TAG = {
-  ImageWidth: 256, ImageLength: 257, BitsPerSample: 258, Compression: 259,
-  StripOffsets: 273, SamplesPerPixel: 277, RowsPerStrip: 278, StripByteCounts: 279,
-  NewSubfileType: 254, PhotometricInterpretation: 262,
-  PlanarConfiguration: 284, DateTime: 306, Predictor: 317,
-  TileWidth: 322, TileLength: 323, TileOffsets: 324, TileByteCounts: 325, ExtraSamples: 338, SampleFormat: 339,
-  ModelPixelScale: 33550, ModelTiepoint: 33922, ModelTransformation: 34264,
-  GeoKeyDirectory: 34735, GeoDoubleParams: 34736, GeoAsciiParams: 34737,
-  GdalMetadata: 42112, GdalNodata: 42113,
-} as const;
 
 /** Largest image we read, in pixels per band (the reader's and its callers' indices stay int32). */
 export const MAX_PIXELS = 2 ** 31;
-/** Largest decoded block (tile or strip, all samples) in bytes. */
-export const MAX_BLOCK_BYTES = 256 * 1024 * 1024;
-
 export interface RasterHeader {
   path: string;
   width: number;
@@ -99,81 +86,6 @@ export interface ParsedRaster {
   readonly maskFile: { fh: FileHandle; path: string } | null;
 }
 
-/** Tile or strip geometry of one image directory and where its blocks are. */
-export interface BlockGeometry {
-  readonly tiled: boolean;
-  readonly blockWidth: number;
-  readonly blockHeight: number;
-  readonly blocksAcross: number;
-  readonly blocksDown: number;
-  readonly blocksPerBand: number;
-  readonly offsets: Float64Array;
-  readonly byteCounts: Float64Array;
-}
-
-/**
- * Block geometry of an image directory, every size, count, offset and byte
- * count checked against the file before anything is allocated for pixels.
- * @param size.bitsPerBlockPixel bits of one pixel within a block (all samples when chunky)
- * @param size.planes number of separate planes (samples when PlanarConfiguration is 2, else 1)
- * @param what what the directory is, for messages ('' for the image itself, else e.g. 'mask: ')
- */
-export async function readBlockGeometry(
-  fh: FileHandle, dir: TiffDirectory, path: string,
-  size: { width: number; height: number; bitsPerBlockPixel: number; planes: number }, what = '',
-): Promise<BlockGeometry> {
-  const scalar = (tag: number, name: string) => readScalar(fh, dir, path, tag, name);
-  const { width, height, bitsPerBlockPixel, planes } = size;
-  const tiled = dir.entries.has(TAG.TileWidth) || dir.entries.has(TAG.TileOffsets);
-  let blockWidth: number;
-  let blockHeight: number;
-  if (tiled) {
-    const tw = await scalar(TAG.TileWidth, 'TileWidth');
-    const th = await scalar(TAG.TileLength, 'TileLength');
-    if (tw === null || th === null || !Number.isInteger(tw) || !Number.isInteger(th) || tw < 1 || th < 1) {
-      throw new InputError(`${what}tile size ${tw} x ${th} is invalid`, path);
-    }
-    blockWidth = tw;
-    blockHeight = th;
-  } else {
-    const rps = (await scalar(TAG.RowsPerStrip, 'RowsPerStrip')) ?? height;
-    if (!Number.isInteger(rps) || rps < 1) throw new InputError(`${what}RowsPerStrip ${rps} is invalid`, path);
-    blockWidth = width;
-    blockHeight = Math.min(rps, height); // 2^32-1 means "one strip" (TIFF 6.0)
-  }
-  // Rows of a block start on byte boundaries (TIFF 6.0 section 2, for bit depths below 8).
-  const blockBytes = Math.ceil((blockWidth * bitsPerBlockPixel) / 8) * blockHeight;
-  if (blockBytes > MAX_BLOCK_BYTES) {
-    throw new InputError(`${what}blocks of ${blockWidth} x ${blockHeight} pixels (${blockBytes} bytes) exceed the ${MAX_BLOCK_BYTES}-byte limit`, path);
-  }
-  const blocksAcross = Math.ceil(width / blockWidth);
-  const blocksDown = Math.ceil(height / blockHeight);
-  const blocksPerBand = blocksAcross * blocksDown;
-  const expectedBlocks = blocksPerBand * planes;
-  const [offTag, cntTag, offName, cntName] = tiled
-    ? [TAG.TileOffsets, TAG.TileByteCounts, 'TileOffsets', 'TileByteCounts']
-    : [TAG.StripOffsets, TAG.StripByteCounts, 'StripOffsets', 'StripByteCounts'];
-  for (const [tag, name] of [[offTag, offName], [cntTag, cntName]] as const) {
-    const e = dir.entries.get(tag);
-    if (!e) throw new InputError(`${what}${name} tag is missing`, path);
-    if (e.count !== expectedBlocks) {
-      throw new InputError(`${what}${name} has ${e.count} entries but the image needs ${expectedBlocks} blocks`, path);
-    }
-  }
-  const offsets = Float64Array.from((await readNumbers(fh, dir, path, offTag, offName, expectedBlocks))!);
-  const byteCounts = Float64Array.from((await readNumbers(fh, dir, path, cntTag, cntName, expectedBlocks))!);
-  for (let i = 0; i < expectedBlocks; i++) {
-    const o = offsets[i], n = byteCounts[i];
-    if (!Number.isInteger(o) || !Number.isInteger(n) || o < 0 || n < 0) {
-      throw new InputError(`${what}block ${i} has an invalid offset ${o} or byte count ${n}`, path);
-    }
-    if (o + n > dir.fileSize) {
-      throw new InputError(`file is truncated: ${what}block ${i} (${n} bytes at ${o}) ends past the end of the file (${dir.fileSize} bytes)`, path);
-    }
-  }
-  return { tiled, blockWidth, blockHeight, blocksAcross, blocksDown, blocksPerBand, offsets, byteCounts };
-}
-
 const SAMPLE_FORMATS: Record<number, RasterHeader['sampleFormat']> = { 1: 'uint', 2: 'int', 3: 'float' };
 
 function uniform(values: number[], name: string, path: string): number {
@@ -182,15 +94,10 @@ function uniform(values: number[], name: string, path: string): number {
   return v;
 }
 
-/**
- * Read the header and block layout of the first image of an open TIFF.
- * @param fh open file (the caller closes it)
- * @param path file path, for messages
- */
-export async function readRasterHeader(fh: FileHandle, path: string): Promise<ParsedRaster> {
-  const dir: TiffDirectory = await readFirstDirectory(fh, path);
-  const scalar = (tag: number, name: string) => readScalar(fh, dir, path, tag, name);
+type Scalar = (tag: number, name: string) => Promise<number | null>;
 
+/** Step 1: image size in pixels and samples per pixel, checked before anything is allocated. */
+async function readImageSize(scalar: Scalar, path: string): Promise<{ width: number; height: number; spp: number }> {
   const width = await scalar(TAG.ImageWidth, 'ImageWidth');
   const height = await scalar(TAG.ImageLength, 'ImageLength');
   if (width === null || height === null) throw new InputError('TIFF image has no ImageWidth/ImageLength tag', path);
@@ -202,7 +109,11 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   }
   const spp = (await scalar(TAG.SamplesPerPixel, 'SamplesPerPixel')) ?? 1;
   if (!Number.isInteger(spp) || spp < 1 || spp > 4096) throw new InputError(`SamplesPerPixel ${spp} is implausible`, path);
+  return { width, height, spp };
+}
 
+/** Step 2: the sample type (one for all bands), among those the decoders support. */
+async function readSampleType(fh: FileHandle, dir: TiffDirectory, path: string, spp: number): Promise<{ bits: number; sampleFormat: RasterHeader['sampleFormat'] }> {
   const bitsList = (await readNumbers(fh, dir, path, TAG.BitsPerSample, 'BitsPerSample', spp)) ?? [1];
   const bits = uniform(bitsList, 'BitsPerSample', path);
   const fmtList = (await readNumbers(fh, dir, path, TAG.SampleFormat, 'SampleFormat', spp)) ?? [1];
@@ -214,8 +125,13 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   if (!sampleFormat || !supported) {
     throw new InputError(`sample format ${sampleFormat ?? `code ${fmtCode}`} with ${bits} bits per sample is not supported`, path);
   }
-  const bytesPerSample = bits / 8;
+  return { bits, sampleFormat };
+}
 
+/** Step 3: compression, predictor and planar configuration, checked against each other. */
+async function readEncoding(
+  scalar: Scalar, dir: TiffDirectory, path: string, spp: number, sampleFormat: RasterHeader['sampleFormat'],
+): Promise<{ compression: number; predictor: number; planar: 1 | 2 }> {
   const compression = (await scalar(TAG.Compression, 'Compression')) ?? 1;
   if (!decoderFor(compression)) throw new InputError(unsupportedCompression(compression), path);
   const predictor = (await scalar(TAG.Predictor, 'Predictor')) ?? 1;
@@ -231,11 +147,11 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     if (!dir.littleEndian) throw new InputError('LERC compression in a big-endian TIFF is not supported', path);
     if (predictor !== 1) throw new InputError(`LERC compression with predictor ${predictor} is not supported`, path);
   }
-  const samplesPerBlockPixel = planar === 1 ? spp : 1;
-  const geometry = await readBlockGeometry(fh, dir, path, { width, height, bitsPerBlockPixel: samplesPerBlockPixel * bits, planes: planar === 2 ? spp : 1 });
-  const { tiled, blockWidth, blockHeight, blocksAcross, blocksDown, blocksPerBand, offsets, byteCounts } = geometry;
+  return { compression, predictor, planar };
+}
 
-  // Georeferencing.
+/** Step 4: GeoKeys and the pixel-to-map transform. */
+async function readGeoreferencing(fh: FileHandle, dir: TiffDirectory, path: string): Promise<{ keys: Map<number, GeoKeyValue> | null; transform: Affine }> {
   let keys: Map<number, GeoKeyValue> | null = null;
   const keyDir = await readNumbers(fh, dir, path, TAG.GeoKeyDirectory, 'GeoKeyDirectory', 4 + 4 * 4096);
   if (keyDir) {
@@ -250,11 +166,18 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     isPixelIsPoint(keys),
     path,
   );
+  return { keys, transform };
+}
 
-  // GDAL metadata and nodata, then the .aux.xml sidecar. GDAL 3.6 (checked with
-  // rasterio on files holding both): the sidecar's nodata and metadata items
-  // override the TIFF's; the TIFF's scale/offset win over the sidecar's.
-  const warnings: string[] = [];
+/**
+ * Step 5: GDAL metadata and nodata, then the .aux.xml sidecar. GDAL 3.6 (checked with
+ * rasterio on files holding both): the sidecar's nodata and metadata items
+ * override the TIFF's; the TIFF's scale/offset win over the sidecar's.
+ * Warnings about corrupt metadata are added to `warnings`.
+ */
+async function readMetadata(
+  fh: FileHandle, dir: TiffDirectory, path: string, warnings: string[],
+): Promise<Pick<RasterHeader, 'metadata' | 'nodata' | 'scale' | 'offset'> & { tiffDateTime: string | null }> {
   const xml = await readAscii(fh, dir, path, TAG.GdalMetadata, 'GDAL_METADATA');
   const meta = xml === null ? { dataset: {}, scale: null, offset: null, warning: null } : parseGdalMetadata(xml, path);
   if (meta.warning !== null) warnings.push(`${path}: ${meta.warning}`);
@@ -265,6 +188,40 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   const side = pam.sidecar;
   const metadata = side ? { ...meta.dataset, ...side.metadata } : meta.dataset;
   const tiffNodata = nodataText === null ? null : parseNodata(nodataText, path);
+  return {
+    metadata,
+    nodata: side?.nodata ?? tiffNodata,
+    scale: meta.scale ?? side?.scale ?? 1,
+    offset: meta.offset ?? side?.offset ?? 0,
+    tiffDateTime,
+  };
+}
+
+/** How the header names the masks it found: internal or external mask, alpha band, both, or none. */
+function maskKind(maskSource: 'internal' | 'external' | null, alphaBand: number | null): RasterHeader['mask'] {
+  return (maskSource && alphaBand !== null ? `${maskSource}+alpha` : maskSource ?? (alphaBand !== null ? 'alpha' : null)) as RasterHeader['mask'];
+}
+
+/**
+ * Read the header and block layout of the first image of an open TIFF, in
+ * steps: size, sample type, encoding, block geometry, georeferencing,
+ * metadata, masks.
+ * @param fh open file (the caller closes it)
+ * @param path file path, for messages
+ */
+export async function readRasterHeader(fh: FileHandle, path: string): Promise<ParsedRaster> {
+  const dir: TiffDirectory = await readFirstDirectory(fh, path);
+  const scalar: Scalar = (tag, name) => readScalar(fh, dir, path, tag, name);
+
+  const { width, height, spp } = await readImageSize(scalar, path);
+  const { bits, sampleFormat } = await readSampleType(fh, dir, path, spp);
+  const { compression, predictor, planar } = await readEncoding(scalar, dir, path, spp, sampleFormat);
+  const samplesPerBlockPixel = planar === 1 ? spp : 1;
+  const geometry = await readBlockGeometry(fh, dir, path, { width, height, bitsPerBlockPixel: samplesPerBlockPixel * bits, planes: planar === 2 ? spp : 1 });
+  const { tiled, blockWidth, blockHeight, blocksAcross, blocksDown, blocksPerBand, offsets, byteCounts } = geometry;
+  const { keys, transform } = await readGeoreferencing(fh, dir, path);
+  const warnings: string[] = [];
+  const { metadata, nodata, scale, offset, tiffDateTime } = await readMetadata(fh, dir, path, warnings);
 
   // Masks: an internal transparency mask of the full-resolution image, an alpha band.
   const extra = await readNumbers(fh, dir, path, TAG.ExtraSamples, 'ExtraSamples', spp);
@@ -272,35 +229,17 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
   const internal = await findInternalMask(fh, dir, path, { width, height, bands: spp }, warnings);
 
   const epsg = epsgOf(keys);
-  const crsDefinition = epsg !== null ? await projectDefinition(epsg, path) : crsDefinitionOf(keys, path);
+  const crsDefinition = epsg !== null ? projectDefinition(epsg, path) : crsDefinitionOf(keys, path);
   const acquiredAt = acquisitionTime(metadata, tiffDateTime, path);
   // Last, as it opens a file the reader must close: GDAL looks for scene.tif.msk
   // only when the file has no mask of its own.
   const external = internal === null ? await findExternalMask(path, { width, height, bands: spp }) : null;
   const maskLayout = internal ?? external?.layout ?? null;
-  const maskSource = internal ? 'internal' : external ? 'external' : null;
-  const mask = (maskSource && alphaBand !== null ? `${maskSource}+alpha` : maskSource ?? (alphaBand !== null ? 'alpha' : null)) as RasterHeader['mask'];
   const header: RasterHeader = {
-    path,
-    width,
-    height,
-    bands: spp,
-    sampleFormat,
-    bitsPerSample: bits,
-    transform,
-    epsg,
-    crsDefinition,
-    nodata: side?.nodata ?? tiffNodata,
-    scale: meta.scale ?? side?.scale ?? 1,
-    offset: meta.offset ?? side?.offset ?? 0,
-    acquiredAt,
-    metadata,
-    blockWidth,
-    blockHeight,
-    tiled,
-    compression,
-    predictor,
-    mask,
+    path, width, height, bands: spp, sampleFormat, bitsPerSample: bits, transform, epsg, crsDefinition,
+    nodata, scale, offset, acquiredAt, metadata,
+    blockWidth, blockHeight, tiled, compression, predictor,
+    mask: maskKind(internal ? 'internal' : external ? 'external' : null, alphaBand),
     alphaBand,
     warnings,
   };
@@ -308,7 +247,7 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
     littleEndian: dir.littleEndian,
     samplesPerPixel: spp,
     planar,
-    bytesPerSample,
+    bytesPerSample: bits / 8,
     blocksAcross,
     blocksDown,
     blocksPerBand,
@@ -326,12 +265,11 @@ export async function readRasterHeader(fh: FileHandle, path: string): Promise<Pa
  * guess (the GeoKeys library falls back to lon/lat for codes it does not know)
  * would put every pixel in the wrong place without a word.
  */
-async function projectDefinition(epsg: Epsg, path: string): Promise<string> {
-  const crs = await import('../crs/index.js');
+function projectDefinition(epsg: Epsg, path: string): string {
   try {
-    return crs.crsDefinitionForEpsg(epsg);
+    return crsDefinitionForEpsg(epsg);
   } catch (e) {
-    if ((e as Error).name === 'InputError') throw new InputError((e as Error).message, path);
+    if (isInputError(e)) throw new InputError(e.message, path);
     throw e;
   }
 }

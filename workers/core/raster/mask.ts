@@ -27,7 +27,7 @@ import { InputError } from '../errors.js';
 import { intersectWindows, type Window } from './affine.js';
 import { CorruptBlockError, decoderFor, unsupportedCompression } from './decoders/index.js';
 import { undoHorizontal } from './decoders/predictor.js';
-import { readBlockGeometry, TAG, type BlockGeometry } from './header.js';
+import { readBlockGeometry, TAG, type BlockGeometry } from './blocks.js';
 import { followingDirectories, readExactlySync, readFirstDirectory, readNumbers, readScalar, type TiffDirectory } from './tiff.js';
 
 /** NewSubfileType bits (TIFF 6.0 section 8). */

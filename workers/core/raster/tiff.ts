@@ -61,30 +61,10 @@ export interface TiffDirectory {
 /** Most directories followed along one chain (a COG with masks has two per level; real files stay far below). */
 export const MAX_DIRECTORIES = 256;
 
-/** Reads `length` bytes at `position`, raising InputError when the file is shorter. */
-export async function readExactly(
-  fh: FileHandle,
-  path: string,
-  position: number,
-  length: number,
-  what: string,
-  into?: Uint8Array,
-): Promise<Uint8Array> {
-  const buf = into && into.length >= length ? into.subarray(0, length) : new Uint8Array(length);
-  let done = 0;
-  while (done < length) {
-    const { bytesRead } = await fh.read(buf, done, length - done, position + done);
-    if (bytesRead === 0) {
-      throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);
-    }
-    done += bytesRead;
-  }
-  return buf;
-}
-
 /**
- * Read exactly `length` bytes at `position` into a new array, synchronously.
- * @throws InputError naming the file when it ends first
+ * Read exactly `length` bytes at `position` into a new array, synchronously:
+ * the one exact read of the raster readers (headers, directories, blocks, masks).
+ * @throws InputError naming the file when it ends first or cannot be read
  */
 export function readExactlySync(fd: number, path: string, position: number, length: number, what: string): Uint8Array {
   const buf = new Uint8Array(length);
@@ -94,7 +74,9 @@ export function readExactlySync(fd: number, path: string, position: number, leng
     try {
       bytesRead = readSync(fd, buf, done, length - done, position + done);
     } catch (e) {
-      throw new InputError(`cannot read ${what} (${(e as NodeJS.ErrnoException).code ?? (e as Error).message})`, path);
+      const code = (e as NodeJS.ErrnoException).code;
+      if (code === 'EISDIR') throw new InputError('is a directory, not a GeoTIFF', path);
+      throw new InputError(`cannot read ${what} (${code ?? (e as Error).message})`, path);
     }
     if (bytesRead === 0) {
       throw new InputError(`file is truncated: ${what} at byte ${position} needs ${length} bytes`, path);
@@ -120,7 +102,7 @@ function u64(view: DataView, at: number, le: boolean): number {
 export async function readFirstDirectory(fh: FileHandle, path: string): Promise<TiffDirectory> {
   const fileSize = (await fh.stat()).size;
   if (fileSize < 8) throw new InputError('not a TIFF file (shorter than a TIFF header)', path);
-  const head = await readExactly(fh, path, 0, Math.min(16, fileSize), 'TIFF header');
+  const head = readExactlySync(fh.fd, path, 0, Math.min(16, fileSize), 'TIFF header');
   const order = String.fromCharCode(head[0], head[1]);
   if (order !== 'II' && order !== 'MM') throw new InputError('not a TIFF file (no II/MM byte-order mark)', path);
   const le = order === 'II';
@@ -163,7 +145,7 @@ export async function readDirectoryAt(
   if (ifdOffset < 8 || ifdOffset + countSize > fileSize) {
     throw new InputError(`${what} offset ${ifdOffset} lies outside the file (${fileSize} bytes)`, path);
   }
-  const cbuf = await readExactly(fh, path, ifdOffset, countSize, what);
+  const cbuf = readExactlySync(fh.fd, path, ifdOffset, countSize, what);
   const cv = new DataView(cbuf.buffer, cbuf.byteOffset, cbuf.length);
   const n = bigTiff ? u64(cv, 0, le) : cv.getUint16(0, le);
   if (n === 0 || n > MAX_IFD_ENTRIES) throw new InputError(`${what} has an implausible entry count ${n}`, path);
@@ -171,7 +153,7 @@ export async function readDirectoryAt(
   if (entriesStart + n * entrySize > fileSize) {
     throw new InputError(`file is truncated inside the ${what} (${n} entries)`, path);
   }
-  const ebuf = await readExactly(fh, path, entriesStart, n * entrySize, `${what} entries`);
+  const ebuf = readExactlySync(fh.fd, path, entriesStart, n * entrySize, `${what} entries`);
   const ev = new DataView(ebuf.buffer, ebuf.byteOffset, ebuf.length);
   const entries = new Map<number, TiffEntry>();
   for (let i = 0; i < n; i++) {
@@ -195,7 +177,7 @@ export async function readDirectoryAt(
   let nextOffset = 0;
   const nextAt = entriesStart + n * entrySize;
   if (nextAt + nextSize <= fileSize) {
-    const nbuf = await readExactly(fh, path, nextAt, nextSize, `${what} link`);
+    const nbuf = readExactlySync(fh.fd, path, nextAt, nextSize, `${what} link`);
     const nv = new DataView(nbuf.buffer, nbuf.byteOffset, nbuf.length);
     nextOffset = bigTiff ? u64(nv, 0, le) : nv.getUint32(0, le);
   }
@@ -246,7 +228,7 @@ export async function readNumbers(
   if (e.type === 2 || e.type === 7) throw new InputError(`tag ${name} has a non-numeric type ${e.type}`, path);
   if (e.count > maxCount) throw new InputError(`tag ${name} has ${e.count} values, expected at most ${maxCount}`, path);
   checkEntry(dir, e, path, name);
-  const buf = await readExactly(fh, path, e.valueOffset, e.byteLength, `tag ${name}`);
+  const buf = readExactlySync(fh.fd, path, e.valueOffset, e.byteLength, `tag ${name}`);
   return decodeNumbers(buf, e.type, e.count, dir.littleEndian);
 }
 
@@ -286,7 +268,7 @@ export async function readAscii(
   if (!e) return null;
   if (e.type !== 2 && e.type !== 1 && e.type !== 7) throw new InputError(`tag ${name} is not text (type ${e.type})`, path);
   checkEntry(dir, e, path, name);
-  const buf = await readExactly(fh, path, e.valueOffset, e.byteLength, `tag ${name}`);
+  const buf = readExactlySync(fh.fd, path, e.valueOffset, e.byteLength, `tag ${name}`);
   let end = buf.length;
   while (end > 0 && buf[end - 1] === 0) end--;
   return Buffer.from(buf.buffer, buf.byteOffset, end).toString('latin1');

@@ -21,3 +21,4 @@ export {
   type RateTimingOptions,
   type TimingAssessment,
 } from './timing.js';
+export { sceneTiming, type SceneTiming } from './scene.js';

@@ -143,6 +143,7 @@ interface TargetState {
 }
 
 // ---- hot loops: one per (coverage rule, value path); qa is null or a per-block mask ----
+// Each loop is kept whole and specialised on purpose (no per-pixel calls or branches on the path): they run once per pixel.
 
 function centreInteger(block: RasterBlock, m: CentreMask, acc: IntegerAccumulator, bias: number, classes: Uint8Array, qa: Uint8Array | null, tally: Float64Array): void {
   const { window: bw, data, stride } = block;
@@ -352,27 +353,50 @@ export async function zonalScene(
   const qa = options.qa ? prepareQa(raster, options.qa) : null;
   const fraction = options.coverage === 'fraction';
   const kind = integerKind(h.sampleFormat, h.bitsPerSample);
-  const { scale, offset } = h;
+  const values: ValuePath = {
+    kind, ...dnClasses(h, kind, lo, hi), scale: h.scale, offset: h.offset, lo, hi,
+    // Float data: the nodata value as the array holds it (float32 rounding).
+    nodataValue: h.nodata === null ? NaN : h.sampleFormat === 'float' && h.bitsPerSample === 32 ? Math.fround(h.nodata) : h.nodata,
+  };
+  const states = await targetStates(h, targets, fraction, kind);
+  const active = states.filter((s) => s.window !== null);
+  if (kind !== null) attachHistograms(active, kind, fraction);
+  await scanBlocks(raster, band, active, qa, fraction, values);
+  return states.map((s) => resultOf(s, fraction, values));
+}
 
-  // Class of every DN (integer path): nodata and plausibility decided once per bin.
-  let classes: Uint8Array | null = null, bias = 0;
-  if (kind !== null) {
-    const bins = 2 ** kind.bits;
-    bias = kind.signed ? bins / 2 : 0;
-    classes = new Uint8Array(bins);
-    for (let b = 0; b < bins; b++) {
-      const dn = b - bias;
-      const kelvin = dn * scale + offset;
-      classes[b] = h.nodata !== null && dn === h.nodata ? NODATA : kelvin >= lo && kelvin <= hi ? VALID : IMPLAUSIBLE;
-    }
+/** How a block's values become Kelvin and classes: the integer path's DN classes, or the float path's constants. */
+interface ValuePath {
+  kind: IntegerKind | null;
+  classes: Uint8Array | null;
+  bias: number;
+  nodataValue: number;
+  scale: number;
+  offset: number;
+  lo: number;
+  hi: number;
+}
+
+/** Class of every DN (integer path): nodata and plausibility decided once per bin. */
+function dnClasses(h: RasterFile['header'], kind: IntegerKind | null, lo: number, hi: number): { classes: Uint8Array | null; bias: number } {
+  if (kind === null) return { classes: null, bias: 0 };
+  const bins = 2 ** kind.bits;
+  const bias = kind.signed ? bins / 2 : 0;
+  const classes = new Uint8Array(bins);
+  for (let b = 0; b < bins; b++) {
+    const dn = b - bias;
+    const kelvin = dn * h.scale + h.offset;
+    classes[b] = h.nodata !== null && dn === h.nodata ? NODATA : kelvin >= lo && kelvin <= hi ? VALID : IMPLAUSIBLE;
   }
-  // Float data: the nodata value as the array holds it (float32 rounding).
-  const nodataValue = h.nodata === null ? NaN : h.sampleFormat === 'float' && h.bitsPerSample === 32 ? Math.fround(h.nodata) : h.nodata;
+  return { classes, bias };
+}
 
+/** Each target's pixel mask on the raster grid, window, pixel count and (float path) accumulator. */
+async function targetStates(h: RasterFile['header'], targets: readonly ZonalTarget[], fraction: boolean, kind: IntegerKind | null): Promise<TargetState[]> {
   // Loaded when needed: most LST rasters are integer DNs read by the centre rule.
   const fractionMask = fraction ? (await import('../coverage/fraction.js')).fractionMask : null;
   const Float = kind === null ? (await import('./float.js')).FloatAccumulator : null;
-  const states: TargetState[] = targets.map((t) => {
+  return targets.map((t) => {
     if (t === null || typeof t !== 'object' || typeof t.id !== 'string') {
       throw new InputError('a zonal target has no string id', h.path);
     }
@@ -396,70 +420,78 @@ export async function zonalScene(
       tally: new Float64Array(5),
     };
   });
+}
 
-  const active = states.filter((s) => s.window !== null);
-  if (kind !== null && active.length > 0) {
-    // Histograms share zeroed buffers of up to 64 (16 MB for 16-bit DNs): few
-    // allocations, whose pages the OS supplies lazily, so only the bins a
-    // district touches cost anything; each scan covers only its touched range.
-    const bins = 2 ** kind.bits, perPool = 64;
-    let pool = new Uint32Array(0);
-    active.forEach((s, i) => {
-      const j = i % perPool;
-      if (j === 0) pool = new Uint32Array(Math.min(perPool, active.length - i) * bins);
-      s.int = new IntegerAccumulator(kind, { weighted: fraction, counts: pool.subarray(j * bins, (j + 1) * bins), trackRange: true });
-    });
-  }
+/**
+ * Integer path: a histogram accumulator per target. Histograms share zeroed
+ * buffers of up to 64 (16 MB for 16-bit DNs): few allocations, whose pages the
+ * OS supplies lazily, so only the bins a district touches cost anything; each
+ * scan covers only its touched range.
+ */
+function attachHistograms(active: TargetState[], kind: IntegerKind, fraction: boolean): void {
+  if (active.length === 0) return;
+  const bins = 2 ** kind.bits, perPool = 64;
+  let pool = new Uint32Array(0);
+  active.forEach((s, i) => {
+    const j = i % perPool;
+    if (j === 0) pool = new Uint32Array(Math.min(perPool, active.length - i) * bins);
+    s.int = new IntegerAccumulator(kind, { weighted: fraction, counts: pool.subarray(j * bins, (j + 1) * bins), trackRange: true });
+  });
+}
+
+/** Decode each block meeting a target once and hand it to every target it meets (the hot loops above). */
+async function scanBlocks(raster: RasterFile, band: number, active: TargetState[], qa: QaMasker | null, fraction: boolean, v: ValuePath): Promise<void> {
+  const h = raster.header;
   const union = unionWindows(active.map((s) => s.window!));
+  if (union === null) return;
   // The raster's own mask (GDAL internal mask or alpha band) excludes pixels besides nodata;
   // with both, a pixel is dropped when either says so.
   const hasMask = h.mask !== null && !(h.mask === 'alpha' && h.alphaBand === band);
   const codes = { codes: new Uint8Array(0) };
-  if (union !== null) {
-    const hits: TargetState[] = [];
-    for await (const block of raster.blocks(union, band)) {
-      hits.length = 0;
-      for (const s of active) if (intersectWindows(block.window, s.window!) !== null) hits.push(s);
-      if (hits.length === 0) continue;
-      if (kind !== null && !isExpectedArray(block.data, kind)) {
-        throw new Error(`reader returned ${block.data.constructor.name} for ${h.sampleFormat}${h.bitsPerSample} data`);
-      }
-      const n = block.window.width * block.window.height;
-      const valid = hasMask ? await raster.validMask(block.window, band) : null;
-      if (valid !== null && valid.length !== n) throw new Error(`mask reader returned ${valid.length} flags for a ${block.window.width} x ${block.window.height} block`);
-      const qaMask = exclusions(valid, qa === null ? null : await qa.maskFor(block.window), n, codes);
-      for (const s of hits) {
-        if (s.int !== null) {
-          if (fraction) fractionInteger(block, s.fraction!, s.int, bias, classes!, qaMask, s.tally);
-          else centreInteger(block, s.centre!, s.int, bias, classes!, qaMask, s.tally);
-        } else if (fraction) {
-          fractionFloat(block, s.fraction!, s.float!, nodataValue, scale, offset, lo, hi, qaMask, s.tally);
-        } else {
-          centreFloat(block, s.centre!, s.float!, nodataValue, scale, offset, lo, hi, qaMask, s.tally);
-        }
+  const hits: TargetState[] = [];
+  for await (const block of raster.blocks(union, band)) {
+    hits.length = 0;
+    for (const s of active) if (intersectWindows(block.window, s.window!) !== null) hits.push(s);
+    if (hits.length === 0) continue;
+    if (v.kind !== null && !isExpectedArray(block.data, v.kind)) {
+      throw new Error(`reader returned ${block.data.constructor.name} for ${h.sampleFormat}${h.bitsPerSample} data`);
+    }
+    const n = block.window.width * block.window.height;
+    const valid = hasMask ? await raster.validMask(block.window, band) : null;
+    if (valid !== null && valid.length !== n) throw new Error(`mask reader returned ${valid.length} flags for a ${block.window.width} x ${block.window.height} block`);
+    const qaMask = exclusions(valid, qa === null ? null : await qa.maskFor(block.window), n, codes);
+    for (const s of hits) {
+      if (s.int !== null) {
+        if (fraction) fractionInteger(block, s.fraction!, s.int, v.bias, v.classes!, qaMask, s.tally);
+        else centreInteger(block, s.centre!, s.int, v.bias, v.classes!, qaMask, s.tally);
+      } else if (fraction) {
+        fractionFloat(block, s.fraction!, s.float!, v.nodataValue, v.scale, v.offset, v.lo, v.hi, qaMask, s.tally);
+      } else {
+        centreFloat(block, s.centre!, s.float!, v.nodataValue, v.scale, v.offset, v.lo, v.hi, qaMask, s.tally);
       }
     }
   }
+}
 
-  return states.map((s) => {
-    const counts: ZonalCounts = { nodata: s.tally[NODATA], masked: s.tally[MASKED], implausible: s.tally[IMPLAUSIBLE] };
-    if (s.pixels === 0) return { id: s.id, stats: emptyStats(0), counts };
-    const summary: ValueSummary | null = s.int !== null ? s.int.summarize(scale, offset) : s.float!.summarize();
-    const valid = s.tally[VALID];
-    const validFraction = fraction ? s.tally[VALID_WEIGHT] / s.fraction!.sum : valid / s.pixels;
-    if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), validFraction: 0 }, counts };
-    const stats: ZonalStats = {
-      pixels: s.pixels,
-      valid,
-      validFraction,
-      mean: summary.mean,
-      std: summary.std,
-      min: summary.min,
-      max: summary.max,
-      median: summary.median,
-      p10: summary.p10,
-      p90: summary.p90,
-    };
-    return { id: s.id, stats, counts };
-  });
+/** A target's statistics and exclusion counts from its accumulator and tally. */
+function resultOf(s: TargetState, fraction: boolean, v: ValuePath): ZonalSceneResult {
+  const counts: ZonalCounts = { nodata: s.tally[NODATA], masked: s.tally[MASKED], implausible: s.tally[IMPLAUSIBLE] };
+  if (s.pixels === 0) return { id: s.id, stats: emptyStats(0), counts };
+  const summary: ValueSummary | null = s.int !== null ? s.int.summarize(v.scale, v.offset) : s.float!.summarize();
+  const valid = s.tally[VALID];
+  const validFraction = fraction ? s.tally[VALID_WEIGHT] / s.fraction!.sum : valid / s.pixels;
+  if (summary === null) return { id: s.id, stats: { ...emptyStats(s.pixels), validFraction: 0 }, counts };
+  const stats: ZonalStats = {
+    pixels: s.pixels,
+    valid,
+    validFraction,
+    mean: summary.mean,
+    std: summary.std,
+    min: summary.min,
+    max: summary.max,
+    median: summary.median,
+    p10: summary.p10,
+    p90: summary.p90,
+  };
+  return { id: s.id, stats, counts };
 }

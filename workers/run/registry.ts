@@ -1,15 +1,14 @@
 /**
- * The processors registry: what runners (in-process threads, BullMQ worker
+ * The processors registry: what runners (in-process threads, queue worker
  * processes) import to find the processors and make their repository.
  */
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import type { Processor } from '../queue/types.js';
-import { ENV } from '../config.js';
 import { projectPath } from '../paths.js';
-import { ingest } from './ingest.js';
-import { zonal } from './zonal.js';
-import { derive } from './derive.js';
+import { ingest } from '../jobs/ingest.js';
+import { zonal } from '../jobs/zonal.js';
+import { derive } from '../jobs/derive.js';
 
 export const processors: Record<string, Processor> = {
   ingest: ingest as Processor,
@@ -24,24 +23,17 @@ export const processors: Record<string, Processor> = {
  */
 export const THREADED_JOBS = ['ingest', 'zonal'];
 
-/** A repository for a worker process: the PostgreSQL server named by DATABASE_URL. */
+/** A repository for a worker process, opened by the store side from the environment (loaded only when asked: threads never need it). */
 export async function createRepo(env: Record<string, string | undefined>) {
-  const { openStore } = await import('../store/index.js');
-  const { createPipelineRepo } = await import('./repo.js');
-  const url = env[ENV.databaseUrl];
-  if (!url) {
-    const { InputError } = await import('../core/errors.js');
-    throw new InputError(`a worker needs ${ENV.databaseUrl} (a PostgreSQL server shared by all workers)`);
-  }
-  const store = await openStore({ databaseUrl: url });
-  return { repo: createPipelineRepo(store), close: () => store.close() };
+  const { openWorkerRepo } = await import('../store/pipeline-repo.js');
+  return openWorkerRepo(env);
 }
 
 /** URL of the compiled registry module (runners import compiled JavaScript, also when tests run the sources). */
 export function registryModuleUrl(): URL {
   const here = fileURLToPath(import.meta.url);
   if (here.endsWith('.js')) return new URL(import.meta.url);
-  const compiled = projectPath('dist', 'workers', 'jobs', 'registry.js');
+  const compiled = projectPath('dist', 'workers', 'run', 'registry.js');
   if (!existsSync(compiled)) throw new Error(`compiled processors not found at ${compiled}; run \`npm run build\``);
   return new URL(`file://${compiled}`);
 }

@@ -2,14 +2,14 @@
  * The scene archive a run is given: files and folders on the command line, an
  * optional manifest, and each file's content hash.
  */
-import { createHash } from 'node:crypto';
-import { createReadStream } from 'node:fs';
 import { lstat, readFile, readdir, readlink, stat } from 'node:fs/promises';
-import { extname, join, resolve } from 'node:path';
+import { basename, extname, join, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
+import { hashFile } from '../core/hash.js';
+import type { RasterHeader } from '../core/raster/index.js';
+import { SCENE_KINDS, type SceneKind } from '../store/scenes.js';
 
-export type SceneKind = 'lst' | 'albedo' | 'qa';
-export const SCENE_KINDS: readonly SceneKind[] = ['lst', 'albedo', 'qa'];
+export { SCENE_KINDS, type SceneKind };
 
 /** What a manifest may say about one file (all optional but the path). */
 export interface ManifestEntry {
@@ -235,26 +235,6 @@ export async function listScenes(inputs: readonly string[], albedoInputs: readon
   };
 }
 
-/** SHA-256 of a file's bytes, streamed (hex). */
-export function hashFile(path: string): Promise<string> {
-  return new Promise((resolvePromise, reject) => {
-    const h = createHash('sha256');
-    createReadStream(path, { highWaterMark: 1 << 20 })
-      .on('data', (c) => h.update(c))
-      .on('error', (e) => reject(new InputError(`cannot read (${(e as NodeJS.ErrnoException).code ?? e.message})`, path)))
-      .on('end', () => resolvePromise(h.digest('hex')));
-  });
-}
-
-/** SHA-256 (hex) of a JSON-serialisable value with sorted keys: job ids and parameter fingerprints. */
-export function fingerprint(...parts: unknown[]): string {
-  const canon = (v: unknown): unknown =>
-    v && typeof v === 'object' && !Array.isArray(v)
-      ? Object.fromEntries(Object.keys(v as object).sort().map((k) => [k, canon((v as Record<string, unknown>)[k])]))
-      : Array.isArray(v) ? v.map(canon) : v;
-  return createHash('sha256').update(JSON.stringify(parts.map(canon))).digest('hex');
-}
-
 /** Normalise a time string to UTC ISO 8601 'YYYY-MM-DDTHH:MM:SSZ'; one without offset is read as UTC. */
 export function normaliseUtc(text: string, source: string): string {
   const t = text.trim();
@@ -331,4 +311,16 @@ export async function readManifest(path: string): Promise<Map<string, ManifestEn
     out.set(abs, entry);
   });
   return out;
+}
+
+/** Kind of a scene: the manifest, then the caller's default, then a KIND metadata item, then the file name; else 'lst'. */
+export function sceneKind(header: RasterHeader, manifest: ManifestEntry | undefined, defaultKind: SceneKind | undefined): SceneKind {
+  if (manifest?.kind) return manifest.kind;
+  if (defaultKind) return defaultKind;
+  const meta = (header.metadata.KIND ?? header.metadata.kind ?? '').toLowerCase();
+  if ((SCENE_KINDS as readonly string[]).includes(meta)) return meta as SceneKind;
+  const name = basename(header.path).toLowerCase();
+  if (/albedo/.test(name)) return 'albedo';
+  if (/(^|[_.-])qa([_.-]|$)/.test(name)) return 'qa';
+  return 'lst';
 }

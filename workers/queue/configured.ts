@@ -1,0 +1,74 @@
+/**
+ * Which runner a process uses, decided here only: BullMQ workers on the Redis
+ * of REDIS_URL when it is set (distributed mode), else the in-process runner
+ * with worker threads (embedded mode).
+ */
+import os from 'node:os';
+import { ENV } from '../config.js';
+import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS } from './settings.js';
+import type { Runner } from './types.js';
+import type { WorkerHandle } from './bull.js';
+
+export type RunMode = 'embedded' | 'distributed';
+
+/** Where jobs run: the mode, and for distributed mode the Redis URL. */
+export interface QueueConfig {
+  mode: RunMode;
+  redisUrl?: string;
+}
+
+/** The queue configuration from the environment. */
+export function queueConfig(env: NodeJS.ProcessEnv = process.env): QueueConfig {
+  const redisUrl = env[ENV.redisUrl] || undefined;
+  return { mode: redisUrl ? 'distributed' : 'embedded', redisUrl };
+}
+
+/** What the embedded runner needs from the run: the processors module and the repository (with the store behind it). */
+export interface EmbeddedRunnerParts {
+  processorsModule: URL;
+  repo: object;
+  /** Worker threads (default: the machine's cores). */
+  threads?: number;
+  threadedJobs: string[];
+}
+
+/** Make the runner for a configuration. */
+export async function createConfiguredRunner(
+  config: QueueConfig, embedded: EmbeddedRunnerParts,
+  limits: { serviceRetryBudgetMs?: number; stallTimeoutMs?: number } = {},
+): Promise<Runner> {
+  const serviceRetryBudgetMs = limits.serviceRetryBudgetMs ?? DEFAULT_SERVICE_RETRY_BUDGET_MS;
+  if (config.mode === 'distributed') {
+    const { createBullRunner } = await import('./bull.js');
+    return createBullRunner({
+      redisUrl: config.redisUrl!,
+      prefix: process.env[ENV.queuePrefix] || undefined,
+      serviceRetryBudgetMs,
+      redisBudgetMs: serviceRetryBudgetMs,
+      stallTimeoutMs: limits.stallTimeoutMs ?? DEFAULT_STALL_TIMEOUT_MS,
+    });
+  }
+  const { createInProcessRunner } = await import('./in-process.js');
+  return createInProcessRunner({
+    processorsModule: embedded.processorsModule,
+    repo: embedded.repo,
+    threads: embedded.threads ?? Math.max(1, os.availableParallelism()),
+    threadedJobs: embedded.threadedJobs,
+    serviceRetryBudgetMs,
+  });
+}
+
+/** A distributed worker process on the configured Redis (queue prefix from the environment). */
+export async function startConfiguredWorker(
+  config: QueueConfig & { redisUrl: string },
+  options: { processorsModule: URL; concurrency: number; stalledInterval: number },
+): Promise<WorkerHandle> {
+  const { startWorker } = await import('./bull.js');
+  return startWorker({
+    redisUrl: config.redisUrl,
+    processorsModule: options.processorsModule,
+    concurrency: options.concurrency,
+    stalledInterval: options.stalledInterval,
+    prefix: process.env[ENV.queuePrefix] || undefined,
+  });
+}

@@ -1,0 +1,39 @@
+/** The job tree of a run: derive ← zonal (one per scene) ← ingest, with content-derived job ids. */
+import { fingerprint } from '../core/hash.js';
+import type { IngestData } from '../jobs/ingest.js';
+import type { ZonalData } from '../jobs/zonal.js';
+import type { DeriveData } from '../jobs/derive.js';
+import { deriveJobId } from '../queue/tree.js';
+import type { JobSpec } from '../queue/types.js';
+import type { ManifestEntry, SceneKind } from './archive.js';
+
+/** Build the job tree: derive ← zonal (one per scene) ← ingest. */
+export function buildFlow(args: {
+  identity: string;
+  runId: number;
+  files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[];
+  targetIds: string[];
+  params: Record<string, unknown>;
+  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds' | 'targetsKey' | 'qa'>;
+  derive: Omit<DeriveData, 'runId'>;
+  qaMaskBits?: number;
+}): JobSpec {
+  const targetsKey = fingerprint(args.targetIds, args.params);
+  const children: JobSpec[] = args.files.map((f) => {
+    const ingestData: IngestData = { path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind };
+    const qa = f.manifest?.qa && args.qaMaskBits !== undefined ? { path: f.manifest.qa, maskBits: args.qaMaskBits } : undefined;
+    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, targetsKey, qa };
+    return {
+      name: 'zonal',
+      id: deriveJobId('zonal', args.identity, f.contentHash, targetsKey),
+      data: zonalData,
+      children: [{ name: 'ingest', id: deriveJobId('ingest', args.identity, f.contentHash, f.manifest ?? null, f.kind ?? null), data: ingestData }],
+    };
+  });
+  return {
+    name: 'derive',
+    id: deriveJobId('derive', args.identity, targetsKey, children.map((c) => c.id).sort()),
+    data: { ...args.derive, runId: args.runId } satisfies DeriveData,
+    children,
+  };
+}

@@ -1,7 +1,7 @@
 /** Runs whose process is gone: found when a command opens the store. */
 import os from 'node:os';
 import { ownerAlive } from './lock.js';
-import type { Queryable } from './store.js';
+import type { Queryable } from './interface.js';
 
 /**
  * Mark 'abandoned' every run left 'running' whose owner process no longer

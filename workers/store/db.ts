@@ -12,7 +12,7 @@
  * carries any number of rows with a fixed number of parameters (PostgreSQL
  * caps a statement at 65 535 parameters) and the same SQL runs on both stores.
  */
-import type { Queryable, Store } from './store.js';
+import type { Queryable, Store } from './interface.js';
 
 /** A store, or a transaction handle (then the caller's transaction is used). */
 export type Db = Store | Queryable;

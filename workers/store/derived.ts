@@ -1,7 +1,7 @@
 /** The derived_metrics table: LST, SUHI and ATI per district and date. */
 import type { AlbedoSource, DerivedRow as DerivedValues } from '../core/derive/metrics.js';
 import { type Db, BATCH_ROWS, inTransaction, num } from './db.js';
-import type { Store } from './store.js';
+import type { Store } from './interface.js';
 
 export type { AlbedoSource };
 

@@ -5,7 +5,7 @@
  */
 import { PRECISION, roundRow, type Precision, type Row } from '../format.js';
 import { districtTableByDate, districtTableByYear } from './district-tables.js';
-import type { Store } from './store.js';
+import type { Store } from './interface.js';
 
 /** One row of the district table; unit suffixes: `_k` Kelvin, `_per_k` 1/K. */
 export type DistrictTableRow = { readonly [field: string]: string | number | null };

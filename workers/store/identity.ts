@@ -1,4 +1,4 @@
-import type { Queryable } from './store.js';
+import type { Queryable } from './interface.js';
 
 /** Store identity: part of every job id, so a fresh database never inherits another's completed jobs. */
 export async function storeIdentity(store: Queryable): Promise<string> {

@@ -8,7 +8,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { ServiceError } from '../core/errors.js';
 import { sqlDir } from './paths.js';
-import type { Store } from './store.js';
+import type { Store } from './interface.js';
 
 export interface Migration {
   /** Number from the file name (001 → 1). */

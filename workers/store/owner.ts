@@ -23,7 +23,7 @@ import {
   type LockOwner,
 } from './lock.js';
 import { OwnerGoneError, RemoteConnection, startReadServer, type ReadServer } from './remote.js';
-import type { Store, Transaction } from './store.js';
+import type { Store, Transaction } from './interface.js';
 
 /** How long to keep asking an owner that is alive but not (yet) answering before giving up. A safety bound, not a timing assumption. */
 const OWNER_PATIENCE_MS = 120_000;

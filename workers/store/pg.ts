@@ -7,7 +7,7 @@ import pg from 'pg';
 import { ServiceError } from '../core/errors.js';
 import { TransactionGuard } from './guard.js';
 import { sqlHead } from './sql-head.js';
-import type { Store, Transaction } from './store.js';
+import type { Store, Transaction } from './interface.js';
 import { ARRAY_ELEMENT_OID, SCALAR_PARSERS } from './value-parsers.js';
 
 /** Where the server is, for messages: "host:port/database" (never the password). */

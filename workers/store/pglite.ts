@@ -9,7 +9,7 @@ import { PGlite, type Transaction as PgliteTransaction } from '@electric-sql/pgl
 import { ServiceError } from '../core/errors.js';
 import { TransactionGuard } from './guard.js';
 import { sqlHead } from './sql-head.js';
-import type { Store, Transaction } from './store.js';
+import type { Store, Transaction } from './interface.js';
 import { SCALAR_PARSERS } from './value-parsers.js';
 
 export interface PgliteStoreOptions {

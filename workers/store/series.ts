@@ -5,7 +5,7 @@
  */
 import type { District } from '../core/districts/types.js';
 import { namedQuery } from './queries.js';
-import type { Queryable, Store } from './store.js';
+import type { Queryable, Store } from './interface.js';
 
 export type Db = Store | Queryable;
 

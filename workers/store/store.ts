@@ -8,36 +8,8 @@ import { DATA_DIR_NAME } from '../core/defaults.js';
 import { ServiceError } from '../core/errors.js';
 import { migrate } from './migrate.js';
 
-/** Anything that runs one parameterised SQL statement ($1, $2, ...) and returns its rows. */
-export interface Queryable {
-  query<T = Record<string, unknown>>(sql: string, params?: unknown[]): Promise<T[]>;
-}
-
-/** The handle inside `Store.transaction`: one connection, one open transaction. */
-export interface Transaction extends Queryable {
-  /** Run several `;`-separated statements without parameters. */
-  exec(sql: string): Promise<void>;
-}
-
-export interface Store extends Queryable {
-  readonly kind: 'pg' | 'pglite';
-  /** Run several `;`-separated statements without parameters. */
-  exec(sql: string): Promise<void>;
-  /**
-   * Run `fn` inside BEGIN … COMMIT on one connection; any throw rolls back and
-   * is re-thrown. Inside `fn` use `tx`, never the store itself (that would see
-   * other data on the server, or wait forever on the embedded engine — both
-   * stores throw instead).
-   */
-  transaction<T>(fn: (tx: Transaction) => Promise<T>): Promise<T>;
-  /**
-   * Run `fn` while holding a lock named `key` that other processes on the same
-   * database also respect (a PostgreSQL advisory lock on the server; the
-   * embedded engine has one process, so a local mutex). Used by the migrations runner.
-   */
-  withLock?<T>(key: string, fn: () => Promise<T>): Promise<T>;
-  close(): Promise<void>;
-}
+export type { Queryable, Transaction, Store } from './interface.js';
+import type { Store } from './interface.js';
 
 export interface OpenStoreOptions {
   /** postgres://user@host:port/db — when given, use the PostgreSQL server. */

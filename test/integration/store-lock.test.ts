@@ -314,9 +314,11 @@ describe.runIf(serversUp)('interrupted distributed ingest', () => {
       const stop = await stopChild(ingest.child, 'SIGINT', LONG);
       expect(stop.code).toBe(130); // 128 + SIGINT (2)
       await ingest.exited;
-      expect(ingest.stderr().trim().split('\n')).toEqual([
-        `heatledger: interrupted; run ${runId} marked interrupted, ${FILES} scene(s) left — run the same ingest again to finish them`,
-      ]);
+      // With no worker, the ingest may first say so (when the signal comes after its notice delay, which
+      // depends on the machine's load); the interrupt itself is exactly one line, and the last one.
+      const lines = ingest.stderr().trim().split('\n');
+      expect(lines.slice(0, -1).every((l) => l.startsWith('heatledger: no heatledger worker is serving the queues yet'))).toBe(true);
+      expect(lines.at(-1)).toBe(`heatledger: interrupted; run ${runId} marked interrupted, ${FILES} scene(s) left — run the same ingest again to finish them`);
       const runs = await client.query('SELECT id, status, owner_host, owner_pid, scenes_asked, scenes_left FROM runs');
       expect(runs.rows).toEqual([{ id: runId, status: 'interrupted', owner_host: os.hostname(), owner_pid: ingest.child.pid, scenes_asked: FILES, scenes_left: FILES }]);
     } finally {

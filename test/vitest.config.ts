@@ -10,6 +10,8 @@ export default defineConfig({
     testTimeout: 600_000,
     hookTimeout: 900_000,
     pool: 'forks',
+    // two test files at once: most of a file's time is spent waiting on its child processes and servers
+    maxWorkers: 2,
     reporters: ['default', './test/support/summary-reporter.ts'],
     globalSetup: ['test/support/global-setup.ts'],
   },

@@ -17,11 +17,12 @@ import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
 import { listDistricts, sceneStatusCounts, failures } from '../workers/store/index.js';
 import { InputError, isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
+import { CAUTION_TEXT } from '../workers/core/defaults.js';
 import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';
 import { commonDirectory, relativeInText, relativeToRoot } from './relative-paths.js';
 
-export const CAUTION =
-  'LST is land-surface (skin) temperature, not air temperature. These figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+/** The caution every answer carries (the one wording of workers/core/defaults.ts). */
+export const CAUTION = CAUTION_TEXT;
 
 /** Log levels `LOG_LEVEL` may name (the levels of Fastify's logger). */
 export const LOG_LEVELS = ['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent'] as const;

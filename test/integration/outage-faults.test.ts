@@ -37,7 +37,7 @@ import type { ArchiveOptions, ArchiveResult } from '../../demo-data/generate.js'
 import { serviceAvailable, testDatabaseUrl, testRedisUrl } from '../support/services.js';
 import {
   cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren,
-  makeArchive, runCli, serverCounts, startCliWorker, startTcpProxy, stopChild, uniquePrefix, type TempDatabase,
+  makeArchive, runCli, serverCounts, startCliWorker, startTcpProxy, stopChild, uniquePrefix, waitFor, type TempDatabase,
 } from '../support/pipeline-harness.js';
 import { freeFaultPort, postgresBinDir, startPrivatePostgres, type PrivatePostgres } from '../support/private-postgres.js';
 
@@ -56,16 +56,8 @@ const sleep = (ms: number) => new Promise((r) => setTimeout(r, ms));
 /** A Node stack frame line, as printed by Error.stack. */
 const STACK_LINE = /^\s+at .+[(:]\d+/m;
 
-/** Poll `check` until it returns a value other than undefined; throws after `timeoutMs`. */
-async function waitFor<T>(what: string, check: () => Promise<T | undefined>, timeoutMs = 120_000, everyMs = 100): Promise<T> {
-  const deadline = Date.now() + timeoutMs;
-  for (;;) {
-    const v = await check().catch(() => undefined);
-    if (v !== undefined) return v;
-    if (Date.now() > deadline) throw new Error(`${what}: not within ${timeoutMs / 1000} s`);
-    await sleep(everyMs);
-  }
-}
+/** A check that counts an error (the server away or restarting) as "not yet". */
+const tolerant = <T>(check: () => Promise<T | undefined>) => () => check().catch(() => undefined);
 
 async function withClient<T>(url: string, fn: (c: pg.Client) => Promise<T>): Promise<T> {
   const c = new pg.Client({ connectionString: url });
@@ -126,14 +118,14 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     const lock = new pg.Client({ connectionString: server.url('heat') });
     lock.on('error', () => undefined);
     await lock.connect();
-    await waitFor('the tables migrated', async () => ((await lock.query(`SELECT to_regclass('zonal_stats') AS t`)).rows[0].t ? true : undefined), 200_000, 50);
+    await waitFor(tolerant(async () => ((await lock.query(`SELECT to_regclass('zonal_stats') AS t`)).rows[0].t ? true : undefined)), 'the tables migrated', 200_000, 50);
     await lock.query('BEGIN');
     await lock.query('LOCK TABLE zonal_stats IN SHARE MODE');
     // (Asked on a connection of its own: pg_stat_activity is a snapshot per transaction.)
-    await waitFor('a zonal step waiting on its transaction', () => withClient(server.url('heat'), async (c) => {
+    await waitFor(tolerant(() => withClient(server.url('heat'), async (c) => {
       const n = Number((await c.query(`SELECT count(*) AS n FROM pg_stat_activity WHERE wait_event_type = 'Lock' AND query ILIKE '%zonal_stats%'`)).rows[0].n);
       return n > 0 ? n : undefined;
-    }), 300_000, 200);
+    }), 'a zonal step waiting on its transaction', 300_000, 200);
     const storedAtStop = Number((await lock.query('SELECT count(DISTINCT scene_id) AS n FROM zonal_stats')).rows[0].n);
     await server.stop('immediate');
     await lock.end().catch(() => undefined);
@@ -181,17 +173,17 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     const lock = new pg.Client({ connectionString: server.url('heat') });
     lock.on('error', () => undefined);
     await lock.connect();
-    await waitFor('the tables migrated', async () => ((await lock.query(`SELECT to_regclass('derived_metrics') AS t`)).rows[0].t ? true : undefined), 200_000, 50);
+    await waitFor(tolerant(async () => ((await lock.query(`SELECT to_regclass('derived_metrics') AS t`)).rows[0].t ? true : undefined)), 'the tables migrated', 200_000, 50);
     await lock.query('BEGIN');
     await lock.query('LOCK TABLE derived_metrics IN SHARE MODE');
     // The derive step is waiting inside its transaction (a checked-out client) when the server restarts.
     // (Asked on a connection of its own: pg_stat_activity is a snapshot per transaction.)
-    await waitFor('the derive step waiting on its transaction', () => withClient(server.url('heat'), async (c) => {
+    await waitFor(tolerant(() => withClient(server.url('heat'), async (c) => {
       const n = Number((await c.query(
         `SELECT count(*) AS n FROM pg_stat_activity WHERE wait_event_type = 'Lock' AND query ILIKE 'DELETE FROM derived_metrics%'`,
       )).rows[0].n);
       return n > 0 ? n : undefined;
-    }), 300_000, 200);
+    }), 'the derive step waiting on its transaction', 300_000, 200);
     await server.restart();
     await lock.end().catch(() => undefined);
 

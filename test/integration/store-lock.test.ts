@@ -37,7 +37,7 @@ import type { Row } from '../../workers/format.js';
 import { openStore } from '../../workers/store/store.js';
 import pg from 'pg';
 import {
-  SMALL_ARCHIVE, cleanEnv, cleanRedisPrefix, cliOk, cliPath, createTempDatabase, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli,
+  SMALL_ARCHIVE, waitFor, cleanEnv, cleanRedisPrefix, cliOk, cliPath, createTempDatabase, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli,
   stopChild, uniquePrefix,
 } from '../support/pipeline-harness.js';
 import { serviceAvailable, testRedisUrl } from '../support/services.js';
@@ -95,17 +95,6 @@ function startCli(args: string[], childEnv: NodeJS.ProcessEnv = env): Child {
   return { child, stdout: () => out, stderr: () => err, exited };
 }
 
-/** Poll `check` until it returns a value other than undefined; fails after `timeoutMs` (generous: a safety net, not a measurement). */
-async function waitFor<T>(what: string, check: () => Promise<T | undefined> | T | undefined, timeoutMs = 240_000): Promise<T> {
-  const deadline = Date.now() + timeoutMs;
-  for (;;) {
-    const v = await check();
-    if (v !== undefined) return v;
-    if (Date.now() > deadline) throw new Error(`gave up waiting for ${what}`);
-    await new Promise((r) => setTimeout(r, 250));
-  }
-}
-
 async function lastRun(dataDir: string): Promise<{ id: number; status: string } | null> {
   const out = await cliOk(['status', '--format', 'json', '--data-dir', dataDir], env, LONG);
   const run = (JSON.parse(out) as { last_run: { id: number; status: string } | null }).last_run;
@@ -117,12 +106,12 @@ async function startHeldIngest(dataDir: string): Promise<{ ingest: Child; runId:
   await rm(qaPath, { force: true });
   execFileSync('mkfifo', [qaPath]);
   const ingest = startCli(ingestArgs(dataDir));
-  const run = await waitFor('the held ingest to start its run', async () => {
+  const run = await waitFor(async () => {
     if (ingest.child.exitCode !== null) throw new Error(`the ingest exited early (${ingest.child.exitCode}): ${ingest.stderr()}`);
     if (!existsSync(path.join(dataDir, 'PG_VERSION'))) return undefined;
     const r = await lastRun(dataDir);
     return r?.status === 'running' ? r : undefined;
-  });
+  }, 'the held ingest to start its run');
   return { ingest, runId: run.id };
 }
 
@@ -215,7 +204,7 @@ describe('one owner per embedded store', () => {
 
     const port = await freePort();
     const serve = startCli(['serve', '--port', String(port), '--data-dir', dataDir]);
-    await waitFor('the server to listen', () => (serve.stderr().includes('heatledger API on') ? true : serve.child.exitCode !== null ? Promise.reject(new Error(serve.stderr())) : undefined));
+    await waitFor(() => (serve.stderr().includes('heatledger API on') ? true : serve.child.exitCode !== null ? Promise.reject(new Error(serve.stderr())) : undefined), 'the server to listen');
     const table = async (): Promise<{ status: number; rows: Row[] }> => {
       const res = await fetch(`http://127.0.0.1:${port}/api/table`);
       return { status: res.status, rows: res.status === 200 ? ((await res.json()) as { rows: Row[] }).rows : [] };
@@ -235,11 +224,11 @@ describe('one owner per embedded store', () => {
 
     // after the ingest, the server shows its rows: equal to the undisturbed serial run
     const expected = JSON.parse(JSON.stringify(roundTableRows(reference.date))) as Row[];
-    await waitFor('the server to show the ingest\'s rows', async () => {
+    await waitFor(async () => {
       const t = await table();
       expect(t.status).toBe(200);
       return t.rows.length === expected.length ? t.rows : undefined;
-    });
+    }, 'the server to show the ingest\'s rows');
     expect((await table()).rows).toEqual(expected);
 
     const stopped = await stopChild(serve.child, 'SIGTERM', LONG);
@@ -306,11 +295,11 @@ describe.runIf(serversUp)('interrupted distributed ingest', () => {
         cleanEnv({ DATABASE_URL: db.url, REDIS_URL: testRedisUrl, HEATLEDGER_QUEUE_PREFIX: prefix }),
       );
       await client.connect();
-      const runId = await waitFor('the distributed run to start', async () => {
+      const runId = await waitFor(async () => {
         if (ingest.child.exitCode !== null) throw new Error(`the ingest exited early (${ingest.child.exitCode}): ${ingest.stderr()}`);
         const r = await client.query<{ id: number }>(`SELECT id FROM runs WHERE status = 'running'`).catch(() => ({ rows: [] as { id: number }[] }));
         return r.rows[0]?.id;
-      });
+      }, 'the distributed run to start');
       const stop = await stopChild(ingest.child, 'SIGINT', LONG);
       expect(stop.code).toBe(130); // 128 + SIGINT (2)
       await ingest.exited;

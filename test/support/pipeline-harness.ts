@@ -179,12 +179,23 @@ export async function startCliWorker(env: NodeJS.ProcessEnv, startTimeoutMs = 18
   return { child: started.child, stderr: started.stderr };
 }
 
-/** Wait until `check()` holds, looking again every 100 ms; fails after `timeoutMs` (generous: a condition, not a delay). */
-export async function waitFor(check: () => boolean | Promise<boolean>, what: string, timeoutMs = 180_000): Promise<void> {
+/**
+ * Wait until `check()` gives a value other than `undefined` or `false`, looking again every
+ * `everyMs`; returns that value. Fails after `timeoutMs` (generous: a condition, not a delay).
+ * An error thrown by `check` ends the wait with that error.
+ */
+export async function waitFor<T>(
+  check: () => T | undefined | false | Promise<T | undefined | false>,
+  what: string,
+  timeoutMs = 240_000,
+  everyMs = 100,
+): Promise<T> {
   const deadline = Date.now() + timeoutMs;
-  while (!(await check())) {
+  for (;;) {
+    const v = await check();
+    if (v !== undefined && v !== false) return v;
     if (Date.now() > deadline) throw new Error(`waited ${timeoutMs} ms for ${what}`);
-    await new Promise((r) => setTimeout(r, 100));
+    await new Promise((r) => setTimeout(r, everyMs));
   }
 }
 

@@ -11,7 +11,7 @@
 import { spawnSync } from 'node:child_process';
 import { beforeAll, describe, expect, it } from 'vitest';
 import {
-  benjaminiHochberg, hamedRao, mannKendall, normalQuantile, parseMonths, parseSeriesCsv, seasonalKendall, seasonMonths,
+  benjaminiHochberg, hamedRao, mannKendall, normalQuantile, parseMonths, parseSeriesCsv, seasonalKendall, seasonalTrendOfSeries, seasonMonths,
   senSlope, trendOfSeries, twoSidedP, yearlySeries,
 } from '../../workers/core/trend/index.js';
 import { isInputError } from '../../workers/core/errors.js';
@@ -227,6 +227,16 @@ describe('worked examples', () => {
     expect(r.slope).toBeCloseTo(0.3, 12); // median of the 20 within-season slopes, sorted by hand: 0.3 and 0.3
     // Each season's S agrees with the one-series test.
     expect(mannKendall([1.0, 1.5, 2.1, 1.8, 2.6]).s + mannKendall([3.0, 2.8, 3.5, 3.9, 3.7]).s).toBe(14);
+
+    // The same hand-counted example in the result shape of a yearly trend (no tau, no interval),
+    // and the guards a yearly trend has: fewer than 4 years, a constant series.
+    const t = seasonalTrendOfSeries(obs);
+    expect(t).toMatchObject({ n: 10, s: 14, tau: null, slope_ci_lower: null, slope_ci_upper: null, direction: 'increasing', years_used: '2010-2014', note: null });
+    expect(t.var_s).toBeCloseTo(100 / 3, 12);
+    expect(t.slope_per_decade).toBeCloseTo(3, 12);
+    expect(t.p).toBeCloseTo(2 * (1 - 0.98783), 4); // Φ(2.2517) = 0.98783 (standard normal table, common practice, no source)
+    expect(seasonalTrendOfSeries(obs.filter((o) => o.year < 2013))).toMatchObject({ s: null, p: null, note: expect.stringMatching(/^only 3 years/) });
+    expect(seasonalTrendOfSeries(obs.map((o) => ({ ...o, value: 1 })))).toMatchObject({ n: 10, s: null, note: 'the series is constant: no trend can be estimated' });
   });
 
   it('Benjamini–Hochberg on a hand-worked set', () => {

@@ -6,7 +6,7 @@
 import { readFile } from 'node:fs/promises';
 import { InputError } from '../core/errors.js';
 import {
-  benjaminiHochberg, datesPerYearText, directionOf, hemisphereOf, parseMonths, parseSeriesCsv, seasonalKendall,
+  benjaminiHochberg, datesPerYearText, directionOf, hemisphereOf, parseMonths, parseSeriesCsv, seasonalTrendOfSeries,
   seasonMonths, trendOfSeries, yearlySeries,
   type CiRanks, type Hemisphere, type MonthSelection, type SeasonName, type SerialCorrection, type TrendResult,
 } from '../core/trend/index.js';
@@ -177,17 +177,7 @@ export async function districtTrends(store: Store, q: DistrictTrendQuery): Promi
     let datesText: string;
     if (q.seasonalKendall) {
       const kept = e.rows.filter((r) => r.dates >= q.minDates && (q.from === undefined || r.season_year >= q.from) && (q.to === undefined || r.season_year <= q.to));
-      const years = [...new Set(kept.map((r) => r.season_year))].sort((a, b) => a - b);
-      const sk = years.length >= 4 ? seasonalKendall(kept.map((r) => ({ year: r.season_year, season: r.month, value: r.value }))) : null;
-      const { yearRanges } = await import('../core/trend/series.js');
-      const constant = kept.every((r) => r.value === kept[0]?.value);
-      const note = years.length < 4 ? `only ${years.length} years with a monthly value; a trend needs at least 4` : !sk ? 'no month has values in two years' : constant ? 'the series is constant: no trend can be estimated' : null;
-      const ok = sk && !note;
-      result = {
-        n: sk?.n ?? kept.length, s: ok ? sk.s : null, var_s: ok ? sk.varS : null, z: ok ? sk.z : null, p: ok ? sk.p : null, tau: null,
-        slope_per_year: ok ? sk.slope : null, slope_per_decade: ok ? sk.slope * 10 : null, slope_ci_lower: null, slope_ci_upper: null,
-        direction: ok ? directionOf(sk.s, sk.p, q.alpha) : null, years_used: yearRanges(years), note,
-      };
+      result = seasonalTrendOfSeries(kept.map((r) => ({ year: r.season_year, season: r.month, value: r.value })), q.alpha);
       datesText = kept.map((r) => `${r.season_year}-${String(r.month).padStart(2, '0')}:${r.dates}`).join(',');
     } else {
       const ys = yearlySeries(e.rows.map((r) => ({ year: r.season_year, dates: r.dates, value: r.value })), q.minDates, q.from, q.to);

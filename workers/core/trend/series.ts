@@ -7,6 +7,7 @@
 import { hamedRao } from './hamedRao.js';
 import { mannKendall } from './mannKendall.js';
 import { senSlope, type CiRanks } from './senSlope.js';
+import { seasonalKendall, type SeasonalObservation } from './seasonalKendall.js';
 
 /** Fewest years a trend is computed from. Below this the result carries a note and nulls. */
 export const MIN_TREND_YEARS = 4;
@@ -122,4 +123,28 @@ export function trendOfSeries(years: readonly number[], values: readonly (number
     r.direction = directionOf(mk.s, hr.pCorrected, alpha);
   }
   return r;
+}
+
+/**
+ * Seasonal Kendall trend (Hirsch, Slack & Smith 1982) of observations keyed by
+ * year and season (e.g. month), in the same result shape as
+ * {@link trendOfSeries}: S, Var(S), Z and p summed over the seasons, and the
+ * median of the within-season slopes. It gives no tau and no slope interval.
+ * Fewer than 4 years, no season with values in two years, or a constant series
+ * give `n`, a `note` and nulls.
+ */
+export function seasonalTrendOfSeries(observations: readonly SeasonalObservation[], alpha = 0.05): TrendResult {
+  const years = [...new Set(observations.map((o) => o.year))].sort((a, b) => a - b);
+  const used = yearRanges(years);
+  if (years.length < MIN_TREND_YEARS) {
+    return empty(observations.length, used, `only ${years.length} years with a monthly value; a trend needs at least ${MIN_TREND_YEARS}`, false);
+  }
+  const sk = seasonalKendall(observations);
+  if (!sk) return empty(observations.length, used, 'no month has values in two years', false);
+  if (observations.every((o) => o.value === observations[0].value)) return empty(sk.n, used, 'the series is constant: no trend can be estimated', false);
+  return {
+    n: sk.n, s: sk.s, var_s: sk.varS, z: sk.z, p: sk.p, tau: null,
+    slope_per_year: sk.slope, slope_per_decade: sk.slope * 10, slope_ci_lower: null, slope_ci_upper: null,
+    direction: directionOf(sk.s, sk.p, alpha), years_used: used, note: null,
+  };
 }

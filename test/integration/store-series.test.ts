@@ -8,7 +8,7 @@
  * the following January and February) are common practice, no source.
  */
 import { afterAll, describe, expect, it } from 'vitest';
-import { districtTrends } from '../../workers/commands/trend.js';
+import { districtTrends } from '../../workers/store/district-statistics.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { districtSeries, storedDistricts } from '../../workers/store/series.js';
 import { createTempDatabase, type TempDatabase } from '../support/pipeline-harness.js';

@@ -71,8 +71,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
 
   const { renderTable } = await import('./table.js');
   const { districtTable } = await import('../store/district-table.js');
-  const { districtTrends } = await import('./trend.js');
-  const { districtHotspots } = await import('./hotspots.js');
+  const { districtTrends, districtHotspots } = await import('../store/district-statistics.js');
   const store = await openConfiguredStore(config);
   let byDate: Row[];
   let byYear: Row[];

@@ -4,13 +4,13 @@
  * stored districts.
  */
 import { InputError } from '../core/errors.js';
-import { benjaminiHochberg, parseMonths, seasonMonths, yearlySeries, type Hemisphere, type SeasonName } from '../core/trend/index.js';
-import { classifySpot, giStar, moranI, neighbours, type MoranResult, type WeightsKind } from '../core/hotspot/index.js';
+import type { Hemisphere, SeasonName } from '../core/trend/index.js';
+import type { MoranResult, WeightsKind } from '../core/hotspot/index.js';
 import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
-import type { Store } from '../store/index.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
 import { CAUTION_SHORT, withStore } from './common.js';
-import { metricUnit, storedHemisphere } from './trend.js';
+import { metricUnit } from './trend.js';
+import { districtHotspots, type HotspotRow } from '../store/district-statistics.js';
 
 export interface HotspotsCommandOptions {
   metric: string;
@@ -27,73 +27,6 @@ export interface HotspotsCommandOptions {
   minDates: number;
   format: OutputFormat;
   dataDir?: string;
-}
-
-export interface HotspotQuery {
-  metric: SeriesMetric;
-  from: number;
-  to: number;
-  season?: SeasonName;
-  months?: string;
-  hemisphere?: Hemisphere;
-  weights: WeightsKind;
-  k?: number;
-  toleranceMetres?: number;
-  fdr?: boolean;
-  minDates: number;
-}
-
-export interface HotspotRow {
-  district: string;
-  name: string;
-  /** Mean of the yearly means over the years asked for (K, or 1/K for ATI). */
-  value: number;
-  years: number;
-  neighbours: number;
-  gi_z: number | null;
-  gi_p: number | null;
-  gi_q: number | null;
-  spot: 'hot' | 'cold' | 'none';
-  confidence: 99 | 95 | 90 | null;
-}
-
-export interface HotspotReport {
-  rows: HotspotRow[];
-  moran: MoranResult | null;
-  /** Districts left out for lack of a value in the years asked for. */
-  leftOut: string[];
-  monthsLabel: string;
-}
-
-/** Gi* per district and Moran's I for one metric over [from, to]. */
-export async function districtHotspots(store: Store, q: HotspotQuery): Promise<HotspotReport> {
-  const { districtSeries, storedDistricts } = await import('../store/series.js');
-  const hemisphere = q.hemisphere ?? (await storedHemisphere(store));
-  const sel = q.months ? parseMonths(q.months) : seasonMonths(q.season ?? 'all', hemisphere);
-  const series = await districtSeries(store, { metric: q.metric, months: sel.months, wrapFromMonth: sel.wrapFromMonth, byMonth: false });
-  const districts = await storedDistricts(store);
-  const values = new Map<string, { value: number; years: number }>();
-  for (const d of districts) {
-    const ys = yearlySeries(series.filter((r) => r.district_id === d.id).map((r) => ({ year: r.season_year, dates: r.dates, value: r.value })), q.minDates, q.from, q.to);
-    if (ys.values.length) values.set(d.id, { value: ys.values.reduce((s, v) => s + v, 0) / ys.values.length, years: ys.values.length });
-  }
-  const kept = districts.filter((d) => values.has(d.id));
-  const leftOut = districts.filter((d) => !values.has(d.id)).map((d) => d.id);
-  if (kept.length < 3) {
-    throw new InputError(`hot spots need values for at least 3 districts in ${q.from === q.to ? q.from : `${q.from}-${q.to}`} (${sel.label}, ≥ ${q.minDates} dates a year); the store has ${kept.length}`);
-  }
-  const nb = neighbours(kept, { kind: q.weights, k: q.k, toleranceMetres: q.toleranceMetres });
-  const x = kept.map((d) => values.get(d.id)!.value);
-  const gi = giStar(x, nb);
-  const qs = q.fdr ? benjaminiHochberg(gi.p) : kept.map(() => null);
-  const rows: HotspotRow[] = kept.map((d, i) => {
-    const cls = classifySpot(gi.z[i], q.fdr ? qs[i] : gi.p[i]);
-    return {
-      district: d.id, name: d.name, value: x[i], years: values.get(d.id)!.years, neighbours: nb[i].length,
-      gi_z: gi.z[i], gi_p: gi.p[i], gi_q: qs[i], spot: cls.spot, confidence: cls.confidence,
-    };
-  });
-  return { rows, moran: moranI(x, nb), leftOut, monthsLabel: sel.label };
 }
 
 /** Output name of the value column: the metric with its unit (`suhi_night_k`, `ati_per_k`). */

@@ -6,14 +6,12 @@
 import { readFile } from 'node:fs/promises';
 import { InputError } from '../core/errors.js';
 import {
-  benjaminiHochberg, datesPerYearText, directionOf, hemisphereOf, parseMonths, parseSeriesCsv, seasonalTrendOfSeries,
-  seasonMonths, trendOfSeries, yearlySeries,
-  type CiRanks, type Hemisphere, type MonthSelection, type SeasonName, type SerialCorrection, type TrendResult,
+  datesPerYearText, noteWithDrops, parseMonths, parseSeriesCsv, seasonMonths, trendOfSeries, yearlySeries,
+  type CiRanks, type Hemisphere, type MonthSelection, type SeasonName, type SerialCorrection,
 } from '../core/trend/index.js';
-import { centroidLonLat } from '../core/hotspot/weights.js';
 import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
-import type { Store } from '../store/index.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
+import { districtTrends } from '../store/district-statistics.js';
 import { CAUTION_SHORT, withStore } from './common.js';
 
 export interface TrendCommandOptions {
@@ -106,94 +104,6 @@ export async function trendOfFile(o: TrendCommandOptions): Promise<Row> {
   const ys = yearlySeries(parsed.periods, minDates, o.from, o.to);
   const result = trendOfSeries(ys.years, ys.values, { alpha: o.alpha, serialCorrection: o.serialCorrection === 'hamed-rao' ? 'hamed-rao' : 'none', ciRanks: o.ciRanks });
   return { ...result, dates_per_year: parsed.kind === 'date' ? datesPerYearText(ys) : null, note: noteWithDrops(result.note, ys.tooFew, minDates) };
-}
-
-function noteWithDrops(note: string | null, tooFew: { year: number; dates: number }[], minDates: number): string | null {
-  if (tooFew.length === 0) return note;
-  const drop = `left out for fewer than ${minDates} dates: ${tooFew.map((t) => `${t.year} (${t.dates})`).join(', ')}`;
-  return note ? `${note}; ${drop}` : drop;
-}
-
-export interface DistrictTrendRow extends Omit<TrendResult, 'direction'> {
-  district: string;
-  name: string;
-  q: number | null;
-  direction: TrendResult['direction'];
-  direction_raw: TrendResult['direction'];
-  dates_per_year: string;
-}
-
-export interface DistrictTrendQuery {
-  metric: SeriesMetric;
-  season?: SeasonName;
-  months?: string;
-  hemisphere?: Hemisphere;
-  from?: number;
-  to?: number;
-  districts?: string[];
-  alpha: number;
-  serialCorrection: SerialCorrection;
-  ciRanks: CiRanks;
-  minDates: number;
-  seasonalKendall?: boolean;
-}
-
-/** The hemisphere of the stored districts, from the mean latitude of their centroids. */
-export async function storedHemisphere(store: Store): Promise<Hemisphere> {
-  const { storedDistricts } = await import('../store/series.js');
-  const ds = await storedDistricts(store);
-  if (ds.length === 0) return 'north';
-  return hemisphereOf(ds.reduce((s, d) => s + centroidLonLat(d)[1], 0) / ds.length);
-}
-
-/**
- * Trend of every stored district (or the ones asked for), with BH q across
- * them; `direction` is the verdict after FDR (q ≤ alpha), `direction_raw` from p
- * alone. With the Hamed–Rao correction, p_corrected is what q and both verdicts use.
- */
-export async function districtTrends(store: Store, q: DistrictTrendQuery): Promise<{ rows: DistrictTrendRow[]; selection: MonthSelection }> {
-  const { districtSeries } = await import('../store/series.js');
-  const hemisphere = q.hemisphere ?? (await storedHemisphere(store));
-  const sel = q.months ? parseMonths(q.months) : seasonMonths(q.season ?? 'all', hemisphere);
-  const rows = await districtSeries(store, { metric: q.metric, months: sel.months, wrapFromMonth: sel.wrapFromMonth, byMonth: !!q.seasonalKendall });
-  const byDistrict = new Map<string, { name: string; rows: typeof rows }>();
-  for (const r of rows) {
-    const e = byDistrict.get(r.district_id) ?? { name: r.district_name, rows: [] };
-    e.rows.push(r);
-    byDistrict.set(r.district_id, e);
-  }
-  if (q.districts && q.districts.length) {
-    const { storedDistricts } = await import('../store/series.js');
-    const known = new Set((await storedDistricts(store)).map((d) => d.id));
-    const unknown = q.districts.filter((d) => !known.has(d));
-    if (unknown.length) throw new InputError(`--district: no stored district ${unknown.map((u) => `"${u}"`).join(', ')} (known: ${[...known].join(', ') || 'none'})`);
-  }
-  const ids = q.districts && q.districts.length ? q.districts : [...byDistrict.keys()];
-  const corrected = q.serialCorrection === 'hamed-rao';
-  const out: DistrictTrendRow[] = [];
-  for (const id of ids) {
-    const e = byDistrict.get(id) ?? { name: id, rows: [] };
-    let result: TrendResult;
-    let datesText: string;
-    if (q.seasonalKendall) {
-      const kept = e.rows.filter((r) => r.dates >= q.minDates && (q.from === undefined || r.season_year >= q.from) && (q.to === undefined || r.season_year <= q.to));
-      result = seasonalTrendOfSeries(kept.map((r) => ({ year: r.season_year, season: r.month, value: r.value })), q.alpha);
-      datesText = kept.map((r) => `${r.season_year}-${String(r.month).padStart(2, '0')}:${r.dates}`).join(',');
-    } else {
-      const ys = yearlySeries(e.rows.map((r) => ({ year: r.season_year, dates: r.dates, value: r.value })), q.minDates, q.from, q.to);
-      result = trendOfSeries(ys.years, ys.values, { alpha: q.alpha, serialCorrection: q.serialCorrection, ciRanks: q.ciRanks });
-      result.note = noteWithDrops(result.note, ys.tooFew, q.minDates);
-      datesText = datesPerYearText(ys);
-    }
-    out.push({ district: id, name: e.name, q: null, ...result, direction_raw: result.direction, dates_per_year: datesText });
-  }
-  const pOf = (r: DistrictTrendRow): number | null => (corrected && !q.seasonalKendall ? r.p_corrected ?? null : r.p);
-  const qs = benjaminiHochberg(out.map(pOf));
-  out.forEach((r, i) => {
-    r.q = qs[i];
-    r.direction = directionOf(r.s, r.q, q.alpha);
-  });
-  return { rows: out, selection: sel };
 }
 
 export async function runTrendCommand(o: TrendCommandOptions): Promise<void> {

@@ -7,5 +7,5 @@ export { benjaminiHochberg } from './fdr.js';
 export { twoSidedP, normalQuantile } from './normal.js';
 export { trendOfSeries, seasonalTrendOfSeries, directionOf, yearRanges, MIN_TREND_YEARS, type TrendOptions, type TrendResult, type Direction, type SerialCorrection } from './series.js';
 export { parseMonths, seasonMonths, hemisphereOf, seasonYear, monthSelected, SEASON_NAMES, type SeasonName, type Hemisphere, type MonthSelection } from './season.js';
-export { yearlySeries, datesPerYearText, type PeriodMean, type YearlySeries } from './yearly.js';
+export { yearlySeries, datesPerYearText, noteWithDrops, type PeriodMean, type YearlySeries } from './yearly.js';
 export { parseSeriesCsv, type ParsedSeries } from './seriesFile.js';

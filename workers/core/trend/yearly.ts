@@ -40,3 +40,10 @@ export function yearlySeries(periods: readonly PeriodMean[], minDates: number, f
 export function datesPerYearText(s: YearlySeries): string {
   return s.years.map((y, i) => `${y}:${s.dates[i]}`).join(',');
 }
+
+/** A series' note with the years left out for too few dates appended (e.g. "left out for fewer than 3 dates: 2017 (2)"). */
+export function noteWithDrops(note: string | null, tooFew: { year: number; dates: number }[], minDates: number): string | null {
+  if (tooFew.length === 0) return note;
+  const drop = `left out for fewer than ${minDates} dates: ${tooFew.map((t) => `${t.year} (${t.dates})`).join(', ')}`;
+  return note ? `${note}; ${drop}` : drop;
+}

@@ -150,7 +150,11 @@ function addIngestCommand(program: Command): void {
 function addStatusCommand(program: Command): void {
   program
     .command('status')
-    .description('Scenes in the store by state, and failed scenes with their reasons. JSON keys are snake_case; CSV holds only the scene counts by kind, pass and status (one header line).')
+    .description(
+      'Scenes in the store by state, failed scenes with their reasons, and the last run with its state: running, succeeded, ' +
+        'incomplete (scenes left, or files refused as bad input), failed, interrupted (Ctrl-C, SIGTERM) or abandoned (its process is gone). ' +
+        'JSON keys are snake_case; CSV holds only the scene counts by kind, pass and status (one header line).',
+    )
     .addOption(dataDirOption())
     .addOption(formatOption('table'))
     .action(async (opts) => {
@@ -271,7 +275,11 @@ function addDemoCommand(program: Command): void {
 function addServeCommand(program: Command): void {
   program
     .command('serve')
-    .description('HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).')
+    .description(
+      'HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).\n' +
+        'While an ingest writes to the same embedded store, the server reads through it and shows its rows once it is done. ' +
+        `Log: JSON lines at $${ENV.logLevel} (default info). Scene paths are shown relative to $${ENV.dataRoot} when set.`,
+    )
     .option('--port <port>', `port (default: $${ENV.apiPort}, else ${DEFAULT_API_PORT})`, parseInteger('--port', 0, 65535))
     .option('--host <host>', `address to listen on (default: $${ENV.apiHost}, else 127.0.0.1)`)
     .addOption(dataDirOption())

@@ -74,8 +74,8 @@ const dataDirOption = () =>
 const seasonOption = () =>
   new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
 
-const hemisphereOption = () =>
-  new Option('--hemisphere <h>', 'hemisphere for --season (default: from the stored districts; north for --series)').choices(['north', 'south']);
+const hemisphereOption = (forSeriesFiles = false) =>
+  new Option('--hemisphere <h>', `hemisphere for --season (default: from the stored districts${forSeriesFiles ? '; north for --series' : ''})`).choices(['north', 'south']);
 
 const metricHelp = 'lst_day, lst_night, suhi_day, suhi_night (K) or ati (1/K)';
 
@@ -197,7 +197,7 @@ function addTrendCommand(program: Command): void {
     .option('--metric <metric>', metricHelp)
     .addOption(seasonOption())
     .option('--months <range>', 'months used instead of --season, e.g. 6-8, 12-2 or 6,7,8')
-    .addOption(hemisphereOption())
+    .addOption(hemisphereOption(true))
     .option('--from <year>', 'first year', parseYearOption('--from'))
     .option('--to <year>', 'last year', parseYearOption('--to'))
     .option('--district <ids...>', 'only these district ids')

@@ -6,12 +6,13 @@
  * was done; house rule "exit 0 means everything asked for was done").
  *
  * Unreadable under root: root reads any file and lists any folder whatever its
- * mode bits (CAP_DAC_OVERRIDE, capabilities(7)). So when the test runs as root
- * the command runs as the unprivileged user nobody (uid/gid 65534) through
- * setpriv(1), which drops every capability on changing the uids
- * (capabilities(7), "Effect of user ID changes on capabilities"); then mode
- * 000 makes open(2) and opendir(3) fail with EACCES, as for any user. Not root:
- * the command runs as the test's own user. Root without setpriv: skipped.
+ * mode bits (CAP_DAC_OVERRIDE and CAP_DAC_READ_SEARCH, capabilities(7)). So when
+ * the test runs as root the command runs through setpriv(1) with those two
+ * capabilities dropped from its bounding and inheritable sets: it stays root
+ * (it still reads the checkout and writes its store, whatever folder they are
+ * in), but mode 000 now makes open(2) and opendir(3) fail with EACCES, as for
+ * any owner. Not root: the command runs as the test's own user. Root without
+ * setpriv: skipped.
  *
  * References: the table must equal the table of the same archive without the
  * bad paths (the pipeline's own output on the clean archive, checked against
@@ -37,7 +38,7 @@ if (!canDrop) console.log('SKIPPED archive walk as an unprivileged user: running
 /** Run the CLI as an unprivileged user (see the header); resolves when it exits. */
 function runUnprivileged(args: string[], env: NodeJS.ProcessEnv): Promise<{ code: number | null; stdout: string; stderr: string }> {
   const [cmd, argv] = asRoot
-    ? ['setpriv', ['--reuid=65534', '--regid=65534', '--clear-groups', process.execPath, cliPath, ...args]]
+    ? ['setpriv', ['--bounding-set=-dac_override,-dac_read_search', '--inh-caps=-dac_override,-dac_read_search', process.execPath, cliPath, ...args]]
     : [process.execPath, [cliPath, ...args]];
   const child = spawn(cmd, argv, { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
   let stdout = '';
@@ -52,7 +53,6 @@ let archive: ArchiveResult;
 let archiveDir: string;
 beforeAll(async () => {
   tmp = await mkdtemp(path.join(os.tmpdir(), 'heatledger-walk-it-'));
-  await chmod(tmp, 0o755); // the unprivileged user must reach the archive
   archive = await makeArchive(path.join(tmp, 'archive'), { years: 1, pairsPerYear: 1, pixelSizeMetres: 250 });
   archiveDir = path.dirname(archive.files[0]);
 }, 120_000);
@@ -81,7 +81,6 @@ describe.skipIf(!canDrop)('ingest of a folder with bad paths beside good scenes'
 
     const badData = path.join(tmp, 'data-bad');
     await mkdir(badData);
-    await chmod(badData, 0o777); // the unprivileged user writes the embedded store here
     const r = await runUnprivileged(['ingest', archiveDir, '--districts', archive.districtsPath, '--json', '--threads', '1', '--data-dir', badData], env);
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/^heatledger: run \d+: 4 path\(s\) could not be read .*the other scenes are stored\n$/);
@@ -96,7 +95,7 @@ describe.skipIf(!canDrop)('ingest of a folder with bad paths beside good scenes'
     ].sort((a, b) => (a.path < b.path ? -1 : 1));
     expect(summary.unreadable).toEqual(expected);
 
-    // the store keeps each bad path as a failed scene with its reason (root can read nobody's store)
+    // the store keeps each bad path as a failed scene with its reason
     const status = JSON.parse(await cliOk(['status', '--format', 'json', '--data-dir', badData], env));
     expect(status.scenes).toEqual({ registered: 0, processed: archive.files.length, failed: 4, total: archive.files.length + 4 });
     const failed = [...status.failures].sort((a: { path: string }, b: { path: string }) => (a.path < b.path ? -1 : 1));

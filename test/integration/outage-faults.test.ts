@@ -125,7 +125,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     await waitFor(tolerant(() => withClient(server.url('heat'), async (c) => {
       const n = Number((await c.query(`SELECT count(*) AS n FROM pg_stat_activity WHERE wait_event_type = 'Lock' AND query ILIKE '%zonal_stats%'`)).rows[0].n);
       return n > 0 ? n : undefined;
-    }), 'a zonal step waiting on its transaction', 300_000, 200);
+    })), 'a zonal step waiting on its transaction', 300_000, 200);
     const storedAtStop = Number((await lock.query('SELECT count(DISTINCT scene_id) AS n FROM zonal_stats')).rows[0].n);
     await server.stop('immediate');
     await lock.end().catch(() => undefined);
@@ -183,7 +183,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
         `SELECT count(*) AS n FROM pg_stat_activity WHERE wait_event_type = 'Lock' AND query ILIKE 'DELETE FROM derived_metrics%'`,
       )).rows[0].n);
       return n > 0 ? n : undefined;
-    }), 'the derive step waiting on its transaction', 300_000, 200);
+    })), 'the derive step waiting on its transaction', 300_000, 200);
     await server.restart();
     await lock.end().catch(() => undefined);
 

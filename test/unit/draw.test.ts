@@ -1,0 +1,240 @@
+/**
+ * The shared drawing code (api/web/draw/): map, legend, ranked bars, series
+ * chart, trend sentence. Inputs are invented; each expected value names where
+ * it comes from.
+ */
+import { readdirSync, readFileSync } from 'node:fs';
+import { dirname, join, resolve } from 'node:path';
+import { fileURLToPath } from 'node:url';
+import { area as turfArea } from '@turf/turf';
+import { describe, expect, it } from 'vitest';
+import {
+  colourClasses, classOf, drawLegend, drawMap, drawRankedBars, drawSeriesChart, formatValue, METRIC_NAMES,
+  toDisplay, trendSentence, unitLabel, type MapFeature,
+} from '../../api/web/draw/index.js';
+import { SERIES_METRICS } from '../../workers/store/series.js';
+
+const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../..');
+
+/** An axis-aligned lon/lat box as an RFC 7946 polygon (counter-clockwise exterior). */
+const box = (w: number, s: number, e: number, n: number) => ({ type: 'Polygon' as const, coordinates: [[[w, s], [e, s], [e, n], [w, n], [w, s]]] });
+
+// invented districts on the invented coordinates of the demo city (open ocean)
+const FEATURES: MapFeature[] = [
+  { id: 'A', name: 'Alder Quarter', role: 'district', geometry: box(-35.62, 44.2, -35.6, 44.21), value: 1.7 },
+  { id: 'B', name: 'Brook End', role: 'district', geometry: box(-35.6, 44.2, -35.57, 44.21), value: -0.4 },
+  { id: 'C', name: 'Cinder Lane', role: 'district', geometry: box(-35.62, 44.21, -35.57, 44.225), value: null },
+  { id: 'D', name: 'Dockside <&>', role: 'district', geometry: box(-35.57, 44.2, -35.56, 44.225), value: 3.2 },
+  { id: 'rural', name: 'rural reference', role: 'rural', geometry: { type: 'Polygon', coordinates: [
+    [[-35.7, 44.15], [-35.48, 44.15], [-35.48, 44.28], [-35.7, 44.28], [-35.7, 44.15]],
+    [[-35.63, 44.19], [-35.63, 44.235], [-35.55, 44.235], [-35.55, 44.19], [-35.63, 44.19]],
+  ] }, value: null },
+];
+
+/** Attribute values of every element `tag` whose attribute list contains `marker`. */
+function elements(svg: string, tag: string, marker = ''): Record<string, string>[] {
+  const out: Record<string, string>[] = [];
+  for (const m of svg.matchAll(new RegExp(`<${tag}\\b([^>]*)>`, 'g'))) {
+    if (!m[1].includes(marker)) continue;
+    out.push(Object.fromEntries([...m[1].matchAll(/([\w:-]+)="([^"]*)"/g)].map((a) => [a[1], a[2]])));
+  }
+  return out;
+}
+
+/** Planar area of an SVG path made of M/L/Z commands (shoelace formula, summed over subpaths). */
+function pathArea(d: string): number {
+  let total = 0;
+  for (const sub of d.split(/Z/i).filter((x) => /\d/.test(x))) {
+    const pts = [...sub.matchAll(/(-?[\d.]+),(-?[\d.]+)/g)].map((m) => [Number(m[1]), Number(m[2])]);
+    let a = 0;
+    for (let i = 0; i < pts.length; i++) {
+      const [x1, y1] = pts[i];
+      const [x2, y2] = pts[(i + 1) % pts.length];
+      a += x1 * y2 - x2 * y1;
+    }
+    total += Math.abs(a) / 2;
+  }
+  return total;
+}
+
+describe('metrics', () => {
+  it('names the same five metrics as the store and the API', () => {
+    expect([...METRIC_NAMES]).toEqual([...SERIES_METRICS]);
+  });
+  it('converts absolute temperatures to °C and leaves differences alone', () => {
+    // 0 °C = 273.15 K by definition of the Celsius scale (BIPM, SI Brochure, 9th ed., 2019, section 2.3.1)
+    expect(toDisplay('lst_day', 303.15, 'C')).toBeCloseTo(30, 10);
+    expect(toDisplay('suhi_night', 1.25, 'C')).toBe(1.25);
+    expect(toDisplay('ati', 0.021, 'C')).toBe(0.021);
+    expect(toDisplay('lst_night', null, 'C')).toBeNull();
+    expect(unitLabel('lst_day', 'C')).toBe('\u00b0C');
+    expect(unitLabel('ati', 'C')).toBe('1/K');
+    expect(formatValue('suhi_day', -0.004)).toBe('0.00');
+    expect(formatValue('suhi_day', -1.5)).toBe('\u22121.50');
+  });
+});
+
+describe('palette', () => {
+  it('diverging classes break at zero, cooler in blue and warmer in red (ColorBrewer RdBu)', () => {
+    const c = colourClasses('diverging', [1.7, -0.4, null, 3.2], 'K');
+    expect(c.breaks).toContain(0);
+    // RdBu 8-class hex values as published by ColorBrewer (colorbrewer2.org; from memory):
+    // #b2182b #d6604d #f4a582 #fddbc7 #d1e5f0 #92c5de #4393c3 #2166ac
+    const cooler = c.colours[classOf(c, -0.4) as number];
+    const warmer = c.colours[classOf(c, 0.1) as number];
+    expect(cooler).toBe('#d1e5f0');
+    expect(warmer).toBe('#fddbc7');
+    expect(c.colours[classOf(c, 3.2) as number]).toBe('#b2182b');
+    expect(c.labels.length).toBe(c.colours.length);
+    expect(classOf(c, null)).toBeNull();
+  });
+
+  it('sequential classes use nice breaks inside the range (ColorBrewer YlOrRd)', () => {
+    const c = colourClasses('sequential-heat', [301.3, 309.8, 305], 'K');
+    expect(c.breaks).toEqual([302, 304, 306, 308]);
+    // YlOrRd 5-class as published by ColorBrewer (colorbrewer2.org; from memory)
+    expect(c.colours).toEqual(['#ffffb2', '#fecc5c', '#fd8d3c', '#f03b20', '#bd0026']);
+    expect(c.labels[0]).toBe('below 302 K');
+    expect(c.labels[4]).toBe('308 K and above');
+    expect(classOf(c, 301.3)).toBe(0);
+    expect(classOf(c, 304)).toBe(2); // a value on a break belongs to the class above it
+  });
+});
+
+describe('map', () => {
+  const classes = colourClasses('diverging', FEATURES.filter((f) => f.role === 'district').map((f) => f.value), 'K');
+  const { svg } = drawMap(FEATURES, { width: 600, classes, formatValue: (v) => (v === null ? 'no data' : `${v} K`), title: 'Night SUHI, 2024', selectedId: 'B', spots: { A: 'hot', B: 'cold', D: 'none' } });
+  const paths = elements(svg, 'path', 'hl-district');
+
+  it('draws one path per district, each with the fill of its legend class', () => {
+    expect(paths.map((p) => p['data-id'])).toEqual(['A', 'B', 'C', 'D']);
+    const legend = drawLegend(classes, { title: 'Night SUHI, K' }).svg;
+    const swatches = new Map(elements(legend, 'rect', 'hl-swatch').map((r) => [r['data-class'], r.fill]));
+    for (const p of paths) {
+      const f = FEATURES.find((x) => x.id === p['data-id']) as MapFeature;
+      const cls = classOf(classes, f.value);
+      expect(p['data-class']).toBe(cls === null ? 'none' : String(cls));
+      if (cls === null) expect([p.fill, swatches.get('none')]).toEqual(['url(#hl-nodata)', 'url(#hl-legend-nodata)']); // both hatched
+      else expect(swatches.get(p['data-class'])).toBe(p.fill);
+    }
+  });
+
+  it('hatches and labels districts without a value, outlines the rural reference', () => {
+    expect(paths.find((p) => p['data-id'] === 'C')?.fill).toBe('url(#hl-nodata)');
+    expect(svg).toContain('<pattern id="hl-nodata"');
+    expect((svg.match(/>no data<\/text>/g) ?? []).length).toBe(1);
+    const rural = elements(svg, 'path', 'hl-rural');
+    expect(rural).toHaveLength(1);
+    expect(rural[0].fill).toBe('none');
+  });
+
+  it('outlines hot and cold spots and the selected district, and escapes names', () => {
+    expect(elements(svg, 'path', 'hl-spot ').map((p) => [p['data-id'], p['data-spot']])).toEqual([['A', 'hot'], ['B', 'cold']]);
+    expect(elements(svg, 'path', 'hl-selected"')[0]['data-id']).toBe('B');
+    expect(svg).toContain('Dockside &#60;&#38;&#62;: 3.2 K');
+    expect(svg).not.toContain('Dockside <&>');
+  });
+
+  it('keeps the districts’ relative areas (a conformal projection at city scale; areas by @turf/turf)', () => {
+    // Reference: geodesic areas from @turf/turf's area(); the transverse Mercator's
+    // area scale varies by well under 0.1 % across a few kilometres (Snyder 1987,
+    // "Map Projections: A Working Manual", USGS PP 1395, p. 61, scale factor; from memory).
+    const projected = new Map(paths.map((p) => [p['data-id'], pathArea(p.d)]));
+    const geodesic = new Map(FEATURES.filter((f) => f.role === 'district').map((f) => [f.id, turfArea({ type: 'Feature', properties: {}, geometry: f.geometry as never })]));
+    for (const id of ['B', 'C', 'D']) {
+      const ratio = (projected.get(id) as number) / (projected.get('A') as number);
+      const expected = (geodesic.get(id) as number) / (geodesic.get('A') as number);
+      expect(Math.abs(ratio / expected - 1)).toBeLessThan(0.01); // coordinates are rounded to 0.1 px
+    }
+  });
+
+  it('fits the drawing into the width asked and its own height', () => {
+    const m = drawMap(FEATURES, { width: 320, classes, formatValue: String, title: 't', fit: 'districts' });
+    const nums = elements(m.svg, 'path', 'hl-district').flatMap((p) => [...p.d.matchAll(/(-?[\d.]+),(-?[\d.]+)/g)].map((x) => [Number(x[1]), Number(x[2])]));
+    expect(Math.min(...nums.map((n) => n[0]))).toBeGreaterThanOrEqual(0);
+    expect(Math.max(...nums.map((n) => n[0]))).toBeLessThanOrEqual(320);
+    expect(Math.max(...nums.map((n) => n[1]))).toBeLessThanOrEqual(m.height);
+  });
+});
+
+describe('ranked bars', () => {
+  it('orders bars by value with the largest first and puts no data last', () => {
+    const classes = colourClasses('diverging', [1.7, -0.4, 3.2]);
+    const { svg } = drawRankedBars(FEATURES.filter((f) => f.role === 'district'), { width: 500, classes, formatValue: (v) => String(v ?? 'no data'), title: 't', unit: 'K' });
+    expect(elements(svg, 'g', 'hl-bar-row').map((g) => g['data-id'])).toEqual(['D', 'A', 'B', 'C']);
+    const bars = elements(svg, 'rect', 'hl-bar');
+    // a negative bar ends at the zero line, a positive one starts there
+    const zero = Number(bars[0].x);
+    expect(Number(bars[2].x) + Number(bars[2].width)).toBeCloseTo(zero, 0);
+    expect(Number(bars[1].width) / Number(bars[0].width)).toBeCloseTo(1.7 / 3.2, 1);
+  });
+});
+
+describe('series chart', () => {
+  const years = [2016, 2017, 2018, 2019, 2020, 2021, 2022, 2023, 2024];
+  const trend = { pivot_year: 2020, pivot_value: 2.5, slope_per_year: 0.09, slope_ci_lower: 0.04, slope_ci_upper: 0.13 };
+  const { svg } = drawSeriesChart([
+    { key: 'day', label: 'Day', points: years.map((y, i) => ({ year: y, value: 2 + 0.1 * i + (i % 2) * 0.2 })), trend, colour: '#b2182b', marker: 'circle' },
+    { key: 'night', label: 'Night', points: years.map((y, i) => ({ year: y, value: i === 3 ? null : 1 + 0.02 * i })), trend: null, colour: '#2166ac', marker: 'square' },
+  ], { width: 520, title: 't', unit: 'K', formatValue: String });
+
+  it('draws one point per year with a value', () => {
+    expect(elements(svg, 'circle', 'hl-point').map((c) => Number(c['data-year']))).toEqual(years);
+    expect(elements(svg, 'rect', 'hl-point')).toHaveLength(years.length - 1);
+  });
+
+  it('draws the Sen line through the pivot with the slope given, and the band meets it there', () => {
+    // Sen line value(y) = pivot_value + slope × (y − pivot_year) (Sen 1968; intercept through the medians, Conover 1980)
+    const pts = elements(svg, 'circle', 'hl-point');
+    // recover the chart's linear value → y mapping from two drawn points
+    const [p, q] = [pts[0], pts[8]];
+    const k = (Number(q.cy) - Number(p.cy)) / (Number(q['data-value']) - Number(p['data-value']));
+    const vy = (v: number) => Number(p.cy) + (v - Number(p['data-value'])) * k;
+    const kx = (Number(q.cx) - Number(p.cx)) / (2024 - 2016);
+    const yx = (y: number) => Number(p.cx) + (y - 2016) * kx;
+    const [line] = elements(svg, 'line', 'hl-sen');
+    const x1 = Number(line.x1), y1 = Number(line.y1), x2 = Number(line.x2), y2 = Number(line.y2);
+    const atPivot = y1 + ((yx(2020) - x1) / (x2 - x1)) * (y2 - y1);
+    expect(atPivot).toBeCloseTo(vy(2.5), 0);
+    expect((y2 - y1) / (x2 - x1)).toBeCloseTo((0.09 * k) / kx, 3);
+    const [band] = elements(svg, 'polygon', 'hl-band');
+    const corners = band.points.split(' ').map((s) => s.split(',').map(Number));
+    expect(corners[1][0]).toBeCloseTo(yx(2020), 0);
+    expect(corners[1][1]).toBeCloseTo(vy(2.5), 0);
+    // at the last year the band spans the lower to the upper interval slope
+    expect(corners[2][1]).toBeCloseTo(vy(2.5 + 0.13 * 4), 0);
+    expect(corners[3][1]).toBeCloseTo(vy(2.5 + 0.04 * 4), 0);
+  });
+});
+
+describe('trend sentence', () => {
+  const base = { n: 12, alpha: 0.05, districts_tested: 24, note: null };
+  it('says a rise and its interval when the change is more than chance', () => {
+    expect(trendSentence('Night SUHI', 'K', { ...base, slope_per_decade: 0.91, slope_ci_lower_per_decade: 0.4, slope_ci_upper_per_decade: 1.3, direction: 'increasing' }))
+      .toBe('Night SUHI rose by 0.9 K per decade (95 % interval 0.4 to 1.3); this is more than chance after accounting for the city\'s 24 districts.');
+  });
+  it('says a fall in the sense of the verb', () => {
+    expect(trendSentence('Day LST', '\u00b0C', { ...base, slope_per_decade: -0.6, slope_ci_lower_per_decade: -1.1, slope_ci_upper_per_decade: -0.2, direction: 'decreasing' }))
+      .toBe('Day LST fell by 0.6 \u00b0C per decade (95 % interval 0.2 to 1.1); this is more than chance after accounting for the city\'s 24 districts.');
+  });
+  it('says no trend can be told from chance', () => {
+    expect(trendSentence('Night SUHI', 'K', { ...base, slope_per_decade: 0.2, slope_ci_lower_per_decade: -0.3, slope_ci_upper_per_decade: 0.6, direction: 'none' }))
+      .toBe('No trend in night SUHI can be told from chance after accounting for the city\'s 24 districts (Sen slope 0.2 K per decade, 95 % interval \u22120.3 to 0.6).');
+  });
+  it('says when the series is too short', () => {
+    expect(trendSentence('ATI', '1/K', { ...base, n: 3, slope_per_decade: null, slope_ci_lower_per_decade: null, slope_ci_upper_per_decade: null, direction: null, note: 'only 3 years with a value; a trend needs at least 4' }))
+      .toBe('The series is too short to tell whether ATI is changing: only 3 years with a value; a trend needs at least 4.');
+  });
+});
+
+describe('drawing modules stay pure', () => {
+  it('touch no DOM and no browser globals (the report runs them in Node)', () => {
+    const dir = join(ROOT, 'api', 'web', 'draw');
+    const files = readdirSync(dir).filter((f) => f.endsWith('.ts'));
+    expect(files.length).toBeGreaterThanOrEqual(7);
+    for (const f of files) {
+      const text = readFileSync(join(dir, f), 'utf8').replace(/\/\*[\s\S]*?\*\/|\/\/.*$/gm, '');
+      expect(text, f).not.toMatch(/\b(document|window|globalThis|navigator|localStorage|fetch)\b/);
+    }
+  });
+});

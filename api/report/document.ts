@@ -43,7 +43,8 @@ tr.up td { background: #fbe9e1; }
 td.years { white-space: nowrap; }
 tr.thin td { color: #8a5a00; }
 table.scenes { font-size: 7pt; }
-table.scenes td.hash { font-family: "DejaVu Sans Mono", monospace; font-size: 6pt; word-break: break-all; }
+table.scenes td.hash { font-family: "DejaVu Sans Mono", monospace; font-size: 5.6pt; white-space: nowrap; }
+table.scenes td.time { white-space: nowrap; }
 dl.defs dt { font-weight: 600; margin-top: .45rem; }
 dl.defs dd { margin: .1rem 0 0 1rem; }
 ul.cautions li { margin: .2rem 0; }

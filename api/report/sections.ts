@@ -81,7 +81,7 @@ export function trendSection(d: ReportData, figs: ReportFigures): string {
     `<td>${verdict(r)}</td><td class="years">${esc(r.years_used)}</td></tr>`).join('\n');
   const multiples = figs.multiples.length
     ? `<div class="multiples">${figs.multiples.map((m) => `<figure>${m.svg}<figcaption>${esc(m.name)}</figcaption></figure>`).join('\n')}</div>
-<p class="note">Each small chart shows one district's yearly night heat island (dots), the trend line fitted through them (Sen slope) and the shaded range of slopes the data allow at 95 %.</p>`
+<p class="note">The ${figs.multiples.length} districts hottest at night this year. Each small chart shows one district's yearly night heat island (dots), the trend line fitted through them (Sen slope) and, shaded, the range of slopes the data allow at ${Math.round((1 - d.request.alpha) * 100)} %. Each chart has its own vertical scale, chosen to show its district's ups and downs: compare the size of changes with the table below, not the steepness of the lines.</p>`
     : '';
   return `<section id="trend" class="page">
 <h2>Is it getting warmer?</h2>
@@ -149,13 +149,38 @@ ${notes}
 </section>`;
 }
 
+/** The caution of the defaults module, one sentence per item. */
+function cautionItems(): string {
+  return CAUTION_TEXT.split(/(?<=\.)\s+/).map((c) => `<li>${esc(c)}</li>`).join('\n');
+}
+
+/** Plain names of the run settings the pipeline records (others are shown by their key alone). */
+const SETTING_NAMES: Record<string, string> = {
+  coverageRule: 'Pixel rule',
+  ruralReference: 'Rural reference',
+  plausibleRangeKelvin: 'Plausible surface temperature, K',
+  minValidFraction: 'Smallest clear share of a district for a pass to count',
+  pairingWindowHours: 'Longest day–night separation of a pair, hours',
+  albedoWindowDays: 'Longest distance to the albedo scene used, days',
+  atiMinDifferenceKelvin: 'Smallest day–night difference for ATI, K',
+  qaMaskBits: 'Quality bits that mask a pixel',
+  districtIds: 'Districts',
+};
+
+function settingText(k: string, v: unknown): string {
+  if (v === null || v === undefined) return 'none';
+  if (Array.isArray(v) && k === 'districtIds') return `${v.length}`;
+  if (Array.isArray(v)) return v.map((x) => (typeof x === 'object' ? JSON.stringify(x) : String(x))).join(' to ');
+  if (typeof v === 'object') {
+    const o = v as Record<string, unknown>;
+    return 'description' in o ? String(o.description) : JSON.stringify(o);
+  }
+  return String(v);
+}
+
 function parameterRows(params: Record<string, unknown>): string {
-  const shown = (k: string, v: unknown): string => {
-    if (Array.isArray(v) && k === 'districtIds') return `${v.length} districts`;
-    if (v && typeof v === 'object' && 'description' in (v as Record<string, unknown>)) return relativeInText(String((v as Record<string, unknown>).description), null);
-    return relativeInText(JSON.stringify(v), null);
-  };
-  return Object.keys(params).sort().map((k) => `<tr><td><code>${esc(k)}</code></td><td>${esc(shown(k, params[k]))}</td></tr>`).join('\n');
+  return Object.keys(params).sort((a, b) => (SETTING_NAMES[a] ? 0 : 1) - (SETTING_NAMES[b] ? 0 : 1) || a.localeCompare(b))
+    .map((k) => `<tr><td>${esc(SETTING_NAMES[k] ?? '')} <code>${esc(k)}</code></td><td>${esc(relativeInText(settingText(k, params[k]), null))}</td></tr>`).join('\n');
 }
 
 export function methodsSection(d: ReportData): string {
@@ -190,10 +215,7 @@ export function methodsSection(d: ReportData): string {
 <table class="data narrow"><tbody>${parameterRows(p)}</tbody></table>
 <h3>Cautions</h3>
 <ul class="cautions">
-<li>LST is the temperature of surfaces, not of the air: a hot roof does not mean equally hot air in the street below.</li>
-<li>Yearly figures are means of the clear days only; they depend on which days were clear.</li>
-<li>SUHI depends on the rural reference chosen; compare districts and years, not absolute levels between cities.</li>
-<li>These figures inform, and do not replace, local heat-health action plans, codes and the judgement of licensed professionals.</li>
+${cautionItems()}
 </ul>
 </section>`;
 }
@@ -201,12 +223,12 @@ export function methodsSection(d: ReportData): string {
 export function appendixSection(d: ReportData): string {
   const rows = [...d.scenes]
     .sort((a, b) => String(a.acquired_at ?? '').localeCompare(String(b.acquired_at ?? '')) || a.file.localeCompare(b.file))
-    .map((s) => `<tr><td>${esc(s.file)}</td><td>${esc(s.acquired_at ? s.acquired_at.replace('.000Z', 'Z') : '–')}</td><td>${esc(s.kind ?? '–')}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td>${esc(s.state)}</td><td class="hash">${esc(s.content_hash ?? '–')}</td></tr>`)
+    .map((s) => `<tr><td>${esc(s.file)}</td><td class="time">${esc(s.acquired_at ? `${s.acquired_at.slice(0, 10)} ${s.acquired_at.slice(11, 16)}` : '–')}</td><td>${esc(s.kind ?? '–')}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td>${esc(s.state)}</td><td class="hash">${esc(s.content_hash ?? '–')}</td></tr>`)
     .join('\n');
   return `<section id="appendix" class="page">
 <h2>Appendix: input scenes</h2>
 <p>Every scene file in the store: acquisition time (UTC), kind, pass, timing rating, whether it was used, and its SHA-256 content hash, which identifies the exact file.</p>
-<table class="data scenes"><thead><tr><th>File</th><th>Acquired (UTC)</th><th>Kind</th><th>Pass</th><th>Timing</th><th>State</th><th>SHA-256</th></tr></thead>
+<table class="data scenes"><thead><tr><th>File</th><th>Acquired, UTC</th><th>Kind</th><th>Pass</th><th>Timing</th><th>State</th><th>SHA-256</th></tr></thead>
 <tbody>${rows}</tbody></table>
 </section>`;
 }

@@ -27,8 +27,8 @@ export function titleBlock(d: ReportData, place: string | null): string {
   const made = d.madeAt.slice(0, 10);
   return `<header class="title">
 <p class="kicker">Yearly surface heat report</p>
-<h1>${place ? `${esc(place)}: ` : ''}urban heat ${esc(periodText(d))}</h1>
-<p class="meta">Made on ${esc(made)} (UTC) with heatledger ${esc(d.version)} from ${count(d.districts.features.filter((f) => f.properties.role === 'district').length, 'district')} and ${count(d.scenes.filter((s) => s.kind === 'lst' && s.state === 'processed').length, 'satellite scene')}. Temperatures in ${d.request.units === 'C' ? 'degrees Celsius (°C)' : 'kelvin (K)'}; a difference of 1 K is a difference of 1 °C.</p>
+<h1>${place ? `${esc(place)}: s` : 'S'}urface heat in ${esc(d.request.season === 'all' ? String(d.request.year) : `${d.request.season} ${d.request.year}`)}</h1>
+<p class="meta">${d.request.season === 'all' ? 'The whole year' : `Months ${esc(d.selection.label)}`}, compared with ${d.request.baseline.from === d.request.baseline.to ? d.request.baseline.from : `${d.request.baseline.from}–${d.request.baseline.to}`}. Made on ${esc(made)} (UTC) with heatledger ${esc(d.version)} from ${count(d.districts.features.filter((f) => f.properties.role === 'district').length, 'district')} and ${count(d.scenes.filter((s) => s.kind === 'lst' && s.state === 'processed').length, 'satellite scene')}. Temperatures in ${d.request.units === 'C' ? 'degrees Celsius (°C)' : 'kelvin (K)'}; a difference of 1 K is a difference of 1 °C.</p>
 </header>`;
 }
 

@@ -126,7 +126,7 @@ function change(name: string, delta: number | null, units: TemperatureUnit): str
 }
 
 function ranked(rows: readonly RankingRow[], key: string, units: TemperatureUnit): string {
-  return listWords(rows.map((r) => `${esc(r.name)} (${figure(`${key}_${r.rank}`, r.value, difference(r.value, units, 1))})`));
+  return listWords(rows.map((r) => `${esc(r.name)} (${figure(`${key}_${r.district}`, r.value, difference(r.value, units, 1))})`));
 }
 
 function trendNames(list: readonly TrendMention[], key: string, units: TemperatureUnit): string {

@@ -5,6 +5,7 @@
  * test failure; without it, a suite whose server is unreachable is skipped and
  * says so plainly in the output.
  */
+import fs from 'node:fs';
 import net from 'node:net';
 
 export const requireServices = process.env.HEATLEDGER_REQUIRE_SERVICES === '1';
@@ -36,5 +37,38 @@ export async function serviceAvailable(name: 'postgres' | 'redis', suite: string
     throw new Error(`${suite}: ${name} at ${url} is unreachable and HEATLEDGER_REQUIRE_SERVICES=1`);
   }
   console.log(`SKIPPED ${suite}: no ${name} server at ${url} (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+  return false;
+}
+
+/** Reference tools the suites call, with the Debian package that holds each. */
+export const TOOLS = {
+  chromium: { command: 'chromium', debianPackage: 'chromium' },
+  pdftotext: { command: 'pdftotext', debianPackage: 'poppler-utils' },
+  pdfinfo: { command: 'pdfinfo', debianPackage: 'poppler-utils' },
+} as const;
+export type ToolName = keyof typeof TOOLS;
+
+/** The full path of a tool's command on PATH, or null. */
+export function toolPath(name: ToolName): string | null {
+  for (const dir of (process.env.PATH ?? '/usr/bin:/bin').split(':')) {
+    const p = `${dir || '.'}/${TOOLS[name].command}`;
+    try {
+      fs.accessSync(p, fs.constants.X_OK);
+      return p;
+    } catch { /* not here */ }
+  }
+  return null;
+}
+
+/**
+ * Whether every tool a suite needs is installed. Throws when services are
+ * required (CI) and one is missing; logs a plain "SKIPPED" line otherwise.
+ */
+export function toolsAvailable(names: readonly ToolName[], suite: string): boolean {
+  const missing = names.filter((n) => toolPath(n) === null);
+  if (missing.length === 0) return true;
+  const what = missing.map((n) => `${TOOLS[n].command} (Debian package ${TOOLS[n].debianPackage})`).join(', ');
+  if (requireServices) throw new Error(`${suite}: ${what} not installed and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: ${what} not installed (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
   return false;
 }

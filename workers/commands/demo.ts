@@ -164,4 +164,5 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push('');
   out.push(`Caution: ${CAUTION_SHORT}`);
   process.stdout.write(out.join('\n') + '\n');
+  await (await import('./report.js')).writeDemoReport({ dataDir: opts.dataDir, place: CITY_NAME, slug: CITY_SLUG });
 }

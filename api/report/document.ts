@@ -29,6 +29,10 @@ data { font-weight: 600; white-space: nowrap; }
 section.page { break-before: page; }
 figure { margin: .6rem 0; break-inside: avoid; }
 figure svg { max-width: 100%; height: auto; }
+figure.map { display: flex; flex-wrap: wrap; align-items: flex-end; gap: .3rem 1rem; }
+figure.map .map-drawing { flex: 0 1 66%; }
+figure.map .legend { flex: 0 1 30%; }
+figure.map figcaption { flex: 1 0 100%; }
 .multiples { display: grid; grid-template-columns: repeat(3, 1fr); gap: .4rem .8rem; }
 .multiples figure { margin: 0; }
 .multiples figcaption { text-align: center; color: #1d1d1d; font-size: 9pt; }

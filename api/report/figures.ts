@@ -14,6 +14,7 @@ import { periodText } from './sections.js';
 
 /** Widths in CSS pixels; the stylesheet scales them to the printed column. */
 const FULL_WIDTH = 680;
+const MAP_WIDTH = 480;
 const SMALL_WIDTH = 240;
 
 export function reportFigures(d: ReportData): ReportFigures {
@@ -26,9 +27,9 @@ export function reportFigures(d: ReportData): ReportFigures {
   const spots: Record<string, SpotKind> = Object.fromEntries((d.hotspots?.rows ?? []).map((r) => [r.district, r.spot]));
   const map = drawMap(
     d.districts.features.map((f) => ({ id: f.id, name: f.properties.name, role: f.properties.role, geometry: (f.geometry ?? null) as Geometry | null, value: show(f.properties.suhi_night_k) })),
-    { width: FULL_WIDTH, maxHeight: 560, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, spots, idPrefix: 'report-map', fit: 'districts' },
+    { width: MAP_WIDTH, maxHeight: 430, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, spots, idPrefix: 'report-map', fit: 'districts' },
   );
-  const legend = drawLegend(classes, { title: `Night heat island, ${unit}`, note: 'below 0 = cooler than the countryside', idPrefix: 'report-legend', width: 240 });
+  const legend = drawLegend(classes, { title: `Night heat island, ${unit}`, note: 'below 0: cooler than the countryside', idPrefix: 'report-legend', width: 250 });
   const bars = drawRankedBars(
     d.rankingNight.rows.map((r) => ({ id: r.district, name: r.name, value: show(r.value) })),
     { width: FULL_WIDTH, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, unit },

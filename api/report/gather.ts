@@ -10,6 +10,7 @@ import { seasonMonths } from '../../workers/core/trend/index.js';
 import type { Store } from '../../workers/store/index.js';
 import { getRun, listScenes } from '../../workers/store/index.js';
 import { storedHemisphere } from '../../workers/store/district-statistics.js';
+import { MIN_DATES_PER_YEAR } from '../answers/index.js';
 import type {
   DistrictsAnswer, HealthAnswer, HotspotsAnswer, Metric, RankingsAnswer, ReportData, ReportRequest, SceneAnswerRow, SeriesAnswer, TrendsAnswer,
 } from './answers.js';
@@ -27,9 +28,6 @@ export interface ReportAnswers {
 
 /** Districts drawn as small multiples: the hottest by night. */
 export const MULTIPLES = 6;
-
-/** Fewest dates a year needs to count in a trend (the API's and the trend command's default). */
-export const MIN_DATES = 3;
 
 /** True when the answer has a value of the metric for at least one district. */
 function hasValues(a: DistrictsAnswer): boolean {
@@ -72,6 +70,6 @@ export async function gatherReportData(store: Store, request: ReportRequest, ans
     rankingNight, rankingDay, trendsNight, trendsDay, series, hotspots, hotspotsMissing, scenes,
     run: runRow ? { id: runRow.id, mode: runRow.mode, softwareVersion: runRow.softwareVersion, finishedAt: runRow.finishedAt, state: health.last_run?.state ?? runRow.status, parameters: runRow.parameters ?? {} } : null,
     selection: seasonMonths(season, await storedHemisphere(store)),
-    minDates: MIN_DATES,
+    minDates: MIN_DATES_PER_YEAR,
   };
 }

@@ -3,6 +3,7 @@
  * gathered answers (and, for the pictures, of the SVG the drawing code made).
  */
 import { CAUTION_TEXT } from '../../workers/core/defaults.js';
+import { MIN_TREND_YEARS } from '../../workers/core/trend/index.js';
 import { relativeInText } from '../relative-paths.js';
 import type { ReportData, TrendFields } from './answers.js';
 import type { QualityFigures } from './quality.js';
@@ -199,7 +200,7 @@ export function methodsSection(d: ReportData): string {
 <dt>Rural reference</dt><dd>${rural ? esc(rural) : 'as recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
 <dt>Pixel rule</dt><dd>${esc(rule)}.</dd>
 <dt>Day and night passes</dt><dd>A pass is a day pass when the sun is above the horizon at the scene centre. A night pass is paired with the day pass closest in time${pairing !== null ? ` within ${pairing} hours` : ''}; the pair is dated by the UTC date of the day pass. A pass that saw less than ${percent(typeof p.minValidFraction === 'number' ? p.minValidFraction : null)} of a district gives no value for it.</dd>
-<dt>Trend</dt><dd>Mann–Kendall test of the yearly values (Mann 1945; Kendall 1975), Sen slope with its ${Math.round((1 - d.request.alpha) * 100)} % interval (Sen 1968), Benjamini–Hochberg false discovery rate across districts (Benjamini & Hochberg 1995). A year counts when it has at least ${d.minDates} clear dates; a trend needs at least 4 years.</dd>
+<dt>Trend</dt><dd>Mann–Kendall test of the yearly values (Mann 1945; Kendall 1975), Sen slope with its ${Math.round((1 - d.request.alpha) * 100)} % interval (Sen 1968), Benjamini–Hochberg false discovery rate across districts (Benjamini & Hochberg 1995). A year counts when it has at least ${d.minDates} clear dates; a trend needs at least ${MIN_TREND_YEARS} years.</dd>
 <dt>Hot spots</dt><dd>Getis–Ord Gi* with binary weights including the district itself (Ord & Getis 1995); Moran's I with row-standardised weights (Moran 1950).</dd>
 </dl>
 <h3>This report</h3>

@@ -4,6 +4,7 @@
  * one of these figures, written inside a `<data>` element holding its value.
  */
 import type { DistrictsAnswer, RankingRow, RankingsAnswer, ReportData, TrendsAnswer } from './answers.js';
+import { MIN_TREND_YEARS } from '../../workers/core/trend/index.js';
 import { count, difference, esc, figure, fixed, listWords, type TemperatureUnit } from './text.js';
 
 type SuhiField = 'suhi_night_k' | 'suhi_day_k';
@@ -152,7 +153,9 @@ export function summarySentences(d: ReportData, f: SummaryFigures): string[] {
 
   const b = d.request.baseline;
   const period = b.from === b.to ? String(b.from) : `${b.from}–${b.to}`;
-  if (f.baselineNight === null) {
+  if (b.from === year && b.to === year) {
+    out.push(`No year before ${year} is stored, so there is no baseline to compare with.`);
+  } else if (f.baselineNight === null) {
     out.push(`No year of the baseline period ${period} has values in the store, so this year cannot be compared with it.`);
   } else {
     const missing = b.to - b.from + 1 - f.baselineYears.length;
@@ -167,7 +170,9 @@ export function summarySentences(d: ReportData, f: SummaryFigures): string[] {
   const first = d.health.years.length ? Math.min(...d.health.years) : year;
   const span = `${first}–${year}`;
   const fdr = `after allowing for the ${figure('districts_tested_night', f.testedNight, String(f.testedNight))} districts tested (false discovery rate ${Math.round(d.request.alpha * 100)} %)`;
-  if (f.warmingNight.length === 0) {
+  if (f.testedNight === 0) {
+    out.push(`Whether the heat island is growing cannot be said yet: a trend needs at least ${MIN_TREND_YEARS} years with enough clear days, and no district has them up to ${year}.`);
+  } else if (f.warmingNight.length === 0) {
     out.push(`No district shows a significant warming of its night heat island over ${span} ${fdr}.`);
   } else {
     out.push(
@@ -175,8 +180,8 @@ export function summarySentences(d: ReportData, f: SummaryFigures): string[] {
         `${trendNames(f.warmingNight, 'warming_night_per_decade', u)}.`,
     );
   }
-  if (f.coolingNight.length) out.push(`${count(f.coolingNight.length, 'district')} cool${f.coolingNight.length === 1 ? 's' : ''} significantly at night: ${trendNames(f.coolingNight, 'cooling_night_per_decade', u)}.`);
-  out.push(
+  if (f.testedNight > 0 && f.coolingNight.length) out.push(`${count(f.coolingNight.length, 'district')} cool${f.coolingNight.length === 1 ? 's' : ''} significantly at night: ${trendNames(f.coolingNight, 'cooling_night_per_decade', u)}.`);
+  if (f.testedDay > 0) out.push(
     f.warmingDay.length
       ? `By day, ${figure('warming_day_count', f.warmingDay.length, count(f.warmingDay.length, 'district'))} warm${f.warmingDay.length === 1 ? 's' : ''} significantly: ${trendNames(f.warmingDay, 'warming_day_per_decade', u)}.`
       : 'By day, no district warms significantly.',

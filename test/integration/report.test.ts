@@ -1,3 +1,4 @@
+/// <reference lib="dom" />
 /**
  * `heatledger report` on a store from a small generated archive of the
  * invented city (8 summers, 5 day/night pairs each, 500 m pixels), in which

@@ -7,9 +7,10 @@ import { describe, expect, it } from 'vitest';
 import { seasonMonths } from '../../workers/core/trend/index.js';
 import { qualityFigures } from '../../api/report/quality.js';
 import type { ReportData, SceneAnswerRow } from '../../api/report/answers.js';
+import { UNITS } from '../../api/answers/index.js';
 
 let nextId = 1;
-function scene(at: string, pass: 'day' | 'night', rating: string, state: string, fractions: Record<string, number>): SceneAnswerRow & { content_hash: string | null } {
+function scene(at: string, pass: 'day' | 'night', rating: string, state: 'processed' | 'failed' | 'registered', fractions: Record<string, number>): SceneAnswerRow & { content_hash: string | null } {
   return {
     id: nextId++, file: `s${nextId}.tif`, acquired_at: at, pass, kind: 'lst', sensor: null, timing_rating: rating, state, reason: null, warnings: [],
     districts: Object.entries(fractions).map(([district, valid_fraction]) => ({ district, valid_fraction, missing_reason: null })), content_hash: null,
@@ -18,19 +19,19 @@ function scene(at: string, pass: 'day' | 'night', rating: string, state: string,
 
 function data(season: 'summer' | 'winter', scenes: ReturnType<typeof scene>[], extra: Partial<ReportData> = {}): ReportData {
   const feature = (id: string, datesDay: number, datesNight: number) => ({
-    id, geometry: null,
+    type: 'Feature' as const, id, geometry: { type: 'Polygon', coordinates: [] },
     properties: { id, name: id.toUpperCase(), role: 'district' as const, area_m2: 1, lst_day_k: 300, lst_night_k: 290, suhi_day_k: 1, suhi_night_k: 1, ati_per_k: null, dates_day: datesDay, dates_night: datesNight, value: 1 },
   });
   return {
     request: { year: 2024, season, baseline: { from: 2020, to: 2021 }, units: 'C', alpha: 0.05 },
     version: '0', madeAt: '2024-12-01T00:00:00Z',
-    health: { store: 'pglite', schema_version: 1, version: '0', last_run: null, years: [2021, 2022, 2024] },
-    districts: { year: 2024, season, metric: 'suhi_night', years: [], features: [feature('a', 3, 3), feature('b', 2, 4)] },
+    health: { ok: true, store: 'pglite', schema_version: 1, version: '0', last_run: null, years: [2021, 2022, 2024] },
+    districts: { type: 'FeatureCollection', year: 2024, season, metric: 'suhi_night', years: [], units: UNITS, caution: '', next_cursor: null, features: [feature('a', 3, 3), feature('b', 2, 4)] },
     previous: null, baselineYears: [],
-    rankingNight: { year: 2024, previous_year: null, metric: 'suhi_night', order: 'desc', rows: [] },
-    rankingDay: { year: 2024, previous_year: null, metric: 'suhi_day', order: 'desc', rows: [] },
-    trendsNight: { metric: 'suhi_night', season, alpha: 0.05, districts_tested: 0, rows: [] },
-    trendsDay: { metric: 'suhi_day', season, alpha: 0.05, districts_tested: 0, rows: [] },
+    rankingNight: { year: 2024, previous_year: null, metric: 'suhi_night', season, unit: 'K', order: 'desc', next_cursor: null, rows: [] },
+    rankingDay: { year: 2024, previous_year: null, metric: 'suhi_day', season, unit: 'K', order: 'desc', next_cursor: null, rows: [] },
+    trendsNight: { metric: 'suhi_night', season, alpha: 0.05, serial_correction: 'none', unit: 'K', districts_tested: 0, next_cursor: null, rows: [] },
+    trendsDay: { metric: 'suhi_day', season, alpha: 0.05, serial_correction: 'none', unit: 'K', districts_tested: 0, next_cursor: null, rows: [] },
     series: [], hotspots: null, hotspotsMissing: null, scenes,
     run: { id: 1, mode: 'embedded', softwareVersion: '0', finishedAt: null, state: 'succeeded', parameters: { minValidFraction: 0.5 } },
     selection: seasonMonths(season, 'north'), minDates: 3,

@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { difference, figure, fixed, temperature } from '../../api/report/text.js';
 import { baselineMean, cityMean } from '../../api/report/summary.js';
 import { parseBaseline } from '../../workers/commands/report.js';
-import type { DistrictsAnswer } from '../../api/report/answers.js';
+import { UNITS, type DistrictsAnswer } from '../../api/answers/index.js';
 
 describe('temperatures in the unit asked for', () => {
   it('kelvin to degrees Celsius: t/°C = T/K − 273.15 (BIPM, The International System of Units, 9th ed. 2019, §2.3.1)', () => {
@@ -36,10 +36,12 @@ describe('temperatures in the unit asked for', () => {
 
 describe('the city figure', () => {
   const feature = (id: string, role: 'district' | 'rural', area: number, night: number | null, day: number | null) => ({
-    id, geometry: null,
+    type: 'Feature' as const, id, geometry: { type: 'Polygon', coordinates: [] },
     properties: { id, name: id, role, area_m2: area, lst_day_k: null, lst_night_k: null, suhi_day_k: day, suhi_night_k: night, ati_per_k: null, dates_day: 3, dates_night: 3, value: night },
   });
-  const answer = (year: number, features: ReturnType<typeof feature>[]): DistrictsAnswer => ({ year, season: 'summer', metric: 'suhi_night', years: [], features });
+  const answer = (year: number, features: ReturnType<typeof feature>[]): DistrictsAnswer => ({
+    type: 'FeatureCollection', year, season: 'summer', metric: 'suhi_night', years: [], units: UNITS, caution: '', next_cursor: null, features,
+  });
 
   it('is the area-weighted mean of the districts with a value; the rural reference and missing values are left out (weighted arithmetic mean, by definition)', () => {
     const a = answer(2024, [feature('a', 'district', 1e6, 3, 1), feature('b', 'district', 3e6, 1, null), feature('c', 'district', 5e6, null, 2), feature('r', 'rural', 9e7, 0, 0)]);

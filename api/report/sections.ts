@@ -59,7 +59,7 @@ function yearTable(d: ReportData): string {
 export function hottestSection(d: ReportData, figs: ReportFigures): string {
   return `<section id="where" class="page">
 <h2>Where it is hottest</h2>
-<p>How much warmer each district's surface was than the countryside around the city, on average over the clear nights of ${esc(periodText(d))}. Darker colours are warmer.</p>
+<p>How much warmer each district's surface was than the countryside around the city, on average over the clear nights of ${esc(periodText(d))}. Deeper red is warmer; blue districts were cooler than the countryside.${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Thick outlines mark the hot and cold spots described below.' : ''}</p>
 ${figs.map ? `<figure class="map"><div class="map-drawing">${figs.map}</div>${figs.legend ? `<div class="legend">${figs.legend}</div>` : ''}<figcaption>Night heat island by district, ${esc(periodText(d))} (${unitSymbol(d.request.units)} above the rural reference).</figcaption></figure>` : ''}
 ${figs.bars ? `<figure class="bars">${figs.bars}<figcaption>Districts ranked by their night heat island, ${esc(periodText(d))}.</figcaption></figure>` : ''}
 <h3>Every district this year</h3>

@@ -21,12 +21,12 @@ import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { cleanEnv, cliOk, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli } from '../support/pipeline-harness.js';
-import { toolsAvailable } from '../support/services.js';
+import { CHROMIUM_PATH, toolAvailable } from '../support/services.js';
 import { openStore, type Store } from '../../workers/store/index.js';
 import { answerDistricts, answerRankings, answerTrends, type DistrictsAnswer, type DistrictsQuery, type RankingsQuery, type TrendQuery } from '../../api/answers/index.js';
 
 await ensurePipelineBuild();
-const tools = toolsAvailable(['chromium', 'pdftotext', 'pdfinfo'], 'report.test.ts (HTML in Chromium, PDF text)');
+const tools = (['chromium', 'pdftotext', 'pdfinfo'] as const).every((t) => toolAvailable(t, 'report.test.ts (HTML in Chromium, PDF pages and text)'));
 
 const VERSION = JSON.parse(readFileSync(path.join(repoRoot, 'package.json'), 'utf8')).version as string;
 const YEAR = 2026;
@@ -40,7 +40,7 @@ beforeAll(async () => {
   const archive = await makeArchive(path.join(tmp, 'archive'), { years: 8, pairsPerYear: 5, pixelSizeMetres: 500, trendsKelvinPerYear: { D16: 0.6 } });
   await cliOk(['ingest', path.join(tmp, 'archive'), '--districts', archive.districtsPath, '--data-dir', dataDir, '--no-progress', '--threads', '1'], cleanEnv(), 240_000);
   const args = ['report', '--year', String(YEAR), '--baseline', '2019-2020', '--place', 'Corvenmouth', '--out', htmlPath, '--data-dir', dataDir];
-  await cliOk(tools ? [...args, '--pdf', pdfPath] : args, cleanEnv(), 240_000);
+  await cliOk(tools ? [...args, '--pdf', pdfPath] : args, cleanEnv({ HEATLEDGER_CHROMIUM: CHROMIUM_PATH }), 240_000);
   html = readFileSync(htmlPath, 'utf8');
 }, 600_000);
 
@@ -155,7 +155,7 @@ describe.skipIf(!tools)('report in Chromium and as PDF', () => {
   it('the HTML makes no request beyond its own file (and the listener does see one a page makes)', async () => {
     const { chromium } = await import('playwright-core');
     const { CHROMIUM_ARGS } = await import('../../api/report/pdf.js');
-    const browser = await chromium.launch({ executablePath: '/usr/bin/chromium', args: [...CHROMIUM_ARGS] });
+    const browser = await chromium.launch({ executablePath: CHROMIUM_PATH, args: [...CHROMIUM_ARGS] });
     try {
       const requestsOf = async (file: string): Promise<{ urls: string[]; scripts: number; svgs: Record<string, number> }> => {
         const page = await browser.newPage();

@@ -40,18 +40,21 @@ export async function serviceAvailable(name: 'postgres' | 'redis', suite: string
   return false;
 }
 
-/** Reference tools the suites call, with the Debian package that holds each. */
-export const TOOLS = {
-  chromium: { command: 'chromium', debianPackage: 'chromium' },
-  pdftotext: { command: 'pdftotext', debianPackage: 'poppler-utils' },
-  pdfinfo: { command: 'pdfinfo', debianPackage: 'poppler-utils' },
+/** Where the browser tests find Chromium (Debian's `chromium` package; `.ci/run` installs it when missing). */
+export const CHROMIUM_PATH = process.env.HEATLEDGER_CHROMIUM || '/usr/bin/chromium';
+
+/** Local tools the suites call, with the Debian package that holds each. */
+const TOOLS = {
+  chromium: { debianPackage: 'chromium' },
+  pdftotext: { debianPackage: 'poppler-utils' },
+  pdfinfo: { debianPackage: 'poppler-utils' },
 } as const;
 export type ToolName = keyof typeof TOOLS;
 
-/** The full path of a tool's command on PATH, or null. */
+/** The full path of a tool (Chromium at CHROMIUM_PATH, the others on PATH), or null. */
 export function toolPath(name: ToolName): string | null {
-  for (const dir of (process.env.PATH ?? '/usr/bin:/bin').split(':')) {
-    const p = `${dir || '.'}/${TOOLS[name].command}`;
+  const candidates = name === 'chromium' ? [CHROMIUM_PATH] : (process.env.PATH ?? '/usr/bin:/bin').split(':').map((dir) => `${dir || '.'}/${name}`);
+  for (const p of candidates) {
     try {
       fs.accessSync(p, fs.constants.X_OK);
       return p;
@@ -61,14 +64,14 @@ export function toolPath(name: ToolName): string | null {
 }
 
 /**
- * Whether every tool a suite needs is installed. Throws when services are
- * required (CI) and one is missing; logs a plain "SKIPPED" line otherwise.
+ * Whether a suite that needs a local tool can run. Like {@link serviceAvailable}:
+ * with HEATLEDGER_REQUIRE_SERVICES=1 a missing tool throws, otherwise the suite
+ * is skipped with a plain "SKIPPED" line naming the Debian package to install.
  */
-export function toolsAvailable(names: readonly ToolName[], suite: string): boolean {
-  const missing = names.filter((n) => toolPath(n) === null);
-  if (missing.length === 0) return true;
-  const what = missing.map((n) => `${TOOLS[n].command} (Debian package ${TOOLS[n].debianPackage})`).join(', ');
-  if (requireServices) throw new Error(`${suite}: ${what} not installed and HEATLEDGER_REQUIRE_SERVICES=1`);
-  console.log(`SKIPPED ${suite}: ${what} not installed (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+export function toolAvailable(name: ToolName, suite: string): boolean {
+  if (toolPath(name) !== null) return true;
+  const what = `${name} (Debian package ${TOOLS[name].debianPackage})`;
+  if (requireServices) throw new Error(`${suite}: ${what} is not installed and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: ${what} is not installed (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
   return false;
 }

@@ -60,7 +60,7 @@ export function hottestSection(d: ReportData, figs: ReportFigures): string {
   return `<section id="where" class="page">
 <h2>Where it is hottest</h2>
 <p>How much warmer each district's surface was than the countryside around the city, on average over the clear nights of ${esc(periodText(d))}. Deeper red is warmer; blue districts were cooler than the countryside.${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Thick outlines mark the hot and cold spots described below.' : ''}</p>
-${figs.map ? `<figure class="map"><div class="map-drawing">${figs.map}</div>${figs.legend ? `<div class="legend">${figs.legend}</div>` : ''}<figcaption>Night heat island by district, ${esc(periodText(d))} (${unitSymbol(d.request.units)} above the rural reference).</figcaption></figure>` : ''}
+${figs.map ? `<figure class="map"><div class="map-drawing">${figs.map}</div>${figs.legend ? `<div class="legend">${figs.legend}</div>` : ''}<figcaption>Night heat island by district, ${esc(periodText(d))} (${unitSymbol(d.request.units)} above the rural reference).${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Solid thick outline: hot spot; dashed: cold spot.' : ''}</figcaption></figure>` : ''}
 ${figs.bars ? `<figure class="bars">${figs.bars}<figcaption>Districts ranked by their night heat island, ${esc(periodText(d))}.</figcaption></figure>` : ''}
 <h3>Every district this year</h3>
 ${yearTable(d)}
@@ -105,14 +105,18 @@ export function hotspotSection(d: ReportData): string {
 ${spots.map((r) => `<tr><td>${esc(r.name)}</td><td>${r.spot === 'hot' ? 'hot spot' : 'cold spot'}</td><td class="n">${r.confidence ?? '–'} %</td><td class="n">${fixed(r.gi_z, 2)}</td><td class="n">${difference(r.value, u)}</td></tr>`).join('\n')}
 </tbody></table>`
     : '<p>No district stands out as part of a hot or cold cluster at 90 % confidence or more.</p>';
+  const chance = spots.length && spots.every((r) => (r.confidence ?? 0) < 99)
+    ? `<p class="note">Tested at 90 % confidence, about one district in ten is flagged by chance alone (${fixed(h.rows.length * 0.1, 1)} of these ${h.rows.length} on average, when there are no real clusters): a single year's flag is a prompt to look closer, not a finding.</p>`
+    : '';
   const m = h.moran;
   const moran = m === null
     ? 'Whether neighbouring districts are alike could not be measured (too few districts with neighbours, or equal values).'
     : `Neighbouring districts are ${m.p <= 0.05 ? (m.i > m.expected ? 'more alike than chance would make them' : 'less alike than chance would make them') : 'no more alike than chance would make them'} (Moran's I = ${fixed(m.i, 3)}, expected ${fixed(m.expected, 3)} without clustering, p = ${probability(m.p)}).`;
   return `<section id="hotspots">
 <h2>Clusters of heat</h2>
-<p>A hot spot is a district that is warm together with its neighbours (Getis–Ord Gi*, neighbours sharing a boundary). ${h.left_out.length ? `Left out for lack of values: ${esc(h.left_out.join(', '))}.` : ''}</p>
+<p>A hot spot is a district that is warm together with its neighbours; a cold spot is one whose neighbourhood is cooler than the city as a whole, even if the district itself is warm (Getis–Ord Gi*, neighbours sharing a boundary). ${h.left_out.length ? `Left out for lack of values: ${esc(h.left_out.join(', '))}.` : ''}</p>
 ${list}
+${chance}
 <p>${moran}</p>
 </section>`;
 }

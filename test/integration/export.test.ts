@@ -35,10 +35,14 @@ let dateRef = new Map<string, Ref>();
 let sceneRef = new Map<string, Ref>();
 let usedHashes: string[] = [];
 let duck: DuckDBConnection;
+let ingestStderr = '';
 
 beforeAll(async () => {
   await makeArchive(archiveDir, { years: 5, pairsPerYear: 2, pixelSizeMetres: 500 });
-  await cliOk(['ingest', archiveDir, '--districts', path.join(archiveDir, 'corvenmouth_districts.geojson'), '--data-dir', dataDir, '--no-progress', '--threads', '1'], cleanEnv(), 300_000);
+  // with progress (the default): standard error is a pipe here, not a terminal
+  const ingest = await runCli(['ingest', archiveDir, '--districts', path.join(archiveDir, 'corvenmouth_districts.geojson'), '--data-dir', dataDir, '--threads', '1'], cleanEnv(), 300_000);
+  if (ingest.code !== 0) throw new Error(`ingest exited ${ingest.code}: ${ingest.stderr.slice(0, 2000)}`);
+  ingestStderr = ingest.stderr;
   const run = (args: string[]) => cliOk(['export', ...args, '--data-dir', dataDir], cleanEnv());
   await run(['--format', 'csv', '--level', 'date', '--out', out('date.csv')]);
   await run(['--format', 'csv', '--level', 'year', '--out', out('year.csv')]);
@@ -100,6 +104,18 @@ const cellNumber = (s: string): number | null => (s === '' ? null : Number(s));
 function readCsvFile(name: string): Record<string, string>[] {
   return parseCsv(readFileSync(out(name), 'utf8'), { columns: true, skip_empty_lines: true }) as Record<string, string>[];
 }
+
+describe('ingest progress without a terminal', () => {
+  it('plain lines of scenes done, ending with every scene, and no bar or control characters', () => {
+    const lines = ingestStderr.split('\n').filter((l) => l.startsWith('scenes: '));
+    expect(lines.length).toBeGreaterThanOrEqual(2);
+    for (const l of lines) expect(l).toMatch(/^scenes: \d+\/25 done \(\d+ %\), failed 0, \d+\.\d scenes\/s$/);
+    const done = lines.map((l) => Number(/: (\d+)\//.exec(l)![1]));
+    expect([...done].sort((a, b) => a - b)).toEqual(done);
+    expect(done.at(-1)).toBe(25);
+    expect(ingestStderr).not.toMatch(/[\r\u001b\u2591\u2588]/);
+  });
+});
 
 describe('CSV, read by csv-parse', () => {
   it('date level: one row per district and date, units in the headers, equal to the stored rows to 0.0001 K and 6 significant digits', () => {

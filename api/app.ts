@@ -9,32 +9,24 @@
  */
 import path from 'node:path';
 import type { Writable } from 'node:stream';
-import Fastify, { type FastifyError, type FastifyInstance } from 'fastify';
+import Fastify, { type FastifyBaseLogger, type FastifyError, type FastifyInstance } from 'fastify';
 import helmet from '@fastify/helmet';
 import type { Store } from '../workers/store/index.js';
 import { districtTable, roundTableRows, TABLE_FIELDS } from '../workers/store/district-table.js';
 import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
 import { listDistricts, sceneStatusCounts, failures } from '../workers/store/index.js';
-import { InputError, isInputError } from '../workers/core/errors.js';
+import { isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
+import { createLogger, logLevelFromEnv, type LogLevel } from '../workers/log.js';
 import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';
 import { commonDirectory, relativeInText, relativeToRoot } from './relative-paths.js';
 
 /** The caution every answer carries (the one wording of workers/core/defaults.ts). */
 export const CAUTION = CAUTION_TEXT;
 
-/** Log levels `LOG_LEVEL` may name (the levels of Fastify's logger). */
-export const LOG_LEVELS = ['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent'] as const;
-export type LogLevel = (typeof LOG_LEVELS)[number];
-
-/** `LOG_LEVEL` from the environment, default info; anything else is refused by name. */
-export function logLevelFromEnv(env: NodeJS.ProcessEnv = process.env): LogLevel {
-  const v = env.LOG_LEVEL;
-  if (v === undefined || v === '') return 'info';
-  if (!(LOG_LEVELS as readonly string[]).includes(v)) throw new InputError(`LOG_LEVEL must be one of ${LOG_LEVELS.join(', ')}, got ${quoteGiven(v)}`);
-  return v as LogLevel;
-}
+/** The levels and the one reader of LOG_LEVEL live with the logger (workers/log.ts). */
+export { LOG_LEVELS, logLevelFromEnv, type LogLevel } from '../workers/log.js';
 
 export interface AppOptions {
   /** Logger level; default `LOG_LEVEL` from the environment, else info. */
@@ -87,7 +79,8 @@ function schemaMessage(errors: readonly SchemaError[], dataVar: string): string 
 export function buildApp(store: Store, options: AppOptions = {}): FastifyInstance {
   const level = options.logLevel ?? logLevelFromEnv();
   const app = Fastify({
-    logger: options.logStream ? { level, stream: options.logStream } : { level },
+    // the one logger (workers/log.ts); Fastify's own type of it, so routes keep their usual types
+    loggerInstance: createLogger({ level, stream: options.logStream }) as FastifyBaseLogger,
     // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped;
     // verbose: schema errors carry their schema, so a message can list the known parameters
     ajv: { customOptions: { removeAdditional: false, verbose: true } },

@@ -11,7 +11,7 @@
  * pairs each), ingested embedded.
  */
 import { createHash } from 'node:crypto';
-import { existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { parse as parseCsv } from 'csv-parse/sync';
@@ -254,6 +254,51 @@ describe('GeoJSON, read by @turf/turf', () => {
       expect(p.suhi_night_trend).toBe(t.direction);
     }
     expect(compared).toBeGreaterThan(50);
+  });
+});
+
+describe('numbers at the stated precision in the GeoJSON', () => {
+  it('temperatures and slopes to 0.0001 K, ATI to 6 significant digits, p and q to 6 significant digits', () => {
+    const fc = JSON.parse(readFileSync(out('districts.geojson'), 'utf8')) as GeoJSON.FeatureCollection;
+    let checked = 0;
+    for (const f of fc.features) {
+      for (const [k, v] of Object.entries(f.properties!)) {
+        if (typeof v !== 'number') continue;
+        // the fewest decimals / significant digits that give back the same double
+        const fewestDecimals = Array.from({ length: 21 }, (_, d) => d).find((d) => Number(v.toFixed(d)) === v) ?? 21;
+        const fewestSignificant = Array.from({ length: 21 }, (_, d) => d + 1).find((d) => Number(v.toPrecision(d)) === v) ?? 22;
+        if (/_per_k$/.test(k) || /_trend_[pq]$/.test(k)) expect(fewestSignificant, `${k} = ${v}`).toBeLessThanOrEqual(6);
+        else if (/_per_k_per_decade$/.test(k)) expect(fewestDecimals, `${k} = ${v}`).toBeLessThanOrEqual(8);
+        else if (/_k(_per_decade)?$/.test(k)) expect(fewestDecimals, `${k} = ${v}`).toBeLessThanOrEqual(4);
+        checked++;
+      }
+    }
+    expect(checked).toBeGreaterThan(17 * 30);
+  });
+});
+
+describe('the demo\'s exports', () => {
+  it('writes the four exports and their sidecars into the folder it is given, and names each file', async () => {
+    const { demoOutputLines, writeDemoExports } = await import('../../workers/commands/demo.js');
+    const folder = out('heatledger-output');
+    mkdirSync(folder);
+    const store = await openStore({ dataDir, readOnly: true });
+    let outputs: Awaited<ReturnType<typeof writeDemoExports>>;
+    try {
+      outputs = await writeDemoExports(store, folder);
+    } finally {
+      await store.close();
+    }
+    const names = ['district-table-by-date.csv', 'district-table-by-year.csv', 'district-table-by-scene.parquet', 'districts.geojson'];
+    expect(readdirSync(folder).sort()).toEqual(names.flatMap((n) => [n, `${n}.json`]).sort());
+    const lines = demoOutputLines(outputs, folder);
+    expect(lines[0]).toBe(`Files written into ${folder}:`);
+    for (const n of names) {
+      expect(lines.some((l) => l.startsWith(`  ${n} `))).toBe(true);
+      expect(lines.some((l) => l.startsWith(`  ${n}.json `))).toBe(true);
+    }
+    // the same table as the export command gives
+    expect(readFileSync(path.join(folder, 'district-table-by-year.csv'), 'utf8')).toBe(readFileSync(out('year.csv'), 'utf8'));
   });
 });
 

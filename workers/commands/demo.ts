@@ -32,7 +32,7 @@ export interface DemoOutput {
  * date and per year as CSV, per scene as Parquet, and the districts with their
  * yearly values and trends as GeoJSON.
  */
-async function writeDemoExports(store: Store, outDir: string): Promise<DemoOutput[]> {
+export async function writeDemoExports(store: Store, outDir: string): Promise<DemoOutput[]> {
   const { exportSpec, writeExport } = await import('./export.js');
   const files: { name: string; format: 'csv' | 'geojson' | 'parquet'; level: 'scene' | 'date' | 'year'; what: string }[] = [
     { name: 'district-table-by-date.csv', format: 'csv', level: 'date', what: 'district table, one row per district and date (K; ATI 1/K)' },
@@ -46,6 +46,13 @@ async function writeDemoExports(store: Store, outDir: string): Promise<DemoOutpu
     out.push({ path: result.path, what: f.what }, { path: result.sidecar, what: 'its sidecar: version, parameters, scene hashes' });
   }
   return out;
+}
+
+/** The closing lines that name every file the demo wrote (relative to the output folder). */
+export function demoOutputLines(outputs: readonly DemoOutput[], outDir: string): string[] {
+  const shown = (p: string) => relative(outDir, p) || p;
+  const width = Math.max(0, ...outputs.map((o) => shown(o.path).length));
+  return [`Files written into ${outDir}:`, ...outputs.map((o) => `  ${shown(o.path).padEnd(width)}  ${o.what}`)];
 }
 
 function mean(values: (number | null | undefined)[]): number | null {
@@ -199,10 +206,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push(`Try: npx heatledger trend --metric suhi_night --season summer --data-dir ${config.dataDir}`);
   out.push(`     npx heatledger hotspots --metric suhi_night --year ${years[years.length - 1]} --data-dir ${config.dataDir}`);
   out.push('');
-  out.push(`Files written into ${outDir}:`);
-  const shown = (p: string) => relative(outDir, p) || p;
-  const width = Math.max(...outputs.map((o) => shown(o.path).length));
-  for (const o of outputs) out.push(`  ${shown(o.path).padEnd(width)}  ${o.what}`);
+  out.push(...demoOutputLines(outputs, outDir));
   out.push(`Try: npx heatledger table --level year --data-dir ${config.dataDir}`);
   out.push(`     npx heatledger export --format csv --level year --metric suhi_night --out my-table.csv --data-dir ${config.dataDir}`);
   out.push('');

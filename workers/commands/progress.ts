@@ -33,7 +33,7 @@ export function startProgress(options: ProgressOptions): Progress {
   let total = options.total;
   if (tty) {
     const bar = new SingleBar({
-      format: `${options.label} {bar} {value}/{total} {detail}`,
+      format: `${options.label} {bar} {value}/{total} done | {detail}`,
       stream: stream as NodeJS.WritableStream,
       hideCursor: true,
     }, Presets.shades_classic);

@@ -231,6 +231,24 @@ describe('GeoJSON, read by @turf/turf', () => {
     }
   });
 
+  it('area_m2 is given to 0.1 m², the same in the GeoJSON and from the API (/api/districts)', async () => {
+    const fc = JSON.parse(readFileSync(out('districts.geojson'), 'utf8')) as GeoJSON.FeatureCollection;
+    const { buildApp } = await import('../../api/app.js');
+    const store = await openStore({ dataDir, readOnly: true });
+    try {
+      const app = buildApp(store, { logLevel: 'silent' });
+      const api = (await app.inject({ method: 'GET', url: '/api/districts' })).json() as { id: string; area_m2: number }[];
+      await app.close();
+      for (const f of fc.features) {
+        const a = f.properties!.area_m2 as number;
+        expect(Number(a.toFixed(1))).toBe(a);
+        expect(api.find((d) => d.id === f.properties!.id)!.area_m2).toBe(a);
+      }
+    } finally {
+      await store.close();
+    }
+  });
+
   it('yearly values equal the stored yearly means and trends equal `heatledger trend` for the same years', async () => {
     const fc = JSON.parse(readFileSync(out('districts.geojson'), 'utf8')) as GeoJSON.FeatureCollection;
     const trend = JSON.parse(await cliOk(['trend', '--metric', 'suhi_night', '--min-dates', '1', '--format', 'json', '--data-dir', dataDir], cleanEnv())) as Record<string, number | string | null>[];

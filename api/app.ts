@@ -13,7 +13,7 @@ import Fastify, { type FastifyBaseLogger, type FastifyError, type FastifyInstanc
 import helmet from '@fastify/helmet';
 import type { Store } from '../workers/store/index.js';
 import { districtTable, roundTableRows, TABLE_FIELDS } from '../workers/store/district-table.js';
-import { PRECISION, problemText, roundNumber, snakeCaseKeys, toCsv } from '../workers/format.js';
+import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
 import { listDistricts, sceneStatusCounts, failures } from '../workers/store/index.js';
 import { isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
@@ -130,7 +130,7 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
 
   app.get('/api/districts', async () => {
     const rows = await listDistricts(store);
-    return rows.map((d) => ({ id: d.id, name: d.name, role: d.role, area_m2: roundNumber(d.areaSquareMetres, PRECISION.area) }));
+    return rows.map((d) => ({ id: d.id, name: d.name, role: d.role, area_m2: d.areaSquareMetres }));
   });
 
   app.get<{ Querystring: { level: 'date' | 'year'; year?: string; format: 'json' | 'csv' } }>(

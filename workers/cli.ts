@@ -274,7 +274,11 @@ function addExportCommand(program: Command): void {
 function addWorkerCommand(program: Command): void {
   program
     .command('worker')
-    .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
+    .description(
+      'Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.\n' +
+        `Log: one JSON line per event on standard output at $${ENV.logLevel} (fatal, error, warn, info — the default —, debug, trace, silent): ` +
+        'ready and stopped, each job done with its milliseconds (info), a failed try (warn), a file refused as bad input or a lost connection (error), jobs taken (debug).',
+    )
     .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency', 1, 1024), Number(process.env[ENV.concurrency] ?? 1))
     .addOption(new Option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value')
       .env(ENV.stalledInterval).argParser(parseNumber('--stalled-interval')).default(STALLED_INTERVAL_MS / 1000))

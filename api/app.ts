@@ -10,7 +10,7 @@
  * (with the stack) go to the server log only.
  */
 import type { Writable } from 'node:stream';
-import Fastify, { type FastifyError, type FastifyInstance } from 'fastify';
+import Fastify, { type FastifyBaseLogger, type FastifyError, type FastifyInstance } from 'fastify';
 import cors from '@fastify/cors';
 import helmet from '@fastify/helmet';
 import rateLimit from '@fastify/rate-limit';
@@ -18,7 +18,7 @@ import swagger from '@fastify/swagger';
 import type { Store } from '../workers/store/index.js';
 import { districtTable } from '../workers/store/district-table.js';
 import { lastFinishedRun } from '../workers/store/store-summary.js';
-import { InputError, isInputError } from '../workers/core/errors.js';
+import { isInputError } from '../workers/core/errors.js';
 import { quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
 import { VERSION } from '../workers/version.js';
@@ -27,6 +27,7 @@ import { RunCache } from './cache.js';
 import { checkBearer } from './tokens.js';
 import { registerReadRoutes } from './routes.js';
 import { registerIngestRoutes, type IngestJobs } from './ingest-routes.js';
+import { createLogger, logLevelFromEnv, type LogLevel } from '../workers/log.js';
 import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';
 
 /** The caution every answer carries (the one wording of workers/core/defaults.ts). */
@@ -35,17 +36,8 @@ export const CAUTION = CAUTION_TEXT;
 /** Unit of each measured field of the district table (the suffix of its name). */
 export const TABLE_UNITS = UNITS;
 
-/** Log levels `LOG_LEVEL` may name (the levels of Fastify's logger). */
-export const LOG_LEVELS = ['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent'] as const;
-export type LogLevel = (typeof LOG_LEVELS)[number];
-
-/** `LOG_LEVEL` from the environment, default info; anything else is refused by name. */
-export function logLevelFromEnv(env: NodeJS.ProcessEnv = process.env): LogLevel {
-  const v = env.LOG_LEVEL;
-  if (v === undefined || v === '') return 'info';
-  if (!(LOG_LEVELS as readonly string[]).includes(v)) throw new InputError(`LOG_LEVEL must be one of ${LOG_LEVELS.join(', ')}, got ${quoteGiven(v)}`);
-  return v as LogLevel;
-}
+/** The levels and the one reader of LOG_LEVEL live with the logger (workers/log.ts). */
+export { LOG_LEVELS, logLevelFromEnv, type LogLevel } from '../workers/log.js';
 
 /** Requests per minute per client address, unless configured otherwise. */
 export const DEFAULT_READS_PER_MINUTE = 6000;
@@ -119,7 +111,8 @@ function tagMatches(header: string | undefined, tag: string): boolean {
 export function buildApp(store: Store, options: AppOptions = {}): FastifyInstance {
   const level = options.logLevel ?? logLevelFromEnv();
   const app = Fastify({
-    logger: options.logStream ? { level, stream: options.logStream } : { level },
+    // the one logger (workers/log.ts); Fastify's own type of it, so routes keep their usual types
+    loggerInstance: createLogger({ level, stream: options.logStream }) as FastifyBaseLogger,
     bodyLimit: BODY_LIMIT_BYTES,
     // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped; nothing is
     // coerced (numbers are read by the routes, digits only); verbose: errors carry their schema, so a

@@ -188,6 +188,8 @@ function parameterRows(params: Record<string, unknown>): string {
     .map((k) => `<tr><td>${esc(SETTING_NAMES[k] ?? '')} <code>${esc(k)}</code></td><td>${esc(relativeInText(settingText(k, params[k]), null))}</td></tr>`).join('\n');
 }
 
+const capitalised = (text: string) => text.charAt(0).toUpperCase() + text.slice(1);
+
 export function methodsSection(d: ReportData): string {
   const p = d.run?.parameters ?? {};
   const rural = p.ruralReference && typeof p.ruralReference === 'object' ? relativeInText(String((p.ruralReference as Record<string, unknown>).description ?? ''), null) : null;
@@ -201,8 +203,8 @@ export function methodsSection(d: ReportData): string {
 <dt>Land-surface temperature (LST)</dt><dd>The temperature of the ground's skin (roofs, roads, grass, water) as a satellite's thermal sensor sees it through clear sky, in kelvin (K) in the data; shown here in ${d.request.units === 'C' ? '°C (K − 273.15)' : 'K'}. It is not the air temperature people feel.</dd>
 <dt>Surface urban heat island (SUHI)</dt><dd>A district's mean LST minus the mean LST of the rural reference in the same scene, in K (a difference of 1 K equals 1 °C). Day and night are kept apart. The city figure is the mean over the districts weighted by their area; the baseline figure is the mean of the baseline years' city figures.</dd>
 <dt>Apparent thermal inertia (ATI)</dt><dd>(1 − albedo) / (day LST − night LST), in 1/K (Price 1977): how strongly a surface resists heating and cooling. Stored for every district; not used in this report's sentences.</dd>
-<dt>Rural reference</dt><dd>${rural ? esc(rural) : 'as recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
-<dt>Pixel rule</dt><dd>${esc(rule)}.</dd>
+<dt>Rural reference</dt><dd>${rural ? esc(capitalised(rural)) : 'As recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
+<dt>Pixel rule</dt><dd>${esc(capitalised(rule))}.</dd>
 <dt>Day and night passes</dt><dd>A pass is a day pass when the sun is above the horizon at the scene centre. A night pass is paired with the day pass closest in time${pairing !== null ? ` within ${pairing} hours` : ''}; the pair is dated by the UTC date of the day pass. A pass that saw less than ${percent(typeof p.minValidFraction === 'number' ? p.minValidFraction : null)} of a district gives no value for it.</dd>
 <dt>Trend</dt><dd>Mann–Kendall test of the yearly values (Mann 1945; Kendall 1975), Sen slope with its ${Math.round((1 - d.request.alpha) * 100)} % interval (Sen 1968), Benjamini–Hochberg false discovery rate across districts (Benjamini & Hochberg 1995). A year counts when it has at least ${d.minDates} clear dates; a trend needs at least ${MIN_TREND_YEARS} years.</dd>
 <dt>Hot spots</dt><dd>Getis–Ord Gi* with binary weights including the district itself (Ord & Getis 1995); Moran's I with row-standardised weights (Moran 1950).</dd>

@@ -110,6 +110,12 @@ export function summaryFigures(d: ReportData): SummaryFigures {
   };
 }
 
+/** A count that opens a sentence: in words up to twelve ("Six"), else digits. */
+function startOfSentence(n: number): string {
+  const words = ['No', 'One', 'Two', 'Three', 'Four', 'Five', 'Six', 'Seven', 'Eight', 'Nine', 'Ten', 'Eleven', 'Twelve'];
+  return n < words.length ? words[n] : String(n);
+}
+
 /** "the fifth", "the 12th": a rank in words for small numbers. */
 function ordinal(n: number): string {
   const words = ['', 'first', 'second', 'third', 'fourth', 'fifth', 'sixth', 'seventh', 'eighth', 'ninth', 'tenth'];
@@ -176,7 +182,7 @@ export function summarySentences(d: ReportData, f: SummaryFigures): string[] {
     out.push(`No district shows a significant warming of its night heat island over ${span} ${fdr}.`);
   } else {
     out.push(
-      `${figure('warming_night_count', f.warmingNight.length, f.warmingNight.length === 1 ? 'One district' : String(f.warmingNight.length) + ' districts')} show${f.warmingNight.length === 1 ? 's' : ''} a significant warming of the night heat island over ${span} ${fdr}: ` +
+      `${figure('warming_night_count', f.warmingNight.length, `${startOfSentence(f.warmingNight.length)} ${f.warmingNight.length === 1 ? 'district' : 'districts'}`)} show${f.warmingNight.length === 1 ? 's' : ''} a significant warming of the night heat island over ${span} ${fdr}: ` +
         `${trendNames(f.warmingNight, 'warming_night_per_decade', u)}.`,
     );
   }

@@ -259,4 +259,19 @@ describe('thermal scene alone: constants found by its name, constant emissivity,
     expect(r.tags.LST_METHOD).toMatch(/no atmospheric correction/);
     for (const [id, e] of Object.entries(expected.cases.plain_097)) expect(Math.abs(r.stats[id] - e.mean)).toBeLessThan(TOL_K);
   }, 120_000);
+
+  it('a scene with no metadata file and no manifest constants takes its spacecraft\'s built-in constants, with a notice', async () => {
+    const dir = path.join(tmp, 'c');
+    await mkdir(dir);
+    await copyFile(path.join(fx, 'other_B10.tif'), path.join(dir, 'other_B10.tif'));
+    const manifest = path.join(tmp, 'c.csv');
+    await writeFile(manifest, 'path,kind,sensor\nc/other_B10.tif,thermal,Landsat 8\n');
+    const notices: string[] = [];
+    const summary = await run(dataDir, { inputs: [dir], manifestPath: manifest, onNotice: (m) => notices.push(m) });
+    expect(summary.outcome.status).toBe('succeeded');
+    expect(notices).toEqual([`${path.join(dir, 'other_B10.tif')}: no metadata file or manifest constants; used the built-in LANDSAT_8 band 10 constants (the scene's own metadata file is preferred)`]);
+    const [s] = await queryStore<{ thermal_constants_source: string; warnings: string[] }>(dataDir, 'SELECT thermal_constants_source, warnings FROM scenes WHERE path = $1', [path.join(dir, 'other_B10.tif')]);
+    expect(s.thermal_constants_source).toBe('built-in table (LANDSAT_8 band 10)');
+    expect(s.warnings).toEqual(notices);
+  }, 600_000);
 });

@@ -20,6 +20,7 @@ import { readMergedPolygons, readRuralReference } from '../core/districts/merged
 import { registryModuleUrl, THREADED_JOBS } from './registry.js';
 import { createPipelineRepo } from '../store/pipeline-repo.js';
 import type { DeriveResult } from '../jobs/derive.js';
+import type { IngestResult } from '../jobs/ingest.js';
 import type { FlowProgress, FlowResult, JobFailure, Runner } from '../queue/types.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS } from '../queue/settings.js';
 import { withServiceRetry } from '../queue/retry.js';
@@ -280,6 +281,13 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     // stopped by a signal: the interrupt handler records the run, closes the store and exits the process
     if (interrupted || result === null) return await untilExit();
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
+    // thermal scenes converted with the built-in constants: say so (the warning is also stored with the scene)
+    for (const r of result.results.values()) {
+      const ingested = r as Partial<IngestResult> | undefined;
+      if (ingested?.thermal && ingested.thermal.constantsSource.startsWith('built-in')) {
+        for (const w of ingested.warnings ?? []) if (w.includes('built-in')) options.onNotice?.(w);
+      }
+    }
     const outcome = runOutcome(root, result, unreadable.length);
     finishing = onServer(() => finishRun(store, runId, {
       status: outcome.status,

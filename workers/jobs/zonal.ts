@@ -130,7 +130,7 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
   const ingested = Object.values(ctx.childrenValues)[0] as IngestResult | undefined;
   if (!ingested) return { sceneId: null, rows: 0, skipped: 'ingest failed' };
   if (ingested.kind === 'qa') return { sceneId: ingested.sceneId, kind: 'qa', rows: 0, skipped: 'QA raster' };
-  if (ingested.alreadyStored && !data.thermal?.writeLstDir) {
+  if (ingested.alreadyStored && !(ingested.kind === 'thermal' && data.thermal?.writeLstDir)) {
     const have = new Set(await repo.zonalDistrictsOfScene(ingested.sceneId, data.coverage));
     if (data.targetIds.every((id) => have.has(id))) {
       return { sceneId: ingested.sceneId, kind: ingested.kind, rows: 0, skipped: 'already processed' };

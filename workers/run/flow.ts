@@ -26,7 +26,7 @@ export function buildFlow(args: {
     const ingestData: IngestData = { path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind };
     const qa = f.manifest?.qa && args.qaMaskBits !== undefined ? { path: f.manifest.qa, maskBits: args.qaMaskBits } : undefined;
     const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, targetsKey, qa };
-    if (args.thermal) zonalData.thermal = { ...args.thermal, own: ownEmissivityInputs(f.manifest) };
+    if (args.thermal && mayBeThermal(f.manifest, f.kind)) zonalData.thermal = thermalDataOf(args.thermal, f.manifest);
     return {
       name: 'zonal',
       id: deriveJobId('zonal', args.identity, f.contentHash, targetsKey),
@@ -51,4 +51,23 @@ function ownEmissivityInputs(m: ManifestEntry | undefined): OwnEmissivityInputs 
   if (m.ndvi) out.ndvi = m.ndvi;
   if (m.red && m.nir) { out.red = m.red; out.nir = m.nir; }
   return out;
+}
+
+/** A scene the manifest (or the command line) gives another kind can never be thermal: its jobs carry no thermal inputs. */
+function mayBeThermal(m: ManifestEntry | undefined, kind: SceneKind | undefined): boolean {
+  const k = m?.kind ?? kind;
+  return k === undefined || k === 'thermal';
+}
+
+const DAY_MS = 86_400_000;
+
+/**
+ * A scene's thermal inputs: its own manifest inputs and the run's shared ones; when the
+ * manifest dates the scene, only the NDVI sources within the window travel with its job.
+ */
+function thermalDataOf(shared: Omit<ThermalZonalData, 'own'>, m: ManifestEntry | undefined): ThermalZonalData {
+  const at = m?.acquiredAt ? Date.parse(m.acquiredAt) : NaN;
+  const ndviSources = Number.isNaN(at) ? shared.ndviSources
+    : shared.ndviSources.filter((n) => n.acquiredAt !== null && Math.abs(Date.parse(n.acquiredAt) - at) <= shared.windowDays * DAY_MS);
+  return { ...shared, ndviSources, own: ownEmissivityInputs(m) };
 }

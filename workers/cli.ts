@@ -158,6 +158,7 @@ function addStatusCommand(program: Command): void {
     .description(
       'Scenes in the store by state, failed scenes with their reasons, and the last run with its state: running, succeeded, ' +
         'incomplete (scenes left, or files refused as bad input), failed, interrupted (Ctrl-C, SIGTERM) or abandoned (its process is gone). ' +
+        'Passes converted from Level-1 thermal DN are listed with how their LST was made (constants, emissivity, atmosphere, or "no atmospheric correction"). ' +
         'JSON keys are snake_case; CSV holds only the scene counts by kind, pass and status (one header line).',
     )
     .addOption(dataDirOption())

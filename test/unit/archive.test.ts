@@ -111,6 +111,9 @@ describe('manifest columns of thermal scenes', () => {
     });
     expect(got.get(join(dir, 'm_B11.tif'))).toMatchObject({ band: 'B11', emissivityRaster: join(dir, 'eps.tif') });
     expect(got.get(join(dir, 'd.tif'))).toMatchObject({ ndvi: join(dir, 'nd.tif') });
+    const j = join(dir, 'm.json');
+    await writeFile(j, JSON.stringify([{ path: 'x.tif', band: 11, emissivity: 0.95 }]));
+    expect((await readManifest(j)).get(join(dir, 'x.tif'))).toMatchObject({ band: 'B11', emissivity: 0.95 });
   });
 
   it('refuses partial constants or atmosphere, an emissivity outside (0.8, 1] and a bad transmittance, naming the entry', async () => {

@@ -59,7 +59,7 @@ function thermalColumns(r: Record<string, unknown>, base: string, where: string)
   out.red = path('red');
   out.nir = path('nir');
   if ((out.red === undefined) !== (out.nir === undefined)) throw new InputError('gives only one of red and nir; NDVI needs both', where);
-  const band = typeof r.band === 'string' ? r.band.trim().toUpperCase().replace(/^(BAND_?|B)?/, 'B') : undefined;
+  const band = r.band === undefined || r.band === null || r.band === '' ? undefined : String(r.band).trim().toUpperCase().replace(/^(BAND_?|B)?/, 'B');
   if (band !== undefined && band !== 'B' && band !== 'B10' && band !== 'B11') throw new InputError(`band ${JSON.stringify(r.band)} is not 10 or 11`, where);
   if (band === 'B10' || band === 'B11') out.band = band;
   const c = { ml: manifestNumber(r, 'radiance_mult', where), al: manifestNumber(r, 'radiance_add', where), k1: manifestNumber(r, 'k1', where), k2: manifestNumber(r, 'k2', where) };

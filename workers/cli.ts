@@ -125,7 +125,7 @@ function addIngestCommand(program: Command): void {
     .option('--albedo <rasters...>', 'albedo rasters or folders; one raster without a date serves the whole archive')
     .option('--manifest <file>', 'CSV or JSON with columns path, kind (lst|albedo|qa|thermal), acquired_at (UTC ISO 8601), sensor, qa (QA raster of the scene); ' +
       'thermal scenes also metadata (the scene\'s KEY = value metadata file), band, radiance_mult, radiance_add, k1, k2, emissivity (number or raster), ' +
-      'transmittance, upwelling, downwelling (W m-2 sr-1 um-1); any scene ndvi, or red and nir; it overrides the files\' own kind and time')
+      'transmittance, upwelling, downwelling (W m-2 sr-1 um-1: numbers, or rasters on the scene grid); any scene ndvi, or red and nir; it overrides the files\' own kind and time')
     .option('--qa-mask <bits>', 'QA bits that mask a pixel in the QA rasters the manifest names (e.g. 24, 0x18)', parseBitMask('--qa-mask'))
     .option('--emissivity <value>', `thermal scenes: emissivity in (0.8, 1] where no emissivity raster, NDVI or district "emissivity" property applies (default ${THERMAL_EMISSIVITY_DEFAULT})`, parseNumber('--emissivity'))
     .option('--emissivity-window <days>', 'thermal scenes: take NDVI from the nearest day scene within this many days', parseNumber('--emissivity-window'), EMISSIVITY_WINDOW_DAYS)

@@ -16,6 +16,9 @@ ALTER TABLE scenes ADD COLUMN atmospheric_correction boolean;
 ALTER TABLE scenes ADD COLUMN atmosphere jsonb CHECK (atmosphere IS NULL OR jsonb_typeof(atmosphere) = 'object');
 ALTER TABLE scenes ADD COLUMN thermal_constants_source text;
 ALTER TABLE scenes ADD COLUMN emissivity_source text;
+-- fingerprint of what the stored statistics were computed from (constants, atmosphere, emissivity
+-- inputs): a re-run skips a processed thermal scene only when it is unchanged
+ALTER TABLE scenes ADD COLUMN lst_inputs_fingerprint text;
 ALTER TABLE scenes ADD CONSTRAINT scenes_thermal_flag CHECK (
   lst_method IS NULL OR atmospheric_correction = (lst_method = 'rte'));
 

@@ -275,4 +275,23 @@ describe('thermal scene alone: constants found by its name, constant emissivity,
     expect(s.thermal_constants_source).toBe('built-in table (LANDSAT_8 band 10)');
     expect(s.warnings).toEqual(notices);
   }, 600_000);
+
+  it('given per-pixel atmosphere rasters and NDVI for the stored scene, recomputes its statistics (the rte_ndvi case)', async () => {
+    const manifest = path.join(tmp, 'b-again.csv'); // paths relative to the manifest's folder
+    await writeFile(manifest, 'path,ndvi,transmittance,upwelling,downwelling\nb/thermal_B10.tif,fx/ndvi.tif,fx/atm_transmittance.tif,fx/atm_upwelling.tif,fx/atm_downwelling.tif\n');
+    const summary = await run(dataDir, { inputs: [path.join(tmp, 'b')], manifestPath: manifest });
+    expect(summary.outcome.status).toBe('succeeded');
+    expect(compare(await zonalOf(dataDir, scene), expected.cases.rte_ndvi)).toEqual([]);
+    const [s] = await queryStore<{ lst_method: string; atmosphere: unknown; emissivity_source: string }>(dataDir, 'SELECT lst_method, atmosphere, emissivity_source FROM scenes WHERE path = $1', [scene]);
+    expect(s).toEqual({
+      lst_method: 'rte',
+      atmosphere: { transmittance_raster: path.join(fx, 'atm_transmittance.tif'), upwelling_raster: path.join(fx, 'atm_upwelling.tif'), downwelling_raster: path.join(fx, 'atm_downwelling.tif') },
+      emissivity_source: `NDVI-threshold method on ${path.join(fx, 'ndvi.tif')}`,
+    });
+    // the same inputs again: the stored scene is not computed again (content hash and inputs unchanged)
+    const processedAt = async () => (await queryStore<{ t: string }>(dataDir, 'SELECT processed_at AS t FROM scenes WHERE path = $1', [scene]))[0].t;
+    const first = await processedAt();
+    expect((await run(dataDir, { inputs: [path.join(tmp, 'b')], manifestPath: manifest })).outcome.status).toBe('succeeded');
+    expect(await processedAt()).toBe(first);
+  }, 600_000);
 });

@@ -188,17 +188,17 @@ describe('choice of the emissivity input', () => {
 });
 
 describe('LST raster over DN blocks', () => {
-  /** A 4 x 2 UInt16 DN raster in memory, two blocks of 2 x 2. */
-  function memoryDn(values: number[]): RasterFile {
+  /** A 4 x 2 raster in memory (UInt16 DN, or Float64 for auxiliary values), two blocks of 2 x 2. */
+  function memoryDn(values: number[], name = '/mem/dn_B10.tif', float = false): RasterFile {
     const header = {
-      path: '/mem/dn_B10.tif', width: 4, height: 2, bands: 1, sampleFormat: 'uint', bitsPerSample: 16,
+      path: name, width: 4, height: 2, bands: 1, sampleFormat: float ? 'float' : 'uint', bitsPerSample: float ? 64 : 16,
       transform: { a: 30, b: 0, c: 500000, d: 0, e: -30, f: 4900000 }, epsg: 32625, crsDefinition: '+proj=utm +zone=25 +datum=WGS84 +units=m +no_defs',
       nodata: null, scale: 1, offset: 0, acquiredAt: null, metadata: {}, mask: null, alphaBand: null, warnings: [],
       blockWidth: 2, blockHeight: 2, tiled: true, compression: 1, predictor: 1,
     } as unknown as RasterHeader;
-    const data = Uint16Array.from(values);
+    const data = float ? Float64Array.from(values) : Uint16Array.from(values);
     const cut = (w: { colOff: number; rowOff: number; width: number; height: number }) => {
-      const out = new Uint16Array(w.width * w.height);
+      const out = float ? new Float64Array(w.width * w.height) : new Uint16Array(w.width * w.height);
       for (let r = 0; r < w.height; r++) for (let c = 0; c < w.width; c++) out[r * w.width + c] = data[(w.rowOff + r) * 4 + w.colOff + c];
       return out;
     };
@@ -227,6 +227,22 @@ describe('LST raster over DN blocks', () => {
       else expect(Math.abs(got[i] - t)).toBeLessThan(0.01);
     });
     expect(lst.header.sampleFormat).toBe('float');
+  });
+
+  it('per-pixel atmosphere rasters give each pixel its own RTE inversion; a bad value is refused naming its raster', async () => {
+    const temps = [280, 290, 300, 305, 310, 320, 330, 295];
+    const tau = [0.95, 0.9, 0.85, 0.8, 0.75, 0.7, 0.9, 0.88];
+    const up = tau.map((t) => (1 - t) * 7), down = up.map((u) => u * 1.6);
+    const dn = temps.map((t, i) => forwardDn(t, 0.97, tau[i], up[i], down[i], L8));
+    const atmosphere = (tauValues: number[]) => ({
+      kind: 'rasters' as const,
+      transmittance: memoryDn(tauValues, '/mem/tau.tif', true), upwelling: memoryDn(up, '/mem/up.tif', true), downwelling: memoryDn(down, '/mem/down.tif', true),
+    });
+    const lst = thermalLstRaster(memoryDn(dn), { constants: L8, atmosphere: atmosphere(tau), emissivity: { kind: 'constant', value: 0.97 } });
+    const got = await lst.readWindow({ colOff: 0, rowOff: 0, width: 4, height: 2 });
+    temps.forEach((t, i) => expect(Math.abs(got[i] - t)).toBeLessThan(0.01));
+    const bad = thermalLstRaster(memoryDn(dn), { constants: L8, atmosphere: atmosphere(tau.map((t, i) => (i === 5 ? 1.2 : t))), emissivity: { kind: 'constant', value: 0.97 } });
+    await expect(bad.readWindow({ colOff: 0, rowOff: 0, width: 4, height: 2 })).rejects.toThrow(/^\/mem\/tau\.tif: atmospheric transmittance 1\.2 at row 1, column 1 is not in \(0, 1\]/);
   });
 
   it('refuses an emissivity outside (0.8, 1], naming where it came from', () => {

@@ -8,7 +8,7 @@ import { readFile } from 'node:fs/promises';
 import { InputError, isInputError } from '../core/errors.js';
 import {
   acquisitionTimeFromMetadata, chooseThermalConstants, metadataFileCandidates, normaliseSpacecraft, parseSceneMetadata,
-  thermalBandFromName, type AtmosphereParameters, type SceneMetadataFile, type TirsBand, type TirsBandConstants,
+  thermalBandFromName, type SceneAtmosphere, type SceneMetadataFile, type TirsBand, type TirsBandConstants,
 } from '../core/thermal/index.js';
 import type { RasterHeader } from '../core/raster/index.js';
 import { openRaster } from '../core/raster/index.js';
@@ -47,8 +47,8 @@ export interface IngestedThermal {
   constants: TirsBandConstants;
   constantsSource: string;
   spacecraft: string | null;
-  /** null: emissivity correction alone. */
-  atmosphere: AtmosphereParameters | null;
+  /** Values or per-pixel rasters; null: emissivity correction alone. */
+  atmosphere: SceneAtmosphere | null;
 }
 
 /** The scene's metadata file: the manifest's, else the first that exists by the scene's name; parsed. */

@@ -5,11 +5,12 @@
  * transaction per scene, replacing what the scene had.
  */
 import { InputError, isInputError } from '../core/errors.js';
+import { fingerprint } from '../core/hash.js';
 import { openRaster, rasterCrs, type RasterFile } from '../core/raster/index.js';
 import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
 import { mkdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
-import { zonalScene, zonalThermalScene, openEmissivityField, type ThermalZonalResult, type ZonalSceneOptions, type ZonalTarget } from '../core/zonal/index.js';
+import { zonalScene, zonalThermalScene, openAtmosphere, openEmissivityField, type ThermalZonalResult, type ZonalSceneOptions, type ZonalTarget } from '../core/zonal/index.js';
 import { chooseSceneEmissivity, writeThermalLst, type NdviSource, type OwnEmissivityInputs } from '../core/thermal/index.js';
 import type { JobContext } from '../queue/types.js';
 import type { PipelineRepo } from '../store/pipeline-repo.js';
@@ -45,6 +46,15 @@ export interface ThermalZonalData {
   writeLstDir?: string;
 }
 
+/** Fingerprint of what a thermal scene's statistics are computed from. */
+function thermalInputsKey(ingested: IngestResult, data: ZonalData): string {
+  const t = ingested.thermal, d = data.thermal;
+  if (!t || !d) return fingerprint('incomplete thermal inputs');
+  const sceneEmissivity = chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays);
+  const districtEmissivity = Object.fromEntries(data.targetIds.filter((id) => id in d.districtEmissivity).map((id) => [id, d.districtEmissivity[id]]));
+  return fingerprint(t.constants, t.atmosphere, sceneEmissivity, districtEmissivity, d.fallback.value);
+}
+
 /** Statistics of a thermal scene from its DN (and, with --write-lst, its LST as a COG). */
 async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options: ZonalSceneOptions, ingested: IngestResult, data: ZonalData): Promise<ThermalZonalResult> {
   const t = ingested.thermal;
@@ -58,10 +68,11 @@ async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options:
     const opened: RasterFile[] = [];
     try {
       const emissivity = sceneEmissivity ? await openEmissivityField(sceneEmissivity, opened) : { kind: 'constant' as const, value: d.fallback.value };
+      const atmosphere = await openAtmosphere(t.atmosphere, opened);
       await mkdir(d.writeLstDir, { recursive: true }).catch((e: NodeJS.ErrnoException) => {
         throw new InputError(`cannot create the folder for --write-lst (${e.code ?? e.message})`, d.writeLstDir);
       });
-      await writeThermalLst(raster, { constants: t.constants, atmosphere: t.atmosphere, emissivity }, join(d.writeLstDir, `${basename(data.path).replace(/\.[^.]*$/, '')}_lst.tif`), {
+      await writeThermalLst(raster, { constants: t.constants, atmosphere, emissivity }, join(d.writeLstDir, `${basename(data.path).replace(/\.[^.]*$/, '')}_lst.tif`), {
         SOURCE_SCENE: basename(data.path),
         ...(ingested.acquiredAt ? { ACQUISITION_TIME: ingested.acquiredAt } : {}),
         ...(ingested.pass ? { PASS: ingested.pass } : {}),
@@ -130,9 +141,12 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
   const ingested = Object.values(ctx.childrenValues)[0] as IngestResult | undefined;
   if (!ingested) return { sceneId: null, rows: 0, skipped: 'ingest failed' };
   if (ingested.kind === 'qa') return { sceneId: ingested.sceneId, kind: 'qa', rows: 0, skipped: 'QA raster' };
+  // a thermal scene's statistics also depend on its constants, atmosphere and emissivity inputs
+  const thermalKey = ingested.kind === 'thermal' ? thermalInputsKey(ingested, data) : null;
   if (ingested.alreadyStored && !(ingested.kind === 'thermal' && data.thermal?.writeLstDir)) {
     const have = new Set(await repo.zonalDistrictsOfScene(ingested.sceneId, data.coverage));
-    if (data.targetIds.every((id) => have.has(id))) {
+    const same = thermalKey === null || (await repo.lstInputsFingerprint(ingested.sceneId)) === thermalKey;
+    if (same && data.targetIds.every((id) => have.has(id))) {
       return { sceneId: ingested.sceneId, kind: ingested.kind, rows: 0, skipped: 'already processed' };
     }
   }
@@ -169,7 +183,7 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
       coverageRule: data.coverage,
     }));
     await repo.replaceZonalStats(ingested.sceneId, rows, data.runId);
-    if (thermal) await repo.setEmissivitySources(ingested.sceneId, thermal.sceneSource, thermal.byTarget);
+    if (thermal) await repo.setEmissivitySources(ingested.sceneId, thermal.sceneSource, thermal.byTarget, thermalKey);
     return { sceneId: ingested.sceneId, kind: ingested.kind, rows: rows.length };
   } catch (e) {
     if (isInputError(e)) {

@@ -6,7 +6,7 @@ import { lstat, readFile, readdir, readlink, stat } from 'node:fs/promises';
 import { basename, extname, join, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
 import { hashFile } from '../core/hash.js';
-import { checkAtmosphere } from '../core/thermal/rte.js';
+import { checkAtmosphere, type SceneAtmosphere } from '../core/thermal/rte.js';
 import { thermalBandFromName } from '../core/thermal/metadata-file.js';
 import type { RasterHeader } from '../core/raster/index.js';
 import { SCENE_KINDS, type SceneKind } from '../store/scenes.js';
@@ -37,8 +37,11 @@ export interface ManifestEntry {
   /** Red and near-infrared surface reflectance rasters (instead of NDVI), on the scene's grid. */
   red?: string;
   nir?: string;
-  /** Thermal scenes: band-effective atmosphere (columns transmittance, upwelling, downwelling; all three or none). */
-  atmosphere?: { transmittance: number; upwellingRadiance: number; downwellingRadiance: number };
+  /**
+   * Thermal scenes: band-effective atmosphere (columns transmittance, upwelling, downwelling; all three
+   * or none): numbers for the whole scene, or paths of rasters on the scene's grid.
+   */
+  atmosphere?: SceneAtmosphere;
 }
 
 /** A number from a manifest cell (CSV text or JSON number), or undefined for an empty cell. */
@@ -75,6 +78,14 @@ function thermalColumns(r: Record<string, unknown>, base: string, where: string)
     if (!(v > 0.8 && v <= 1)) throw new InputError(`emissivity ${v} is outside (0.8, 1]`, where);
     out.emissivity = v;
   } else if (typeof e === 'string' && e !== '') out.emissivityRaster = resolve(base, e);
+  const atmosphereKeys = ['transmittance', 'upwelling', 'downwelling'] as const;
+  const isPath = (v: unknown) => typeof v === 'string' && v.trim() !== '' && !/^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/.test(v);
+  const paths = atmosphereKeys.filter((k) => isPath(r[k]));
+  if (paths.length > 0) {
+    if (paths.length < 3) throw new InputError('gives some of transmittance, upwelling, downwelling as rasters and some not; give all three as numbers or all three as rasters', where);
+    out.atmosphere = { transmittanceRaster: resolve(base, r.transmittance as string), upwellingRaster: resolve(base, r.upwelling as string), downwellingRaster: resolve(base, r.downwelling as string) };
+    return Object.fromEntries(Object.entries(out).filter(([, v]) => v !== undefined));
+  }
   const a = { transmittance: manifestNumber(r, 'transmittance', where), upwellingRadiance: manifestNumber(r, 'upwelling', where), downwellingRadiance: manifestNumber(r, 'downwelling', where) };
   const atm = Object.values(a).filter((v) => v !== undefined).length;
   if (atm > 0 && atm < 3) throw new InputError('gives only some of transmittance, upwelling, downwelling; give all three or none', where);

@@ -8,19 +8,19 @@ import { type Db, inTransaction } from './db.js';
 /** What ingest decides about a thermal scene. */
 export interface ThermalSceneInput {
   lstMethod: 'rte' | 'emissivity_only';
-  /** Transmittance (0-1) and path radiances (W m-2 sr-1 um-1), or null without atmospheric correction. */
-  atmosphere: { transmittance: number; upwellingRadiance: number; downwellingRadiance: number } | null;
+  /** Transmittance (0-1) and path radiances (W m-2 sr-1 um-1), or rasters of them, or null without atmospheric correction. */
+  atmosphere: { transmittance: number; upwellingRadiance: number; downwellingRadiance: number }
+    | { transmittanceRaster: string; upwellingRaster: string; downwellingRaster: string } | null;
   /** 'metadata file <path>', 'manifest' or 'built-in table (...)'. */
   constantsSource: string;
 }
 
 /** Record how a thermal scene's LST is made (its emissivity source comes with its statistics). */
 export async function setSceneThermal(db: Db, sceneId: number, t: ThermalSceneInput): Promise<void> {
-  const atm = t.atmosphere === null ? null : JSON.stringify({
-    transmittance: t.atmosphere.transmittance,
-    upwelling_w_m2_sr_um: t.atmosphere.upwellingRadiance,
-    downwelling_w_m2_sr_um: t.atmosphere.downwellingRadiance,
-  });
+  const a = t.atmosphere;
+  const atm = a === null ? null : JSON.stringify('transmittanceRaster' in a
+    ? { transmittance_raster: a.transmittanceRaster, upwelling_raster: a.upwellingRaster, downwelling_raster: a.downwellingRaster }
+    : { transmittance: a.transmittance, upwelling_w_m2_sr_um: a.upwellingRadiance, downwelling_w_m2_sr_um: a.downwellingRadiance });
   await db.query(
     `UPDATE scenes SET lst_method = $2, atmospheric_correction = $3, atmosphere = $4::jsonb, thermal_constants_source = $5
      WHERE id = $1`,
@@ -30,12 +30,13 @@ export async function setSceneThermal(db: Db, sceneId: number, t: ThermalSceneIn
 
 /**
  * Store where a thermal scene's emissivity came from: one summary for the scene and
- * one per district (rows of zonal_stats already written for it), in one transaction.
+ * one per district (rows of zonal_stats already written for it), and the fingerprint of the
+ * inputs the statistics were computed from, in one transaction.
  */
-export async function setEmissivitySources(db: Db, sceneId: number, sceneSource: string, byDistrict: Record<string, string>): Promise<void> {
+export async function setEmissivitySources(db: Db, sceneId: number, sceneSource: string, byDistrict: Record<string, string>, inputsFingerprint: string | null = null): Promise<void> {
   const ids = Object.keys(byDistrict);
   await inTransaction(db, async (q) => {
-    await q.query('UPDATE scenes SET emissivity_source = $2 WHERE id = $1', [sceneId, sceneSource]);
+    await q.query('UPDATE scenes SET emissivity_source = $2, lst_inputs_fingerprint = $3 WHERE id = $1', [sceneId, sceneSource, inputsFingerprint]);
     await q.query(
       `UPDATE zonal_stats z SET emissivity_source = s.source
        FROM unnest($2::text[], $3::text[]) AS s(district_id, source)
@@ -44,6 +45,11 @@ export async function setEmissivitySources(db: Db, sceneId: number, sceneSource:
     );
   });
 }
+
+/** The scenes.atmosphere column: the values, or the paths of the rasters. */
+export type StoredAtmosphere =
+  | { transmittance: number; upwelling_w_m2_sr_um: number; downwelling_w_m2_sr_um: number }
+  | { transmittance_raster: string; upwelling_raster: string; downwelling_raster: string };
 
 /** A thermal scene and how its LST was made. */
 export interface ThermalSceneRow {
@@ -55,7 +61,7 @@ export interface ThermalSceneRow {
   sensor: string | null;
   lstMethod: 'rte' | 'emissivity_only' | null;
   atmosphericCorrection: boolean | null;
-  atmosphere: { transmittance: number; upwelling_w_m2_sr_um: number; downwelling_w_m2_sr_um: number } | null;
+  atmosphere: StoredAtmosphere | null;
   thermalConstantsSource: string | null;
   emissivitySource: string | null;
 }
@@ -77,4 +83,10 @@ export async function emissivitySourcesOfScene(db: Db, sceneId: number): Promise
     [sceneId],
   );
   return Object.fromEntries(rows.map((r) => [r.districtId, r.source]));
+}
+
+/** The fingerprint of the inputs a thermal scene's stored statistics were computed from, or null. */
+export async function lstInputsFingerprint(db: Db, sceneId: number): Promise<string | null> {
+  const rows = await db.query<{ f: string | null }>('SELECT lst_inputs_fingerprint AS f FROM scenes WHERE id = $1', [sceneId]);
+  return rows[0]?.f ?? null;
 }

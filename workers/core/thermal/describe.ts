@@ -3,7 +3,10 @@ import { NO_ATMOSPHERIC_CORRECTION_TEXT } from '../defaults.js';
 
 export interface LstMethodFacts {
   lstMethod: 'rte' | 'emissivity_only' | null;
-  atmosphere: { transmittance: number; upwelling_w_m2_sr_um: number; downwelling_w_m2_sr_um: number } | null;
+  atmosphere:
+    | { transmittance: number; upwelling_w_m2_sr_um: number; downwelling_w_m2_sr_um: number }
+    | { transmittance_raster: string; upwelling_raster: string; downwelling_raster: string }
+    | null;
   thermalConstantsSource: string | null;
   emissivitySource: string | null;
 }
@@ -20,7 +23,10 @@ export function lstMethodSentence(f: LstMethodFacts): string {
     `constants: ${f.thermalConstantsSource ?? 'unknown'}`,
     `emissivity: ${f.emissivitySource ?? 'not yet computed'}`,
   ];
-  if (f.lstMethod === 'rte' && f.atmosphere) {
+  if (f.lstMethod === 'rte' && f.atmosphere && 'transmittance_raster' in f.atmosphere) {
+    const a = f.atmosphere;
+    parts.push(`radiative transfer equation inverted per pixel with the transmittance ${a.transmittance_raster}, upwelling ${a.upwelling_raster} and downwelling ${a.downwelling_raster} rasters`);
+  } else if (f.lstMethod === 'rte' && f.atmosphere && 'transmittance' in f.atmosphere) {
     const a = f.atmosphere;
     parts.push(`radiative transfer equation inverted with transmittance ${a.transmittance}, upwelling ${a.upwelling_w_m2_sr_um} and downwelling ${a.downwelling_w_m2_sr_um} W m-2 sr-1 um-1`);
   } else {

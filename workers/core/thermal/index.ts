@@ -49,7 +49,7 @@ export {
   metadataFileCandidates,
   type SceneMetadataFile,
 } from './metadata-file.js';
-export { NO_ATMOSPHERE, checkAtmosphere, surfaceBlackbodyRadiance, lstFromRadiance, atSensorRadiance, type AtmosphereParameters } from './rte.js';
+export { NO_ATMOSPHERE, isAtmosphereRasters, checkAtmosphere, surfaceBlackbodyRadiance, lstFromRadiance, atSensorRadiance, type AtmosphereParameters, type AtmosphereRasterPaths, type SceneAtmosphere } from './rte.js';
 export { chooseThermalConstants, normaliseSpacecraft, type ThermalConstantsChoice, type ThermalConstantsInputs } from './scene-constants.js';
 export {
   thermalLstRaster,
@@ -58,6 +58,7 @@ export {
   emissivityFromNdviOnly,
   emissivityInRange,
   EMISSIVITY_MIN_EXCLUSIVE,
+  type AtmosphereRasters,
   type EmissivityField,
   type ThermalLstPlan,
 } from './lst-raster.js';

@@ -39,10 +39,18 @@ export type EmissivityField =
   | { kind: 'ndvi'; ndvi: RasterFile }
   | { kind: 'reflectance'; red: RasterFile; nir: RasterFile };
 
+/** Per-pixel atmosphere rasters, opened (see AtmosphereRasterPaths). */
+export interface AtmosphereRasters {
+  kind: 'rasters';
+  transmittance: RasterFile;
+  upwelling: RasterFile;
+  downwelling: RasterFile;
+}
+
 export interface ThermalLstPlan {
   constants: TirsBandConstants;
   /** null: the emissivity correction alone (no atmospheric correction). */
-  atmosphere: AtmosphereParameters | null;
+  atmosphere: AtmosphereParameters | AtmosphereRasters | null;
   emissivity: EmissivityField;
 }
 
@@ -122,15 +130,38 @@ async function emissivityWindow(field: EmissivityField, window: Window, n: numbe
   return out;
 }
 
+/** Per-pixel transmittance and path radiances of `window` (NaN where an input is nodata), checked. */
+async function atmosphereWindow(a: AtmosphereRasters, window: Window, n: number): Promise<[Float64Array, Float64Array, Float64Array]> {
+  const where = (i: number) => `row ${window.rowOff + Math.floor(i / window.width)}, column ${window.colOff + (i % window.width)}`;
+  const read = async (r: RasterFile, what: string, ok: (v: number) => boolean, range: string): Promise<Float64Array> => {
+    const h = r.header;
+    const v = await r.readWindow(window);
+    const out = new Float64Array(n);
+    for (let i = 0; i < n; i++) {
+      const x = physical(h, v[i]);
+      if (x === x && !ok(x)) throw new InputError(`${what} ${x} at ${where(i)} is not ${range}`, h.path);
+      out[i] = x;
+    }
+    return out;
+  };
+  return Promise.all([
+    read(a.transmittance, 'atmospheric transmittance', (x) => x > 0 && x <= 1, 'in (0, 1]'),
+    read(a.upwelling, 'upwelling radiance', (x) => x >= 0 && Number.isFinite(x), 'a finite number >= 0'),
+    read(a.downwelling, 'downwelling radiance', (x) => x >= 0 && Number.isFinite(x), 'a finite number >= 0'),
+  ]);
+}
+
 /**
  * LST (K, float32) of the pixels of a DN array: `dn` row-major with `stride`, `width` x `height`.
  * Fill DN 0 and the header's nodata give NaN; a pixel whose corrected radiance is not
  * positive gives 0 K (counted implausible downstream).
  */
-function convert(dn: TypedArray, stride: number, width: number, height: number, h: RasterHeader, plan: ThermalLstPlan, eps: Float64Array | number): Float32Array {
+function convert(dn: TypedArray, stride: number, width: number, height: number, h: RasterHeader, plan: ThermalLstPlan, eps: Float64Array | number,
+  perPixel: [Float64Array, Float64Array, Float64Array] | null): Float32Array {
   const out = new Float32Array(width * height);
   const { ml, al, k1, k2 } = plan.constants;
-  const atm = plan.atmosphere ?? NO_ATMOSPHERE;
+  const fixed = plan.atmosphere === null ? NO_ATMOSPHERE : 'kind' in plan.atmosphere ? null : plan.atmosphere;
+  const atm = { ...(fixed ?? NO_ATMOSPHERE) };
   const nodata = h.nodata;
   for (let r = 0; r < height; r++) {
     for (let c = 0; c < width; c++) {
@@ -138,6 +169,10 @@ function convert(dn: TypedArray, stride: number, width: number, height: number, 
       const i = r * width + c;
       const e = typeof eps === 'number' ? eps : eps[i];
       if (v === 0 || v !== v || (nodata !== null && v === nodata) || e !== e) { out[i] = NaN; continue; }
+      if (perPixel !== null) {
+        atm.transmittance = perPixel[0][i]; atm.upwellingRadiance = perPixel[1][i]; atm.downwellingRadiance = perPixel[2][i];
+        if (atm.transmittance !== atm.transmittance || atm.upwellingRadiance !== atm.upwellingRadiance || atm.downwellingRadiance !== atm.downwellingRadiance) { out[i] = NaN; continue; }
+      }
       const b = surfaceBlackbodyRadiance(ml * v + al, e, atm);
       // Planck inversion with the band's constants (see sensors.ts), inlined: it runs per pixel
       out[i] = b > 0 ? k2 / Math.log(k1 / b + 1) : 0;
@@ -159,6 +194,13 @@ export function thermalLstRaster(dn: RasterFile, plan: ThermalLstPlan): RasterFi
   if (f.kind === 'raster') requireSameGrid(h, f.raster.header, 'emissivity');
   if (f.kind === 'ndvi') requireSameGrid(h, f.ndvi.header, 'NDVI');
   if (f.kind === 'reflectance') { requireSameGrid(h, f.red.header, 'red reflectance'); requireSameGrid(h, f.nir.header, 'near-infrared reflectance'); }
+  const rasters = plan.atmosphere !== null && 'kind' in plan.atmosphere ? plan.atmosphere : null;
+  if (rasters) {
+    requireSameGrid(h, rasters.transmittance.header, 'transmittance');
+    requireSameGrid(h, rasters.upwelling.header, 'upwelling radiance');
+    requireSameGrid(h, rasters.downwelling.header, 'downwelling radiance');
+  }
+  const atmosphereOf = (w: Window) => (rasters ? atmosphereWindow(rasters, w, w.width * w.height) : Promise.resolve(null));
   const header: RasterHeader = { ...h, sampleFormat: 'float', bitsPerSample: 32, nodata: null, scale: 1, offset: 0 };
   return {
     header,
@@ -166,14 +208,14 @@ export function thermalLstRaster(dn: RasterFile, plan: ThermalLstPlan): RasterFi
       for await (const block of dn.blocks(window, band)) {
         const w = block.window;
         const eps = await emissivityWindow(f, w, w.width * w.height);
-        yield { window: w, data: convert(block.data, block.stride, w.width, w.height, h, plan, eps), stride: w.width };
+        yield { window: w, data: convert(block.data, block.stride, w.width, w.height, h, plan, eps, await atmosphereOf(w)), stride: w.width };
       }
     },
     async readWindow(window: Window, band = 0): Promise<TypedArray> {
       const data = await dn.readWindow(window, band);
       const w = clampWindow(window, h.width, h.height, h.path) ?? { colOff: 0, rowOff: 0, width: 0, height: 0 };
       const eps = await emissivityWindow(f, w, w.width * w.height);
-      return convert(data, w.width, w.width, w.height, h, plan, eps);
+      return convert(data, w.width, w.width, w.height, h, plan, eps, await atmosphereOf(w));
     },
     validMask: (window: Window, band?: number) => dn.validMask(window, band),
     close: () => dn.close(),

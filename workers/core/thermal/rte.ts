@@ -29,6 +29,21 @@ export interface AtmosphereParameters {
   downwellingRadiance: number;
 }
 
+/** Per-pixel atmosphere: three rasters on the scene's grid (band-effective values, radiances in W m-2 sr-1 um-1). */
+export interface AtmosphereRasterPaths {
+  transmittanceRaster: string;
+  upwellingRaster: string;
+  downwellingRaster: string;
+}
+
+/** A scene's atmosphere: one set of values, or rasters of them. */
+export type SceneAtmosphere = AtmosphereParameters | AtmosphereRasterPaths;
+
+/** Whether a scene's atmosphere is given as rasters. */
+export function isAtmosphereRasters(a: SceneAtmosphere): a is AtmosphereRasterPaths {
+  return typeof (a as AtmosphereRasterPaths).transmittanceRaster === 'string';
+}
+
 /** No atmosphere: the emissivity correction alone. */
 export const NO_ATMOSPHERE: Readonly<AtmosphereParameters> = Object.freeze({ transmittance: 1, upwellingRadiance: 0, downwellingRadiance: 0 });
 

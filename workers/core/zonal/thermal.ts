@@ -6,15 +6,16 @@
  * value, one pass per group.
  */
 import { openRaster, type RasterFile } from '../raster/index.js';
-import { thermalLstRaster, type EmissivityField, type ThermalLstPlan } from '../thermal/lst-raster.js';
+import { thermalLstRaster, type AtmosphereRasters, type EmissivityField, type ThermalLstPlan } from '../thermal/lst-raster.js';
 import type { SceneEmissivityInput } from '../thermal/emissivity-choice.js';
-import type { AtmosphereParameters } from '../thermal/rte.js';
+import { isAtmosphereRasters, type AtmosphereParameters, type SceneAtmosphere } from '../thermal/rte.js';
 import type { TirsBandConstants } from '../thermal/sensors.js';
 import { zonalScene, type ZonalSceneOptions, type ZonalSceneResult, type ZonalTarget } from './scene.js';
 
 export interface ThermalZonalInput {
   constants: TirsBandConstants;
-  atmosphere: AtmosphereParameters | null;
+  /** Values or raster paths; null: no atmospheric correction. */
+  atmosphere: SceneAtmosphere | null;
   /** Per-pixel emissivity for the whole scene, or null (then districts, then the fallback). */
   sceneEmissivity: SceneEmissivityInput | null;
   /** District `emissivity` properties in (0.8, 1] (checked by the caller). */
@@ -42,6 +43,13 @@ export async function openEmissivityField(input: SceneEmissivityInput, opened: R
   }
 }
 
+/** Open a scene's atmosphere rasters (caller closes `opened`); values pass through. */
+export async function openAtmosphere(a: SceneAtmosphere | null, opened: RasterFile[]): Promise<AtmosphereParameters | AtmosphereRasters | null> {
+  if (a === null || !isAtmosphereRasters(a)) return a;
+  const open = async (p: string) => { const r = await openRaster(p); opened.push(r); return r; };
+  return { kind: 'rasters', transmittance: await open(a.transmittanceRaster), upwelling: await open(a.upwellingRaster), downwelling: await open(a.downwellingRaster) };
+}
+
 /**
  * Zonal statistics of a thermal DN scene for many targets.
  * @param dn the scene (Level-1 DN)
@@ -58,9 +66,10 @@ export async function zonalThermalScene(
   thermal: ThermalZonalInput,
 ): Promise<ThermalZonalResult> {
   const opened: RasterFile[] = [];
-  const plan = (emissivity: EmissivityField): ThermalLstPlan => ({ constants: thermal.constants, atmosphere: thermal.atmosphere, emissivity });
   // the adapter's close() would close the DN scene, which belongs to the caller: never called here
   try {
+    const atmosphere = await openAtmosphere(thermal.atmosphere, opened);
+    const plan = (emissivity: EmissivityField): ThermalLstPlan => ({ constants: thermal.constants, atmosphere, emissivity });
     if (thermal.sceneEmissivity !== null) {
       const field = await openEmissivityField(thermal.sceneEmissivity, opened);
       const results = await zonalScene(thermalLstRaster(dn, plan(field)), targets, options);

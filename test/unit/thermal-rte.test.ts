@@ -145,7 +145,7 @@ describe('scene metadata file', () => {
   });
 
   it('is found by the scene name, and the band from it (common practice, no source)', () => {
-    expect(metadataFileCandidates('/d/S1_B10.TIF')).toEqual(['/d/S1_B10_MTL.txt', '/d/S1_B10_mtl.txt', '/d/S1_MTL.txt', '/d/S1_mtl.txt', '/d/S1_B10.txt']);
+    expect(metadataFileCandidates('/d/S1_B10.TIF')).toEqual(['/d/S1_B10_MTL.txt', '/d/S1_B10_mtl.txt', '/d/S1_MTL.txt', '/d/S1_mtl.txt']);
     expect(thermalBandFromName('/d/S1_B11.TIF')).toBe('B11');
     expect(thermalBandFromName('/d/S1_ST_B10.TIF')).toBeNull(); // a Level-2 surface temperature band is LST, not DN
   });

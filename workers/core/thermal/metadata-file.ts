@@ -143,9 +143,9 @@ export function thermalBandFromName(path: string): TirsBand | null {
 
 /**
  * Where a scene's metadata file may lie, by the scene's name, in order:
- * `<stem>_MTL.txt`, then with the band suffix taken off (`X_B10.TIF` -> `X_MTL.txt`),
- * then `<stem>.txt` (each also in lower case).
- * @example metadataFileCandidates('/a/X_B10.TIF') // ['/a/X_B10_MTL.txt', '/a/X_B10_mtl.txt', '/a/X_MTL.txt', ...]
+ * `<stem>_MTL.txt`, then with the band suffix taken off (`X_B10.TIF` -> `X_MTL.txt`), each
+ * also with `_mtl` (a plain `<stem>.txt` may be anyone's notes, so it is not taken).
+ * @example metadataFileCandidates('/a/X_B10.TIF') // ['/a/X_B10_MTL.txt', '/a/X_B10_mtl.txt', '/a/X_MTL.txt', '/a/X_mtl.txt']
  */
 export function metadataFileCandidates(scenePath: string): string[] {
   const slash = Math.max(scenePath.lastIndexOf('/'), scenePath.lastIndexOf('\\'));
@@ -154,6 +154,5 @@ export function metadataFileCandidates(scenePath: string): string[] {
   const bare = stem.replace(BAND_SUFFIX, '');
   const names = [`${stem}_MTL.txt`, `${stem}_mtl.txt`];
   if (bare !== stem) names.push(`${bare}_MTL.txt`, `${bare}_mtl.txt`);
-  names.push(`${stem}.txt`);
   return [...new Set(names)].map((n) => dir + n);
 }

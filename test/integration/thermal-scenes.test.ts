@@ -24,6 +24,10 @@ import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runPipeline, type PipelineOptions } from '../../workers/run/pipeline.js';
+import { openRaster, rasterCrs } from '../../workers/core/raster/index.js';
+import { GEOJSON_CRS, reprojectGeometry } from '../../workers/core/crs/index.js';
+import { zonalThermalScene } from '../../workers/core/zonal/index.js';
+import { TIRS_CONSTANTS } from '../../workers/core/thermal/index.js';
 import { runtimeConfig } from '../../workers/run/config.js';
 import { openStore } from '../../workers/store/index.js';
 import { ensurePipelineBuild, cleanEnv, cliOk } from '../support/pipeline-harness.js';
@@ -36,7 +40,7 @@ const hasGdal = await pythonModulesAvailable(['osgeo_utils.samples.validate_clou
 interface Stat { pixels: number; valid: number; nodata: number; mean: number; std: number; min: number; max: number; median: number; p10: number; p90: number }
 const expected = JSON.parse(await readFile(path.join(FIX, 'expected.json'), 'utf8')) as {
   atmosphere: { transmittance: number; upwelling: number; downwelling: number };
-  cases: Record<'rte_ndvi' | 'plain_097', Record<string, Stat>>;
+  cases: Record<'rte_ndvi' | 'plain_097' | 'plain_095', Record<string, Stat>>;
 };
 /** float32 LST on both sides; the last float32 digit of a value may differ (~3e-5 K at 300 K): 1e-4 K. */
 const TOL_K = 1e-4;
@@ -294,4 +298,31 @@ describe('thermal scene alone: constants found by its name, constant emissivity,
     expect((await run(dataDir, { inputs: [path.join(tmp, 'b')], manifestPath: manifest })).outcome.status).toBe('succeeded');
     expect(await processedAt()).toBe(first);
   }, 600_000);
+});
+
+describe('district emissivity properties (zonal step of a thermal scene)', () => {
+  it('a district with an emissivity property gets it, the others the constant; each source is named', async () => {
+    const raster = await openRaster(path.join(FIX, 'thermal_B10.tif'));
+    try {
+      const doc = JSON.parse(await readFile(path.join(FIX, 'districts.geojson'), 'utf8'));
+      const crs = rasterCrs(raster.header);
+      const targets = doc.features.map((f: { properties: { id: string }; geometry: { coordinates: number[][][] } }) =>
+        ({ id: f.properties.id, geometry: reprojectGeometry([f.geometry.coordinates], GEOJSON_CRS, crs) }));
+      const r = await zonalThermalScene(raster, targets, { coverage: 'centre' }, {
+        constants: TIRS_CONSTANTS.LANDSAT_8.B10, atmosphere: null, sceneEmissivity: null,
+        districtEmissivity: { T1: 0.95 }, fallback: { value: 0.97, source: 'constant 0.97 (--emissivity)' },
+      });
+      for (const row of r.results) {
+        // the fixture script's cases plain_095 / plain_097 (rasterio + NumPy)
+        const want = (row.id === 'T1' ? expected.cases.plain_095 : expected.cases.plain_097)[row.id];
+        expect(row.stats.valid).toBe(want.valid);
+        expect(Math.abs(row.stats.mean! - want.mean)).toBeLessThan(TOL_K);
+        expect(Math.abs(row.stats.p90! - want.p90)).toBeLessThan(TOL_K);
+      }
+      expect(r.byTarget).toEqual({ T1: 'district property emissivity 0.95', T2: 'constant 0.97 (--emissivity)', T3: 'constant 0.97 (--emissivity)', T4: 'constant 0.97 (--emissivity)' });
+      expect(r.sceneSource).toBe('per district: district property emissivity 0.95; constant 0.97 (--emissivity)');
+    } finally {
+      await raster.close();
+    }
+  });
 });

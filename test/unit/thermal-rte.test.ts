@@ -245,6 +245,21 @@ describe('LST raster over DN blocks', () => {
     await expect(bad.readWindow({ colOff: 0, rowOff: 0, width: 4, height: 2 })).rejects.toThrow(/^\/mem\/tau\.tif: atmospheric transmittance 1\.2 at row 1, column 1 is not in \(0, 1\]/);
   });
 
+  it('red and near-infrared reflectance give each pixel its NDVI-threshold emissivity (Sobrino et al. 2004: soil line 0.979 - 0.035 red, 0.004 Pv + 0.986, 0.99; water 0.99 below NDVI 0, from memory)', async () => {
+    const red = [0.3, 0.1, 0.05, 0.05, 0.3, 0.1, 0.05, 0.05];
+    const nir = [0.35, 0.2, 0.45, 0.02, 0.35, 0.2, 0.45, 0.02];
+    // NDVI 0.0769 (soil line), 0.3333 (Pv = (0.1333 / 0.3)^2), 0.8 (vegetation), -0.4286 (water); derived by hand
+    const eps = [0.979 - 0.035 * 0.3, 0.004 * ((1 / 3 - 0.2) / 0.3) ** 2 + 0.986, 0.99, 0.99];
+    const temps = [285, 290, 295, 300, 305, 310, 315, 320];
+    const dn = temps.map((t, i) => forwardDn(t, eps[i % 4], 1, 0, 0, L8));
+    const lst = thermalLstRaster(memoryDn(dn), {
+      constants: L8, atmosphere: null,
+      emissivity: { kind: 'reflectance', red: memoryDn(red, '/mem/red.tif', true), nir: memoryDn(nir, '/mem/nir.tif', true) },
+    });
+    const got = await lst.readWindow({ colOff: 0, rowOff: 0, width: 4, height: 2 });
+    temps.forEach((t, i) => expect(Math.abs(got[i] - t)).toBeLessThan(0.01));
+  });
+
   it('refuses an emissivity outside (0.8, 1], naming where it came from', () => {
     expect(() => thermalLstRaster(memoryDn(new Array(8).fill(1)), { constants: L8, atmosphere: null, emissivity: { kind: 'constant', value: 0.75 } }))
       .toThrow(/\/mem\/dn_B10\.tif \(emissivity\): emissivity 0\.75 is outside \(0\.8, 1\]/);

@@ -13,7 +13,10 @@
  * document number from memory).
  *
  * Without atmospheric parameters (tau = 1, L_up = L_down = 0) the same inversion
- * is the emissivity correction alone: B(Ts) = L_sensor / eps.
+ * is the emissivity correction alone: B(Ts) = L_sensor / eps. With the band's K1/K2
+ * at hand it is exact within the band model, so thermal scenes use it rather than
+ * the Wien-approximation formula of lst.ts (Artis & Carnahan 1982), which serves
+ * brightness temperatures without band constants.
  */
 import { InputError } from '../errors.js';
 import type { Kelvin } from '../units.js';

@@ -15,7 +15,7 @@
  *
  * Usage: `node dist/demo-data/generate.js [outDir]` (default demo-data/.generated).
  */
-import { mkdir } from 'node:fs/promises';
+import { mkdir, writeFile } from 'node:fs/promises';
 import { basename, join, resolve } from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { InputError, isInputError } from '../workers/core/errors.js';
@@ -24,6 +24,7 @@ import { writeGeoTiff } from '../workers/core/raster/write.js';
 import type { Kelvin, Metres } from '../workers/core/units.js';
 import { CITY_EPSG, CITY_GRID, CITY_NAME, CITY_SLUG, DISTRICTS, districtAt, outerSurfaceAt, writeDistrictsGeoJson, writeWaterGeoJson, type LandUse } from './city.js';
 import { mulberry32 } from '../workers/core/prng.js';
+import { atSensorRadiance, emissivityFromNdviOnly, TIRS_CONSTANTS, type AtmosphereParameters } from '../workers/core/thermal/index.js';
 export { mulberry32 };
 
 export interface ArchiveOptions {
@@ -45,6 +46,13 @@ export interface ArchiveOptions {
    * listed do not warm. Default: the city's own.
    */
   trendsKelvinPerYear?: Record<string, number>;
+  /**
+   * Deliver the night passes as Level-1 thermal DN (band 10, UInt16) with a plain-text
+   * metadata file beside each, NDVI rasters of the day passes (in `.ndvi/`) and a manifest
+   * (`corvenmouth_manifest.csv`) giving the day passes' NDVI and most nights' atmosphere.
+   * Default false (night passes as LST, like the day passes).
+   */
+  nightAsThermal?: boolean;
 }
 
 export interface ArchiveResult {
@@ -54,6 +62,8 @@ export interface ArchiveResult {
   districtsPath: string;
   /** The water outside the districts (sea, estuary, river) as GeoJSON, written beside them. */
   waterPath: string;
+  /** With `nightAsThermal`: the manifest of the archive (give it to `ingest --manifest`). */
+  manifestPath?: string;
 }
 
 /** Landsat Collection 2 Level-2 ST scaling (USGS LSDS-1328). */
@@ -132,7 +142,14 @@ interface Scenery {
   nightBaseK: Float32Array;
   trendKPerYear: Float32Array;
   albedo: Float32Array;
+  /** Summer NDVI of each pixel (invented, ordered as land covers usually are). */
+  ndvi: Float32Array;
 }
+
+// Summer NDVI by surface: invented values, ordered as vegetation cover usually is (common practice, no source).
+const NDVI_BY_SURFACE: Record<Surface, number> = {
+  industrial: 0.08, dense_core: 0.15, harbour: 0.1, suburban: 0.4, farmland: 0.55, park: 0.72, water: -0.25, sea: -0.35,
+};
 
 function buildScenery(pixel: number, margin: number, seed: number, trends: readonly number[]): Scenery {
   const gridW = CITY_GRID.cols * CITY_GRID.blockMetres;
@@ -146,6 +163,7 @@ function buildScenery(pixel: number, margin: number, seed: number, trends: reado
   const nightBaseK = new Float32Array(n);
   const trendKPerYear = new Float32Array(n);
   const albedo = new Float32Array(n);
+  const ndviMap = new Float32Array(n);
   // A small per-district offset so districts of one land use differ a little.
   const districtDayOffset = DISTRICTS.map((_, i) => (hash2(i, 1, seed) - 0.5) * 1.4);
   const districtNightOffset = DISTRICTS.map((_, i) => (hash2(i, 2, seed) - 0.5) * 0.6);
@@ -156,7 +174,7 @@ function buildScenery(pixel: number, margin: number, seed: number, trends: reado
       const k = r * width + c;
       const d = districtAt(x, y);
       let surface: Surface;
-      let dayOff = 0, nightOff = 0, alb: number;
+      let dayOff = 0, nightOff = 0, alb: number, ndviOff = 0;
       if (d >= 0) {
         const spec = DISTRICTS[d];
         surface = spec.landUse;
@@ -173,6 +191,7 @@ function buildScenery(pixel: number, margin: number, seed: number, trends: reado
           dayOff = 5 * field;
           nightOff = -1.2 * field;
           alb = RURAL_ALBEDO.farmland - 0.05 * field;
+          ndviOff = -0.7 * field; // bare fields: low NDVI
         }
       }
       const isWater = surface === 'water' || surface === 'sea';
@@ -180,10 +199,11 @@ function buildScenery(pixel: number, margin: number, seed: number, trends: reado
       dayBaseK[k] = DAY_K[surface] + dayOff + (isWater ? 0.15 : 0.4) * texture;
       nightBaseK[k] = NIGHT_K[surface] + nightOff + (isWater ? 0.08 : 0.2) * texture;
       albedo[k] = alb + (isWater ? 0.003 : 0.008) * texture;
+      ndviMap[k] = Math.max(-0.6, Math.min(0.9, NDVI_BY_SURFACE[surface] + ndviOff + (isWater ? 0.02 : 0.04) * texture));
     }
   }
   const transform: Affine = { a: pixel, b: 0, c: x0, d: 0, e: -pixel, f: y1 };
-  return { width, height, transform, dayBaseK, nightBaseK, trendKPerYear, albedo };
+  return { width, height, transform, dayBaseK, nightBaseK, trendKPerYear, albedo, ndvi: ndviMap };
 }
 
 /**
@@ -245,6 +265,7 @@ function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
     pairsPerYear: o.pairsPerYear ?? 10,
     pixelSizeMetres: o.pixelSizeMetres ?? 100,
     ruralMarginMetres: o.ruralMarginMetres ?? 12000,
+    nightAsThermal: o.nightAsThermal ?? false,
   };
   const where = 'demo archive options';
   if (!Number.isInteger(r.seed)) throw new InputError(`seed must be an integer, got ${r.seed}`, where);
@@ -258,6 +279,94 @@ function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
     if (!(Number.isFinite(k) && Math.abs(k) <= 2)) throw new InputError(`trendsKelvinPerYear for ${id} must be within ±2 K per year, got ${k}`, where);
   }
   return r;
+}
+
+/** The Level-1 thermal constants the demo's night passes are delivered with: Landsat 8 band 10 (its scene metadata files). */
+const DEMO_SPACECRAFT = 'LANDSAT_8';
+const DEMO_TIRS = TIRS_CONSTANTS.LANDSAT_8.B10;
+
+/**
+ * Night passes delivered as Level-1 thermal DN: the surface temperature goes through
+ * an invented atmosphere and the pixel's emissivity (NDVI-threshold method on the day
+ * pass's NDVI) to at-sensor radiance, then to DN = round((L - AL) / ML). The last night
+ * of each summer comes without atmospheric parameters in the manifest, so the demo shows
+ * both ways of making LST. Its own PRNG leaves the rest of the archive unchanged.
+ */
+function thermalDelivery(outDir: string, scenery: Scenery, base: Omit<Parameters<typeof writeGeoTiff>[1], 'data'>, seed: number) {
+  const rand = mulberry32((seed ^ 0x5eed7e) | 0);
+  const rows: string[] = ['path,kind,ndvi,transmittance,upwelling,downwelling'];
+  let emissivity: Float64Array | null = null;
+  let ndviPath: string | null = null;
+  return {
+    /** NDVI of a day pass (the night after it takes its emissivity from it). */
+    writeNdvi(when: Date): Promise<void> {
+      const dir = join(outDir, '.ndvi');
+      const values = new Float32Array(scenery.ndvi.length);
+      for (let k = 0; k < values.length; k++) values[k] = Math.max(-1, Math.min(1, scenery.ndvi[k] + 0.02 * (rand() - 0.5)));
+      emissivity = Float64Array.from(values, (v) => emissivityFromNdviOnly(v));
+      ndviPath = join(dir, `${CITY_SLUG}_${fileStamp(when)}_ndvi.tif`);
+      rows.push(`${CITY_SLUG}_${fileStamp(when)}_lst_day.tif,lst,.ndvi/${basename(ndviPath)},,,`);
+      const path = ndviPath;
+      return mkdir(dir, { recursive: true }).then(() =>
+        writeGeoTiff(path, { ...base, data: values, nodata: null, metadata: { KIND: 'ndvi', ACQUISITION_TIME: isoMinute(when), CITY: CITY_NAME } }));
+    },
+    /** The atmosphere of one night (null for the last of a summer) and the DN of a pixel. */
+    night(_year: number, index: number, count: number) {
+      // Invented, loosely physical: path radiance grows as transmittance falls; the sky emits more than the path.
+      const transmittance = Number((0.86 + 0.1 * rand()).toFixed(3));
+      const upwelling = Number(((1 - transmittance) * 7.2).toFixed(3));
+      const downwelling = Number((upwelling * 1.65).toFixed(3));
+      const atm: AtmosphereParameters = { transmittance, upwellingRadiance: upwelling, downwellingRadiance: downwelling };
+      const eps = emissivity;
+      return {
+        atmosphere: index === count - 1 ? null : atm,
+        dn(lstKelvin: number, k: number): number {
+          const l = atSensorRadiance(lstKelvin, eps ? eps[k] : 0.97, atm, DEMO_TIRS);
+          const q = Math.round((l - DEMO_TIRS.al) / DEMO_TIRS.ml);
+          return q < 1 ? 1 : q > 65535 ? 65535 : q;
+        },
+      };
+    },
+    /** The DN GeoTIFF, its metadata file, and its manifest row. */
+    async writeNight(path: string, when: Date, dn: Uint16Array, cloudCover: string, atm: AtmosphereParameters | null): Promise<void> {
+      const a = atm ? `${atm.transmittance},${atm.upwellingRadiance},${atm.downwellingRadiance}` : ',,';
+      rows.push(`${basename(path)},thermal,,${a}`);
+      const iso = when.toISOString();
+      const mtl = [
+        'GROUP = LANDSAT_METADATA_FILE',
+        '  GROUP = PRODUCT_CONTENTS',
+        '    PROCESSING_LEVEL = "L1TP"',
+        `    FILE_NAME_BAND_10 = "${basename(path)}"`,
+        '  END_GROUP = PRODUCT_CONTENTS',
+        '  GROUP = IMAGE_ATTRIBUTES',
+        `    SPACECRAFT_ID = "${DEMO_SPACECRAFT}"`,
+        '    SENSOR_ID = "OLI_TIRS"',
+        `    DATE_ACQUIRED = ${iso.slice(0, 10)}`,
+        `    SCENE_CENTER_TIME = "${iso.slice(11, 19)}.0000000Z"`,
+        `    CLOUD_COVER = ${cloudCover}`,
+        '  END_GROUP = IMAGE_ATTRIBUTES',
+        '  GROUP = LEVEL1_RADIOMETRIC_RESCALING',
+        `    RADIANCE_MULT_BAND_10 = ${DEMO_TIRS.ml.toExponential(4).toUpperCase()}`,
+        `    RADIANCE_ADD_BAND_10 = ${DEMO_TIRS.al.toFixed(5)}`,
+        '  END_GROUP = LEVEL1_RADIOMETRIC_RESCALING',
+        '  GROUP = LEVEL1_THERMAL_CONSTANTS',
+        `    K1_CONSTANT_BAND_10 = ${DEMO_TIRS.k1.toFixed(4)}`,
+        `    K2_CONSTANT_BAND_10 = ${DEMO_TIRS.k2.toFixed(4)}`,
+        '  END_GROUP = LEVEL1_THERMAL_CONSTANTS',
+        'END_GROUP = LANDSAT_METADATA_FILE',
+        'END',
+        '',
+      ].join('\n');
+      await writeFile(path.replace(/_B10\.tif$/, '_MTL.txt'), mtl);
+      await writeGeoTiff(path, {
+        ...base,
+        data: dn,
+        metadata: { KIND: 'thermal', PASS: 'night', ACQUISITION_TIME: isoMinute(when), SPACECRAFT_ID: DEMO_SPACECRAFT, CLOUD_COVER: cloudCover, CITY: CITY_NAME },
+        dateTime: tiffDateTime(when),
+      });
+    },
+    manifest: () => rows.join('\n') + '\n',
+  };
 }
 
 /**
@@ -307,6 +416,7 @@ export async function generateArchive(
   const flush = async (): Promise<void> => {
     await Promise.all(pending.splice(0));
   };
+  const thermal = thermalDelivery(outDir, scenery, base, o.seed);
 
   for (let yi = 0; yi < o.years; yi++) {
     const year = o.firstYear + yi;
@@ -333,13 +443,22 @@ export async function generateArchive(
         const rural = pass === 'day' ? ruralDay : ruralNight;
         const dn = new Uint16Array(n);
         let clouded = 0;
+        const thermalNight = o.nightAsThermal && pass === 'night' ? thermal.night(yi, days.indexOf(doy), days.length) : null;
         for (let k = 0; k < n; k++) {
           if (mask[k]) {
             clouded++;
             continue; // DN 0 = nodata
           }
           const t = rural + anomaly + contrast * (baseK[k] - rural) + scenery.trendKPerYear[k] * years + 0.25 * normal();
-          dn[k] = kelvinToDn(t);
+          dn[k] = thermalNight ? thermalNight.dn(t, k) : kelvinToDn(t);
+        }
+        if (o.nightAsThermal && pass === 'day') pending.push(thermal.writeNdvi(when));
+        if (thermalNight) {
+          const path = join(outDir, `${CITY_SLUG}_${fileStamp(when)}_thermal_night_B10.tif`);
+          files.push(path);
+          pending.push(thermal.writeNight(path, when, dn, ((100 * clouded) / n).toFixed(1), thermalNight.atmosphere));
+          if (pending.length >= 4) await flush();
+          continue;
         }
         const path = join(outDir, `${CITY_SLUG}_${fileStamp(when)}_lst_${pass}.tif`);
         files.push(path);
@@ -391,7 +510,10 @@ export async function generateArchive(
   await writeWaterGeoJson(waterPath, o.ruralMarginMetres + 1000);
   const stamp = (p: string): string => basename(p).split('_')[1];
   files.sort((p, q) => (stamp(p) < stamp(q) ? -1 : stamp(p) > stamp(q) ? 1 : 0));
-  return { files, districtsPath, waterPath };
+  if (!o.nightAsThermal) return { files, districtsPath, waterPath };
+  const manifestPath = join(outDir, `${CITY_SLUG}_manifest.csv`);
+  await writeFile(manifestPath, thermal.manifest());
+  return { files, districtsPath, waterPath, manifestPath };
 }
 
 /** Default output folder, relative to the working directory (the repository root under `npm run`). */

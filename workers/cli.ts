@@ -9,7 +9,7 @@
 import { Command, CommanderError, Option } from 'commander';
 import { isInputError, isServiceError } from './core/errors.js';
 import {
-  ALBEDO_WINDOW_DAYS, CAUTION_TEXT, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
+  ALBEDO_WINDOW_DAYS, CAUTION_TEXT, EMISSIVITY_WINDOW_DAYS, THERMAL_EMISSIVITY_DEFAULT, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
   RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES,
 } from './core/defaults.js';
 import { parseYear, quoteGiven } from './core/year.js';
@@ -116,15 +116,20 @@ function addIngestCommand(program: Command): void {
       'Process a scene archive: register scenes, compute district statistics, pair day/night passes, derive ATI and SUHI, store them.\n' +
         'Embedded (in-process, an embedded database in --data-dir) unless REDIS_URL and DATABASE_URL are set (then jobs go to `heatledger worker` processes).',
     )
-    .argument('<inputs...>', 'LST GeoTIFF files or folders (searched recursively)')
+    .argument('<inputs...>', 'LST (or Level-1 thermal DN) GeoTIFF files or folders (searched recursively)')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
     .option('--rural <file>', 'rural reference polygon(s), GeoJSON (default: a ring around the districts)')
     .option('--rural-inner <metres>', 'inner edge of the default rural ring, metres outside the districts', parseNumber('--rural-inner'), RURAL_RING_INNER_METRES)
     .option('--rural-outer <metres>', 'outer edge of the default rural ring, metres outside the districts', parseNumber('--rural-outer'), RURAL_RING_OUTER_METRES)
     .option('--water <file>', 'water polygons (GeoJSON) to leave out of the default rural ring')
     .option('--albedo <rasters...>', 'albedo rasters or folders; one raster without a date serves the whole archive')
-    .option('--manifest <file>', 'CSV or JSON with columns path, kind (lst|albedo|qa), acquired_at (UTC ISO 8601), sensor, qa (QA raster of the scene); it overrides the files\' own kind and time')
+    .option('--manifest <file>', 'CSV or JSON with columns path, kind (lst|albedo|qa|thermal), acquired_at (UTC ISO 8601), sensor, qa (QA raster of the scene); ' +
+      'thermal scenes also metadata (the scene\'s KEY = value metadata file), band, radiance_mult, radiance_add, k1, k2, emissivity (number or raster), ' +
+      'transmittance, upwelling, downwelling (W m-2 sr-1 um-1: numbers, or rasters on the scene grid); any scene ndvi, or red and nir; it overrides the files\' own kind and time')
     .option('--qa-mask <bits>', 'QA bits that mask a pixel in the QA rasters the manifest names (e.g. 24, 0x18)', parseBitMask('--qa-mask'))
+    .option('--emissivity <value>', `thermal scenes: emissivity in (0.8, 1] where no emissivity raster, NDVI or district "emissivity" property applies (default ${THERMAL_EMISSIVITY_DEFAULT})`, parseNumber('--emissivity'))
+    .option('--emissivity-window <days>', 'thermal scenes: take NDVI from the nearest day scene within this many days', parseNumber('--emissivity-window'), EMISSIVITY_WINDOW_DAYS)
+    .option('--write-lst <dir>', 'thermal scenes: also write the LST made from their DN as cloud-optimised GeoTIFFs (float32 K) into this folder')
     .option('--id-field <name>', 'feature property holding the district id', 'id')
     .option('--name-field <name>', 'feature property holding the district name', 'name')
     .addOption(new Option('--coverage <rule>', 'pixel rule: centre or fraction').choices(['centre', 'fraction']).default('centre'))
@@ -153,6 +158,7 @@ function addStatusCommand(program: Command): void {
     .description(
       'Scenes in the store by state, failed scenes with their reasons, and the last run with its state: running, succeeded, ' +
         'incomplete (scenes left, or files refused as bad input), failed, interrupted (Ctrl-C, SIGTERM) or abandoned (its process is gone). ' +
+        'Passes converted from Level-1 thermal DN are listed with how their LST was made (constants, emissivity, atmosphere, or "no atmospheric correction"). ' +
         'JSON keys are snake_case; CSV holds only the scene counts by kind, pass and status (one header line).',
     )
     .addOption(dataDirOption())

@@ -197,7 +197,7 @@ describe('status', () => {
     const body = JSON.parse(r.stdout) as Record<string, unknown>;
     const keys = (v: unknown): string[] => (Array.isArray(v) ? v.flatMap(keys) : v && typeof v === 'object' ? Object.entries(v).flatMap(([k, x]) => [k, ...keys(x)]) : []);
     for (const k of keys(body)) expect(k).toMatch(/^[a-z0-9]+(_[a-z0-9]+)*$/);
-    expect(Object.keys(body)).toEqual(['store', 'scenes', 'by_kind', 'failures', 'last_run']);
+    expect(Object.keys(body)).toEqual(['store', 'scenes', 'by_kind', 'failures', 'thermal_scenes', 'last_run']);
     const failures = body.failures as { error: string; content_hash: string | null; scene_id: number }[];
     expect(failures).toHaveLength(1);
     expect(failures[0].error).not.toMatch(/^\w*Error: /);

@@ -161,13 +161,14 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     await store?.close();
   });
 
-  it('applies migrations 001 to 004 once and records them', async () => {
+  it('applies migrations 001 to 005 once and records them', async () => {
     const rows = await store.query<{ version: number; name: string }>('SELECT version, name FROM schema_migrations ORDER BY version');
     expect(rows).toEqual([
       { version: 1, name: 'init' },
       { version: 2, name: 'night_only_rows' },
       { version: 3, name: 'district_daily' },
       { version: 4, name: 'run_states' },
+      { version: 5, name: 'thermal_scenes' },
     ]);
     expect(await migrate(store)).toEqual({ applied: [] });
     const again = await reopen();
@@ -838,7 +839,7 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
     try {
       const results = await Promise.all([migrate(a), migrate(b)]);
       // One process applies both migrations under the advisory lock; the other finds none left.
-      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states']]);
+      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes']]);
     } finally {
       await Promise.all([a.close(), b.close()]);
     }

@@ -75,3 +75,17 @@ export function toolAvailable(name: ToolName, suite: string): boolean {
   console.log(`SKIPPED ${suite}: ${what} is not installed (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
   return false;
 }
+
+/**
+ * Whether Debian's /usr/bin/python3 imports these modules (a reference tool).
+ * Throws when services are required (CI) and they are missing; logs a plain
+ * "SKIPPED" line otherwise.
+ */
+export async function pythonModulesAvailable(modules: readonly string[], suite: string): Promise<boolean> {
+  const { spawnSync } = await import('node:child_process');
+  const ok = spawnSync('/usr/bin/python3', ['-c', `import ${modules.join(', ')}`], { stdio: 'ignore' }).status === 0;
+  if (ok) return true;
+  if (requireServices) throw new Error(`${suite}: /usr/bin/python3 with ${modules.join(', ')} is missing and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: /usr/bin/python3 with ${modules.join(', ')} not found (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+  return false;
+}

@@ -44,8 +44,8 @@ describe('manifest', () => {
   });
   it('rejects a bad kind, a missing path column and duplicates with the file named', async () => {
     const bad = join(dir, 'bad.csv');
-    await writeFile(bad, 'path,kind\na.tif,thermal\n');
-    await expect(readManifest(bad)).rejects.toThrow(/bad\.csv \(entry 1\): kind "thermal" is not one of lst, albedo, qa/);
+    await writeFile(bad, 'path,kind\na.tif,radiance\n');
+    await expect(readManifest(bad)).rejects.toThrow(/bad\.csv \(entry 1\): kind "radiance" is not one of lst, albedo, qa, thermal/);
     await writeFile(bad, 'file,kind\na.tif,lst\n');
     await expect(readManifest(bad)).rejects.toThrow(/bad\.csv: a CSV manifest needs a header line with a "path" column/);
     await writeFile(bad, 'path\na.tif\n./a.tif\n');
@@ -87,5 +87,44 @@ describe('pass and timing at the scene centre', () => {
   });
   it('has nulls without a time', () => {
     expect(sceneTiming(null, 0, 0)).toEqual({ acquiredAt: null, pass: null, sunElevationDeg: null, solarTimeHours: null, timingRating: null });
+  });
+});
+
+describe('manifest columns of thermal scenes', () => {
+  let dir: string;
+  beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'hl-manifest-thermal-')); });
+  afterAll(async () => { await rm(dir, { recursive: true, force: true }); });
+
+  it('reads metadata, band, constants, emissivity (number or raster), NDVI and atmosphere; paths relative to the manifest', async () => {
+    const m = join(dir, 'm.csv');
+    await writeFile(m, [
+      'path,kind,metadata,band,radiance_mult,radiance_add,k1,k2,emissivity,ndvi,transmittance,upwelling,downwelling',
+      'n_B10.tif,thermal,n_MTL.txt,10,3.342e-4,0.1,774.8853,1321.0789,0.97,,0.87,0.95,1.6',
+      'm_B11.tif,thermal,,B11,,,,,eps.tif,,,,',
+      'd.tif,lst,,,,,,,,nd.tif,,,',
+    ].join('\n') + '\n');
+    const got = await readManifest(m);
+    expect(got.get(join(dir, 'n_B10.tif'))).toEqual({
+      path: join(dir, 'n_B10.tif'), kind: 'thermal', metadata: join(dir, 'n_MTL.txt'), band: 'B10',
+      constants: { ml: 3.342e-4, al: 0.1, k1: 774.8853, k2: 1321.0789 }, emissivity: 0.97,
+      atmosphere: { transmittance: 0.87, upwellingRadiance: 0.95, downwellingRadiance: 1.6 },
+    });
+    expect(got.get(join(dir, 'm_B11.tif'))).toMatchObject({ band: 'B11', emissivityRaster: join(dir, 'eps.tif') });
+    expect(got.get(join(dir, 'd.tif'))).toMatchObject({ ndvi: join(dir, 'nd.tif') });
+    const j = join(dir, 'm.json');
+    await writeFile(j, JSON.stringify([{ path: 'x.tif', band: 11, emissivity: 0.95 }]));
+    expect((await readManifest(j)).get(join(dir, 'x.tif'))).toMatchObject({ band: 'B11', emissivity: 0.95 });
+  });
+
+  it('refuses partial constants or atmosphere, an emissivity outside (0.8, 1] and a bad transmittance, naming the entry', async () => {
+    const m = join(dir, 'bad.csv');
+    await writeFile(m, 'path,k1,k2\na.tif,774.8853,1321.0789\n');
+    await expect(readManifest(m)).rejects.toThrow(/bad\.csv \(entry 1\): gives only some of radiance_mult, radiance_add, k1, k2/);
+    await writeFile(m, 'path,transmittance\na.tif,0.9\n');
+    await expect(readManifest(m)).rejects.toThrow(/bad\.csv \(entry 1\): gives only some of transmittance, upwelling, downwelling/);
+    await writeFile(m, 'path,emissivity\na.tif,0.8\n');
+    await expect(readManifest(m)).rejects.toThrow(/bad\.csv \(entry 1\): emissivity 0\.8 is outside \(0\.8, 1\]/);
+    await writeFile(m, 'path,transmittance,upwelling,downwelling\na.tif,1.3,0.5,0.9\n');
+    await expect(readManifest(m)).rejects.toThrow(/bad\.csv \(entry 1\): atmospheric transmittance 1\.3 is not in \(0, 1\]/);
   });
 });

@@ -68,7 +68,7 @@ function mean(values: (number | null | undefined)[]): number | null {
  * settings a simulation at the noise of the demo's yearly means finds each
  * warming district in nearly every run.
  */
-const DEMO_ARCHIVE = { firstYear: 2015, years: 10, pairsPerYear: 8, warmingScale: 1.5 } as const;
+const DEMO_ARCHIVE = { firstYear: 2015, years: 10, pairsPerYear: 8, warmingScale: 1.5, nightAsThermal: true } as const;
 
 export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   const { generateArchive, defaultArchiveDir } = await import('../../demo-data/generate.js');
@@ -94,6 +94,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
       await generateArchive(archive, {
         firstYear: DEMO_ARCHIVE.firstYear, years: DEMO_ARCHIVE.years, pairsPerYear: DEMO_ARCHIVE.pairsPerYear,
         trendsKelvinPerYear: Object.fromEntries(DISTRICTS.map((d) => [d.id, d.trendKelvinPerYear * DEMO_ARCHIVE.warmingScale])),
+        nightAsThermal: DEMO_ARCHIVE.nightAsThermal,
       }, (written, total) => progress.update(written, '', total));
     } finally {
       progress.stop();
@@ -109,15 +110,18 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   // The rural ring on land only: the sea fills about a quarter of the default ring, is some 6 K warmer
   // than the fields at night and 9.5 K cooler by day, and clouds hide a different share of it on every
   // date, so a ring with the sea in it would add the same year-to-year noise to every district's SUHI.
+  // The night passes come as Level-1 thermal DN; the manifest gives the day passes' NDVI and most nights' atmosphere.
+  const manifestPath = join(archive, `${CITY_SLUG}_manifest.csv`);
   const display = sceneProgressDisplay();
   let summary: Awaited<ReturnType<typeof runPipeline>>;
   try {
-    summary = await runPipeline({ inputs: [archive], districtsPath, waterPath, threads: opts.threads, onProgress: display.onProgress }, config);
+    summary = await runPipeline({ inputs: [archive], districtsPath, waterPath, manifestPath, threads: opts.threads, onProgress: display.onProgress }, config);
   } finally {
     display.stop();
   }
   process.stdout.write(summaryLines(summary).join('\n') + '\n');
   throwIfRunFailed(summary);
+  process.stdout.write((await thermalPassLines(config)).join('\n') + '\n');
 
   const { districtTable } = await import('../store/district-table.js');
   const { districtTrends, districtHotspots } = await import('../store/district-statistics.js');
@@ -213,4 +217,32 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push('');
   out.push(`Caution: ${CAUTION_SHORT}`);
   process.stdout.write(out.join('\n') + '\n');
+}
+
+/** Which passes were converted from thermal DN and how (counted by method, constants and emissivity). */
+async function thermalPassLines(config: ReturnType<typeof runtimeConfig>): Promise<string[]> {
+  const { openConfiguredStore } = await import('../store/configured.js');
+  const { listThermalScenes } = await import('../store/thermal-scenes.js');
+  const { NO_ATMOSPHERIC_CORRECTION_TEXT } = await import('../core/defaults.js');
+  const store = await openConfiguredStore(config);
+  try {
+    const rows = (await listThermalScenes(store)).filter((r) => r.status === 'processed');
+    if (rows.length === 0) return [];
+    const rte = rows.filter((r) => r.lstMethod === 'rte');
+    const plain = rows.filter((r) => r.lstMethod === 'emissivity_only');
+    const fromMetadata = rows.filter((r) => r.thermalConstantsSource?.startsWith('metadata file')).length;
+    const fromNdvi = rows.filter((r) => r.emissivitySource?.startsWith('NDVI-threshold')).length;
+    const name = (p: string) => p.replace(/^.*[\\/]/, '');
+    const out = [
+      `${rows.length} night pass(es) converted from Level-1 thermal DN (band 10) to LST; constants from the scene's metadata file for ${fromMetadata},`,
+      `emissivity by the NDVI-threshold method on the previous day pass's NDVI for ${fromNdvi}:`,
+      `  ${rte.length} by inverting the radiative transfer equation with the manifest's transmittance and path radiances;`,
+      `  ${plain.length} with the emissivity correction alone (${NO_ATMOSPHERIC_CORRECTION_TEXT.replace(/^no atmospheric correction: LST from the emissivity correction alone, /, '')})`,
+    ];
+    if (plain.length) out.push(`    ${plain.map((r) => name(r.path)).slice(0, 4).join(', ')}${plain.length > 4 ? `, ... (${plain.length - 4} more)` : ''}`);
+    out.push('  `heatledger status` lists every converted pass and how its LST was made.');
+    return out;
+  } finally {
+    await store.close();
+  }
 }

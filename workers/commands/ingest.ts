@@ -15,6 +15,9 @@ export interface IngestCommandOptions {
   albedo?: string[];
   manifest?: string;
   qaMask?: number;
+  emissivity?: number;
+  emissivityWindow?: number;
+  writeLst?: string;
   idField: string;
   nameField: string;
   coverage: 'centre' | 'fraction';
@@ -127,6 +130,9 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     albedoInputs: opts.albedo,
     manifestPath: opts.manifest,
     qaMaskBits: opts.qaMask,
+    emissivity: opts.emissivity,
+    emissivityWindowDays: opts.emissivityWindow,
+    writeLstDir: opts.writeLst,
     coverage: opts.coverage,
     plausibleKelvin: parsePlausible(opts.plausible),
     derive: { minValidFraction: opts.minValidFraction, pairingWindowHours: opts.pairingWindow, albedoWindowDays: opts.albedoWindow },

@@ -11,7 +11,8 @@ export const STATUS_CSV_FIELDS = ['kind', 'pass', 'status', 'scenes'] as const;
  * in the other two formats).
  */
 export async function runStatusCommand(opts: { dataDir?: string; format: OutputFormat }): Promise<void> {
-  const { sceneStatusCounts, failures } = await import('../store/index.js');
+  const { sceneStatusCounts, failures, listThermalScenes } = await import('../store/index.js');
+  const { lstMethodSentence } = await import('../core/thermal/describe.js');
   await withStore(opts, async (store, config) => {
     const counts = await sceneStatusCounts(store);
     const fails = (await failures(store)).map((f) => ({ ...f, error: problemText(f.error) }));
@@ -21,6 +22,12 @@ export async function runStatusCommand(opts: { dataDir?: string; format: OutputF
     const runs = await store.query<{ id: number; status: string; started_at: string; finished_at: string | null; mode: string; software_version: string; scenes_left: number | null; error: string | null }>(
       `SELECT id, status, started_at, finished_at, mode, software_version, scenes_left, error FROM runs ORDER BY id DESC LIMIT 1`,
     );
+    // how each thermal (Level-1 DN) pass had its LST made, the missing atmospheric correction said plainly
+    const thermal = (await listThermalScenes(store)).map((t) => ({
+      path: t.path, acquiredAt: t.acquiredAt, pass: t.pass, status: t.status, lstMethod: t.lstMethod,
+      atmosphericCorrection: t.atmosphericCorrection, thermalConstantsSource: t.thermalConstantsSource,
+      emissivitySource: t.emissivitySource, howLstWasMade: lstMethodSentence(t),
+    }));
     const lastRun = runs[0] ? { ...runs[0], error: runs[0].error === null ? null : problemText(runs[0].error) } : null;
     if (opts.format === 'json') {
       const body = {
@@ -28,6 +35,7 @@ export async function runStatusCommand(opts: { dataDir?: string; format: OutputF
         scenes: counts,
         byKind: byKind.map((r) => ({ kind: r.kind, pass: r.pass, status: r.status, scenes: r.n })),
         failures: fails,
+        thermalScenes: thermal,
         lastRun,
       };
       process.stdout.write(JSON.stringify(snakeCaseKeys(body), null, 2) + '\n');
@@ -44,6 +52,10 @@ export async function runStatusCommand(opts: { dataDir?: string; format: OutputF
       process.stdout.write(`  ${lastRun.scenes_left ?? '?'} scene(s) left: ${lastRun.error ?? 'no reason recorded'}\n  run the same ingest command again to finish them\n`);
     }
     if (byKind.length) process.stdout.write('\n' + formatRows(byKind.map((r) => ({ kind: r.kind ?? '-', pass: r.pass ?? '-', status: r.status, scenes: r.n })), 'table'));
+    if (thermal.length) {
+      process.stdout.write('\npasses converted from thermal DN:\n');
+      for (const t of thermal) process.stdout.write(`  ${t.acquiredAt ?? '-'} ${t.pass ?? '-'} ${t.path} (${t.status}): ${t.howLstWasMade}\n`);
+    }
     if (fails.length) {
       process.stdout.write('\nfailed scenes:\n');
       for (const f of fails) process.stdout.write(`  ${failureLine(f.path, f.error)}\n`);

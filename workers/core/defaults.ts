@@ -51,3 +51,23 @@ export const CAUTION_TEXT =
 export const CAUTION_SHORT_TEXT =
   'LST is surface (skin) temperature, not air temperature; yearly means depend on which days were clear and SUHI on the rural reference chosen; ' +
   'these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
+
+/** A thermal (Level-1 DN) night pass takes NDVI (or red and near-infrared reflectance) from the nearest day scene within this many days, either side. */
+export const EMISSIVITY_WINDOW_DAYS = 16;
+
+/**
+ * Emissivity of a thermal scene's pixels when no emissivity raster, no NDVI within the
+ * window and no district `emissivity` property applies (and no `--emissivity` is given):
+ * a mixed built-up / vegetated surface in the 10-12 um window (common practice, no source).
+ */
+export const THERMAL_EMISSIVITY_DEFAULT = 0.97;
+
+/**
+ * Said wherever a night pass's LST was made from thermal DN without atmospheric
+ * correction (status, scene listing, report). The sizes are derived from the
+ * radiative transfer equation (Landsat 8 band 10 constants, emissivity 0.97, LST 285-300 K)
+ * with illustrative atmospheric parameters (transmittance 0.95 / 0.75-0.6 with their path radiances, from memory).
+ */
+export const NO_ATMOSPHERIC_CORRECTION_TEXT =
+  'no atmospheric correction: LST from the emissivity correction alone, usually too low — ' +
+  'by about 0.5-1 K under a dry, clear atmosphere and 1.5-8 K under a warm, humid one.';

@@ -25,10 +25,13 @@ export interface DeriveResult {
 
 export async function derive(data: DeriveData, ctx: JobContext<PipelineRepo>): Promise<DeriveResult> {
   const { repo } = ctx;
-  const [lst, albedo] = await Promise.all([
+  // thermal (Level-1 DN) scenes were turned into LST by the zonal step: they are LST passes here
+  const [lstScenes, thermal, albedo] = await Promise.all([
     repo.listScenes({ kind: 'lst', status: 'processed' }),
+    repo.listScenes({ kind: 'thermal', status: 'processed' }),
     repo.listScenes({ kind: 'albedo', status: 'processed' }),
   ]);
+  const lst = [...lstScenes, ...thermal];
   const dated = albedo.filter((s) => s.acquiredAt !== null);
   const archiveWide = albedo.filter((s) => s.acquiredAt === null);
   const scenes: SceneInfo[] = [

@@ -4,7 +4,13 @@
  * failed with its reason, and the error is raised as an InputError so the
  * runner records it too; the rest of the run goes on.
  */
+import { readFile } from 'node:fs/promises';
 import { InputError, isInputError } from '../core/errors.js';
+import {
+  acquisitionTimeFromMetadata, chooseThermalConstants, metadataFileCandidates, normaliseSpacecraft, parseSceneMetadata,
+  thermalBandFromName, type SceneAtmosphere, type SceneMetadataFile, type TirsBand, type TirsBandConstants,
+} from '../core/thermal/index.js';
+import type { RasterHeader } from '../core/raster/index.js';
 import { openRaster } from '../core/raster/index.js';
 import type { JobContext } from '../queue/types.js';
 import { pixelSizeMetres, sceneCentreLonLat } from '../core/raster/placement.js';
@@ -31,6 +37,55 @@ export interface IngestResult {
   alreadyStored: boolean;
   /** Problems found while reading the scene (also stored with it). */
   warnings: string[];
+  /** Thermal scenes: how the DN become LST. */
+  thermal?: IngestedThermal;
+}
+
+/** What the zonal step needs to turn a thermal scene's DN into LST. */
+export interface IngestedThermal {
+  band: TirsBand;
+  constants: TirsBandConstants;
+  constantsSource: string;
+  spacecraft: string | null;
+  /** Values or per-pixel rasters; null: emissivity correction alone. */
+  atmosphere: SceneAtmosphere | null;
+}
+
+/** The scene's metadata file: the manifest's, else the first that exists by the scene's name; parsed. */
+async function findMetadataFile(scenePath: string, manifest: ManifestEntry | undefined): Promise<{ file: SceneMetadataFile | null; lookedFor: string[] }> {
+  const candidates = manifest?.metadata ? [manifest.metadata] : metadataFileCandidates(scenePath);
+  for (const path of candidates) {
+    let text: string;
+    try {
+      text = await readFile(path, 'latin1');
+    } catch (e) {
+      const code = (e as NodeJS.ErrnoException).code;
+      if (manifest?.metadata) throw new InputError(`cannot read the scene's metadata file (${code ?? (e as Error).message})`, path);
+      if (code === 'ENOENT' || code === 'ENOTDIR') continue;
+      throw new InputError(`cannot read the scene's metadata file (${code ?? (e as Error).message})`, path);
+    }
+    return { file: parseSceneMetadata(text, path), lookedFor: [path] };
+  }
+  return { file: null, lookedFor: candidates };
+}
+
+/** Constants, atmosphere and acquisition time of a thermal scene; the notice (built-in constants) goes to `warnings`. */
+async function thermalOf(h: RasterHeader, manifest: ManifestEntry | undefined, warnings: string[]): Promise<{ thermal: IngestedThermal; acquiredAt: string | null }> {
+  const { file, lookedFor } = await findMetadataFile(h.path, manifest);
+  const band = manifest?.band ?? thermalBandFromName(h.path) ?? 'B10';
+  const choice = chooseThermalConstants({
+    scenePath: h.path,
+    band,
+    sceneSpacecraft: normaliseSpacecraft(manifest?.sensor ?? h.metadata.SPACECRAFT_ID),
+    metadata: file,
+    manifest: manifest?.constants ?? null,
+    lookedFor,
+  });
+  if (choice.notice) warnings.push(choice.notice);
+  return {
+    thermal: { band, constants: choice.constants, constantsSource: choice.source, spacecraft: choice.spacecraft, atmosphere: manifest?.atmosphere ?? null },
+    acquiredAt: file ? acquisitionTimeFromMetadata(file) : null,
+  };
 }
 
 export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): Promise<IngestResult> {
@@ -41,7 +96,9 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
     try {
       const h = raster.header;
       const kind = sceneKind(h, data.manifest, data.defaultKind);
-      const acquiredAt = data.manifest?.acquiredAt ?? h.acquiredAt;
+      const warnings = [...h.warnings];
+      const thermal = kind === 'thermal' ? await thermalOf(h, data.manifest, warnings) : null;
+      const acquiredAt = data.manifest?.acquiredAt ?? h.acquiredAt ?? thermal?.acquiredAt ?? null;
       if (!acquiredAt && kind !== 'albedo') {
         throw new InputError(
           'has no acquisition time: no ACQUISITION_TIME (or DATETIME) metadata item, no TIFF DateTime tag, and no manifest entry; give one with --manifest',
@@ -49,12 +106,12 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
         );
       }
       const [lon, lat] = sceneCentreLonLat(h);
-      const timing = kind === 'lst' ? sceneTiming(acquiredAt, lon, lat, data.dayElevationDeg) : sceneTiming(null, lon, lat);
+      const timing = kind === 'lst' || kind === 'thermal' ? sceneTiming(acquiredAt, lon, lat, data.dayElevationDeg) : sceneTiming(null, lon, lat);
       const { id: sceneId, previousStatus } = await repo.registerSceneReporting({
         contentHash: data.contentHash,
         path: data.path,
         kind,
-        sensor: data.manifest?.sensor ?? h.metadata.SENSOR ?? h.metadata.SPACECRAFT_ID ?? null,
+        sensor: data.manifest?.sensor ?? h.metadata.SENSOR ?? h.metadata.SPACECRAFT_ID ?? thermal?.thermal.spacecraft ?? null,
         productNotes: h.metadata.PRODUCT ?? null,
         acquiredAt: acquiredAt ?? null,
         pass: timing.pass,
@@ -73,14 +130,19 @@ export async function ingest(data: IngestData, ctx: JobContext<PipelineRepo>): P
       });
       // Stored apart from the registration: only scenes with something to say (or a
       // re-read scene whose earlier warnings may be gone, e.g. a sidecar fixed) pay a round trip.
-      if (h.warnings.length > 0 || previousStatus !== null) await repo.setSceneWarnings(sceneId, h.warnings);
+      if (warnings.length > 0 || previousStatus !== null) await repo.setSceneWarnings(sceneId, warnings);
+      if (thermal) {
+        const t = thermal.thermal;
+        await repo.setSceneThermal(sceneId, { lstMethod: t.atmosphere ? 'rte' : 'emissivity_only', atmosphere: t.atmosphere, constantsSource: t.constantsSource });
+      }
       result = {
         sceneId,
         kind,
         pass: timing.pass,
         acquiredAt: acquiredAt ?? null,
         alreadyStored: previousStatus === 'processed',
-        warnings: h.warnings,
+        warnings,
+        ...(thermal ? { thermal: thermal.thermal } : {}),
       };
     } finally {
       await raster.close();

@@ -4,10 +4,14 @@
  * CRS (cached for the life of the process or thread). Stored in one
  * transaction per scene, replacing what the scene had.
  */
-import { isInputError } from '../core/errors.js';
+import { InputError, isInputError } from '../core/errors.js';
+import { fingerprint } from '../core/hash.js';
 import { openRaster, rasterCrs, type RasterFile } from '../core/raster/index.js';
 import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
-import { zonalScene, type ZonalTarget } from '../core/zonal/index.js';
+import { mkdir } from 'node:fs/promises';
+import { basename, join } from 'node:path';
+import { zonalScene, zonalThermalScene, openAtmosphere, openEmissivityField, type ThermalZonalResult, type ZonalSceneOptions, type ZonalTarget } from '../core/zonal/index.js';
+import { chooseSceneEmissivity, writeThermalLst, type NdviSource, type OwnEmissivityInputs } from '../core/thermal/index.js';
 import type { JobContext } from '../queue/types.js';
 import type { PipelineRepo } from '../store/pipeline-repo.js';
 import type { IngestResult } from './ingest.js';
@@ -23,6 +27,64 @@ export interface ZonalData {
   coverage: 'centre' | 'fraction';
   plausibleKelvin: [number, number] | null;
   qa?: { path: string; maskBits?: number; maskValues?: number[] };
+  /** Thermal scenes: where emissivity comes from, and where to write the derived LST. */
+  thermal?: ThermalZonalData;
+}
+
+/** The run's emissivity inputs for a thermal scene (see core/thermal/emissivity-choice.ts). */
+export interface ThermalZonalData {
+  /** The scene's own manifest inputs. */
+  own: OwnEmissivityInputs;
+  /** Scenes of the run that can lend NDVI (or red + NIR). */
+  ndviSources: NdviSource[];
+  windowDays: number;
+  /** District `emissivity` properties (checked in (0.8, 1]). */
+  districtEmissivity: Record<string, number>;
+  /** The last fallback. */
+  fallback: { value: number; source: string };
+  /** Also write the derived LST as a COG into this folder. */
+  writeLstDir?: string;
+}
+
+/** Fingerprint of what a thermal scene's statistics are computed from. */
+function thermalInputsKey(ingested: IngestResult, data: ZonalData): string {
+  const t = ingested.thermal, d = data.thermal;
+  if (!t || !d) return fingerprint('incomplete thermal inputs');
+  const sceneEmissivity = chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays);
+  const districtEmissivity = Object.fromEntries(data.targetIds.filter((id) => id in d.districtEmissivity).map((id) => [id, d.districtEmissivity[id]]));
+  return fingerprint(t.constants, t.atmosphere, sceneEmissivity, districtEmissivity, d.fallback.value);
+}
+
+/** Statistics of a thermal scene from its DN (and, with --write-lst, its LST as a COG). */
+async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options: ZonalSceneOptions, ingested: IngestResult, data: ZonalData): Promise<ThermalZonalResult> {
+  const t = ingested.thermal;
+  const d = data.thermal;
+  if (!t || !d) throw new Error(`thermal scene ${data.path} reached the zonal step without its constants or emissivity inputs`);
+  const sceneEmissivity = chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays);
+  const result = await zonalThermalScene(raster, targets, options, {
+    constants: t.constants, atmosphere: t.atmosphere, sceneEmissivity, districtEmissivity: d.districtEmissivity, fallback: d.fallback,
+  });
+  if (d.writeLstDir) {
+    const opened: RasterFile[] = [];
+    try {
+      const emissivity = sceneEmissivity ? await openEmissivityField(sceneEmissivity, opened) : { kind: 'constant' as const, value: d.fallback.value };
+      const atmosphere = await openAtmosphere(t.atmosphere, opened);
+      await mkdir(d.writeLstDir, { recursive: true }).catch((e: NodeJS.ErrnoException) => {
+        throw new InputError(`cannot create the folder for --write-lst (${e.code ?? e.message})`, d.writeLstDir);
+      });
+      await writeThermalLst(raster, { constants: t.constants, atmosphere, emissivity }, join(d.writeLstDir, `${basename(data.path).replace(/\.[^.]*$/, '')}_lst.tif`), {
+        SOURCE_SCENE: basename(data.path),
+        ...(ingested.acquiredAt ? { ACQUISITION_TIME: ingested.acquiredAt } : {}),
+        ...(ingested.pass ? { PASS: ingested.pass } : {}),
+        LST_METHOD: t.atmosphere ? 'radiative transfer equation inverted with the scene atmosphere' : 'emissivity correction alone (no atmospheric correction)',
+        THERMAL_CONSTANTS_SOURCE: t.constantsSource,
+        EMISSIVITY_SOURCE: sceneEmissivity ? sceneEmissivity.source : `${d.fallback.source} (district properties are not applied to this raster)`,
+      });
+    } finally {
+      for (const r of opened) await r.close();
+    }
+  }
+  return result;
 }
 
 export interface ZonalResult {
@@ -79,9 +141,12 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
   const ingested = Object.values(ctx.childrenValues)[0] as IngestResult | undefined;
   if (!ingested) return { sceneId: null, rows: 0, skipped: 'ingest failed' };
   if (ingested.kind === 'qa') return { sceneId: ingested.sceneId, kind: 'qa', rows: 0, skipped: 'QA raster' };
-  if (ingested.alreadyStored) {
+  // a thermal scene's statistics also depend on its constants, atmosphere and emissivity inputs
+  const thermalKey = ingested.kind === 'thermal' ? thermalInputsKey(ingested, data) : null;
+  if (ingested.alreadyStored && !(ingested.kind === 'thermal' && data.thermal?.writeLstDir)) {
     const have = new Set(await repo.zonalDistrictsOfScene(ingested.sceneId, data.coverage));
-    if (data.targetIds.every((id) => have.has(id))) {
+    const same = thermalKey === null || (await repo.lstInputsFingerprint(ingested.sceneId)) === thermalKey;
+    if (same && data.targetIds.every((id) => have.has(id))) {
       return { sceneId: ingested.sceneId, kind: ingested.kind, rows: 0, skipped: 'already processed' };
     }
   }
@@ -92,12 +157,14 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
     const crs = rasterCrs(h);
     const targets = await targetsFor(repo, data.targetIds, crs, data.targetsKey);
     if (data.qa) qa = await openRaster(data.qa.path);
-    const results = await zonalScene(raster, targets, {
+    const options: ZonalSceneOptions = {
       coverage: data.coverage,
       // albedo is a fraction, not a temperature: the LST plausibility window does not apply
-      plausibleKelvin: ingested.kind === 'lst' ? data.plausibleKelvin : [0, 1],
+      plausibleKelvin: ingested.kind === 'lst' || ingested.kind === 'thermal' ? data.plausibleKelvin : [0, 1],
       qa: qa ? { raster: qa, maskBits: data.qa?.maskBits, maskValues: data.qa?.maskValues } : undefined,
-    });
+    };
+    const thermal = ingested.kind === 'thermal' ? await thermalZonal(raster, targets, options, ingested, data) : null;
+    const results = thermal ? thermal.results : await zonalScene(raster, targets, options);
     const rows = results.map((r) => ({
       districtId: r.id,
       pixels: r.stats.pixels,
@@ -116,6 +183,7 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
       coverageRule: data.coverage,
     }));
     await repo.replaceZonalStats(ingested.sceneId, rows, data.runId);
+    if (thermal) await repo.setEmissivitySources(ingested.sceneId, thermal.sceneSource, thermal.byTarget, thermalKey);
     return { sceneId: ingested.sceneId, kind: ingested.kind, rows: rows.length };
   } catch (e) {
     if (isInputError(e)) {

@@ -6,6 +6,8 @@ import { lstat, readFile, readdir, readlink, stat } from 'node:fs/promises';
 import { basename, extname, join, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
 import { hashFile } from '../core/hash.js';
+import { checkAtmosphere, type SceneAtmosphere } from '../core/thermal/rte.js';
+import { thermalBandFromName } from '../core/thermal/metadata-file.js';
 import type { RasterHeader } from '../core/raster/index.js';
 import { SCENE_KINDS, type SceneKind } from '../store/scenes.js';
 
@@ -20,6 +22,75 @@ export interface ManifestEntry {
   sensor?: string;
   /** QA/cloud raster on the same grid that masks this scene (with the run's QA bits). */
   qa?: string;
+  /** Thermal scenes: the agency's plain-text metadata file (`KEY = value`) of the scene. */
+  metadata?: string;
+  /** Thermal scenes: which band the DN are of (default: from the file name, else B10). */
+  band?: 'B10' | 'B11';
+  /** Thermal scenes: rescaling and thermal constants (columns radiance_mult, radiance_add, k1, k2; all four or none). */
+  constants?: { ml: number; al: number; k1: number; k2: number };
+  /** Thermal scenes: a constant emissivity in (0.8, 1] (column `emissivity` holding a number). */
+  emissivity?: number;
+  /** Thermal scenes: an emissivity raster on the scene's grid (column `emissivity` holding a path). */
+  emissivityRaster?: string;
+  /** NDVI raster on the scene's grid (a day scene lends it to thermal night passes; a thermal scene may have its own). */
+  ndvi?: string;
+  /** Red and near-infrared surface reflectance rasters (instead of NDVI), on the scene's grid. */
+  red?: string;
+  nir?: string;
+  /**
+   * Thermal scenes: band-effective atmosphere (columns transmittance, upwelling, downwelling; all three
+   * or none): numbers for the whole scene, or paths of rasters on the scene's grid.
+   */
+  atmosphere?: SceneAtmosphere;
+}
+
+/** A number from a manifest cell (CSV text or JSON number), or undefined for an empty cell. */
+function manifestNumber(r: Record<string, unknown>, key: string, where: string): number | undefined {
+  const v = r[key];
+  if (v === undefined || v === '' || v === null) return undefined;
+  const n = typeof v === 'number' ? v : typeof v === 'string' && /^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/.test(v) ? Number(v) : NaN;
+  if (!Number.isFinite(n)) throw new InputError(`${key} ${JSON.stringify(v)} is not a number`, where);
+  return n;
+}
+
+/** The thermal-scene columns of one manifest record (see ManifestEntry). */
+function thermalColumns(r: Record<string, unknown>, base: string, where: string): Partial<ManifestEntry> {
+  const out: Partial<ManifestEntry> = {};
+  const path = (key: string) => (typeof r[key] === 'string' && r[key] !== '' ? resolve(base, r[key] as string) : undefined);
+  out.metadata = path('metadata');
+  out.ndvi = path('ndvi');
+  out.red = path('red');
+  out.nir = path('nir');
+  if ((out.red === undefined) !== (out.nir === undefined)) throw new InputError('gives only one of red and nir; NDVI needs both', where);
+  const band = r.band === undefined || r.band === null || r.band === '' ? undefined : String(r.band).trim().toUpperCase().replace(/^(BAND_?|B)?/, 'B');
+  if (band !== undefined && band !== 'B' && band !== 'B10' && band !== 'B11') throw new InputError(`band ${JSON.stringify(r.band)} is not 10 or 11`, where);
+  if (band === 'B10' || band === 'B11') out.band = band;
+  const c = { ml: manifestNumber(r, 'radiance_mult', where), al: manifestNumber(r, 'radiance_add', where), k1: manifestNumber(r, 'k1', where), k2: manifestNumber(r, 'k2', where) };
+  const given = Object.values(c).filter((v) => v !== undefined).length;
+  if (given > 0 && given < 4) throw new InputError('gives only some of radiance_mult, radiance_add, k1, k2; give all four or none', where);
+  if (given === 4) {
+    if (!(c.ml! > 0 && c.k1! > 0 && c.k2! > 0)) throw new InputError('radiance_mult, k1 and k2 must be greater than 0', where);
+    out.constants = c as { ml: number; al: number; k1: number; k2: number };
+  }
+  const e = r.emissivity;
+  if (typeof e === 'number' || (typeof e === 'string' && /^\s*[+-]?(\d+\.?\d*|\.\d+)\s*$/.test(e))) {
+    const v = Number(e);
+    if (!(v > 0.8 && v <= 1)) throw new InputError(`emissivity ${v} is outside (0.8, 1]`, where);
+    out.emissivity = v;
+  } else if (typeof e === 'string' && e !== '') out.emissivityRaster = resolve(base, e);
+  const atmosphereKeys = ['transmittance', 'upwelling', 'downwelling'] as const;
+  const isPath = (v: unknown) => typeof v === 'string' && v.trim() !== '' && !/^\s*[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?\s*$/.test(v);
+  const paths = atmosphereKeys.filter((k) => isPath(r[k]));
+  if (paths.length > 0) {
+    if (paths.length < 3) throw new InputError('gives some of transmittance, upwelling, downwelling as rasters and some not; give all three as numbers or all three as rasters', where);
+    out.atmosphere = { transmittanceRaster: resolve(base, r.transmittance as string), upwellingRaster: resolve(base, r.upwelling as string), downwellingRaster: resolve(base, r.downwelling as string) };
+    return Object.fromEntries(Object.entries(out).filter(([, v]) => v !== undefined));
+  }
+  const a = { transmittance: manifestNumber(r, 'transmittance', where), upwellingRadiance: manifestNumber(r, 'upwelling', where), downwellingRadiance: manifestNumber(r, 'downwelling', where) };
+  const atm = Object.values(a).filter((v) => v !== undefined).length;
+  if (atm > 0 && atm < 3) throw new InputError('gives only some of transmittance, upwelling, downwelling; give all three or none', where);
+  if (atm === 3) out.atmosphere = checkAtmosphere(a as { transmittance: number; upwellingRadiance: number; downwellingRadiance: number }, where);
+  return Object.fromEntries(Object.entries(out).filter(([, v]) => v !== undefined));
 }
 
 const RASTER_EXTENSIONS = new Set(['.tif', '.tiff', '.gtif']);
@@ -266,7 +337,10 @@ function parseCsvLine(line: string): string[] {
 
 /**
  * Read a manifest: CSV with a header (columns `path`, and any of `kind`,
- * `acquired_at`, `sensor`, `qa`) or JSON (an array of objects with the same keys).
+ * `acquired_at`, `sensor`, `qa`; for thermal scenes `metadata`, `band`,
+ * `radiance_mult`, `radiance_add`, `k1`, `k2`, `emissivity` (a number or a raster),
+ * `transmittance`, `upwelling`, `downwelling` (W m-2 sr-1 um-1); `ndvi` or `red` and
+ * `nir` on any scene) or JSON (an array of objects with the same keys).
  * A manifest's kind and time take precedence over the file's own metadata.
  * Relative paths are relative to the manifest's folder.
  */
@@ -307,18 +381,24 @@ export async function readManifest(path: string): Promise<Map<string, ManifestEn
     if (t !== undefined && t !== '') entry.acquiredAt = normaliseUtc(String(t), where);
     if (typeof r.sensor === 'string' && r.sensor !== '') entry.sensor = r.sensor;
     if (typeof r.qa === 'string' && r.qa !== '') entry.qa = resolve(base, r.qa);
+    Object.assign(entry, thermalColumns(r, base, where));
     if (out.has(abs)) throw new InputError(`the manifest lists ${p} twice`, where);
     out.set(abs, entry);
   });
   return out;
 }
 
-/** Kind of a scene: the manifest, then the caller's default, then a KIND metadata item, then the file name; else 'lst'. */
+/**
+ * Kind of a scene: the manifest, then the caller's default, then a KIND metadata item,
+ * then a manifest `metadata` file (thermal), then the file name (a Level-1 band name
+ * `..._B10.TIF` / `..._B11.TIF` is thermal); else 'lst'.
+ */
 export function sceneKind(header: RasterHeader, manifest: ManifestEntry | undefined, defaultKind: SceneKind | undefined): SceneKind {
   if (manifest?.kind) return manifest.kind;
   if (defaultKind) return defaultKind;
   const meta = (header.metadata.KIND ?? header.metadata.kind ?? '').toLowerCase();
   if ((SCENE_KINDS as readonly string[]).includes(meta)) return meta as SceneKind;
+  if (manifest?.metadata || thermalBandFromName(header.path) !== null) return 'thermal';
   const name = basename(header.path).toLowerCase();
   if (/albedo/.test(name)) return 'albedo';
   if (/(^|[_.-])qa([_.-]|$)/.test(name)) return 'qa';

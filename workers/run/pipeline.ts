@@ -6,17 +6,21 @@
  * store/configured.ts hand back.
  */
 import os from 'node:os';
+import { resolve } from 'node:path';
 import { InputError, isServiceError } from '../core/errors.js';
 import { readDistricts, ruralRing, subtractPolygons, type District } from '../core/districts/index.js';
 import type { DeriveOptions } from '../core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from '../core/derive/metrics.js';
 import { fingerprint } from '../core/hash.js';
-import { PLAUSIBLE_RANGE_KELVIN, RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES } from '../core/defaults.js';
+import { EMISSIVITY_WINDOW_DAYS, PLAUSIBLE_RANGE_KELVIN, RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES, THERMAL_EMISSIVITY_DEFAULT } from '../core/defaults.js';
+import { checkEmissivity, type NdviSource } from '../core/thermal/index.js';
+import { openRaster } from '../core/raster/index.js';
 import { listScenes, readManifest, type ManifestEntry, type UnreadablePath } from './archive.js';
 import { readMergedPolygons, readRuralReference } from '../core/districts/merged.js';
 import { registryModuleUrl, THREADED_JOBS } from './registry.js';
 import { createPipelineRepo } from '../store/pipeline-repo.js';
 import type { DeriveResult } from '../jobs/derive.js';
+import type { IngestResult } from '../jobs/ingest.js';
 import type { FlowProgress, FlowResult, JobFailure, Runner } from '../queue/types.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS } from '../queue/settings.js';
 import { withServiceRetry } from '../queue/retry.js';
@@ -61,6 +65,12 @@ export interface PipelineOptions {
   serviceRetryBudgetSeconds?: number;
   /** Distributed mode: how long (s) to wait with no worker activity before ending the run incomplete; default 180. */
   stallTimeoutSeconds?: number;
+  /** Thermal scenes: the constant emissivity when no raster, NDVI or district property applies; in (0.8, 1]. */
+  emissivity?: number;
+  /** Thermal scenes: NDVI is taken from the nearest day scene within this many days (default 16). */
+  emissivityWindowDays?: number;
+  /** Thermal scenes: also write the derived LST as COGs into this folder. */
+  writeLstDir?: string;
   onProgress?(p: FlowProgress & { elapsedSeconds: number }): void;
   onNotice?(message: string): void;
 }
@@ -132,6 +142,44 @@ async function runScenes(options: PipelineOptions) {
   return listing;
 }
 
+/**
+ * The emissivity inputs thermal scenes share: district `emissivity` properties, the
+ * scenes that can lend NDVI (with their times), the window and the constant.
+ * @throws InputError naming the districts file, the manifest or the option for a value out of range
+ */
+async function thermalInputs(options: PipelineOptions, districts: District[], files: { path: string; manifest?: ManifestEntry }[]): Promise<NonNullable<Parameters<typeof buildFlow>[0]['thermal']>> {
+  const fallbackValue = options.emissivity ?? THERMAL_EMISSIVITY_DEFAULT;
+  checkEmissivity(fallbackValue, '--emissivity');
+  const windowDays = options.emissivityWindowDays ?? EMISSIVITY_WINDOW_DAYS;
+  if (!(Number.isFinite(windowDays) && windowDays >= 0)) throw new InputError(`--emissivity-window ${windowDays} is not a number of days >= 0`);
+  const districtEmissivity: Record<string, number> = {};
+  for (const d of districts) {
+    const v = d.properties.emissivity;
+    if (v === undefined || v === null || v === '') continue;
+    const n = typeof v === 'string' ? Number(v) : v;
+    checkEmissivity(n, `${options.districtsPath} (district ${d.id}, property emissivity)`);
+    districtEmissivity[d.id] = n as number;
+  }
+  const ndviSources: NdviSource[] = [];
+  for (const f of files) {
+    const m = f.manifest;
+    if (!m || !(m.ndvi || (m.red && m.nir))) continue;
+    let acquiredAt = m.acquiredAt ?? null;
+    if (acquiredAt === null) {
+      const r = await openRaster(f.path).catch(() => null); // an unreadable scene is reported by its own ingest
+      if (r) { acquiredAt = r.header.acquiredAt; await r.close(); }
+    }
+    ndviSources.push({ scenePath: f.path, acquiredAt, ndvi: m.ndvi, red: m.red, nir: m.nir });
+  }
+  return {
+    ndviSources,
+    windowDays,
+    districtEmissivity,
+    fallback: { value: fallbackValue, source: `constant ${fallbackValue} (${options.emissivity !== undefined ? '--emissivity' : 'default'})` },
+    ...(options.writeLstDir ? { writeLstDir: resolve(options.writeLstDir) } : {}),
+  };
+}
+
 /** The run's parameters as stored with it (and fingerprinted into its job ids). */
 function runParameters(options: PipelineOptions, districts: District[], ruralDescription: string) {
   const deriveOptions: DeriveOptions = { ...DEFAULT_DERIVE_OPTIONS, ...options.derive };
@@ -166,6 +214,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   const { rural, description: ruralDescription } = await ruralReference(options, districts);
   const { files, duplicates, unreadable } = await runScenes(options);
   const { params, deriveOptions, coverage, plausibleKelvin } = runParameters(options, districts, ruralDescription);
+  const thermal = await thermalInputs(options, districts, files);
 
   const budgetMs = options.serviceRetryBudgetSeconds !== undefined ? options.serviceRetryBudgetSeconds * 1000 : DEFAULT_SERVICE_RETRY_BUDGET_MS;
   // A database server that is away is waited for (within the budget); an embedded store is not a service.
@@ -202,9 +251,10 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       runId,
       files,
       targetIds: [...districts.map((d) => d.id), RURAL_ID],
-      params: { ...params, districtsFingerprint: fingerprint(districts.map((d) => [d.id, d.geometry])), ruralFingerprint: fingerprint(rural.geometry) },
+      params: { ...params, thermal: { ...thermal, ndviSources: thermal.ndviSources.map((n) => [n.scenePath, n.acquiredAt]) }, districtsFingerprint: fingerprint(districts.map((d) => [d.id, d.geometry])), ruralFingerprint: fingerprint(rural.geometry) },
       zonal: { coverage, plausibleKelvin },
       qaMaskBits: options.qaMaskBits,
+      thermal,
       derive: {
         districtIds: districts.map((d) => d.id),
         ruralId: RURAL_ID,
@@ -231,6 +281,13 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     // stopped by a signal: the interrupt handler records the run, closes the store and exits the process
     if (interrupted || result === null) return await untilExit();
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
+    // thermal scenes converted with the built-in constants: say so (the warning is also stored with the scene)
+    for (const r of result.results.values()) {
+      const ingested = r as Partial<IngestResult> | undefined;
+      if (ingested?.thermal && ingested.thermal.constantsSource.startsWith('built-in')) {
+        for (const w of ingested.warnings ?? []) if (w.includes('built-in')) options.onNotice?.(w);
+      }
+    }
     const outcome = runOutcome(root, result, unreadable.length);
     finishing = onServer(() => finishRun(store, runId, {
       status: outcome.status,

@@ -8,6 +8,7 @@ export * from './districts.js';
 export * from './runs.js';
 export * from './scenes.js';
 export * from './zonal-stats.js';
+export * from './thermal-scenes.js';
 export * from './derived.js';
 export * from './district-tables.js';
 export { storeIdentity } from './identity.js';

@@ -25,6 +25,13 @@ function bindPipelineRepo(store: Store) {
     zonalDistrictsOfScene: (sceneId: number, coverageRule: string) => repo.zonalDistrictsOfScene(store, sceneId, coverageRule),
     replaceZonalStats: (sceneId: number, rows: repo.ZonalStatsInput[], runId: number | null) =>
       repo.replaceZonalStats(store, sceneId, rows, { runId }),
+    /** Record how a thermal scene's LST is made (method, atmosphere, constants source). */
+    setSceneThermal: (sceneId: number, t: repo.ThermalSceneInput) => repo.setSceneThermal(store, sceneId, t),
+    /** Store a thermal scene's emissivity source, for the scene and per district. */
+    setEmissivitySources: (sceneId: number, sceneSource: string, byDistrict: Record<string, string>, inputsFingerprint: string | null) =>
+      repo.setEmissivitySources(store, sceneId, sceneSource, byDistrict, inputsFingerprint),
+    /** What a thermal scene's stored statistics were computed from (fingerprint), or null. */
+    lstInputsFingerprint: (sceneId: number) => repo.lstInputsFingerprint(store, sceneId),
     /** Replace every derived row of these districts with `rows`, in one transaction. */
     replaceDerivedFor: (districtIds: string[], rows: repo.DerivedInput[]) => repo.replaceDerivedFor(store, districtIds, rows),
   };

@@ -3,8 +3,9 @@ import type { Epsg, UtcIso } from '../core/units.js';
 import type { TimingRating } from '../core/solar/index.js';
 import { type Db, num } from './db.js';
 
-export type SceneKind = 'lst' | 'albedo' | 'qa';
-export const SCENE_KINDS: readonly SceneKind[] = ['lst', 'albedo', 'qa'];
+/** 'thermal': a Level-1 thermal band as DN, turned into LST on ingest (migration 005). */
+export type SceneKind = 'lst' | 'albedo' | 'qa' | 'thermal';
+export const SCENE_KINDS: readonly SceneKind[] = ['lst', 'albedo', 'qa', 'thermal'];
 export type ScenePass = 'day' | 'night';
 export type { TimingRating };
 export type SceneStatus = 'registered' | 'processed' | 'failed';

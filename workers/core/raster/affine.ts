@@ -173,3 +173,16 @@ export function unionWindows(ws: readonly Window[]): Window | null {
   }
   return { colOff: c0, rowOff: r0, width: c1 - c0, height: r1 - r0 };
 }
+
+/**
+ * Whether two geotransforms describe the same grid: every coefficient equal
+ * within 1e-9 of its size or of the pixel size (rounding in the written tags).
+ */
+export function sameGrid(p: Affine, q: Affine): boolean {
+  const scale = Math.max(Math.abs(p.a), Math.abs(p.b), Math.abs(p.d), Math.abs(p.e));
+  for (const k of ['a', 'b', 'c', 'd', 'e', 'f'] as const) {
+    const tol = 1e-9 * Math.max(Math.abs(p[k]), Math.abs(q[k]), scale);
+    if (!(Math.abs(p[k] - q[k]) <= tol)) return false;
+  }
+  return true;
+}

@@ -40,3 +40,28 @@ export {
   type InsolationShapeFactors,
 } from './inertia.js';
 export { MATERIALS, SPECIFIC_HEAT_J_PER_KG_K, material, type MaterialRow } from './materials.js';
+export {
+  parseSceneMetadata,
+  metadataField,
+  thermalConstantsFromMetadata,
+  acquisitionTimeFromMetadata,
+  thermalBandFromName,
+  metadataFileCandidates,
+  type SceneMetadataFile,
+} from './metadata-file.js';
+export { NO_ATMOSPHERE, isAtmosphereRasters, checkAtmosphere, surfaceBlackbodyRadiance, lstFromRadiance, atSensorRadiance, type AtmosphereParameters, type AtmosphereRasterPaths, type SceneAtmosphere } from './rte.js';
+export { chooseThermalConstants, normaliseSpacecraft, type ThermalConstantsChoice, type ThermalConstantsInputs } from './scene-constants.js';
+export {
+  thermalLstRaster,
+  requireSameGrid,
+  checkEmissivity,
+  emissivityFromNdviOnly,
+  emissivityInRange,
+  EMISSIVITY_MIN_EXCLUSIVE,
+  type AtmosphereRasters,
+  type EmissivityField,
+  type ThermalLstPlan,
+} from './lst-raster.js';
+export { chooseSceneEmissivity, type NdviSource, type OwnEmissivityInputs, type SceneEmissivityInput } from './emissivity-choice.js';
+export { writeThermalLst } from './write-lst.js';
+export { lstMethodSentence, type LstMethodFacts } from './describe.js';

@@ -7,7 +7,7 @@ import { InputError } from '../errors.js';
 import { centreMask } from '../coverage/centre.js';
 import { inverseGeoTransform } from '../coverage/pixelspace.js';
 import type { CentreMask, FractionMask } from '../coverage/types.js';
-import { intersectWindows, unionWindows, type Affine, type Window } from '../raster/affine.js';
+import { intersectWindows, sameGrid, unionWindows, type Window } from '../raster/affine.js';
 import type { RasterBlock, RasterFile, TypedArray } from '../raster/index.js';
 import type { FloatAccumulator } from './float.js';
 import { IntegerAccumulator, type IntegerKind } from './integer.js';
@@ -74,14 +74,6 @@ function isExpectedArray(data: TypedArray, kind: IntegerKind): boolean {
   return kind.signed ? data instanceof Int16Array : data instanceof Uint16Array;
 }
 
-function sameGrid(p: Affine, q: Affine): boolean {
-  const scale = Math.max(Math.abs(p.a), Math.abs(p.b), Math.abs(p.d), Math.abs(p.e));
-  for (const k of ['a', 'b', 'c', 'd', 'e', 'f'] as const) {
-    const tol = 1e-9 * Math.max(Math.abs(p[k]), Math.abs(q[k]), scale);
-    if (!(Math.abs(p[k] - q[k]) <= tol)) return false;
-  }
-  return true;
-}
 
 /** Per-block QA mask (1 = masked), by lookup table for 8/16-bit QA and by test otherwise. */
 class QaMasker {

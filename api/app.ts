@@ -18,7 +18,7 @@ import { listDistricts, sceneStatusCounts, failures } from '../workers/store/ind
 import { InputError, isInputError } from '../workers/core/errors.js';
 import { parseYear, quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
-import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';
+import { registerPage } from './page.js';
 import { commonDirectory, relativeInText, relativeToRoot } from './relative-paths.js';
 
 /** The caution every answer carries (the one wording of workers/core/defaults.ts). */
@@ -164,15 +164,8 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails });
   });
 
-  app.get(PAGE_CSS_PATH, async (_req, reply) => {
-    reply.type('text/css; charset=utf-8');
-    return PAGE_CSS;
-  });
-
-  app.get('/', async (_req, reply) => {
-    reply.type('text/html; charset=utf-8');
-    return renderPage(await districtTable(store, 'year'), CAUTION);
-  });
+  // the web page (built from api/web/ into dist/web/) at /
+  registerPage(app);
 
   return app;
 }

@@ -5,6 +5,7 @@
  * test failure; without it, a suite whose server is unreachable is skipped and
  * says so plainly in the output.
  */
+import { existsSync } from 'node:fs';
 import net from 'node:net';
 
 export const requireServices = process.env.HEATLEDGER_REQUIRE_SERVICES === '1';
@@ -36,5 +37,24 @@ export async function serviceAvailable(name: 'postgres' | 'redis', suite: string
     throw new Error(`${suite}: ${name} at ${url} is unreachable and HEATLEDGER_REQUIRE_SERVICES=1`);
   }
   console.log(`SKIPPED ${suite}: no ${name} server at ${url} (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+  return false;
+}
+
+/** Where the browser tests find Chromium (Debian's `chromium` package; `.ci/run` installs it when missing). */
+export const CHROMIUM_PATH = process.env.HEATLEDGER_CHROMIUM ?? '/usr/bin/chromium';
+
+/** The flags every browser test starts Chromium with: headless, no sandbox, nothing fetched from outside. */
+export const CHROMIUM_ARGS = ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'];
+
+/**
+ * Whether a suite that needs a local tool can run. Like {@link serviceAvailable}:
+ * with HEATLEDGER_REQUIRE_SERVICES=1 a missing tool throws, otherwise the suite
+ * is skipped with a plain "SKIPPED" line.
+ */
+export function toolAvailable(name: 'chromium', suite: string): boolean {
+  const where = name === 'chromium' ? CHROMIUM_PATH : name;
+  if (existsSync(where)) return true;
+  if (requireServices) throw new Error(`${suite}: ${name} is missing at ${where} and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: no ${name} at ${where} (install Debian's ${name} package; set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
   return false;
 }

@@ -161,6 +161,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push(`Full district tables (Kelvin; ATI in 1/K): ${dateCsv}`);
   out.push(`                                          ${yearCsv}`);
   out.push(`Try: npx heatledger table --level year --data-dir ${config.dataDir}`);
+  out.push(`See it on a map: npx heatledger serve --data-dir ${config.dataDir}, then open http://127.0.0.1:8080/`);
   out.push('');
   out.push(`Caution: ${CAUTION_SHORT}`);
   process.stdout.write(out.join('\n') + '\n');

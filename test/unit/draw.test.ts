@@ -154,6 +154,12 @@ describe('map', () => {
     expect(Math.min(...nums.map((n) => n[0]))).toBeGreaterThanOrEqual(0);
     expect(Math.max(...nums.map((n) => n[0]))).toBeLessThanOrEqual(320);
     expect(Math.max(...nums.map((n) => n[1]))).toBeLessThanOrEqual(m.height);
+    // the inner edge (hole) of the rural reference stays in view; its outer edge may not
+    const [rural] = elements(m.svg, 'path', 'hl-rural');
+    const rings = rural.d.split(/Z/i).filter((x) => /\d/.test(x)).map((sub) => [...sub.matchAll(/(-?[\d.]+),(-?[\d.]+)/g)].map((x) => [Number(x[1]), Number(x[2])]));
+    expect(rings).toHaveLength(2);
+    const inView = (ring: number[][]) => ring.every(([x, y]) => x >= -0.5 && x <= 320.5 && y >= -0.5 && y <= m.height + 0.5);
+    expect(rings.filter(inView)).toHaveLength(1);
   });
 });
 

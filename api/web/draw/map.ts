@@ -39,8 +39,8 @@ export interface MapOptions {
   /** Prefix of ids inside the SVG (pattern), unique per document. Default "hl". */
   idPrefix?: string;
   /**
-   * Fit the view to the districts only ('districts'; the rural reference is then
-   * drawn where it falls inside the view) or to the rural reference too ('all', default).
+   * Fit the view to the districts and the inner edge of the rural reference ('districts'; the
+   * rest of the reference is drawn where it falls inside the view) or to all of it ('all', default).
    */
   fit?: 'districts' | 'all';
   /** Space around the fitted area as a fraction of the width (default 0; at least 6 px). */
@@ -77,12 +77,24 @@ export function forD3(feature: Feature<Geometry>): Feature<Geometry> {
   return feature;
 }
 
+/** Vertices of the interior rings (holes) of a polygon geometry, lon/lat. */
+function innerRingVertices(g: Geometry): number[][] {
+  if (g.type === 'Polygon') return g.coordinates.slice(1).flat();
+  if (g.type === 'MultiPolygon') return g.coordinates.flatMap((p) => p.slice(1).flat());
+  return [];
+}
+
 export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMap {
   const p = o.idPrefix ?? 'hl';
   const drawable = features.filter((f) => f.geometry !== null);
   const asD3 = new Map(drawable.map((f) => [f.id, forD3({ type: 'Feature', properties: {}, geometry: f.geometry as Geometry })]));
   const districts = drawable.filter((f) => f.role !== 'rural');
   const fitTo = (o.fit === 'districts' && districts.length > 0 ? districts : drawable).map((f) => asD3.get(f.id) as Feature<Geometry>);
+  if (o.fit === 'districts' && districts.length > 0) {
+    // keep the inner edge of the rural reference in view: the vertices of its holes
+    const holes = drawable.filter((f) => f.role === 'rural').flatMap((f) => innerRingVertices(f.geometry as Geometry));
+    if (holes.length > 0) fitTo.push({ type: 'Feature', properties: {}, geometry: { type: 'MultiPoint', coordinates: holes } });
+  }
   const collection: FeatureCollection = { type: 'FeatureCollection', features: fitTo };
 
   const width = Math.max(50, o.width);

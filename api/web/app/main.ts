@@ -266,6 +266,7 @@ async function toggleScenes(button: HTMLButtonElement): Promise<void> {
     const id = state.district;
     const answer = await api.scenes({ from: `${year}-01-01`, to: `${year}-12-31` });
     const scenes = answer.rows
+      .filter((s) => s.pass === 'day' || s.pass === 'night') // temperature scenes; albedo scenes have no pass
       .map((s) => ({ s, d: s.districts.find((x) => x.district === id) }))
       .filter((x): x is { s: SceneRow; d: SceneRow['districts'][number] } => x.d !== undefined)
       .sort((a, b) => String(a.s.acquired_at).localeCompare(String(b.s.acquired_at)));

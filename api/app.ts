@@ -1,97 +1,131 @@
 /**
- * The thin HTTP API: each route validates its query, runs one named query
- * through the store, and serialises. JSON by default, CSV on `format=csv`.
+ * The HTTP API: the routes under /api/ (./routes.ts, the write routes in
+ * ./ingest-routes.ts), their OpenAPI document, and what guards them: tokens,
+ * rate limits, security headers, CORS, body limits, response tags (ETag) and
+ * the cache of what depends only on the store's last run.
  *
  * Responses never carry a stack trace, an SQL fragment or an absolute server
  * path: a bad request is a 400 naming the parameter and what it accepts; a
  * store that does not answer is a 503; anything else is a 500 whose details
  * (with the stack) go to the server log only.
  */
-import path from 'node:path';
 import type { Writable } from 'node:stream';
-import Fastify, { type FastifyError, type FastifyInstance } from 'fastify';
+import Fastify, { type FastifyBaseLogger, type FastifyError, type FastifyInstance } from 'fastify';
+import cors from '@fastify/cors';
 import helmet from '@fastify/helmet';
+import rateLimit from '@fastify/rate-limit';
+import swagger from '@fastify/swagger';
 import type { Store } from '../workers/store/index.js';
-import { districtTable, roundTableRows, TABLE_FIELDS } from '../workers/store/district-table.js';
-import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
-import { listDistricts, sceneStatusCounts, failures } from '../workers/store/index.js';
-import { InputError, isInputError } from '../workers/core/errors.js';
-import { parseYear, quoteGiven } from '../workers/core/year.js';
+import { lastFinishedRun } from '../workers/store/store-summary.js';
+import { isInputError } from '../workers/core/errors.js';
+import { quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
+import { VERSION } from '../workers/version.js';
+import { UNITS } from './answers/common.js';
+import { RunCache } from './cache.js';
+import { checkBearer } from './tokens.js';
+import { registerReadRoutes } from './routes.js';
+import { registerIngestRoutes, type IngestJobs } from './ingest-routes.js';
+import { createLogger, logLevelFromEnv, type LogLevel } from '../workers/log.js';
 import { registerPage } from './page.js';
-import { commonDirectory, relativeInText, relativeToRoot } from './relative-paths.js';
 
 /** The caution every answer carries (the one wording of workers/core/defaults.ts). */
 export const CAUTION = CAUTION_TEXT;
 
-/** Log levels `LOG_LEVEL` may name (the levels of Fastify's logger). */
-export const LOG_LEVELS = ['fatal', 'error', 'warn', 'info', 'debug', 'trace', 'silent'] as const;
-export type LogLevel = (typeof LOG_LEVELS)[number];
+/** Unit of each measured field of the district table (the suffix of its name). */
+export const TABLE_UNITS = UNITS;
 
-/** `LOG_LEVEL` from the environment, default info; anything else is refused by name. */
-export function logLevelFromEnv(env: NodeJS.ProcessEnv = process.env): LogLevel {
-  const v = env.LOG_LEVEL;
-  if (v === undefined || v === '') return 'info';
-  if (!(LOG_LEVELS as readonly string[]).includes(v)) throw new InputError(`LOG_LEVEL must be one of ${LOG_LEVELS.join(', ')}, got ${quoteGiven(v)}`);
-  return v as LogLevel;
-}
+/** The levels and the one reader of LOG_LEVEL live with the logger (workers/log.ts). */
+export { LOG_LEVELS, logLevelFromEnv, type LogLevel } from '../workers/log.js';
+
+/** Requests per minute per client address, unless configured otherwise. */
+export const DEFAULT_READS_PER_MINUTE = 6000;
+export const DEFAULT_WRITES_PER_MINUTE = 30;
+/** Largest request body accepted, bytes. */
+export const BODY_LIMIT_BYTES = 64 * 1024;
 
 export interface AppOptions {
   /** Logger level; default `LOG_LEVEL` from the environment, else info. */
   logLevel?: LogLevel;
   /** Where the JSON log lines go; default standard output. */
   logStream?: Writable;
-  /** Folder scene paths are shown relative to; default the common folder of the stored scenes. */
+  /** Folder scene paths are shown relative to, and the folder ingest requests must stay in. */
   dataRoot?: string;
+  /** Bearer token of the write routes; without one, writes are refused (403). */
+  token?: string;
+  /** Bearer token the read routes ask for too; without one, reads are open. */
+  readToken?: string;
+  /** The one origin allowed to call from a browser page elsewhere (CORS); without one, CORS stays off. */
+  corsOrigin?: string;
+  /** Per client address and minute. */
+  readsPerMinute?: number;
+  writesPerMinute?: number;
+  /** What POST /api/ingest hands its files to; without it, ingest answers 503. */
+  jobs?: IngestJobs;
 }
-
-/** Unit of each measured field of the district table (the suffix of its name). */
-export const TABLE_UNITS = { lst_day_k: 'K', lst_night_k: 'K', suhi_day_k: 'K', suhi_night_k: 'K', ati_per_k: '1/K' } as const;
-
-const tableQuery = {
-  type: 'object',
-  properties: {
-    level: { type: 'string', enum: ['date', 'year'], default: 'date' },
-    // parsed by parseYear in the handler: decimal digits only, in range
-    year: { type: 'string' },
-    format: { type: 'string', enum: ['json', 'csv'], default: 'json' },
-  },
-  additionalProperties: false,
-} as const;
 
 interface SchemaError {
   keyword: string;
   instancePath: string;
   params: Record<string, unknown>;
   message?: string;
-  parentSchema?: { properties?: Record<string, unknown> };
+  data?: unknown;
+  parentSchema?: { properties?: Record<string, unknown>; description?: string };
 }
 
-/** One plain sentence per schema error, naming the query parameter and what it accepts. */
+/** One plain sentence per schema error, naming the parameter and what it accepts. */
 function schemaMessage(errors: readonly SchemaError[], dataVar: string): string {
-  const where = dataVar === 'querystring' ? 'query parameter' : `${dataVar} field`;
+  const where = dataVar === 'querystring' ? 'query parameter' : dataVar === 'params' ? 'path parameter' : `${dataVar} field`;
   return errors
     .map((e) => {
-      const name = e.instancePath.replace(/^\//, '');
+      const name = e.instancePath.replace(/^\//, '').replace(/\//g, '.');
       if (e.keyword === 'additionalProperties') {
         const known = Object.keys(e.parentSchema?.properties ?? {});
-        return `unknown ${where} ${quoteGiven(String(e.params.additionalProperty))}; known: ${known.join(', ')}`;
+        return `unknown ${where} ${quoteGiven(String(e.params.additionalProperty))}; known: ${known.join(', ') || 'none'}`;
       }
       if (e.keyword === 'enum') return `${where} ${name} must be one of ${(e.params.allowedValues as unknown[]).join(', ')}`;
       if (e.keyword === 'type') return `${where} ${name} must be given once, as ${String(e.params.type)}`;
+      if (e.keyword === 'pattern' && e.parentSchema?.description) return `${where} ${name} must be ${e.parentSchema.description}, got ${quoteGiven(String(e.data))}`;
+      if (e.keyword === 'required') return `${where} ${String(e.params.missingProperty)} is required`;
       return `${where} ${name} ${e.message ?? 'is invalid'}`;
     })
     .join('; ');
 }
 
+/** The tag of what the store holds: software version and the run that finished last. */
+async function runTag(store: Store): Promise<string> {
+  const run = await lastFinishedRun(store);
+  return run ? `"${VERSION}-r${run.id}-${Date.parse(run.finished_at)}"` : `"${VERSION}-r0"`;
+}
+
+/** Whether an If-None-Match header names `tag` (a list, weak tags and * included; RFC 9110 §13.1.2). */
+function tagMatches(header: string | undefined, tag: string): boolean {
+  if (!header) return false;
+  return header.split(',').some((t) => {
+    const v = t.trim();
+    return v === '*' || v.replace(/^W\//, '') === tag;
+  });
+}
+
 export function buildApp(store: Store, options: AppOptions = {}): FastifyInstance {
   const level = options.logLevel ?? logLevelFromEnv();
   const app = Fastify({
-    logger: options.logStream ? { level, stream: options.logStream } : { level },
-    // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped;
-    // verbose: schema errors carry their schema, so a message can list the known parameters
-    ajv: { customOptions: { removeAdditional: false, verbose: true } },
+    // the one logger (workers/log.ts); Fastify's own type of it, so routes keep their usual types
+    loggerInstance: createLogger({ level, stream: options.logStream }) as FastifyBaseLogger,
+    bodyLimit: BODY_LIMIT_BYTES,
+    // an unknown query parameter (a misspelt "yaer=2024") is refused, not silently dropped; nothing is
+    // coerced (numbers are read by the routes, digits only); verbose: errors carry their schema, so a
+    // message can list the known parameters and what a value must look like
+    ajv: { customOptions: { removeAdditional: false, coerceTypes: false, verbose: true } },
     schemaErrorFormatter: (errors, dataVar) => new Error(schemaMessage(errors as unknown as SchemaError[], dataVar)),
+  });
+  const cache = new RunCache();
+
+  void app.register(rateLimit, {
+    global: true,
+    max: options.readsPerMinute ?? DEFAULT_READS_PER_MINUTE,
+    timeWindow: 60_000,
+    errorResponseBuilder: (_req, ctx) => ({ statusCode: ctx.statusCode, error: `too many requests from this address: at most ${ctx.max} a minute; retry after ${ctx.after}` }),
   });
 
   // Security headers; the Content-Security-Policy allows only this server's own files
@@ -114,8 +148,24 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     },
   });
 
+  if (options.corsOrigin) void app.register(cors, { origin: options.corsOrigin, methods: ['GET', 'HEAD', 'POST'], allowedHeaders: ['Authorization', 'Content-Type', 'If-None-Match'], exposedHeaders: ['ETag', 'X-Next-Cursor'] });
+
+  void app.register(swagger, {
+    openapi: {
+      openapi: '3.1.0',
+      info: {
+        title: 'heatledger API',
+        version: VERSION,
+        description: `District land-surface temperature (LST), surface urban heat island (SUHI) and apparent thermal inertia (ATI) from a store of satellite scenes. ${CAUTION_TEXT}`,
+      },
+      components: { securitySchemes: { bearer: { type: 'http', scheme: 'bearer', description: 'HEATLEDGER_TOKEN for writes; HEATLEDGER_READ_TOKEN (when set) for reads' } } },
+    },
+  });
+
   app.setErrorHandler((err: FastifyError, req, reply) => {
-    if (err.validation || isInputError(err)) return reply.status(400).send({ error: err.message });
+    if (err.validation) return reply.status(400).send({ error: err.message });
+    if (err.code === 'FST_ERR_CTP_BODY_TOO_LARGE') return reply.status(400).send({ error: `request body is larger than the ${BODY_LIMIT_BYTES} bytes this server accepts` });
+    if (isInputError(err)) return reply.status(err.statusCode === 404 ? 404 : 400).send({ error: err.message });
     if (err.name === 'ServiceError') {
       req.log.error({ err }, 'the store did not answer');
       return reply.status(503).send({ error: 'the store is not answering; see the server log' });
@@ -127,45 +177,48 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
 
   app.setNotFoundHandler((req, reply) => {
     const where = (req.url.split('?')[0] ?? '').slice(0, 200);
-    return reply.status(404).send({ error: `no such resource: ${req.method} ${where}` });
+    return reply.status(404).send({ error: `no such resource: ${req.method} ${where.replace(/[^\x20-\x7e]/g, '?')}` });
   });
 
-  app.get('/api/health', async () => {
-    await store.query('SELECT 1');
-    return { ok: true, store: store.kind };
+  app.decorateRequest('runTag', '');
+  app.decorateRequest('memo', null as never);
+
+  // reads: open, or closed by the read token; the write routes check their own token
+  app.addHook('onRequest', async (req, reply) => {
+    if (!req.url.startsWith('/api/')) return;
+    if (options.readToken !== undefined && req.method !== 'POST') {
+      const denied = checkBearer(req.headers.authorization, [options.readToken, options.token]);
+      if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
+    }
+    const tag = await runTag(store);
+    req.runTag = tag;
+    req.memo = cache.memo(tag);
+    reply.header('ETag', tag);
+    if ((req.method === 'GET' || req.method === 'HEAD') && tagMatches(req.headers['if-none-match'], tag)) return reply.status(304).send();
   });
 
-  app.get('/api/districts', async () => {
-    const rows = await listDistricts(store);
-    return rows.map((d) => ({ id: d.id, name: d.name, role: d.role, area_m2: d.areaSquareMetres }));
+  app.addHook('preHandler', async (req, reply) => {
+    if (req.method !== 'GET' || !req.routeOptions.config.cacheBody) return;
+    const kept = cache.body(req.runTag, `${req.headers.accept ?? ''} ${req.url}`);
+    if (kept) return reply.type(kept.contentType).send(kept.payload);
   });
 
-  app.get<{ Querystring: { level: 'date' | 'year'; year?: string; format: 'json' | 'csv' } }>(
-    '/api/table',
-    { schema: { querystring: tableQuery } },
-    async (req, reply) => {
-      const year = req.query.year === undefined ? undefined : parseYear(req.query.year, 'query parameter year');
-      const rows = roundTableRows(await districtTable(store, req.query.level, year));
-      if (req.query.format === 'csv') {
-        reply.type('text/csv; charset=utf-8');
-        return toCsv(rows, TABLE_FIELDS[req.query.level]);
-      }
-      return { units: TABLE_UNITS, caution: CAUTION, rows };
-    },
-  );
-
-  app.get('/api/status', async () => {
-    const root = options.dataRoot !== undefined ? path.resolve(options.dataRoot) : commonDirectory((await store.query<{ path: string }>('SELECT path FROM scenes')).map((r) => r.path));
-    const fails = (await failures(store)).map((f) => {
-      const rel = relativeToRoot(f.path, root);
-      // the scene's own path first (it may hold blanks), then any other absolute path in the message
-      return { ...f, path: rel, error: relativeInText(problemText(f.error).split(f.path).join(rel), root) };
-    });
-    return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails });
+  app.addHook('onSend', async (req, reply, payload) => {
+    if (req.method === 'GET' && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
+      cache.keepBody(req.runTag, `${req.headers.accept ?? ''} ${req.url}`, { contentType: String(reply.getHeader('content-type')), payload });
+    }
+    return payload;
   });
 
-  // the web page (built from api/web/ into dist/web/) at /
-  registerPage(app);
+  void app.register(async (api) => {
+    registerReadRoutes(api, store, { dataRoot: options.dataRoot });
+    registerIngestRoutes(api, { token: options.token, dataRoot: options.dataRoot, jobs: options.jobs, writesPerMinute: options.writesPerMinute ?? DEFAULT_WRITES_PER_MINUTE });
+
+    api.get('/api/openapi.json', { schema: { summary: 'This document (OpenAPI 3.1)' } }, async () => api.swagger());
+
+    // the web page (built from api/web/ into dist/web/) at /
+    registerPage(api);
+  });
 
   return app;
 }

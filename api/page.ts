@@ -46,5 +46,5 @@ export function registerPage(app: FastifyInstance, folder: string | null = built
       if (path.basename(filePath) === 'index.html') res.header('cache-control', 'no-cache');
     },
   });
-  app.get('/', async (_req, reply) => reply.sendFile('index.html', { maxAge: 0, immutable: false }));
+  app.get('/', { schema: { hide: true } }, async (_req, reply) => reply.sendFile('index.html', { maxAge: 0, immutable: false }));
 }

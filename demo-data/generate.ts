@@ -270,12 +270,20 @@ function checkOptions(o: ArchiveOptions): Required<ArchiveOptions> {
  * (UTC). Metadata: KIND (lst / albedo), PASS (day / night), ACQUISITION_TIME
  * (UTC ISO 8601), CLOUD_COVER (percent), CITY.
  *
+ * `onProgress` is told each scene written, with the number of scenes the
+ * archive will hold (years × (2 × pairsPerYear + 1)).
+ *
  * @returns written files in date order and the districts path
  * @throws InputError for options out of range
  * @example const { files } = await generateArchive('demo-data/.generated', { years: 2, pairsPerYear: 3 });
  */
-export async function generateArchive(outDir: string, options: ArchiveOptions = {}): Promise<ArchiveResult> {
+export async function generateArchive(
+  outDir: string, options: ArchiveOptions = {}, onProgress?: (written: number, total: number) => void,
+): Promise<ArchiveResult> {
   const o = checkOptions(options);
+  const totalScenes = o.years * (2 * o.pairsPerYear + 1);
+  let written = 0;
+  const wrote = (): void => { written++; onProgress?.(written, totalScenes); };
   await mkdir(outDir, { recursive: true });
   const scenery = buildScenery(o.pixelSizeMetres as Metres, o.ruralMarginMetres, o.seed, DISTRICTS.map((d) => o.trendsKelvinPerYear[d.id] ?? 0));
   const n = scenery.width * scenery.height;
@@ -348,7 +356,7 @@ export async function generateArchive(outDir: string, options: ArchiveOptions = 
             CITY: CITY_NAME,
           },
           dateTime: tiffDateTime(when),
-        }));
+        }).then(wrote));
         if (pending.length >= 4) await flush();
       }
     }
@@ -374,7 +382,7 @@ export async function generateArchive(outDir: string, options: ArchiveOptions = 
         CITY: CITY_NAME,
       },
       dateTime: tiffDateTime(when),
-    }));
+    }).then(wrote));
   }
   await flush();
   const districtsPath = join(outDir, `${CITY_SLUG}_districts.geojson`);

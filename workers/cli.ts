@@ -243,11 +243,42 @@ function addHotspotsCommand(program: Command): void {
     });
 }
 
+/** `heatledger export`. */
+function addExportCommand(program: Command): void {
+  program
+    .command('export')
+    .description(
+      'Write the district numbers to a file for other tools: CSV or Parquet tables with one row per district and scene, date or year ' +
+        '(lst_day_k, lst_night_k, suhi_day_k, suhi_night_k in K, ati_per_k in 1/K; Parquet columns typed), or a GeoJSON of the districts ' +
+        '(RFC 7946, lon/lat) with each year\'s values (suhi_night_2024_k, dates_2024, ...) and trends over the years (Sen slope per decade with ' +
+        'its 95 % interval, Mann–Kendall p, Benjamini–Hochberg q, verdict) as properties.\n' +
+        'Numbers are rounded to 0.0001 K and ATI to 6 significant digits. Beside the file, PATH.json records the software version, ' +
+        'these options, the runs that stored the values with their parameters, and the content hashes of the scenes behind them.\n' +
+        CAUTION,
+    )
+    .addOption(new Option('--format <format>', 'file format').choices(['csv', 'geojson', 'parquet']).makeOptionMandatory())
+    .addOption(new Option('--level <level>', 'one row per district and scene (pass), date, or year (default: date; GeoJSON: year, the only level it takes)').choices(['scene', 'date', 'year']))
+    .option('--metric <metrics...>', `only these metrics (default all): ${metricHelp}; several may be given, space- or comma-separated`)
+    .option('--from <year>', 'first year (UTC)', parseYearOption('--from'))
+    .option('--to <year>', 'last year (UTC)', parseYearOption('--to'))
+    .option('--min-dates <n>', 'GeoJSON trends: a year counts only with at least this many dates', parseInteger('--min-dates', 1, 366), 3)
+    .requiredOption('--out <path>', 'file to write (its folder must exist); the sidecar goes to PATH.json')
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runExportCommand } = await import('./commands/export.js');
+      await runExportCommand(opts);
+    });
+}
+
 /** `heatledger worker`. */
 function addWorkerCommand(program: Command): void {
   program
     .command('worker')
-    .description('Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.')
+    .description(
+      'Serve queued jobs (distributed mode): needs REDIS_URL and DATABASE_URL. Run any number, on any machines that see the scene files at the same paths.\n' +
+        `Log: one JSON line per event on standard output at $${ENV.logLevel} (fatal, error, warn, info — the default —, debug, trace, silent): ` +
+        'ready and stopped, each job done with its milliseconds (info), a failed try (warn), a file refused as bad input or a lost connection (error), jobs taken (debug).',
+    )
     .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency', 1, 1024), Number(process.env[ENV.concurrency] ?? 1))
     .addOption(new Option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value')
       .env(ENV.stalledInterval).argParser(parseNumber('--stalled-interval')).default(STALLED_INTERVAL_MS / 1000))
@@ -308,6 +339,7 @@ export function buildProgram(): Command {
   addTableCommand(program);
   addTrendCommand(program);
   addHotspotsCommand(program);
+  addExportCommand(program);
   addWorkerCommand(program);
   addDemoCommand(program);
   addServeCommand(program);

@@ -27,6 +27,12 @@ export const PRECISION = {
   probability: { significant: 6 },
   /** Values of no known unit (a raster without scale/offset): 6 significant digits. */
   plain: { significant: 6 },
+  /** Trend slopes of temperatures (K per year or per decade): 0.0001 K. */
+  kelvinSlope: { decimals: 4 },
+  /** Trend slopes of ATI (1/K per year or per decade): 1e-8 1/K. */
+  perKelvinSlope: { decimals: 8 },
+  /** Areas (m²): 0.1 m². */
+  area: { decimals: 1 },
 } as const satisfies Record<string, Precision>;
 
 /**

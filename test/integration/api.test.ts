@@ -1,8 +1,9 @@
 import { execFileSync } from 'node:child_process';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { PassThrough } from 'node:stream';
+import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { FastifyInstance } from 'fastify';
 import { buildApp, CAUTION, logLevelFromEnv } from '../../api/app.js';
@@ -10,6 +11,7 @@ import { openStore, type Store } from '../../workers/store/store.js';
 import { FORMULA_NAME, seedHeatStore, type SeededStore } from '../support/heat-store.js';
 import { ensurePageBuild } from '../support/page-build.js';
 
+const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
 let store: Store;
 let app: FastifyInstance;
 let tmp: string;
@@ -59,10 +61,14 @@ afterAll(async () => {
 });
 
 describe('HTTP API', () => {
-  it('answers health with the store kind', async () => {
+  it('answers health with the store kind, schema and software versions, last run and years', async () => {
     const r = await app.inject({ method: 'GET', url: '/api/health' });
     expect(r.statusCode).toBe(200);
-    expect(r.json()).toEqual({ ok: true, store: 'pglite' });
+    // the schema version is the highest numbered file of sql/migrations; the software version is package.json's
+    const migrations = readdirSync(path.join(ROOT, 'sql', 'migrations')).map((f) => Number(/^(\d+)_/.exec(f)?.[1] ?? NaN)).filter(Number.isFinite);
+    const pkg = JSON.parse(readFileSync(path.join(ROOT, 'package.json'), 'utf8')) as { version: string };
+    // the seeded store holds one July 2024 pair and no recorded run
+    expect(r.json()).toEqual({ ok: true, store: 'pglite', schema_version: Math.max(...migrations), version: pkg.version, last_run: null, years: [2024] });
   });
   it('serves the district table as JSON with units and the caution', async () => {
     const r = await app.inject({ method: 'GET', url: '/api/table?level=date' });
@@ -143,7 +149,7 @@ describe('HTTP API', () => {
   });
   it('lists districts and status', async () => {
     const d = await app.inject({ method: 'GET', url: '/api/districts' });
-    expect(d.json().map((x: { id: string }) => x.id)).toEqual(['core', 'park', 'quay', 'rural']);
+    expect(d.json().features.map((x: { id: string }) => x.id)).toEqual(['core', 'park', 'quay', 'rural']);
     const s = await app.inject({ method: 'GET', url: '/api/status' });
     expect(s.json().scenes).toMatchObject({ processed: 2, failed: 1, total: 3 });
   });

@@ -109,8 +109,10 @@ describe('district table: field names carry their unit', () => {
       for (const row of body.rows) expect(Object.keys(row)).toEqual(YEAR_FIELDS);
       const csv = (await app.inject({ method: 'GET', url: '/api/table?level=date&format=csv' })).body;
       expect(readCsv(csv)[0]).toEqual(DATE_FIELDS);
-      const districts = (await app.inject({ method: 'GET', url: '/api/districts' })).json() as Record<string, unknown>[];
-      for (const d of districts) expect(Object.keys(d)).toEqual(['id', 'name', 'role', 'area_m2']);
+      const districts = ((await app.inject({ method: 'GET', url: '/api/districts' })).json() as { features: { properties: Record<string, unknown> }[] }).features.map((f) => f.properties);
+      for (const d of districts) {
+        expect(Object.keys(d)).toEqual(['id', 'name', 'role', 'area_m2', 'lst_day_k', 'lst_night_k', 'suhi_day_k', 'suhi_night_k', 'ati_per_k', 'dates_day', 'dates_night', 'value']);
+      }
       // the seeded areas (test/support/heat-store.ts): 1 km² per district, 50 km² for the rural reference
       expect(districts.find((d) => d.id === 'rural')!.area_m2).toBe(5e7);
     } finally {

@@ -12,7 +12,7 @@ import { spawnSync } from 'node:child_process';
 import { beforeAll, describe, expect, it } from 'vitest';
 import {
   benjaminiHochberg, hamedRao, mannKendall, normalQuantile, parseMonths, parseSeriesCsv, seasonalKendall, seasonalTrendOfSeries, seasonMonths,
-  senSlope, trendOfSeries, twoSidedP, yearlySeries,
+  senPivot, senSlope, trendOfSeries, twoSidedP, yearlySeries,
 } from '../../workers/core/trend/index.js';
 import { isInputError } from '../../workers/core/errors.js';
 import { mulberry32 } from '../../workers/core/prng.js';
@@ -75,7 +75,7 @@ for c in req["cases"]:
     r = stats.kendalltau(t, x, method="asymptotic")
     out["kendall"].append({"tau": float(r[0]), "p": float(r[1])})
     s = stats.theilslopes(x, t, alpha=0.95)
-    out["theil"].append([float(s[0]), float(s[2]), float(s[3])])
+    out["theil"].append([float(s[0]), float(s[2]), float(s[3]), float(s[1]), float(np.median(t)), float(np.median(x))])
 out["ppf"] = [float(stats.norm.ppf(p)) for p in req["ppf"]]
 try:
     from statsmodels.stats.multitest import multipletests
@@ -98,7 +98,7 @@ json.dump(out, sys.stdout)
 
 interface Reference {
   kendall: { tau: number; p: number }[];
-  theil: [number, number, number][];
+  theil: [number, number, number, number, number, number][];
   ppf: number[];
   fdr: number[][] | null;
   hr: { factor: number; lags: number[] }[] | null;
@@ -140,6 +140,21 @@ if (!HAVE_SCIPY) {
         expect(s.slope).toBeCloseTo(slope, 12);
         expect(s.lower).toBeCloseTo(lo, 12);
         expect(s.upper).toBeCloseTo(hi, 12);
+      });
+    });
+    it('the Sen line through its pivot (median year, median value) has scipy.stats.theilslopes\' intercept on 40 series', () => {
+      // SciPy's theilslopes intercept is median(y) - slope * median(x) (its documentation, method='separate'
+      // default; Conover 1980): the line through the pivot must give that value at x = 0
+      CASES.forEach((c, i) => {
+        const r = trendOfSeries(c.t, c.x, { alpha: 0.05 });
+        const [slope, , , intercept, medianT, medianX] = ref.theil[i];
+        // the pivot is numpy.median of the years and of the values
+        expect(r.pivot_year).toBe(medianT);
+        expect(r.pivot_value).toBeCloseTo(medianX, 12);
+        expect(senPivot(c.t, c.x)).toEqual({ time: r.pivot_year, value: r.pivot_value });
+        const atZero = r.pivot_value! - r.slope_per_year! * r.pivot_year!;
+        // intercepts are ~-1e2..1e2 K from a pivot ~2000 years away: compare at 1e-9 relative to the slope term
+        expect(Math.abs(atZero - intercept)).toBeLessThan(1e-9 * Math.max(1, Math.abs(slope * r.pivot_year!)));
       });
     });
     it('normal quantile equals scipy.stats.norm.ppf', () => {

@@ -4,16 +4,55 @@
  */
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { mkdir, rm, writeFile } from 'node:fs/promises';
-import { join, resolve } from 'node:path';
+import { join, relative, resolve } from 'node:path';
 import { runtimeConfig } from '../run/config.js';
 import type { Row } from '../format.js';
+import type { Store } from '../store/interface.js';
 import { CAUTION_SHORT } from './common.js';
-import { summaryLines, throwIfRunFailed } from './ingest.js';
+import { sceneProgressDisplay, summaryLines, throwIfRunFailed } from './ingest.js';
+import { startProgress } from './progress.js';
 
 export interface DemoOptions {
   archive?: string;
   dataDir?: string;
   threads?: number;
+}
+
+/** The visible folder, in the working directory, the demo writes its files into (not the store). */
+export const DEMO_OUTPUT_DIR = 'heatledger-output';
+
+/** A file the demo wrote, named in its closing lines. */
+export interface DemoOutput {
+  path: string;
+  what: string;
+}
+
+/**
+ * The demo's exports (each with its sidecar PATH.json): the district tables per
+ * date and per year as CSV, per scene as Parquet, and the districts with their
+ * yearly values and trends as GeoJSON.
+ */
+export async function writeDemoExports(store: Store, outDir: string): Promise<DemoOutput[]> {
+  const { exportSpec, writeExport } = await import('./export.js');
+  const files: { name: string; format: 'csv' | 'geojson' | 'parquet'; level: 'scene' | 'date' | 'year'; what: string }[] = [
+    { name: 'district-table-by-date.csv', format: 'csv', level: 'date', what: 'district table, one row per district and date (K; ATI 1/K)' },
+    { name: 'district-table-by-year.csv', format: 'csv', level: 'year', what: 'district table, one row per district and year' },
+    { name: 'district-table-by-scene.parquet', format: 'parquet', level: 'scene', what: 'one row per district and scene (pass), typed Parquet' },
+    { name: 'districts.geojson', format: 'geojson', level: 'year', what: 'districts with yearly values and trends, for GIS tools' },
+  ];
+  const out: DemoOutput[] = [];
+  for (const f of files) {
+    const result = await writeExport(store, await exportSpec({ format: f.format, level: f.level, out: join(outDir, f.name) }));
+    out.push({ path: result.path, what: f.what }, { path: result.sidecar, what: 'its sidecar: version, parameters, scene hashes' });
+  }
+  return out;
+}
+
+/** The closing lines that name every file the demo wrote (relative to the output folder). */
+export function demoOutputLines(outputs: readonly DemoOutput[], outDir: string): string[] {
+  const shown = (p: string) => relative(outDir, p) || p;
+  const width = Math.max(0, ...outputs.map((o) => shown(o.path).length));
+  return [`Files written into ${outDir}:`, ...outputs.map((o) => `  ${shown(o.path).padEnd(width)}  ${o.what}`)];
 }
 
 function mean(values: (number | null | undefined)[]): number | null {
@@ -50,10 +89,15 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
       }
     }
     process.stderr.write(`Generating the demo archive of ${CITY_NAME} (an invented city) in ${archive} ...\n`);
-    await generateArchive(archive, {
-      firstYear: DEMO_ARCHIVE.firstYear, years: DEMO_ARCHIVE.years, pairsPerYear: DEMO_ARCHIVE.pairsPerYear,
-      trendsKelvinPerYear: Object.fromEntries(DISTRICTS.map((d) => [d.id, d.trendKelvinPerYear * DEMO_ARCHIVE.warmingScale])),
-    });
+    const progress = startProgress({ label: 'generated scenes', total: 0 });
+    try {
+      await generateArchive(archive, {
+        firstYear: DEMO_ARCHIVE.firstYear, years: DEMO_ARCHIVE.years, pairsPerYear: DEMO_ARCHIVE.pairsPerYear,
+        trendsKelvinPerYear: Object.fromEntries(DISTRICTS.map((d) => [d.id, d.trendKelvinPerYear * DEMO_ARCHIVE.warmingScale])),
+      }, (written, total) => progress.update(written, '', total));
+    } finally {
+      progress.stop();
+    }
     await writeFile(settingsPath, settings + '\n');
   } else {
     process.stderr.write(`Using the demo archive in ${archive}\n`);
@@ -65,11 +109,16 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   // The rural ring on land only: the sea fills about a quarter of the default ring, is some 6 K warmer
   // than the fields at night and 9.5 K cooler by day, and clouds hide a different share of it on every
   // date, so a ring with the sea in it would add the same year-to-year noise to every district's SUHI.
-  const summary = await runPipeline({ inputs: [archive], districtsPath, waterPath, threads: opts.threads }, config);
+  const display = sceneProgressDisplay();
+  let summary: Awaited<ReturnType<typeof runPipeline>>;
+  try {
+    summary = await runPipeline({ inputs: [archive], districtsPath, waterPath, threads: opts.threads, onProgress: display.onProgress }, config);
+  } finally {
+    display.stop();
+  }
   process.stdout.write(summaryLines(summary).join('\n') + '\n');
   throwIfRunFailed(summary);
 
-  const { renderTable } = await import('./table.js');
   const { districtTable } = await import('../store/district-table.js');
   const { districtTrends, districtHotspots } = await import('../store/district-statistics.js');
   const store = await openConfiguredStore(config);
@@ -78,6 +127,10 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   let trends: Awaited<ReturnType<typeof districtTrends>>['rows'];
   let hotspots: Awaited<ReturnType<typeof districtHotspots>> | null = null;
   const landUse = new Map<string, string>();
+  // Every file the demo writes goes into this list; the closing lines name them.
+  const outputs: DemoOutput[] = [];
+  const outDir = resolve(DEMO_OUTPUT_DIR);
+  await mkdir(outDir, { recursive: true });
   try {
     byDate = await districtTable(store, 'date');
     byYear = await districtTable(store, 'year');
@@ -90,15 +143,10 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
     for (const d of await listDistricts(store)) {
       if (typeof d.properties.land_use === 'string') landUse.set(d.id, d.properties.land_use.replace(/_/g, ' '));
     }
+    outputs.push(...await writeDemoExports(store, outDir));
   } finally {
     await store.close();
   }
-  const outDir = resolve(config.dataDir);
-  await mkdir(outDir, { recursive: true });
-  const dateCsv = join(outDir, 'district-table-by-date.csv');
-  const yearCsv = join(outDir, 'district-table-by-year.csv');
-  await writeFile(dateCsv, renderTable(byDate, 'date', 'csv'));
-  await writeFile(yearCsv, renderTable(byYear, 'year', 'csv'));
 
   const districts = [...new Set(byDate.filter((r) => r.district !== 'rural').map((r) => String(r.district)))];
   const overall = districts.map((id) => {
@@ -158,9 +206,9 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push(`Try: npx heatledger trend --metric suhi_night --season summer --data-dir ${config.dataDir}`);
   out.push(`     npx heatledger hotspots --metric suhi_night --year ${years[years.length - 1]} --data-dir ${config.dataDir}`);
   out.push('');
-  out.push(`Full district tables (Kelvin; ATI in 1/K): ${dateCsv}`);
-  out.push(`                                          ${yearCsv}`);
+  out.push(...demoOutputLines(outputs, outDir));
   out.push(`Try: npx heatledger table --level year --data-dir ${config.dataDir}`);
+  out.push(`     npx heatledger export --format csv --level year --metric suhi_night --out my-table.csv --data-dir ${config.dataDir}`);
   out.push(`See it on a map: npx heatledger serve --data-dir ${config.dataDir}, then open http://127.0.0.1:8080/`);
   out.push('');
   out.push(`Caution: ${CAUTION_SHORT}`);

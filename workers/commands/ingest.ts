@@ -1,6 +1,7 @@
 import { InputError, isServiceError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../run/config.js';
 import { parsePlausible } from './common.js';
+import { startProgress } from './progress.js';
 import { failureLine, problemText, roundNumber, snakeCaseKeys } from '../format.js';
 import type { PipelineOptions, PipelineSummary } from '../run/pipeline.js';
 import type { FlowProgress } from '../queue/types.js';
@@ -89,6 +90,22 @@ export function summaryLines(s: PipelineSummary): string[] {
   return lines;
 }
 
+/**
+ * Scene progress of a run, for `ingest` and `demo`: a bar on a terminal, plain
+ * lines otherwise (./progress.ts).
+ */
+export function sceneProgressDisplay(): { onProgress: NonNullable<PipelineOptions['onProgress']>; stop(): void } {
+  const progress = startProgress({ label: 'scenes', total: 0 });
+  return {
+    onProgress: (p) => {
+      const s = sceneProgress(p);
+      const rate = (s.done + s.failed) / Math.max(p.elapsedSeconds, 1e-3);
+      progress.update(s.done, `failed ${s.failed}, ${rate.toFixed(1)} scenes/s`, s.total);
+    },
+    stop: () => progress.stop(),
+  };
+}
+
 export async function runIngestCommand(inputs: string[], opts: IngestCommandOptions): Promise<void> {
   if (!(opts.minValidFraction >= 0 && opts.minValidFraction <= 1)) throw new InputError(`--min-valid-fraction must be between 0 and 1, got ${opts.minValidFraction}`);
   if (!(opts.pairingWindow > 0)) throw new InputError(`--pairing-window must be positive hours, got ${opts.pairingWindow}`);
@@ -97,22 +114,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   if (opts.stallTimeout !== undefined && !(opts.stallTimeout > 0)) throw new InputError(`--stall-timeout must be positive seconds, got ${opts.stallTimeout}`);
   const { runPipeline } = await import('../run/pipeline.js');
   const config = runtimeConfig({ dataDir: opts.dataDir });
-  let bar: { update(v: number, p?: object): void; setTotal(t: number): void; stop(): void } | null = null;
-  const showBar = opts.progress && !opts.json;
-  if (showBar) {
-    const { SingleBar, Presets } = await import('cli-progress');
-    bar = new SingleBar(
-      {
-        format: 'scenes {bar} {value}/{total} done | failed {failed} | remaining {remaining} | {rate} scenes/s',
-        noTTYOutput: !process.stderr.isTTY,
-        notTTYSchedule: 5000,
-        stream: process.stderr,
-        hideCursor: true,
-      },
-      Presets.shades_classic,
-    );
-  }
-  let started = false;
+  const display = opts.progress && !opts.json ? sceneProgressDisplay() : null;
   const options: PipelineOptions = {
     inputs,
     districtsPath: opts.districts,
@@ -133,14 +135,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     serviceRetryBudgetSeconds: opts.serviceRetryBudget,
     stallTimeoutSeconds: opts.stallTimeout,
     onNotice: (m) => process.stderr.write(`\nheatledger: ${m}\n`),
-    onProgress: bar
-      ? (p) => {
-          const s = sceneProgress(p);
-          const payload = { failed: s.failed, remaining: s.total - s.done - s.failed, rate: ((s.done + s.failed) / Math.max(p.elapsedSeconds, 1e-3)).toFixed(1) };
-          if (!started) { (bar as unknown as { start(t: number, v: number, p: object): void }).start(s.total, s.done, payload); started = true; }
-          bar!.update(s.done, payload);
-        }
-      : undefined,
+    onProgress: display?.onProgress,
   };
   let summary: PipelineSummary;
   try {
@@ -150,7 +145,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
     if (isServiceError(e)) throw new ServiceError(`${e.message}. Nothing stored is lost; run the same command again once it is back`, { cause: e, service: e.service });
     throw e;
   } finally {
-    if (bar && started) bar.stop();
+    display?.stop();
   }
   if (opts.json) {
     process.stdout.write(JSON.stringify(summaryJson(summary), null, 2) + '\n');

@@ -9,9 +9,12 @@ import {
   datesPerYearText, noteWithDrops, parseMonths, parseSeriesCsv, seasonMonths, trendOfSeries, yearlySeries,
   type CiRanks, type Hemisphere, type MonthSelection, type SeasonName, type SerialCorrection,
 } from '../core/trend/index.js';
-import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
+import { formatRows, type OutputFormat, type Row } from '../format.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
-import { districtTrends } from '../store/district-statistics.js';
+import { districtTrends, metricUnit, roundTrendRow } from '../store/district-statistics.js';
+
+/** Where the trend table's units and rounding live (the API rounds the same way). */
+export { metricUnit, roundTrendRow };
 import { CAUTION_SHORT, withStore } from './common.js';
 
 export interface TrendCommandOptions {
@@ -30,28 +33,6 @@ export interface TrendCommandOptions {
   seasonalKendall?: boolean;
   format: OutputFormat;
   dataDir?: string;
-}
-
-/** Unit of a metric's values and of its slopes per year. */
-export function metricUnit(metric: SeriesMetric): { value: string; slope: string } {
-  return metric === 'ati' ? { value: '1/K', slope: '1/K per year' } : { value: 'K', slope: 'K per year' };
-}
-
-/**
- * Stated precision: temperature slopes 0.0001 K (ATI slopes 1e-8 1/K);
- * p, q and p_corrected 6 significant digits; z, tau and Var(S) 4 decimals.
- */
-export function roundTrendRow(r: Record<string, unknown>, metric: SeriesMetric | null): Row {
-  const slopeDecimals = metric === 'ati' ? 8 : 4;
-  const out: Record<string, string | number | boolean | null> = {};
-  for (const [k, v] of Object.entries(r)) {
-    if (typeof v !== 'number') { out[k] = (v ?? null) as string | boolean | null; continue; }
-    if (k.startsWith('slope')) out[k] = roundNumber(v, { decimals: slopeDecimals });
-    else if (k === 'p' || k === 'q' || k === 'p_corrected' || k === 'p_raw') out[k] = roundNumber(v, PRECISION.probability);
-    else if (k === 'z' || k === 'z_corrected' || k === 'tau' || k === 'var_s') out[k] = roundNumber(v, { decimals: 4 });
-    else out[k] = v;
-  }
-  return out;
 }
 
 const BASE_FIELDS = ['n', 's', 'var_s', 'z', 'p', 'tau', 'slope_per_year', 'slope_per_decade', 'slope_ci_lower', 'slope_ci_upper', 'direction'];

@@ -135,14 +135,18 @@ function connect(redisUrl: string, onError: (e: Error) => void): Redis {
   return r;
 }
 
-/** Reports a repeating connection error once until it changes; `last()` is the latest message. */
-function quietErrors(prefix: string): ((e: Error) => void) & { last(): string } {
+/** Reports a repeating connection error once until it changes (also to `logger`); `last()` is the latest message. */
+function quietErrors(prefix: string, logger?: WorkerLogger): ((e: Error) => void) & { last(): string } {
   let last = '';
   let lastMessage = '';
   const report = (e: Error) => {
     lastMessage = e.message || String(e);
     const text = `${prefix}: ${lastMessage}`;
-    if (text !== last) { last = text; process.stderr.write(`${text}\n`); }
+    if (text !== last) {
+      last = text;
+      process.stderr.write(`${text}\n`);
+      logger?.error({ error: lastMessage }, 'connection error');
+    }
   };
   return Object.assign(report, { last: () => lastMessage });
 }
@@ -455,6 +459,21 @@ export interface StartWorkerOptions {
   handleSignals?: boolean;
   /** Where job log lines go; default BullMQ's job log. */
   onLog?(jobId: string, line: string): void;
+  /** Structured log of the worker's jobs and connection errors (workers/log.ts gives one). */
+  logger?: WorkerLogger;
+}
+
+/**
+ * What the worker logs through (pino's call shape: fields, then message).
+ * debug: a job taken, a processor's log line; info: a job done (with its
+ * milliseconds); warn: a try that failed and may be retried; error: a job
+ * refused as bad input (never retried), a connection error.
+ */
+export interface WorkerLogger {
+  debug(fields: object, message: string): void;
+  info(fields: object, message: string): void;
+  warn(fields: object, message: string): void;
+  error(fields: object, message: string): void;
 }
 
 export interface WorkerHandle {
@@ -515,7 +534,8 @@ export async function startWorker(options: StartWorkerOptions): Promise<WorkerHa
     if (typeof mod.processors[n] !== 'function') throw new ServiceError(`no processor named ${n} in the processors module`);
   }
   const prefix = options.prefix ?? DEFAULT_PREFIX;
-  const onError = quietErrors('heatledger worker');
+  const logger = options.logger;
+  const onError = quietErrors('heatledger worker', logger);
   const stalledInterval = options.stalledInterval ?? STALLED_INTERVAL_MS;
   const connection = connect(options.redisUrl, onError);
   let repoHandle: { repo: unknown; close(): Promise<void> };
@@ -535,17 +555,24 @@ export async function startWorker(options: StartWorkerOptions): Promise<WorkerHa
       const childrenValues: Record<string, unknown> = { ...(env.reused ?? {}) };
       for (const [k, v] of Object.entries((await job.getChildrenValues()) ?? {})) childrenValues[idFromKey(k)] = v;
       const failedChildren = Object.keys((await job.getIgnoredChildrenFailures()) ?? {}).map(idFromKey).sort();
+      const fields = { job: job.name, job_id: job.id, attempt: job.attemptsMade + 1 };
       const log = options.onLog
-        ? (line: string) => options.onLog!(job.id!, line)
-        : (line: string) => { void job.log(line).catch(() => undefined); };
+        ? (line: string) => { logger?.debug({ ...fields, line }, 'job log'); options.onLog!(job.id!, line); }
+        : (line: string) => { logger?.debug({ ...fields, line }, 'job log'); void job.log(line).catch(() => undefined); };
+      const started = performance.now();
+      logger?.debug(fields, 'job taken');
       try {
         const value = await runAttempt(mod.processors, {
           jobId: job.id!, name: job.name, data: env.input, childrenValues: sortedRecord(childrenValues),
           failedChildren, attempt: job.attemptsMade + 1,
         }, repo, log);
+        logger?.info({ ...fields, ms: Math.round(performance.now() - started) }, 'job done');
         return value === undefined ? null : value;
       } catch (e) {
         const failure = failureRecord(e, lastFailureOf(job), Date.now());
+        const failed = { ...fields, ms: Math.round(performance.now() - started), kind: failure.kind, error: failure.error };
+        if (isInputError(e)) logger?.error(failed, 'job failed: bad input, not retried');
+        else logger?.warn(failed, 'job try failed; retried while the retry rule allows');
         // Recorded for the producer (kind, service, since when) and the next try's back-off.
         await job.updateProgress({ failure } satisfies FailureProgress).catch(() => undefined);
         if (isInputError(e)) throw new UnrecoverableError(failure.error);

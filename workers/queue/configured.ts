@@ -7,7 +7,7 @@ import os from 'node:os';
 import { ENV } from '../config.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS } from './settings.js';
 import type { Runner } from './types.js';
-import type { WorkerHandle } from './bull.js';
+import type { WorkerHandle, WorkerLogger } from './bull.js';
 
 export type RunMode = 'embedded' | 'distributed';
 
@@ -61,7 +61,7 @@ export async function createConfiguredRunner(
 /** A distributed worker process on the configured Redis (queue prefix from the environment). */
 export async function startConfiguredWorker(
   config: QueueConfig & { redisUrl: string },
-  options: { processorsModule: URL; concurrency: number; stalledInterval: number },
+  options: { processorsModule: URL; concurrency: number; stalledInterval: number; logger?: WorkerLogger },
 ): Promise<WorkerHandle> {
   const { startWorker } = await import('./bull.js');
   return startWorker({
@@ -70,5 +70,6 @@ export async function startConfiguredWorker(
     concurrency: options.concurrency,
     stalledInterval: options.stalledInterval,
     prefix: process.env[ENV.queuePrefix] || undefined,
+    logger: options.logger,
   });
 }

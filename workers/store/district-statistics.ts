@@ -12,6 +12,7 @@ import {
 } from '../core/trend/index.js';
 import { centroidLonLat } from '../core/hotspot/weights.js';
 import { classifySpot, giStar, moranI, neighbours, type MoranResult, type WeightsKind } from '../core/hotspot/index.js';
+import { PRECISION, roundNumber, type Row } from '../format.js';
 import type { Store } from './interface.js';
 import { districtSeries, storedDistricts, type SeriesMetric } from './series.js';
 
@@ -158,4 +159,28 @@ export async function districtHotspots(store: Store, q: HotspotQuery): Promise<H
     };
   });
   return { rows, moran: moranI(x, nb), leftOut, monthsLabel: sel.label };
+}
+
+/** Unit of a metric's values and of its slopes per year. */
+export function metricUnit(metric: SeriesMetric): { value: string; slope: string } {
+  return metric === 'ati' ? { value: '1/K', slope: '1/K per year' } : { value: 'K', slope: 'K per year' };
+}
+
+/**
+ * Stated precision: temperature slopes 0.0001 K (ATI slopes 1e-8 1/K); the Sen line's
+ * pivot value like the series (0.0001 K, ATI 6 significant digits);
+ * p, q and p_corrected 6 significant digits; z, tau and Var(S) 4 decimals.
+ */
+export function roundTrendRow(r: Record<string, unknown>, metric: SeriesMetric | null): Row {
+  const slopeDecimals = metric === 'ati' ? 8 : 4;
+  const out: Record<string, string | number | boolean | null> = {};
+  for (const [k, v] of Object.entries(r)) {
+    if (typeof v !== 'number') { out[k] = (v ?? null) as string | boolean | null; continue; }
+    if (k.startsWith('slope')) out[k] = roundNumber(v, { decimals: slopeDecimals });
+    else if (k === 'pivot_value') out[k] = roundNumber(v, metric === 'ati' ? PRECISION.perKelvin : PRECISION.kelvin);
+    else if (k === 'p' || k === 'q' || k === 'p_corrected' || k === 'p_raw') out[k] = roundNumber(v, PRECISION.probability);
+    else if (k === 'z' || k === 'z_corrected' || k === 'tau' || k === 'var_s') out[k] = roundNumber(v, { decimals: 4 });
+    else out[k] = v;
+  }
+  return out;
 }

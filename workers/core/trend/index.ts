@@ -1,6 +1,6 @@
 /** Trend statistics: Mann–Kendall, Hamed–Rao, Seasonal Kendall, Sen's slope, Benjamini–Hochberg. */
 export { mannKendall, mannKendallS, mannKendallVariance, continuityZ, type MannKendallResult } from './mannKendall.js';
-export { senSlope, senFromSlopes, pairwiseSlopes, type CiRanks, type SenSlopeResult } from './senSlope.js';
+export { senSlope, senFromSlopes, senPivot, pairwiseSlopes, type CiRanks, type SenSlopeResult, type SenPivot } from './senSlope.js';
 export { hamedRao, autocorrelation, type HamedRaoResult } from './hamedRao.js';
 export { seasonalKendall, type SeasonalObservation, type SeasonalKendallResult } from './seasonalKendall.js';
 export { benjaminiHochberg } from './fdr.js';

@@ -14,7 +14,7 @@
  * order statistics around the fractional ranks. Ranks are clamped to 1..N'.
  */
 import { normalQuantile } from './normal.js';
-import { roundHalfEven } from './ranks.js';
+import { roundHalfEven, sortedMedian } from './ranks.js';
 
 export type CiRanks = 'rounded' | 'interpolate';
 
@@ -109,4 +109,25 @@ export function senFromSlopes(slopes: Float64Array, varS: number, options: { alp
   const m1 = (pairs - c) / 2;
   const m2 = (pairs + c) / 2;
   return { slope, lower: orderStatistic(slopes, m1, mode), upper: orderStatistic(slopes, m2 + 1, mode), pairs };
+}
+
+/** The point a Sen line passes through: the median time and the median value. */
+export interface SenPivot {
+  time: number;
+  value: number;
+}
+
+/**
+ * The pivot of the Sen line: (median of the times, median of the values), so
+ * the line is value(t) = pivot.value + slope · (t − pivot.time) and the band
+ * uses the interval slopes through the same point. Conover, W.J. 1980,
+ * Practical Nonparametric Statistics, 2nd ed., section 5.5 (intercept
+ * a = median(y) − b · median(x); section number from memory).
+ *
+ * @example senPivot([2001, 2002, 2003, 2004], [1, 4, 2, 3]) // { time: 2002.5, value: 2.5 }
+ */
+export function senPivot(times: ArrayLike<number>, values: ArrayLike<number>): SenPivot {
+  const t = Float64Array.from(times).sort();
+  const x = Float64Array.from(values).sort();
+  return { time: sortedMedian(t), value: sortedMedian(x) };
 }

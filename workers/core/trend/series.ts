@@ -6,7 +6,7 @@
  */
 import { hamedRao } from './hamedRao.js';
 import { mannKendall } from './mannKendall.js';
-import { senSlope, type CiRanks } from './senSlope.js';
+import { senPivot, senSlope, type CiRanks } from './senSlope.js';
 import { seasonalKendall, type SeasonalObservation } from './seasonalKendall.js';
 
 /** Fewest years a trend is computed from. Below this the result carries a note and nulls. */
@@ -35,6 +35,13 @@ export interface TrendResult {
   /** Interval of the slope per year at 1 − alpha. */
   slope_ci_lower: number | null;
   slope_ci_upper: number | null;
+  /**
+   * Point the Sen line passes through (median year, median value; Conover 1980):
+   * value(y) = pivot_value + slope_per_year · (y − pivot_year). The interval slopes
+   * through the same point draw the band.
+   */
+  pivot_year: number | null;
+  pivot_value: number | null;
   direction: Direction | null;
   z_corrected?: number | null;
   p_corrected?: number | null;
@@ -67,7 +74,7 @@ export function directionOf(s: number | null, p: number | null, alpha: number): 
 function empty(n: number, yearsUsed: string, note: string, corrected: boolean): TrendResult {
   const r: TrendResult = {
     n, s: null, var_s: null, z: null, p: null, tau: null, slope_per_year: null, slope_per_decade: null,
-    slope_ci_lower: null, slope_ci_upper: null, direction: null, years_used: yearsUsed, note,
+    slope_ci_lower: null, slope_ci_upper: null, pivot_year: null, pivot_value: null, direction: null, years_used: yearsUsed, note,
   };
   if (corrected) { r.z_corrected = null; r.p_corrected = null; }
   return r;
@@ -109,10 +116,12 @@ export function trendOfSeries(years: readonly number[], values: readonly (number
   if (constant) return empty(n, used, 'the series is constant: no trend can be estimated', corrected);
   const mk = mannKendall(x);
   const sen = senSlope(t, x, mk.varS, { alpha, ciRanks: options.ciRanks });
+  const pivot = senPivot(t, x);
   const r: TrendResult = {
     n, s: mk.s, var_s: mk.varS, z: mk.z, p: mk.p, tau: mk.tau,
     slope_per_year: sen.slope, slope_per_decade: sen.slope * 10,
     slope_ci_lower: sen.lower, slope_ci_upper: sen.upper,
+    pivot_year: pivot.time, pivot_value: pivot.value,
     direction: directionOf(mk.s, mk.p, alpha),
     years_used: used, note: null,
   };
@@ -129,7 +138,7 @@ export function trendOfSeries(years: readonly number[], values: readonly (number
  * Seasonal Kendall trend (Hirsch, Slack & Smith 1982) of observations keyed by
  * year and season (e.g. month), in the same result shape as
  * {@link trendOfSeries}: S, Var(S), Z and p summed over the seasons, and the
- * median of the within-season slopes. It gives no tau and no slope interval.
+ * median of the within-season slopes. It gives no tau, no slope interval and no pivot.
  * Fewer than 4 years, no season with values in two years, or a constant series
  * give `n`, a `note` and nulls.
  */
@@ -145,6 +154,7 @@ export function seasonalTrendOfSeries(observations: readonly SeasonalObservation
   return {
     n: sk.n, s: sk.s, var_s: sk.varS, z: sk.z, p: sk.p, tau: null,
     slope_per_year: sk.slope, slope_per_decade: sk.slope * 10, slope_ci_lower: null, slope_ci_upper: null,
+    pivot_year: null, pivot_value: null,
     direction: directionOf(sk.s, sk.p, alpha), years_used: used, note: null,
   };
 }

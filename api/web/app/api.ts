@@ -68,7 +68,7 @@ export interface SeriesAnswer {
   metric: string;
   season: string;
   unit: string;
-  points: { year: number; value: number | null; dates: number | null; dates_list?: string[] }[];
+  points: { year: number; value: number | null; dates: number | null; in_trend?: boolean; dates_list?: string[] }[];
   trend: TrendFields;
 }
 

@@ -8,7 +8,7 @@ import {
   colourClasses, drawLegend, drawMap, drawSeriesChart, formatValue, METRIC_NAMES, METRICS, SERIES_COLOURS, SPOT_STYLE,
   toDisplay, trendSentence, unitLabel, type ChartSeries, type MapFeature, type MetricName, type SpotKind, type TemperatureUnit,
 } from '../draw/index.js';
-import { esc } from '../draw/svg.js';
+import { esc, formatNumber } from '../draw/svg.js';
 import { api, ApiProblem, urls, type DistrictsAnswer, type HotspotsAnswer, type SceneRow, type SeriesAnswer, type TrendFields } from './api.js';
 import { parseState, stateToSearch, type SortKey, type ViewState } from './state.js';
 import { tableHtml, type TableRow } from './table.js';
@@ -17,7 +17,7 @@ const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as 
 
 let state: ViewState = parseState(location.search);
 /** The answers the current view was drawn from. */
-let view: { districts: DistrictsAnswer; rows: TableRow[]; hotspots: HotspotsAnswer | null; year: number } | null = null;
+let view: { districts: DistrictsAnswer; rows: TableRow[]; hotspots: HotspotsAnswer | null; hotspotsProblem: string | null; year: number } | null = null;
 let loadToken = 0;
 let selectToken = 0;
 
@@ -84,7 +84,10 @@ async function load(): Promise<void> {
     const [rankings, trends, hotspots] = await Promise.all([
       api.rankings({ year, season: state.season, metric: state.metric }),
       api.trends({ season: state.season, metric: state.metric }),
-      state.spots ? api.hotspots({ year, season: state.season, metric: state.metric }) : Promise.resolve(null),
+      // hot spots may be refused for a year with too few values: the page says so and draws the rest
+      state.spots
+        ? api.hotspots({ year, season: state.season, metric: state.metric }).catch((e: unknown) => (e instanceof ApiProblem ? e.message : String(e)))
+        : Promise.resolve(null),
     ]);
     if (token !== loadToken) return;
     const rankOf = new Map(rankings.rows.map((r) => [r.district, r]));
@@ -98,7 +101,7 @@ async function load(): Promise<void> {
         previous_rank: rk?.previous_rank ?? null, trend: trendOf.get(f.id) ?? null, metrics, dates_day: p.dates_day, dates_night: p.dates_night,
       };
     });
-    view = { districts, rows, hotspots, year };
+    view = { districts, rows, hotspots: typeof hotspots === 'string' ? null : hotspots, hotspotsProblem: typeof hotspots === 'string' ? hotspots : null, year };
     fillControls(districts.years);
     drawAll();
     setStatus('');
@@ -151,6 +154,11 @@ function drawMapAndLegend(): void {
 function drawSpotsKey(): void {
   const key = $('spots-key');
   const h = view?.hotspots;
+  if (state.spots && view?.hotspotsProblem) {
+    key.innerHTML = `<h3>Hot and cold spots (Gi*)</h3><p class="problem">${esc(view.hotspotsProblem)}</p>`;
+    key.hidden = false;
+    return;
+  }
   if (!state.spots || !h) {
     key.hidden = true;
     key.innerHTML = '';
@@ -162,12 +170,12 @@ function drawSpotsKey(): void {
     return `<svg width="34" height="14" aria-hidden="true"><line x1="2" y1="7" x2="32" y2="7" stroke="${s.stroke}" stroke-width="${s.width}"${s.dash ? ` stroke-dasharray="${s.dash}"` : ''}/></svg>`;
   };
   const moran = h.moran
-    ? `<p class="small">Across the city, neighbouring districts are ${h.moran.p <= 0.05 && h.moran.i > h.moran.expected ? 'more alike than chance would give' : 'not clearly more alike than chance'} (Moran's I ${h.moran.i.toFixed(2)}, p ${h.moran.p < 0.001 ? '< 0.001' : h.moran.p.toFixed(3)}).</p>`
+    ? `<p class="small">Across the city, neighbouring districts are ${h.moran.p <= 0.05 && h.moran.i > h.moran.expected ? 'more alike than chance would give' : 'not clearly more alike than chance'} (Moran's I ${formatNumber(h.moran.i, 2)}, p ${h.moran.p < 0.001 ? '< 0.001' : h.moran.p.toFixed(3)}).</p>`
     : '';
   key.innerHTML = `<h3>Hot and cold spots (Gi*)</h3>
 <p>${line('hot')} Hot spot: a district and its neighbours are warmer than the city as a whole: ${list('hot')}.</p>
 <p>${line('cold')} Cold spot: cooler together: ${list('cold')}.</p>${moran}
-${h.left_out.length ? `<p class="small muted">Left out (no value or no neighbour): ${h.left_out.map(esc).join(', ')}.</p>` : ''}`;
+${h.left_out.length ? `<p class="small muted">Left out (no value or no neighbour): ${h.left_out.map((id) => esc(view?.rows.find((r) => r.id === id)?.name ?? id)).join(', ')}.</p>` : ''}`;
   key.hidden = false;
 }
 
@@ -208,7 +216,7 @@ async function drawPanel(): Promise<void> {
     return {
       key: m.endsWith('_night') ? 'night' : 'day',
       label: m === 'ati' ? 'ATI' : m.endsWith('_night') ? 'Night' : 'Day',
-      points: a.points.map((p) => ({ year: p.year, value: shift(p.value) })),
+      points: a.points.map((p) => ({ year: p.year, value: shift(p.value), leftOut: p.in_trend === false })),
       trend: { pivot_year: t.pivot_year, pivot_value: shift(t.pivot_value), slope_per_year: t.slope_per_year, slope_ci_lower: t.slope_ci_lower, slope_ci_upper: t.slope_ci_upper },
       colour: m.endsWith('_night') ? SERIES_COLOURS.night : SERIES_COLOURS.day,
       marker: m.endsWith('_night') ? 'square' : 'circle',
@@ -230,7 +238,8 @@ async function drawPanel(): Promise<void> {
   const yearRows = years.map((y) => {
     const cells = answers.map((a, i) => {
       const p = valueAt(a, y);
-      return `<td class="num">${esc(formatValue(metrics[i], toDisplay(metrics[i], p?.value ?? null, u)))}</td><td class="num">${p?.dates ?? '–'}</td>`;
+      const out = p?.in_trend === false && p.value !== null ? ' <span class="muted" title="left out of the trend: too few clear dates">*</span>' : '';
+      return `<td class="num">${esc(formatValue(metrics[i], toDisplay(metrics[i], p?.value ?? null, u)))}${out}</td><td class="num">${p?.dates ?? '–'}</td>`;
     }).join('');
     return `<tr><th scope="row">${y}</th>${cells}<td><button type="button" class="link scenes" data-year="${y}" aria-expanded="false">scenes</button></td></tr>
 <tr class="scenes-row" data-year="${y}" hidden><td colspan="${2 + answers.length * 2}"></td></tr>`;
@@ -239,13 +248,13 @@ async function drawPanel(): Promise<void> {
   const trend = answers[Math.max(0, chosen)].trend;
   body.innerHTML = `${sentences}
 <figure class="chart">${chart}<figcaption class="small muted">${esc(figureNote(trend))}</figcaption></figure>
-<p class="small muted" id="years-note">Each year's mean and the clear dates behind it; the scenes of a year are one click away.</p>
+<p class="small muted" id="years-note">Each year's mean and the clear dates behind it (* left out of the trend); the scenes of a year are one click away.</p>
 <div class="table-wrap"><table class="years" aria-describedby="years-note"><thead><tr><th scope="col">Year</th>${head}<th scope="col"><span class="sr">Scenes</span></th></tr></thead><tbody>${yearRows}</tbody></table></div>`;
 }
 
 /** The line under the chart: what is drawn, the years used and any note of the trend. */
 function figureNote(t: TrendFields): string {
-  const parts = ['Points: yearly means.'];
+  const parts = ['Points: yearly means (faint: left out of the trend).'];
   if (t.slope_per_year !== null && t.pivot_year !== null) parts.push(`Line: Sen slope through the median year and value; shaded: its ${Math.round((1 - t.alpha) * 100)} % interval.`);
   if (t.years_used) parts.push(`Years used: ${t.years_used}.`);
   if (t.note) parts.push(`${t.note.charAt(0).toUpperCase()}${t.note.slice(1)}.`);

@@ -243,6 +243,31 @@ function addHotspotsCommand(program: Command): void {
     });
 }
 
+/** `heatledger report`. */
+function addReportCommand(program: Command): void {
+  program
+    .command('report')
+    .description(
+      'The yearly surface-heat report for a council: one self-contained HTML file (no script, no outside request) and, with --pdf, an A4 PDF printed from it by headless Chromium (Debian package chromium).\n' +
+        'Sections: summary sentences; map, ranking and table of the year; trends per district (Mann–Kendall, Sen slope per decade, Benjamini–Hochberg q); ' +
+        'hot spots (Gi*) and Moran\'s I; data quality; methods, run settings and cautions; appendix of the input scenes with their SHA-256 hashes.\n' +
+        'Every figure comes from the same answers as the HTTP API. ' + CAUTION,
+    )
+    .option('--year <year>', 'the report year (default: the latest year with values)', parseYearOption('--year'))
+    .addOption(new Option('--season <season>', 'months the yearly means cover: summer = Jun-Aug north of the equator, Dec-Feb south of it; all = the whole year').choices(['summer', 'winter', 'spring', 'autumn', 'all']).default('summer'))
+    .option('--baseline <years>', 'baseline period the year is compared with, e.g. 2019-2021 (default: the first three stored years before the report year)')
+    .addOption(new Option('--units <unit>', 'temperatures in kelvin or degrees Celsius (differences are the same number in both)').choices(['C', 'K']).default('C'))
+    .option('--alpha <a>', 'significance level of the trend verdicts (false discovery rate across districts)', parseNumber('--alpha'), 0.05)
+    .option('--place <name>', 'name of the city or area for the title')
+    .requiredOption('--out <file.html>', 'where to write the HTML report')
+    .option('--pdf <file.pdf>', `also print it to PDF with headless Chromium ($${ENV.chromium}, default /usr/bin/chromium)`)
+    .addOption(dataDirOption())
+    .action(async (opts) => {
+      const { runReportCommand } = await import('./commands/report.js');
+      await runReportCommand(opts);
+    });
+}
+
 /** `heatledger export`. */
 function addExportCommand(program: Command): void {
   program
@@ -339,6 +364,7 @@ export function buildProgram(): Command {
   addTableCommand(program);
   addTrendCommand(program);
   addHotspotsCommand(program);
+  addReportCommand(program);
   addExportCommand(program);
   addWorkerCommand(program);
   addDemoCommand(program);

@@ -27,6 +27,8 @@ export const ENV = {
   dataRoot: 'HEATLEDGER_DATA_ROOT',
   /** API log level: fatal, error, warn, info (default), debug, trace or silent. */
   logLevel: 'LOG_LEVEL',
+  /** Headless Chromium that prints `report --pdf` (default /usr/bin/chromium, from the Debian package chromium). */
+  chromium: 'HEATLEDGER_CHROMIUM',
 } as const;
 
 /** Defaults the CLI shows for --data-dir and --port (from the defaults module). */

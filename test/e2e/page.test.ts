@@ -20,7 +20,8 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { chromium, type Browser, type Page } from 'playwright-core';
 import { cleanEnv, cliOk, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, startCliUntil, stopChild, type StartedCli } from '../support/pipeline-harness.js';
 import { ensurePageBuild } from '../support/page-build.js';
-import { CHROMIUM_ARGS, CHROMIUM_PATH, toolAvailable } from '../support/services.js';
+import { CHROMIUM_PATH, toolAvailable } from '../support/services.js';
+import { CHROMIUM_ARGS } from '../../api/report/pdf.js';
 
 const SUITE = 'test/e2e/page.test.ts (the web page in Chromium)';
 const hasChromium = toolAvailable('chromium', SUITE);
@@ -179,7 +180,7 @@ beforeAll(async () => {
   server = await startCliUntil(['serve', '--port', '0', '--data-dir', dataDir], cleanEnv({ LOG_LEVEL: 'warn' }), /heatledger API on http:\/\/[^\s/]+:\d+\//);
   const port = /heatledger API on http:\/\/[^\s/]+:(\d+)\//.exec(server.stderr())![1];
   origin = `http://127.0.0.1:${port}`;
-  browser = await chromium.launch({ executablePath: CHROMIUM_PATH, args: CHROMIUM_ARGS, timeout: 180_000 });
+  browser = await chromium.launch({ executablePath: CHROMIUM_PATH, args: [...CHROMIUM_ARGS], timeout: 180_000 });
   mkdirSync(ARTEFACTS, { recursive: true });
 }, 900_000);
 

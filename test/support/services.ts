@@ -5,7 +5,7 @@
  * test failure; without it, a suite whose server is unreachable is skipped and
  * says so plainly in the output.
  */
-import { existsSync } from 'node:fs';
+import fs from 'node:fs';
 import net from 'node:net';
 
 export const requireServices = process.env.HEATLEDGER_REQUIRE_SERVICES === '1';
@@ -41,20 +41,37 @@ export async function serviceAvailable(name: 'postgres' | 'redis', suite: string
 }
 
 /** Where the browser tests find Chromium (Debian's `chromium` package; `.ci/run` installs it when missing). */
-export const CHROMIUM_PATH = process.env.HEATLEDGER_CHROMIUM ?? '/usr/bin/chromium';
+export const CHROMIUM_PATH = process.env.HEATLEDGER_CHROMIUM || '/usr/bin/chromium';
 
-/** The flags every browser test starts Chromium with: headless, no sandbox, nothing fetched from outside. */
-export const CHROMIUM_ARGS = ['--headless', '--no-sandbox', '--disable-gpu', '--disable-quic', '--no-first-run', '--disable-background-networking', '--disable-component-update', '--disable-sync'];
+/** Local tools the suites call, with the Debian package that holds each. */
+const TOOLS = {
+  chromium: { debianPackage: 'chromium' },
+  pdftotext: { debianPackage: 'poppler-utils' },
+  pdfinfo: { debianPackage: 'poppler-utils' },
+} as const;
+export type ToolName = keyof typeof TOOLS;
+
+/** The full path of a tool (Chromium at CHROMIUM_PATH, the others on PATH), or null. */
+export function toolPath(name: ToolName): string | null {
+  const candidates = name === 'chromium' ? [CHROMIUM_PATH] : (process.env.PATH ?? '/usr/bin:/bin').split(':').map((dir) => `${dir || '.'}/${name}`);
+  for (const p of candidates) {
+    try {
+      fs.accessSync(p, fs.constants.X_OK);
+      return p;
+    } catch { /* not here */ }
+  }
+  return null;
+}
 
 /**
  * Whether a suite that needs a local tool can run. Like {@link serviceAvailable}:
  * with HEATLEDGER_REQUIRE_SERVICES=1 a missing tool throws, otherwise the suite
- * is skipped with a plain "SKIPPED" line.
+ * is skipped with a plain "SKIPPED" line naming the Debian package to install.
  */
-export function toolAvailable(name: 'chromium', suite: string): boolean {
-  const where = name === 'chromium' ? CHROMIUM_PATH : name;
-  if (existsSync(where)) return true;
-  if (requireServices) throw new Error(`${suite}: ${name} is missing at ${where} and HEATLEDGER_REQUIRE_SERVICES=1`);
-  console.log(`SKIPPED ${suite}: no ${name} at ${where} (install Debian's ${name} package; set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+export function toolAvailable(name: ToolName, suite: string): boolean {
+  if (toolPath(name) !== null) return true;
+  const what = `${name} (Debian package ${TOOLS[name].debianPackage})`;
+  if (requireServices) throw new Error(`${suite}: ${what} is not installed and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: ${what} is not installed (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
   return false;
 }

@@ -4,7 +4,10 @@
  *   `ioredis`) are imported only under workers/store and workers/queue, so the
  *   embedded/distributed choice is made in one place per side;
  * - the only readers of REDIS_URL and DATABASE_URL are there too;
- * - the API imports nothing from workers/commands (the CLI's commands).
+ * - the API imports nothing from workers/commands (the CLI's commands);
+ * - of the commands, only serve and report import from api/;
+ * - playwright-core (the browser driver) is imported only by api/report/pdf.ts;
+ * - the report draws no SVG of its own: its pictures come from the page's drawing code.
  * Static imports, re-exports and dynamic import() calls all count.
  */
 import { readdirSync, readFileSync } from 'node:fs';
@@ -105,5 +108,27 @@ describe('import rules', () => {
       }
     }
     expect(found).toEqual([]);
+  });
+
+  it('of the commands, only serve and report import from api/', () => {
+    const api = join(ROOT, 'api');
+    const found = new Set<string>();
+    for (const f of files.filter((x) => rel(x).startsWith('workers/commands/'))) {
+      for (const spec of importSpecifiers(readFileSync(f, 'utf8'))) {
+        if (spec.startsWith('.') && !relative(api, resolve(dirname(f), spec)).startsWith('..')) found.add(rel(f));
+      }
+    }
+    expect([...found].sort()).toEqual(['workers/commands/report.ts', 'workers/commands/serve.ts']);
+  });
+
+  it('playwright-core is imported only by api/report/pdf.ts', () => {
+    const found = files.filter((f) => importSpecifiers(readFileSync(f, 'utf8')).some((s) => packageOf(s) === 'playwright-core')).map(rel);
+    expect(found).toEqual(['api/report/pdf.ts']);
+  });
+
+  it('api/report/ writes no SVG element of its own (one drawing code, api/web/draw/)', () => {
+    const report = files.filter((f) => rel(f).startsWith('api/report/'));
+    expect(report.length).toBeGreaterThan(3);
+    expect(report.filter((f) => /<(svg|path|rect|circle|polyline)\b/.test(readFileSync(f, 'utf8'))).map(rel)).toEqual([]);
   });
 });

@@ -144,6 +144,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
       if (typeof d.properties.land_use === 'string') landUse.set(d.id, d.properties.land_use.replace(/_/g, ' '));
     }
     outputs.push(...await writeDemoExports(store, outDir));
+    outputs.push(...await (await import('./report.js')).writeDemoReport(store, outDir, { place: CITY_NAME, slug: CITY_SLUG }));
   } finally {
     await store.close();
   }

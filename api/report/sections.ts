@@ -1,0 +1,241 @@
+/**
+ * The report's sections as HTML fragments: each a pure function of the
+ * gathered answers (and, for the pictures, of the SVG the drawing code made).
+ */
+import { CAUTION_TEXT } from '../../workers/core/defaults.js';
+import { MIN_TREND_YEARS } from '../../workers/core/trend/index.js';
+import { relativeInText } from '../relative-paths.js';
+import type { ReportData, TrendFields } from './answers.js';
+import type { QualityFigures } from './quality.js';
+import { summarySentences, type SummaryFigures } from './summary.js';
+import { count, difference, esc, fixed, percent, probability, temperature, unitSymbol } from './text.js';
+
+/** Pictures of the report (SVG markup), made by the drawing code; null where there is nothing to draw. */
+export interface ReportFigures {
+  map: string | null;
+  /** Legend of the map's colour classes. */
+  legend: string | null;
+  bars: string | null;
+  /** One small chart per district of the small multiples, with the district's name. */
+  multiples: { name: string; svg: string }[];
+}
+
+export function periodText(d: ReportData): string {
+  return d.request.season === 'all' ? String(d.request.year) : `${d.request.season} ${d.request.year} (${d.selection.label})`;
+}
+
+export function titleBlock(d: ReportData, place: string | null): string {
+  const made = d.madeAt.slice(0, 10);
+  return `<header class="title">
+<p class="kicker">Yearly surface heat report</p>
+<h1>${place ? `${esc(place)}: s` : 'S'}urface heat in ${esc(d.request.season === 'all' ? String(d.request.year) : `${d.request.season} ${d.request.year}`)}</h1>
+<p class="meta">${d.request.season === 'all' ? 'The whole year' : `Months ${esc(d.selection.label)}`}, compared with ${d.request.baseline.from === d.request.baseline.to ? d.request.baseline.from : `${d.request.baseline.from}–${d.request.baseline.to}`}. Made on ${esc(made)} (UTC) with heatledger ${esc(d.version)} from ${count(d.districts.features.filter((f) => f.properties.role === 'district').length, 'district')} and ${count(d.scenes.filter((s) => s.kind === 'lst' && s.state === 'processed').length, 'satellite scene')}. Temperatures in ${d.request.units === 'C' ? 'degrees Celsius (°C)' : 'kelvin (K)'}; a difference of 1 K is a difference of 1 °C.</p>
+</header>`;
+}
+
+export function summarySection(d: ReportData, f: SummaryFigures): string {
+  return `<section id="summary">
+<h2>In short</h2>
+${summarySentences(d, f).map((s) => `<p>${s}</p>`).join('\n')}
+<p class="caution"><strong>Read with care.</strong> ${esc(CAUTION_TEXT)}</p>
+</section>`;
+}
+
+function yearTable(d: ReportData): string {
+  const u = d.request.units;
+  const rank = new Map(d.rankingNight.rows.map((r) => [r.district, r.rank]));
+  const rows = d.districts.features
+    .filter((f) => f.properties.role === 'district')
+    .sort((a, b) => (rank.get(a.properties.id) ?? 1e9) - (rank.get(b.properties.id) ?? 1e9));
+  const body = rows.map((f) => {
+    const p = f.properties;
+    return `<tr><td class="n">${rank.get(p.id) ?? '–'}</td><td>${esc(p.name)}</td><td class="n">${difference(p.suhi_night_k, u)}</td><td class="n">${difference(p.suhi_day_k, u)}</td>` +
+      `<td class="n">${temperature(p.lst_night_k, u)}</td><td class="n">${temperature(p.lst_day_k, u)}</td><td class="n">${p.dates_night ?? 0} / ${p.dates_day ?? 0}</td></tr>`;
+  }).join('\n');
+  return `<table class="data"><thead><tr><th>Rank at night</th><th>District</th><th>Heat island at night</th><th>Heat island by day</th><th>Surface temperature at night</th><th>Surface temperature by day</th><th>Clear dates night / day</th></tr></thead>
+<tbody>${body}</tbody></table>`;
+}
+
+export function hottestSection(d: ReportData, figs: ReportFigures): string {
+  return `<section id="where" class="page">
+<h2>Where it is hottest</h2>
+<p>How much warmer each district's surface was than the countryside around the city, on average over the clear nights of ${esc(periodText(d))}. Deeper red is warmer; blue districts were cooler than the countryside.${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Thick outlines mark the hot and cold spots described below.' : ''}</p>
+${figs.map ? `<figure class="map"><div class="map-drawing">${figs.map}</div>${figs.legend ? `<div class="legend">${figs.legend}</div>` : ''}<figcaption>Night heat island by district, ${esc(periodText(d))} (${unitSymbol(d.request.units)} above the rural reference).${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Solid thick outline: hot spot; dashed: cold spot.' : ''}</figcaption></figure>` : ''}
+${figs.bars ? `<figure class="bars">${figs.bars}<figcaption>Districts ranked by their night heat island, ${esc(periodText(d))}.</figcaption></figure>` : ''}
+<h3>Every district this year</h3>
+${yearTable(d)}
+</section>`;
+}
+
+function verdict(t: Pick<TrendFields, 'direction' | 'n'>): string {
+  if (t.direction === 'increasing') return 'warming';
+  if (t.direction === 'decreasing') return 'cooling';
+  if (t.direction === 'none') return 'no clear trend';
+  return 'too few years';
+}
+
+export function trendSection(d: ReportData, figs: ReportFigures): string {
+  const u = d.request.units;
+  const rows = [...d.trendsNight.rows].sort((a, b) => (b.slope_per_decade ?? -Infinity) - (a.slope_per_decade ?? -Infinity));
+  const body = rows.map((r) => `<tr class="${r.direction === 'increasing' ? 'up' : ''}"><td>${esc(r.name)}</td><td class="n">${difference(r.slope_per_decade, u)}</td>` +
+    `<td class="n">${fixed(r.slope_ci_lower_per_decade, 2, true)} to ${fixed(r.slope_ci_upper_per_decade, 2, true)}</td><td class="n">${probability(r.p)}</td><td class="n">${probability(r.q)}</td>` +
+    `<td>${verdict(r)}</td><td class="years">${esc(r.years_used)}</td></tr>`).join('\n');
+  const multiples = figs.multiples.length
+    ? `<div class="multiples">${figs.multiples.map((m) => `<figure>${m.svg}<figcaption>${esc(m.name)}</figcaption></figure>`).join('\n')}</div>
+<p class="note">The ${figs.multiples.length} districts hottest at night this year. Each small chart shows one district's yearly night heat island (dots), the trend line fitted through them (Sen slope) and, shaded, the range of slopes the data allow at ${Math.round((1 - d.request.alpha) * 100)} %. Each chart has its own vertical scale, chosen to show its district's ups and downs: compare the size of changes with the table below, not the steepness of the lines.</p>`
+    : '';
+  return `<section id="trend" class="page">
+<h2>Is it getting warmer?</h2>
+<p>For each district, the yearly night heat island is tested for a steady rise or fall (Mann–Kendall test) and its rate is estimated as the median of all year-to-year slopes (Sen slope), given here per decade. With many districts tested at once some would look significant by chance; the q value allows for that (Benjamini–Hochberg false discovery rate), and a district is called warming or cooling only when q is at most ${d.request.alpha}.</p>
+${multiples}
+<table class="data"><thead><tr><th>District</th><th>Change per decade</th><th>95 % range (${unitSymbol(u)} per decade)</th><th>p</th><th>q</th><th>Verdict</th><th>Years used</th></tr></thead>
+<tbody>${body}</tbody></table>
+</section>`;
+}
+
+export function hotspotSection(d: ReportData): string {
+  const u = d.request.units;
+  if (!d.hotspots) {
+    return `<section id="hotspots"><h2>Clusters of heat</h2><p>Hot spots could not be computed for ${esc(periodText(d))}: ${esc(d.hotspotsMissing ?? 'no values')}.</p></section>`;
+  }
+  const h = d.hotspots;
+  const spots = h.rows.filter((r) => r.spot !== 'none').sort((a, b) => Math.abs(b.gi_z ?? 0) - Math.abs(a.gi_z ?? 0));
+  const list = spots.length
+    ? `<table class="data"><thead><tr><th>District</th><th>Kind</th><th>Confidence</th><th>Gi* z</th><th>Night heat island</th></tr></thead><tbody>
+${spots.map((r) => `<tr><td>${esc(r.name)}</td><td>${r.spot === 'hot' ? 'hot spot' : 'cold spot'}</td><td class="n">${r.confidence ?? '–'} %</td><td class="n">${fixed(r.gi_z, 2)}</td><td class="n">${difference(r.value, u)}</td></tr>`).join('\n')}
+</tbody></table>`
+    : '<p>No district stands out as part of a hot or cold cluster at 90 % confidence or more.</p>';
+  const chance = spots.length && spots.every((r) => (r.confidence ?? 0) < 99)
+    ? `<p class="note">Tested at 90 % confidence, about one district in ten is flagged by chance alone (${fixed(h.rows.length * 0.1, 1)} of these ${h.rows.length} on average, when there are no real clusters): a single year's flag is a prompt to look closer, not a finding.</p>`
+    : '';
+  const m = h.moran;
+  const moran = m === null
+    ? 'Whether neighbouring districts are alike could not be measured (too few districts with neighbours, or equal values).'
+    : `Neighbouring districts are ${m.p <= 0.05 ? (m.i > m.expected ? 'more alike than chance would make them' : 'less alike than chance would make them') : 'no more alike than chance would make them'} (Moran's I = ${fixed(m.i, 3)}, expected ${fixed(m.expected, 3)} without clustering, p = ${probability(m.p)}).`;
+  return `<section id="hotspots">
+<h2>Clusters of heat</h2>
+<p>A hot spot is a district that is warm together with its neighbours; a cold spot is one whose neighbourhood is cooler than the city as a whole, even if the district itself is warm (Getis–Ord Gi*, neighbours sharing a boundary). ${h.left_out.length ? `Left out for lack of values: ${esc(h.left_out.join(', '))}.` : ''}</p>
+${list}
+${chance}
+<p>${moran}</p>
+</section>`;
+}
+
+export function qualitySection(d: ReportData, q: QualityFigures): string {
+  const yearRows = q.byYear.map((y) => `<tr><td>${y.year}</td><td class="n">${y.day}</td><td class="n">${y.night}</td><td class="n">${y.crossoverDay + y.crossoverNight}</td><td class="n">${y.notUsed}</td></tr>`).join('\n');
+  const cov = q.coverage.map((c) => `<tr class="${d.minDates > (c.datesNight ?? 0) ? 'thin' : ''}"><td>${esc(c.name)}</td><td class="n">${percent(c.validDay)}</td><td class="n">${percent(c.validNight)}</td><td class="n">${c.passesBelow} of ${c.passes}</td><td class="n">${c.datesNight ?? 0} / ${c.datesDay ?? 0}</td></tr>`).join('\n');
+  const crossover = q.crossoverShare === null
+    ? 'No scene of these years has been used yet.'
+    : `${percent(q.crossoverShare)} of the passes used were taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing). ` +
+      (q.crossoverKept
+        ? `They were kept${q.crossoverSetting ? ` (run setting ${esc(q.crossoverSetting)})` : ' (the run has no setting that leaves them out)'}.`
+        : `They were left out (run setting ${esc(q.crossoverSetting ?? '')}).`);
+  const thin = q.thinDistricts.length
+    ? `<p>Fewer than ${d.minDates} clear dates in ${d.request.year} (night or day): ${esc(q.thinDistricts.map((c) => c.name).join(', '))}. Their figures for this year rest on very few days and should be read as rough; this year does not count in their trend.</p>`
+    : `<p>Every district has at least ${d.minDates} clear dates by night and by day in ${d.request.year}.</p>`;
+  const gaps = q.yearsWithoutData.length ? `<p>No values at all for ${esc(q.yearsWithoutData.join(', '))}: trends run over the other years.</p>` : '';
+  const notes = q.trendNotes.length
+    ? `<p>Trend notes: ${q.trendNotes.map((n) => `${esc(n.name)}: ${esc(n.note)}`).join('; ')}.</p>`
+    : '';
+  return `<section id="quality" class="page">
+<h2>How good is the data?</h2>
+<p>Satellites see the ground only through clear sky. Every figure in this report is a mean over the clear days of each season, so a cloudy year rests on fewer days, and years with different weather are not strictly alike.</p>
+<h3>Scenes used per year</h3>
+<table class="data narrow"><thead><tr><th>Year</th><th>Day passes</th><th>Night passes</th><th>Of them near sunrise or sunset</th><th>Not usable</th></tr></thead><tbody>${yearRows}</tbody></table>
+<p>${crossover}</p>
+${q.unreadable ? `<p>${count(q.unreadable, 'file')} could not be read at all and ${q.unreadable === 1 ? 'is' : 'are'} left out; the appendix lists ${q.unreadable === 1 ? 'it' : 'them'} with the state “failed”.</p>` : ''}
+<h3>Clear view of each district, ${d.request.year}</h3>
+<p>The share of each district's ground the satellite saw clearly (not cloud, not out of range), averaged over the year's passes. A pass that saw less than ${percent(q.minValidFraction)} of a district is not used for that district.</p>
+<table class="data"><thead><tr><th>District</th><th>Seen by day</th><th>Seen at night</th><th>Passes below ${percent(q.minValidFraction)}</th><th>Clear dates night / day</th></tr></thead><tbody>${cov}</tbody></table>
+${thin}
+${gaps}
+${notes}
+<p><strong>What this means:</strong> differences between districts of a few tenths of a degree, and year-to-year changes of that size, are within what the choice of clear days alone can produce. The trend verdicts already allow for this scatter; single-year rankings do not.</p>
+</section>`;
+}
+
+/** The caution of the defaults module, one sentence per item. */
+function cautionItems(): string {
+  return CAUTION_TEXT.split(/(?<=\.)\s+/).map((c) => `<li>${esc(c)}</li>`).join('\n');
+}
+
+/** Plain names of the run settings the pipeline records (others are shown by their key alone). */
+const SETTING_NAMES: Record<string, string> = {
+  coverageRule: 'Pixel rule',
+  ruralReference: 'Rural reference',
+  plausibleRangeKelvin: 'Plausible surface temperature, K',
+  minValidFraction: 'Smallest clear share of a district for a pass to count',
+  pairingWindowHours: 'Longest day–night separation of a pair, hours',
+  albedoWindowDays: 'Longest distance to the albedo scene used, days',
+  atiMinDifferenceKelvin: 'Smallest day–night difference for ATI, K',
+  qaMaskBits: 'Quality bits that mask a pixel',
+  districtIds: 'Districts',
+};
+
+function settingText(k: string, v: unknown): string {
+  if (v === null || v === undefined) return 'none';
+  if (Array.isArray(v) && k === 'districtIds') return `${v.length}`;
+  if (Array.isArray(v)) return v.map((x) => (typeof x === 'object' ? JSON.stringify(x) : String(x))).join(' to ');
+  if (typeof v === 'object') {
+    const o = v as Record<string, unknown>;
+    return 'description' in o ? String(o.description) : JSON.stringify(o);
+  }
+  return String(v);
+}
+
+function parameterRows(params: Record<string, unknown>): string {
+  return Object.keys(params).sort((a, b) => (SETTING_NAMES[a] ? 0 : 1) - (SETTING_NAMES[b] ? 0 : 1) || a.localeCompare(b))
+    .map((k) => `<tr><td>${esc(SETTING_NAMES[k] ?? '')} <code>${esc(k)}</code></td><td>${esc(relativeInText(settingText(k, params[k]), null))}</td></tr>`).join('\n');
+}
+
+const capitalised = (text: string) => text.charAt(0).toUpperCase() + text.slice(1);
+
+export function methodsSection(d: ReportData): string {
+  const p = d.run?.parameters ?? {};
+  const rural = p.ruralReference && typeof p.ruralReference === 'object' ? relativeInText(String((p.ruralReference as Record<string, unknown>).description ?? ''), null) : null;
+  const rule = p.coverageRule === 'fraction'
+    ? 'a pixel counts for a district in proportion to the share of its area inside the district boundary'
+    : 'a pixel belongs to a district when its centre lies inside the district boundary';
+  const pairing = typeof p.pairingWindowHours === 'number' ? p.pairingWindowHours : null;
+  return `<section id="methods" class="page">
+<h2>How the figures are made</h2>
+<dl class="defs">
+<dt>Land-surface temperature (LST)</dt><dd>The temperature of the ground's skin (roofs, roads, grass, water) as a satellite's thermal sensor sees it through clear sky, in kelvin (K) in the data; shown here in ${d.request.units === 'C' ? '°C (K − 273.15)' : 'K'}. It is not the air temperature people feel.</dd>
+<dt>Surface urban heat island (SUHI)</dt><dd>A district's mean LST minus the mean LST of the rural reference in the same scene, in K (a difference of 1 K equals 1 °C). Day and night are kept apart. The city figure is the mean over the districts weighted by their area; the baseline figure is the mean of the baseline years' city figures.</dd>
+<dt>Apparent thermal inertia (ATI)</dt><dd>(1 − albedo) / (day LST − night LST), in 1/K (Price 1977): how strongly a surface resists heating and cooling. Stored for every district; not used in this report's sentences.</dd>
+<dt>Rural reference</dt><dd>${rural ? esc(capitalised(rural)) : 'As recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
+<dt>Pixel rule</dt><dd>${esc(capitalised(rule))}.</dd>
+<dt>Day and night passes</dt><dd>A pass is a day pass when the sun is above the horizon at the scene centre. A night pass is paired with the day pass closest in time${pairing !== null ? ` within ${pairing} hours` : ''}; the pair is dated by the UTC date of the day pass. A pass that saw less than ${percent(typeof p.minValidFraction === 'number' ? p.minValidFraction : null)} of a district gives no value for it.</dd>
+<dt>Trend</dt><dd>Mann–Kendall test of the yearly values (Mann 1945; Kendall 1975), Sen slope with its ${Math.round((1 - d.request.alpha) * 100)} % interval (Sen 1968), Benjamini–Hochberg false discovery rate across districts (Benjamini & Hochberg 1995). A year counts when it has at least ${d.minDates} clear dates; a trend needs at least ${MIN_TREND_YEARS} years.</dd>
+<dt>Hot spots</dt><dd>Getis–Ord Gi* with binary weights including the district itself (Ord & Getis 1995); Moran's I with row-standardised weights (Moran 1950).</dd>
+</dl>
+<h3>This report</h3>
+<table class="data narrow"><tbody>
+<tr><td>Software</td><td>heatledger ${esc(d.version)}</td></tr>
+<tr><td>Year and season</td><td>${esc(periodText(d))}</td></tr>
+<tr><td>Baseline period</td><td>${d.request.baseline.from}–${d.request.baseline.to}</td></tr>
+<tr><td>Significance level</td><td>${d.request.alpha}</td></tr>
+<tr><td>Store</td><td>${esc(d.health.store)}, schema version ${esc(d.health.schema_version)}</td></tr>
+<tr><td>Run</td><td>${d.run ? `${d.run.id} (${esc(d.run.mode)}, ${esc(d.run.state)}${d.run.finishedAt ? `, finished ${esc(d.run.finishedAt)}` : ''}, software ${esc(d.run.softwareVersion)})` : 'none recorded'}</td></tr>
+</tbody></table>
+<h3>Run settings</h3>
+<table class="data narrow"><tbody>${parameterRows(p)}</tbody></table>
+<h3>Cautions</h3>
+<ul class="cautions">
+${cautionItems()}
+</ul>
+</section>`;
+}
+
+export function appendixSection(d: ReportData): string {
+  const rows = [...d.scenes]
+    .sort((a, b) => String(a.acquired_at ?? '').localeCompare(String(b.acquired_at ?? '')) || a.file.localeCompare(b.file))
+    .map((s) => `<tr><td>${esc(s.file)}</td><td class="time">${esc(s.acquired_at ? `${s.acquired_at.slice(0, 10)} ${s.acquired_at.slice(11, 16)}` : '–')}</td><td>${esc(s.kind ?? '–')}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td>${esc(s.state)}</td><td class="hash">${esc(s.content_hash ?? '–')}</td></tr>`)
+    .join('\n');
+  return `<section id="appendix" class="page">
+<h2>Appendix: input scenes</h2>
+<p>Every scene file in the store: acquisition time (UTC), kind, pass, timing rating, whether it was used, and its SHA-256 content hash, which identifies the exact file.</p>
+<table class="data scenes"><thead><tr><th>File</th><th>Acquired, UTC</th><th>Kind</th><th>Pass</th><th>Timing</th><th>State</th><th>SHA-256</th></tr></thead>
+<tbody>${rows}</tbody></table>
+</section>`;
+}

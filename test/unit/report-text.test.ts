@@ -1,0 +1,68 @@
+/**
+ * How the report writes numbers, and the options of `heatledger report`.
+ */
+import { describe, expect, it } from 'vitest';
+import { difference, figure, fixed, temperature } from '../../api/report/text.js';
+import { baselineMean, cityMean } from '../../api/report/summary.js';
+import { parseBaseline } from '../../workers/commands/report.js';
+import { UNITS, type DistrictsAnswer } from '../../api/answers/index.js';
+
+describe('temperatures in the unit asked for', () => {
+  it('kelvin to degrees Celsius: t/°C = T/K − 273.15 (BIPM, The International System of Units, 9th ed. 2019, §2.3.1)', () => {
+    expect(temperature(273.15, 'C')).toBe('0.0 °C');
+    expect(temperature(300, 'C')).toBe('26.9 °C'); // 26.85 is stored as 26.850000000000023, so it rounds up
+    expect(temperature(300, 'K')).toBe('300.0 K');
+    expect(temperature(null, 'C')).toBe('–');
+  });
+
+  it('a difference has the same number in K and °C (the degree Celsius equals the kelvin in size, same source)', () => {
+    expect(difference(2.345, 'K')).toBe('+2.35 K'); // 2.345 is stored above 2.345 (2.34500000000000019984)
+    expect(difference(2.345, 'C')).toBe('+2.35 °C');
+    expect(difference(-0.004, 'C')).toBe('0.00 °C'); // no "−0.00" and no sign on a zero
+    expect(difference(-1.5, 'K', 1)).toBe('−1.5 K'); // a true minus sign (U+2212), common practice, no source
+  });
+
+  it('fixed: no negative zero, a plus only when asked', () => {
+    expect(fixed(-0.0001, 2)).toBe('0.00');
+    expect(fixed(0.126, 2, true)).toBe('+0.13');
+    expect(fixed(Number.NaN, 2)).toBe('–');
+  });
+
+  it('a figure keeps the value it states and escapes its text', () => {
+    expect(figure('x', 1.23456, '<1.23>')).toBe('<data data-figure="x" value="1.23456">&#60;1.23&#62;</data>');
+    expect(figure('x', null, 'n/a')).toBe('<data data-figure="x" value="">n/a</data>');
+  });
+});
+
+describe('the city figure', () => {
+  const feature = (id: string, role: 'district' | 'rural', area: number, night: number | null, day: number | null) => ({
+    type: 'Feature' as const, id, geometry: { type: 'Polygon', coordinates: [] },
+    properties: { id, name: id, role, area_m2: area, lst_day_k: null, lst_night_k: null, suhi_day_k: day, suhi_night_k: night, ati_per_k: null, dates_day: 3, dates_night: 3, value: night },
+  });
+  const answer = (year: number, features: ReturnType<typeof feature>[]): DistrictsAnswer => ({
+    type: 'FeatureCollection', year, season: 'summer', metric: 'suhi_night', years: [], units: UNITS, caution: '', next_cursor: null, features,
+  });
+
+  it('is the area-weighted mean of the districts with a value; the rural reference and missing values are left out (weighted arithmetic mean, by definition)', () => {
+    const a = answer(2024, [feature('a', 'district', 1e6, 3, 1), feature('b', 'district', 3e6, 1, null), feature('c', 'district', 5e6, null, 2), feature('r', 'rural', 9e7, 0, 0)]);
+    expect(cityMean(a, 'suhi_night_k')).toBeCloseTo((3 * 1 + 1 * 3) / 4, 12); // 1.5
+    expect(cityMean(a, 'suhi_day_k')).toBeCloseTo((1 * 1 + 2 * 5) / 6, 12);
+    expect(cityMean(answer(2024, [feature('r', 'rural', 1, 2, 2)]), 'suhi_night_k')).toBeNull();
+  });
+
+  it('the baseline is the mean of the yearly city figures, each year once; years without values are left out', () => {
+    const years = [answer(2019, [feature('a', 'district', 1, 1, 1)]), answer(2020, [feature('a', 'district', 1, 2, 2)]), answer(2021, [feature('a', 'district', 1, null, null)])];
+    expect(baselineMean(years, 'suhi_night_k')).toEqual({ value: 1.5, years: [2019, 2020] });
+  });
+});
+
+describe('--baseline', () => {
+  it('takes a range or one year in decimal digits', () => {
+    expect(parseBaseline('2019-2021')).toEqual({ from: 2019, to: 2021 });
+    expect(parseBaseline('2020')).toEqual({ from: 2020, to: 2020 });
+  });
+
+  it('refuses a reversed, hexadecimal or open range by naming the option', () => {
+    for (const bad of ['2021-2019', '0x7e3-2021', '2019-', '19-21', '2019 - 2021x', '1900-1901']) expect(() => parseBaseline(bad)).toThrow(/--baseline/);
+  });
+});

@@ -16,7 +16,6 @@ import helmet from '@fastify/helmet';
 import rateLimit from '@fastify/rate-limit';
 import swagger from '@fastify/swagger';
 import type { Store } from '../workers/store/index.js';
-import { districtTable } from '../workers/store/district-table.js';
 import { lastFinishedRun } from '../workers/store/store-summary.js';
 import { isInputError } from '../workers/core/errors.js';
 import { quoteGiven } from '../workers/core/year.js';
@@ -28,7 +27,7 @@ import { checkBearer } from './tokens.js';
 import { registerReadRoutes } from './routes.js';
 import { registerIngestRoutes, type IngestJobs } from './ingest-routes.js';
 import { createLogger, logLevelFromEnv, type LogLevel } from '../workers/log.js';
-import { PAGE_CSS, PAGE_CSS_PATH, renderPage } from './page.js';
+import { registerPage } from './page.js';
 
 /** The caution every answer carries (the one wording of workers/core/defaults.ts). */
 export const CAUTION = CAUTION_TEXT;
@@ -217,15 +216,8 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
 
     api.get('/api/openapi.json', { schema: { summary: 'This document (OpenAPI 3.1)' } }, async () => api.swagger());
 
-    api.get(PAGE_CSS_PATH, { schema: { hide: true } }, async (_req, reply) => {
-      reply.type('text/css; charset=utf-8');
-      return PAGE_CSS;
-    });
-
-    api.get('/', { schema: { hide: true } }, async (_req, reply) => {
-      reply.type('text/html; charset=utf-8');
-      return renderPage(await districtTable(store, 'year'), CAUTION);
-    });
+    // the web page (built from api/web/ into dist/web/) at /
+    registerPage(api);
   });
 
   return app;

@@ -89,15 +89,29 @@ describe('palette', () => {
     expect(classOf(c, null)).toBeNull();
   });
 
-  it('sequential classes use nice breaks inside the range (ColorBrewer YlOrRd)', () => {
+  it('sequential classes break at quantiles rounded apart (ColorBrewer YlOrRd)', () => {
     const c = colourClasses('sequential-heat', [301.3, 309.8, 305], 'K');
-    expect(c.breaks).toEqual([302, 304, 306, 308]);
+    // Hyndman & Fan (1996) type 7: Q(p) = x[h] + (h − ⌊h⌋)(x[h+1] − x[h]), h = (n − 1)p (0-based):
+    // p = 0.2, 0.4, 0.6, 0.8 → 302.78, 304.26, 305.96, 307.88, distinct at 0 decimals
+    expect(c.breaks).toEqual([303, 304, 306, 308]);
     // YlOrRd 5-class as published by ColorBrewer (colorbrewer2.org; from memory)
     expect(c.colours).toEqual(['#ffffb2', '#fecc5c', '#fd8d3c', '#f03b20', '#bd0026']);
-    expect(c.labels[0]).toBe('below 302 K');
+    expect(c.labels[0]).toBe('below 303 K');
     expect(c.labels[4]).toBe('308 K and above');
     expect(classOf(c, 301.3)).toBe(0);
     expect(classOf(c, 304)).toBe(2); // a value on a break belongs to the class above it
+  });
+
+  it('quantile breaks of skewed values keep the many small ones apart', () => {
+    // invented: fifteen land districts near 0.05 1/K and two water districts near 0.7 1/K
+    const v = [0.0425, 0.0436, 0.0474, 0.0475, 0.0491, 0.0498, 0.051, 0.0513, 0.0519, 0.0533, 0.0545, 0.0548, 0.0615, 0.0625, 0.0631, 0.355, 0.707];
+    const c = colourClasses('sequential-inertia', v, '1/K');
+    // type 7 (as above), n = 17: h = 3.2, 6.4, 9.6, 12.8 → 0.04782, 0.05112, 0.05402, 0.06230 (numpy.quantile agrees); apart at 3 decimals
+    expect(c.breaks).toEqual([0.048, 0.051, 0.054, 0.062]);
+    expect(c.labels[1]).toBe('0.048 to 0.051 1/K');
+    // YlGnBu 5-class as published by ColorBrewer (colorbrewer2.org; from memory)
+    expect(c.colours).toEqual(['#ffffcc', '#a1dab4', '#41b6c4', '#2c7fb8', '#253494']);
+    expect(colourClasses('sequential-heat', [300, 300, 300]).breaks).toEqual([]);
   });
 });
 
@@ -154,6 +168,12 @@ describe('map', () => {
     expect(Math.min(...nums.map((n) => n[0]))).toBeGreaterThanOrEqual(0);
     expect(Math.max(...nums.map((n) => n[0]))).toBeLessThanOrEqual(320);
     expect(Math.max(...nums.map((n) => n[1]))).toBeLessThanOrEqual(m.height);
+    // the inner edge (hole) of the rural reference stays in view; its outer edge may not
+    const [rural] = elements(m.svg, 'path', 'hl-rural');
+    const rings = rural.d.split(/Z/i).filter((x) => /\d/.test(x)).map((sub) => [...sub.matchAll(/(-?[\d.]+),(-?[\d.]+)/g)].map((x) => [Number(x[1]), Number(x[2])]));
+    expect(rings).toHaveLength(2);
+    const inView = (ring: number[][]) => ring.every(([x, y]) => x >= -0.5 && x <= 320.5 && y >= -0.5 && y <= m.height + 0.5);
+    expect(rings.filter(inView)).toHaveLength(1);
   });
 });
 

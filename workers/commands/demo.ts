@@ -214,6 +214,7 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   out.push(...demoOutputLines(outputs, outDir));
   out.push(`Try: npx heatledger table --level year --data-dir ${config.dataDir}`);
   out.push(`     npx heatledger export --format csv --level year --metric suhi_night --out my-table.csv --data-dir ${config.dataDir}`);
+  out.push(`See it on a map: npx heatledger serve --data-dir ${config.dataDir}, then open http://127.0.0.1:8080/`);
   out.push('');
   out.push(`Caution: ${CAUTION_SHORT}`);
   process.stdout.write(out.join('\n') + '\n');

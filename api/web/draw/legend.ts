@@ -14,6 +14,8 @@ export interface LegendOptions {
   note?: string;
   /** Show the hatched "no data" swatch (default true). */
   noData?: boolean;
+  /** Show the dashed outline of the rural reference (default false). */
+  rural?: boolean;
   /** Prefix of ids inside the SVG, unique per document. Default "hl-legend". */
   idPrefix?: string;
   /** Width in px (default 220). */
@@ -27,8 +29,9 @@ export function drawLegend(classes: ColourClasses, o: LegendOptions): { svg: str
   const p = o.idPrefix ?? 'hl-legend';
   const width = o.width ?? 220;
   const top = o.note ? 38 : 22;
-  const rows = classes.colours.map((colour, i) => ({ key: String(i), colour: colour as string | null, label: classes.labels[i] }));
+  const rows: { key: string; colour: string | null; label: string }[] = classes.colours.map((colour, i) => ({ key: String(i), colour, label: classes.labels[i] }));
   if (o.noData !== false) rows.push({ key: 'none', colour: null, label: 'no data' });
+  if (o.rural) rows.push({ key: 'rural', colour: 'none', label: 'rural reference (outline)' });
   const height = top + rows.length * ROW + 4;
   const hatch = `${p}-nodata`;
   const out: string[] = [
@@ -41,6 +44,11 @@ export function drawLegend(classes: ColourClasses, o: LegendOptions): { svg: str
   if (o.note) out.push(`<text x="0" y="30" font-size="11" fill="#444444">${esc(o.note)}</text>`);
   rows.forEach((r, i) => {
     const y = top + i * ROW;
+    if (r.key === 'rural') {
+      out.push(`<g class="hl-legend-row" data-class="rural"><line${attrs({ x1: 0, x2: SWATCH + 1, y1: y + SWATCH / 2, y2: y + SWATCH / 2, stroke: '#5a5a5a', 'stroke-width': 1.5, 'stroke-dasharray': '5 4' })}/>` +
+        `<text${attrs({ x: SWATCH + 8, y: y + SWATCH - 2, 'font-size': 12, fill: '#1a1a1a' })}>${esc(r.label)}</text></g>`);
+      return;
+    }
     out.push(
       `<g class="hl-legend-row"${attrs({ 'data-class': r.key })}>` +
         `<rect${attrs({ class: 'hl-swatch', 'data-class': r.key, x: 0.5, y: y + 0.5, width: SWATCH, height: SWATCH, fill: r.colour ?? `url(#${hatch})`, stroke: '#2b2b2b', 'stroke-width': 0.8 })}/>` +

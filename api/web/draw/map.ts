@@ -38,8 +38,13 @@ export interface MapOptions {
   spots?: Record<string, SpotKind>;
   /** Prefix of ids inside the SVG (pattern), unique per document. Default "hl". */
   idPrefix?: string;
-  /** Fit the view to the districts only ('districts') or to the rural reference too ('all', default). */
+  /**
+   * Fit the view to the districts and the inner edge of the rural reference ('districts'; the
+   * rest of the reference is drawn where it falls inside the view) or to all of it ('all', default).
+   */
   fit?: 'districts' | 'all';
+  /** Space around the fitted area as a fraction of the width (default 0; at least 6 px). */
+  margin?: number;
 }
 
 export interface DrawnMap {
@@ -50,10 +55,12 @@ export interface DrawnMap {
 
 /** Stroke used for outlines and the hatch (dark grey, readable on every class colour). */
 export const MAP_INK = '#2b2b2b';
+/** Hot and cold spot outlines: told apart by line pattern (solid / dashed), not by colour; a white halo keeps them visible on every fill. */
 export const SPOT_STYLE = {
-  hot: { stroke: '#67001f', width: 3.5, dash: null },
-  cold: { stroke: '#053061', width: 3.5, dash: '7 3' },
+  hot: { stroke: '#111111', width: 2.6, dash: null },
+  cold: { stroke: '#111111', width: 2.6, dash: '6 3' },
 } as const;
+const HALO = '#ffffff';
 
 /**
  * d3-geo takes polygons on the sphere with clockwise exterior rings (the
@@ -70,16 +77,28 @@ export function forD3(feature: Feature<Geometry>): Feature<Geometry> {
   return feature;
 }
 
+/** Vertices of the interior rings (holes) of a polygon geometry, lon/lat. */
+function innerRingVertices(g: Geometry): number[][] {
+  if (g.type === 'Polygon') return g.coordinates.slice(1).flat();
+  if (g.type === 'MultiPolygon') return g.coordinates.flatMap((p) => p.slice(1).flat());
+  return [];
+}
+
 export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMap {
   const p = o.idPrefix ?? 'hl';
   const drawable = features.filter((f) => f.geometry !== null);
   const asD3 = new Map(drawable.map((f) => [f.id, forD3({ type: 'Feature', properties: {}, geometry: f.geometry as Geometry })]));
   const districts = drawable.filter((f) => f.role !== 'rural');
   const fitTo = (o.fit === 'districts' && districts.length > 0 ? districts : drawable).map((f) => asD3.get(f.id) as Feature<Geometry>);
+  if (o.fit === 'districts' && districts.length > 0) {
+    // keep the inner edge of the rural reference in view: the vertices of its holes
+    const holes = drawable.filter((f) => f.role === 'rural').flatMap((f) => innerRingVertices(f.geometry as Geometry));
+    if (holes.length > 0) fitTo.push({ type: 'Feature', properties: {}, geometry: { type: 'MultiPoint', coordinates: holes } });
+  }
   const collection: FeatureCollection = { type: 'FeatureCollection', features: fitTo };
 
-  const pad = 6;
   const width = Math.max(50, o.width);
+  const pad = Math.max(6, Math.min(0.3, o.margin ?? 0) * width);
   const maxHeight = o.maxHeight ?? width * 1.2;
   const projection = geoTransverseMercator();
   // rotate so the central meridian runs through the middle of the area
@@ -138,6 +157,7 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
       const kind = o.spots[f.id];
       if (kind !== 'hot' && kind !== 'cold') continue;
       const s = SPOT_STYLE[kind];
+      parts.push(`<path${attrs({ class: 'hl-spot-halo', d: d(f.id), fill: 'none', stroke: HALO, 'stroke-width': s.width + 2.4, 'stroke-linejoin': 'round' })}/>`);
       parts.push(`<path${attrs({ class: `hl-spot hl-spot-${kind}`, 'data-id': f.id, 'data-spot': kind, d: d(f.id), fill: 'none', stroke: s.stroke, 'stroke-width': s.width, 'stroke-dasharray': s.dash, 'stroke-linejoin': 'round' })}/>`);
     }
     parts.push('</g>');
@@ -146,8 +166,9 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
   if (o.selectedId) {
     const sel = districts.find((f) => f.id === o.selectedId);
     if (sel) {
-      parts.push(`<path${attrs({ class: 'hl-selected', 'data-id': sel.id, d: d(sel.id), fill: 'none', stroke: '#000000', 'stroke-width': 3, 'pointer-events': 'none' })}/>`);
-      parts.push(`<path${attrs({ class: 'hl-selected-inner', d: d(sel.id), fill: 'none', stroke: '#ffffff', 'stroke-width': 1.2, 'pointer-events': 'none' })}/>`);
+      // the selected district: a yellow line on a black band, unlike the black spot outlines
+      parts.push(`<path${attrs({ class: 'hl-selected', 'data-id': sel.id, d: d(sel.id), fill: 'none', stroke: '#000000', 'stroke-width': 5.5, 'stroke-linejoin': 'round', 'pointer-events': 'none' })}/>`);
+      parts.push(`<path${attrs({ class: 'hl-selected-inner', d: d(sel.id), fill: 'none', stroke: '#ffe14d', 'stroke-width': 2.2, 'stroke-linejoin': 'round', 'pointer-events': 'none' })}/>`);
     }
   }
   parts.push('</svg>');

@@ -11,10 +11,16 @@
  * - YlGnBu (sequential) for apparent thermal inertia.
  * Districts without a value are hatched (see map.ts), never given a colour.
  *
- * Class breaks are "nice" numbers (d3-array's ticks) in the unit shown, so the
- * legend reads 30 to 32 °C rather than 303.15 to 305.15 K converted.
+ * Class breaks are in the unit shown, so the legend reads 30 to 32 °C rather
+ * than 303.15 to 305.15 K converted. Sequential classes are quantile classes
+ * (each holds about as many districts; common practice for choropleth maps of
+ * skewed values, e.g. Slocum et al. 2009, "Thematic Cartography and
+ * Geovisualization", ch. 5; from memory), with the quantiles of Hyndman & Fan
+ * (1996) type 7 (d3-array's quantile, R's default) rounded to the fewest
+ * decimals that keep them apart. Diverging classes are equal steps of a "nice"
+ * size (d3-array's tickStep) on both sides of zero.
  */
-import { ticks, tickStep } from 'd3-array';
+import { quantile, tickStep } from 'd3-array';
 import { schemeRdBu, schemeYlGnBu, schemeYlOrRd } from 'd3-scale-chromatic';
 import { decimalsFor, formatNumber } from './svg.js';
 
@@ -73,11 +79,30 @@ export function colourClasses(family: PaletteFamily, values: readonly (number | 
   if (family === 'diverging') return divergingClasses(v, unit);
   const scheme = SEQUENTIAL[family];
   if (v.length === 0) return { family, breaks: [], colours: pick(scheme, 1), labels: labelsFor([], 0, unit) };
-  const lo = Math.min(...v);
-  const hi = Math.max(...v);
-  let breaks = lo === hi ? [] : ticks(lo, hi, 5).filter((t) => t > lo && t <= hi);
-  if (breaks.length + 1 > MAX_CLASSES) breaks = ticks(lo, hi, 3).filter((t) => t > lo && t <= hi);
+  const breaks = quantileBreaks(v, SEQUENTIAL_CLASSES);
   return { family, breaks, colours: pick(scheme, breaks.length + 1), labels: labelsFor(breaks, decimalsOf(breaks), unit) };
+}
+
+/** Classes of a sequential map (fewer when there are fewer distinct values). */
+const SEQUENTIAL_CLASSES = 5;
+
+/**
+ * Inner breaks at the 1/k … (k−1)/k quantiles (type 7), rounded to the fewest
+ * decimals (0–6) at which they stay strictly increasing inside (min, max];
+ * breaks that coincide are merged, so ties give fewer classes.
+ */
+export function quantileBreaks(values: readonly number[], k: number): number[] {
+  const lo = Math.min(...values);
+  const hi = Math.max(...values);
+  if (!(hi > lo)) return [];
+  const raw = Array.from({ length: k - 1 }, (_, i) => quantile(values, (i + 1) / k) as number);
+  for (let d = 0; d <= 6; d++) {
+    const f = 10 ** d;
+    const r = [...new Set(raw.map((q) => Math.round(q * f) / f))].filter((b) => b > lo && b <= hi);
+    const distinctRaw = new Set(raw.filter((q) => q > lo)).size;
+    if (r.length === distinctRaw && r.every((b, i) => i === 0 || b > r[i - 1])) return r;
+  }
+  return [...new Set(raw)].filter((b) => b > lo && b <= hi);
 }
 
 function divergingClasses(v: number[], unit: string): ColourClasses {

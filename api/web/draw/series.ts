@@ -13,6 +13,8 @@ export interface SeriesPoint {
   year: number;
   /** Value in the unit shown; null = no value that year (no point drawn). */
   value: number | null;
+  /** Left out of the trend (e.g. too few clear dates): drawn faint, with a note in its title. */
+  leftOut?: boolean;
 }
 
 /** The part of a trend result the chart draws (all in the unit shown, slopes per year). */
@@ -133,10 +135,10 @@ export function drawSeriesChart(series: readonly ChartSeries[], o: SeriesChartOp
       if (pt.value === null || !Number.isFinite(pt.value)) continue;
       const x = sx(pt.year);
       const y = sy(pt.value);
-      const tip = `<title>${esc(`${s.label}, ${pt.year}: ${o.formatValue(pt.value)}`)}</title>`;
-      const common = { class: 'hl-point', 'data-series': s.key, 'data-year': pt.year, 'data-value': pt.value, stroke: s.colour, 'stroke-width': 1.6 };
+      const tip = `<title>${esc(`${s.label}, ${pt.year}: ${o.formatValue(pt.value)}${pt.leftOut ? ' (left out of the trend)' : ''}`)}</title>`;
+      const common = { class: pt.leftOut ? 'hl-point hl-left-out' : 'hl-point', 'data-series': s.key, 'data-year': pt.year, 'data-value': pt.value, stroke: s.colour, 'stroke-width': 1.6, opacity: pt.leftOut ? 0.45 : null };
       out.push(s.marker === 'circle'
-        ? `<circle${attrs({ ...common, cx: px(x), cy: px(y), r: 4, fill: s.colour })}>${tip}</circle>`
+        ? `<circle${attrs({ ...common, cx: px(x), cy: px(y), r: 4, fill: pt.leftOut ? '#ffffff' : s.colour })}>${tip}</circle>`
         : `<rect${attrs({ ...common, x: px(x - 4), y: px(y - 4), width: 8, height: 8, fill: '#ffffff' })}>${tip}</rect>`);
     }
   }

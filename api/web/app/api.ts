@@ -1,0 +1,161 @@
+/**
+ * Reading the heatledger API from the page: same-origin JSON requests, lists
+ * followed through `next_cursor` until the last page, answers kept per address
+ * for the life of the page.
+ */
+import type { Geometry } from 'geojson';
+
+export interface TrendFields {
+  n: number;
+  s: number | null;
+  z: number | null;
+  p: number | null;
+  q: number | null;
+  tau: number | null;
+  slope_per_year: number | null;
+  slope_per_decade: number | null;
+  slope_ci_lower: number | null;
+  slope_ci_upper: number | null;
+  slope_ci_lower_per_decade: number | null;
+  slope_ci_upper_per_decade: number | null;
+  pivot_year: number | null;
+  pivot_value: number | null;
+  direction: 'increasing' | 'decreasing' | 'none' | null;
+  direction_raw: 'increasing' | 'decreasing' | 'none' | null;
+  alpha: number;
+  districts_tested: number;
+  years_used: string | null;
+  note: string | null;
+}
+
+export interface DistrictProperties {
+  id: string;
+  name: string;
+  role: 'district' | 'rural';
+  area_m2: number | null;
+  lst_day_k: number | null;
+  lst_night_k: number | null;
+  suhi_day_k: number | null;
+  suhi_night_k: number | null;
+  ati_per_k: number | null;
+  dates_day: number | null;
+  dates_night: number | null;
+  value: number | null;
+}
+
+export interface DistrictsAnswer {
+  type: 'FeatureCollection';
+  year: number | null;
+  season: string;
+  metric: string;
+  years: number[];
+  caution: string;
+  next_cursor: string | null;
+  features: { type: 'Feature'; id: string; geometry: Geometry | null; properties: DistrictProperties }[];
+}
+
+export interface RankingRow { rank: number; district: string; name: string; value: number | null; previous_rank: number | null; rank_change: number | null }
+export interface RankingsAnswer { year: number; previous_year: number | null; metric: string; season: string; unit: string; order: string; next_cursor: string | null; rows: RankingRow[] }
+
+export interface TrendRow extends TrendFields { district: string; name: string }
+export interface TrendsAnswer { metric: string; season: string; alpha: number; districts_tested: number; next_cursor: string | null; rows: TrendRow[] }
+
+export interface HotspotRow { district: string; name: string; value: number | null; gi_z: number | null; gi_p: number | null; gi_q: number | null; spot: 'hot' | 'cold' | 'none'; confidence: 99 | 95 | 90 | null }
+export interface HotspotsAnswer { year: number; metric: string; season: string; unit: string; weights: string; left_out: string[]; moran: { i: number; expected: number; z: number; p: number } | null; rows: HotspotRow[] }
+
+export interface SeriesAnswer {
+  district: { id: string; name: string };
+  metric: string;
+  season: string;
+  unit: string;
+  points: { year: number; value: number | null; dates: number | null; in_trend?: boolean; dates_list?: string[] }[];
+  trend: TrendFields;
+}
+
+export interface SceneRow {
+  id: string | number;
+  file: string;
+  acquired_at: string | null;
+  pass: 'day' | 'night' | null;
+  kind: string;
+  sensor: string | null;
+  timing_rating: string | null;
+  state: string;
+  reason: string | null;
+  warnings: string[];
+  districts: { district: string; valid_fraction: number | null; missing_reason: string | null }[];
+}
+
+/** An answer the page could not use, in one sentence for the reader. */
+export class ApiProblem extends Error {}
+
+const cache = new Map<string, Promise<unknown>>();
+
+async function getJson<T>(url: string): Promise<T> {
+  let res: Response;
+  try {
+    res = await fetch(url, { headers: { accept: 'application/json' } });
+  } catch {
+    throw new ApiProblem(`The server did not answer (${url.split('?')[0]}). Is heatledger serve still running?`);
+  }
+  if (!res.ok) {
+    let detail = '';
+    try {
+      detail = ((await res.json()) as { error?: string }).error ?? '';
+    } catch {
+      /* not JSON */
+    }
+    throw new ApiProblem(`The server answered ${res.status} for ${url.split('?')[0]}${detail ? `: ${detail}` : ''}.`);
+  }
+  return (await res.json()) as T;
+}
+
+/** One answer per address, asked once. */
+export function cached<T>(url: string, load: (url: string) => Promise<T>): Promise<T> {
+  let p = cache.get(url) as Promise<T> | undefined;
+  if (!p) {
+    p = load(url);
+    cache.set(url, p);
+    p.catch(() => cache.delete(url)); // a failed request is asked again next time
+  }
+  return p;
+}
+
+/** A list answer with every page joined: `key` is 'rows' or 'features'. */
+async function allPages<T extends { next_cursor: string | null }>(url: string, key: 'rows' | 'features'): Promise<T> {
+  const first = await getJson<T>(url);
+  const items = [...((first as unknown as Record<string, unknown[]>)[key] ?? [])];
+  let cursor = first.next_cursor;
+  for (let guard = 0; cursor !== null && cursor !== undefined && guard < 1000; guard++) {
+    const sep = url.includes('?') ? '&' : '?';
+    const next = await getJson<T>(`${url}${sep}cursor=${encodeURIComponent(cursor)}`);
+    items.push(...((next as unknown as Record<string, unknown[]>)[key] ?? []));
+    cursor = next.next_cursor;
+  }
+  return { ...first, [key]: items, next_cursor: null };
+}
+
+const qs = (params: Record<string, string | number | boolean | null | undefined>) => {
+  const q = new URLSearchParams();
+  for (const [k, v] of Object.entries(params)) if (v !== null && v !== undefined) q.set(k, String(v));
+  const s = q.toString();
+  return s ? `?${s}` : '';
+};
+
+export const urls = {
+  districts: (p: { year: number | null; season: string; metric: string }, format?: 'csv') => `/api/districts${qs({ ...p, format })}`,
+  rankings: (p: { year: number; season: string; metric: string }) => `/api/rankings${qs({ ...p, order: 'desc' })}`,
+  trends: (p: { season: string; metric: string }) => `/api/trends${qs(p)}`,
+  hotspots: (p: { year: number; season: string; metric: string }) => `/api/hotspots${qs(p)}`,
+  series: (id: string, p: { season: string; metric: string }) => `/api/districts/${encodeURIComponent(id)}/series${qs({ ...p, dates: true })}`,
+  scenes: (p: { from: string; to: string }) => `/api/scenes${qs(p)}`,
+};
+
+export const api = {
+  districts: (p: Parameters<typeof urls.districts>[0]) => cached(urls.districts(p), (u) => allPages<DistrictsAnswer>(u, 'features')),
+  rankings: (p: Parameters<typeof urls.rankings>[0]) => cached(urls.rankings(p), (u) => allPages<RankingsAnswer>(u, 'rows')),
+  trends: (p: Parameters<typeof urls.trends>[0]) => cached(urls.trends(p), (u) => allPages<TrendsAnswer>(u, 'rows')),
+  hotspots: (p: Parameters<typeof urls.hotspots>[0]) => cached(urls.hotspots(p), (u) => getJson<HotspotsAnswer>(u)),
+  series: (id: string, p: Parameters<typeof urls.series>[1]) => cached(urls.series(id, p), (u) => getJson<SeriesAnswer>(u)),
+  scenes: (p: Parameters<typeof urls.scenes>[0]) => cached(urls.scenes(p), (u) => allPages<{ next_cursor: string | null; rows: SceneRow[] }>(u, 'rows')),
+};

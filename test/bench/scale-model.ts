@@ -1,0 +1,106 @@
+/**
+ * Scale-out model of distributed ingest: Amdahl's law (the Universal
+ * Scalability Law with its coherency term at zero) fitted to the throughput
+ * of 1 and 2 worker processes, capped by the capacity of the shared services
+ * measured per scene.
+ *
+ *   X(N) = λ N / (1 + σ (N - 1))          (Gunther 2007, "Guerrilla Capacity Planning",
+ *                                          USL with κ = 0; citation from memory)
+ *   λ = X(1),  σ = (2 X(1) / X(2) - 1)    (the N = 2 point solved for σ)
+ *
+ * Why Amdahl and not the full USL: two measured points determine two
+ * parameters (λ, σ); the USL's κ (crosstalk between workers) needs a third
+ * point that a two-core machine cannot give. Workers here do not talk to each
+ * other; everything they share is Redis (the queue), PostgreSQL (the results)
+ * and the ingest command that feeds and watches the run. Those are bounded
+ * explicitly by the operational laws instead (utilisation law, U = X · D;
+ * Denning & Buzen 1978, "The Operational Analysis of Queueing Network Models",
+ * Computing Surveys 10(3); citation from memory): a service with service demand
+ * D seconds of CPU per scene on c cores cannot pass X = c / D scenes per second.
+ * Redis executes commands on one thread (c = 1), as does the ingest command's
+ * main thread; PostgreSQL runs one backend per connection, so it scales with
+ * the cores given to it (c = the server's cores).
+ *
+ * Prediction: X(N) = min(Amdahl(N), each ceiling). The ceiling that binds first
+ * is where the system saturates.
+ */
+
+export interface ScaleInputs {
+  /** Scenes per second with 1 and 2 worker processes (pinned to separate cores). */
+  x1: number;
+  x2: number;
+  /** CPU seconds per scene of each shared service, measured (/proc) in the same runs. */
+  postgresCpuPerScene: number;
+  redisCpuPerScene: number;
+  cliCpuPerScene: number;
+  /** Cores given to the PostgreSQL server in the prediction. */
+  postgresCores: number;
+}
+
+export interface Ceiling {
+  name: 'PostgreSQL' | 'Redis' | 'ingest command';
+  scenesPerSecond: number;
+  /** Workers at which the Amdahl curve reaches this ceiling, or null when it never does. */
+  saturatesAtWorkers: number | null;
+}
+
+export interface ScalePrediction {
+  model: string;
+  lambda: number;
+  sigma: number;
+  /** σ as fitted before clamping to [0, 1] (outside it the two points are noise, not contention). */
+  sigmaRaw: number;
+  ceilings: Ceiling[];
+  /** The first ceiling the curve meets, or null when contention alone bounds it (asymptote λ/σ). */
+  bottleneck: Ceiling | null;
+  /** λ / σ: the Amdahl asymptote, scenes per second (Infinity when σ = 0). */
+  asymptote: number;
+  predictions: { workers: number; amdahl: number; predicted: number; boundBy: string }[];
+}
+
+/** Amdahl throughput of `n` workers. */
+export function amdahl(lambda: number, sigma: number, n: number): number {
+  return (lambda * n) / (1 + sigma * (n - 1));
+}
+
+/**
+ * Workers at which λN / (1 + σ(N - 1)) reaches `x`: N = x (1 - σ) / (λ - x σ),
+ * or null when the curve's asymptote λ/σ stays below x.
+ */
+export function workersToReach(lambda: number, sigma: number, x: number): number | null {
+  const denominator = lambda - x * sigma;
+  if (denominator <= 0) return null;
+  return Math.max(1, (x * (1 - sigma)) / denominator);
+}
+
+/**
+ * Fit and predict.
+ * @example fitScaleModel({ x1: 10, x2: 18, postgresCpuPerScene: 0.002, redisCpuPerScene: 0.001, cliCpuPerScene: 0.001, postgresCores: 4 }, [1, 2, 4])
+ */
+export function fitScaleModel(input: ScaleInputs, workers: readonly number[] = [1, 2, 4, 8, 16, 32, 64]): ScalePrediction {
+  const lambda = input.x1;
+  const sigmaRaw = (2 * input.x1) / input.x2 - 1;
+  const sigma = Math.min(1, Math.max(0, sigmaRaw));
+  const ceiling = (name: Ceiling['name'], capacity: number): Ceiling => ({
+    name, scenesPerSecond: capacity, saturatesAtWorkers: Number.isFinite(capacity) ? workersToReach(lambda, sigma, capacity) : null,
+  });
+  const ceilings = [
+    ceiling('PostgreSQL', input.postgresCpuPerScene > 0 ? input.postgresCores / input.postgresCpuPerScene : Infinity),
+    ceiling('Redis', input.redisCpuPerScene > 0 ? 1 / input.redisCpuPerScene : Infinity),
+    ceiling('ingest command', input.cliCpuPerScene > 0 ? 1 / input.cliCpuPerScene : Infinity),
+  ];
+  const reached = ceilings.filter((c) => c.saturatesAtWorkers !== null).sort((a, b) => a.saturatesAtWorkers! - b.saturatesAtWorkers!);
+  const predictions = workers.map((n) => {
+    const a = amdahl(lambda, sigma, n);
+    const lowest = ceilings.reduce((m, c) => (c.scenesPerSecond < m.scenesPerSecond ? c : m));
+    return a <= lowest.scenesPerSecond
+      ? { workers: n, amdahl: a, predicted: a, boundBy: 'workers (Amdahl)' }
+      : { workers: n, amdahl: a, predicted: lowest.scenesPerSecond, boundBy: lowest.name };
+  });
+  return {
+    model: 'Amdahl (USL with kappa = 0) fitted to 1 and 2 workers, capped by c / D of PostgreSQL, Redis and the ingest command',
+    lambda, sigma, sigmaRaw, ceilings, bottleneck: reached[0] ?? null,
+    asymptote: sigma > 0 ? lambda / sigma : Infinity,
+    predictions,
+  };
+}

@@ -460,7 +460,7 @@ export async function runArchiveBench(options: ArchiveOptions = {}): Promise<Arc
       const inputs = {
         x1: sps.distributed_1, x2: sps.distributed_2,
         postgresCpuPerScene: perScene((r) => r.cpu.postgres), redisCpuPerScene: perScene((r) => r.cpu.redis),
-        cliCpuPerScene: perScene((r) => r.cpu.command), postgresCores: 4,
+        cliCpuPerScene: perScene((r) => r.cpu.command), workerCpuPerScene: perScene((r) => r.cpu.workers), postgresCores: 4,
       };
       scale = { ...fitScaleModel(inputs), inputs };
     }
@@ -473,8 +473,9 @@ export async function runArchiveBench(options: ArchiveOptions = {}): Promise<Arc
     say(`  storage share: embedded ${pct(storage.embedded)}, distributed ${pct(storage.distributed_1)} / ${pct(storage.distributed_2)} [goal <= 10%]`);
     if (scale) {
       say(`  scale-out model: ${scale.model}`);
-      say(`    inputs: X(1) = ${s2(scale.inputs.x1)}, X(2) = ${s2(scale.inputs.x2)} scenes/s (workers pinned to separate processors); per scene CPU: PostgreSQL ${msOf(scale.inputs.postgresCpuPerScene)}, Redis ${msOf(scale.inputs.redisCpuPerScene)}, ingest command ${msOf(scale.inputs.cliCpuPerScene)}; PostgreSQL given ${scale.inputs.postgresCores} cores`);
-      say(`    fit: lambda ${s2(scale.lambda)} scenes/s per worker, sigma ${scale.sigma.toFixed(3)} (raw ${scale.sigmaRaw.toFixed(3)}), Amdahl asymptote ${Number.isFinite(scale.asymptote) ? s2(scale.asymptote) : 'none'} scenes/s`);
+      say(`    inputs: X(1) = ${s2(scale.inputs.x1)}, X(2) = ${s2(scale.inputs.x2)} scenes/s (workers pinned to separate processors); per scene CPU: workers ${msOf(scale.inputs.workerCpuPerScene)}, PostgreSQL ${msOf(scale.inputs.postgresCpuPerScene)}, Redis ${msOf(scale.inputs.redisCpuPerScene)}, ingest command ${msOf(scale.inputs.cliCpuPerScene)}; PostgreSQL given ${scale.inputs.postgresCores} cores`);
+      say(`    throughput fit: lambda ${s2(scale.throughputFit.lambda)} scenes/s, sigma ${scale.throughputFit.sigmaRaw.toFixed(3)}${scale.fallbackReason ? ` -- not used: ${scale.fallbackReason}` : ''}`);
+      say(`    prediction from the ${scale.fit} fit: lambda ${s2(scale.lambda)} scenes/s per worker, sigma ${scale.sigma.toFixed(3)}, Amdahl asymptote ${Number.isFinite(scale.asymptote) ? `${s2(scale.asymptote)} scenes/s` : 'none'}`);
       say(`    ceilings: ${scale.ceilings.map((c) => `${c.name} ${s2(c.scenesPerSecond)} scenes/s${c.saturatesAtWorkers !== null ? ` (reached at ~${c.saturatesAtWorkers.toFixed(0)} workers)` : ' (not reached)'}`).join('; ')}`);
       say(`    predicted scenes/s: ${scale.predictions.map((p) => `${p.workers}: ${s2(p.predicted)}${p.boundBy.startsWith('workers') ? '' : ` (${p.boundBy})`}`).join(', ')}`);
       say(`    saturates first: ${scale.bottleneck ? `${scale.bottleneck.name} at ~${scale.bottleneck.saturatesAtWorkers!.toFixed(0)} workers` : 'nothing within reach; contention alone bounds it'}`);

@@ -23,6 +23,15 @@
  *
  * Prediction: X(N) = min(Amdahl(N), each ceiling). The ceiling that binds first
  * is where the system saturates.
+ *
+ * On a shared two-core machine the 2-worker run also shares its cores with
+ * PostgreSQL, Redis, the ingest command and whatever else runs, so the fitted σ
+ * can come out at or above 1 (two workers no faster than one): that says the
+ * machine was full, not that the workers contend. Then the fit falls back to
+ * the service demands alone (asymptotic bound analysis; Lazowska et al. 1984,
+ * "Quantitative System Performance", ch. 5; citation from memory): λ = 1 / the
+ * worker CPU per scene (a worker with a core of its own), σ = 0, and the same
+ * ceilings. Both fits are returned; `fit` says which one predicts.
  */
 
 export interface ScaleInputs {
@@ -33,6 +42,8 @@ export interface ScaleInputs {
   postgresCpuPerScene: number;
   redisCpuPerScene: number;
   cliCpuPerScene: number;
+  /** CPU seconds per scene of the worker processes (the parallel part). */
+  workerCpuPerScene: number;
   /** Cores given to the PostgreSQL server in the prediction. */
   postgresCores: number;
 }
@@ -46,6 +57,12 @@ export interface Ceiling {
 
 export interface ScalePrediction {
   model: string;
+  /** 'throughput': λ and σ from X(1) and X(2); 'demand': λ = 1 / worker CPU per scene, σ = 0 (the throughput fit was unusable). */
+  fit: 'throughput' | 'demand';
+  /** Why the demand fit was used, or null. */
+  fallbackReason: string | null;
+  /** The throughput fit's values, whichever fit predicts. */
+  throughputFit: { lambda: number; sigmaRaw: number };
   lambda: number;
   sigma: number;
   /** σ as fitted before clamping to [0, 1] (outside it the two points are noise, not contention). */
@@ -75,12 +92,17 @@ export function workersToReach(lambda: number, sigma: number, x: number): number
 
 /**
  * Fit and predict.
- * @example fitScaleModel({ x1: 10, x2: 18, postgresCpuPerScene: 0.002, redisCpuPerScene: 0.001, cliCpuPerScene: 0.001, postgresCores: 4 }, [1, 2, 4])
+ * @example fitScaleModel({ x1: 10, x2: 18, postgresCpuPerScene: 0.002, redisCpuPerScene: 0.001, cliCpuPerScene: 0.001, workerCpuPerScene: 0.09, postgresCores: 4 }, [1, 2, 4])
  */
 export function fitScaleModel(input: ScaleInputs, workers: readonly number[] = [1, 2, 4, 8, 16, 32, 64]): ScalePrediction {
-  const lambda = input.x1;
   const sigmaRaw = (2 * input.x1) / input.x2 - 1;
-  const sigma = Math.min(1, Math.max(0, sigmaRaw));
+  const usable = Number.isFinite(sigmaRaw) && sigmaRaw >= 0 && sigmaRaw < 1;
+  const fit: ScalePrediction['fit'] = usable || !(input.workerCpuPerScene > 0) ? 'throughput' : 'demand';
+  const fallbackReason = fit === 'demand'
+    ? `two workers gave ${(input.x2 / input.x1).toFixed(2)}x one (sigma ${sigmaRaw.toFixed(2)}, outside [0, 1)): the machine's cores were taken, so lambda = 1 / worker CPU per scene and sigma = 0`
+    : null;
+  const lambda = fit === 'throughput' ? input.x1 : 1 / input.workerCpuPerScene;
+  const sigma = fit === 'throughput' ? Math.min(1, Math.max(0, sigmaRaw)) : 0;
   const ceiling = (name: Ceiling['name'], capacity: number): Ceiling => ({
     name, scenesPerSecond: capacity, saturatesAtWorkers: Number.isFinite(capacity) ? workersToReach(lambda, sigma, capacity) : null,
   });
@@ -99,6 +121,7 @@ export function fitScaleModel(input: ScaleInputs, workers: readonly number[] = [
   });
   return {
     model: 'Amdahl (USL with kappa = 0) fitted to 1 and 2 workers, capped by c / D of PostgreSQL, Redis and the ingest command',
+    fit, fallbackReason, throughputFit: { lambda: input.x1, sigmaRaw },
     lambda, sigma, sigmaRaw, ceilings, bottleneck: reached[0] ?? null,
     asymptote: sigma > 0 ? lambda / sigma : Infinity,
     predictions,

@@ -110,6 +110,8 @@ export interface ArchiveFigures {
   cpu_split_per_scene_ms: Record<ArchiveConfig, CpuSplit | null>;
   distributed_over_embedded_cpu: number | null;
   storage_fraction: Record<ArchiveConfig, number | null>;
+  /** PostgreSQL server CPU / all CPU of the run (distributed and peer). */
+  storage_cpu_fraction: Record<ArchiveConfig, number | null>;
   writes: WriteMethodFigures[] | null;
   scale_model: (ScalePrediction & { inputs: Record<string, number> }) | null;
   runs: ArchiveRun[];
@@ -341,24 +343,38 @@ async function measureWrites(pgServer: PrivatePostgres, scenes = 200): Promise<W
       })],
       ['one INSERT per row', async (rows) => { for (const r of rows) await c.query(ROW_INSERT, r); }],
     ];
-    for (const [method, write] of methods) {
-      await c.query('DROP TABLE IF EXISTS w');
-      await c.query(WRITE_TABLE);
-      const pg0 = serverCpuSeconds(pgServer.postmasterPid());
-      const u0 = process.cpuUsage();
-      const t0 = performance.now();
-      for (let sc = 1; sc <= scenes; sc++) {
-        await c.query('BEGIN');
-        await write(syntheticRows(sc));
-        await c.query('COMMIT');
+    // rounds alternate the order of the methods, so a change in the machine's load falls on all of them
+    const totals = methods.map(() => ({ ms: 0, pg: 0, client: 0 }));
+    const rounds = 4, perRound = Math.ceil(scenes / rounds);
+    for (let k = 0; k < methods.length; k++) {
+      await c.query(`DROP TABLE IF EXISTS w${k}`);
+      await c.query(WRITE_TABLE.replace('CREATE TABLE w ', `CREATE TABLE w${k} `));
+    }
+    let scene = 0;
+    for (let round = 0; round < rounds; round++) {
+      const order = round % 2 === 0 ? [0, 1, 2] : [2, 1, 0];
+      const first = scene;
+      for (const k of order) {
+        const [, write] = methods[k];
+        await c.query(`ALTER TABLE IF EXISTS w${k} RENAME TO w`);
+        const pg0 = serverCpuSeconds(pgServer.postmasterPid());
+        const u0 = process.cpuUsage();
+        const t0 = performance.now();
+        for (let sc = first + 1; sc <= first + perRound; sc++) {
+          await c.query('BEGIN');
+          await write(syntheticRows(sc));
+          await c.query('COMMIT');
+        }
+        totals[k].ms += performance.now() - t0;
+        const u = process.cpuUsage(u0);
+        totals[k].client += (u.user + u.system) / 1000;
+        totals[k].pg += (serverCpuSeconds(pgServer.postmasterPid()) - pg0) * 1000;
+        await c.query(`ALTER TABLE w RENAME TO w${k}`);
       }
-      const ms = performance.now() - t0;
-      const u = process.cpuUsage(u0);
-      out.push({
-        method, msPerScene: ms / scenes,
-        postgresCpuMsPerScene: ((serverCpuSeconds(pgServer.postmasterPid()) - pg0) * 1000) / scenes,
-        clientCpuMsPerScene: (u.user + u.system) / 1000 / scenes,
-      });
+      scene += perRound;
+    }
+    for (const [k, [method]] of methods.entries()) {
+      out.push({ method, msPerScene: totals[k].ms / scene, postgresCpuMsPerScene: totals[k].pg / scene, clientCpuMsPerScene: totals[k].client / scene });
     }
     return out;
   } finally {
@@ -435,7 +451,7 @@ export async function runArchiveBench(options: ArchiveOptions = {}): Promise<Arc
     let writes: WriteMethodFigures[] | null = null;
     if (setup.pg) {
       writes = await measureWrites(setup.pg);
-      say(`  result writes on the PostgreSQL server, 21 rows per scene, one transaction each (${writes.length} methods, 200 scenes):`);
+      say(`  result writes on the PostgreSQL server, 21 rows per scene, one transaction each, 200 scenes per method in 4 alternating rounds:`);
       for (const w of writes) say(`    ${w.method.padEnd(20)} ${w.msPerScene.toFixed(2)} ms per scene; PostgreSQL CPU ${w.postgresCpuMsPerScene.toFixed(2)} ms, client CPU ${w.clientCpuMsPerScene.toFixed(2)} ms`);
     }
 
@@ -470,7 +486,9 @@ export async function runArchiveBench(options: ArchiveOptions = {}): Promise<Arc
       `distributed 1 worker ${show(sps.distributed_1)} (x${show(ratio.distributed_1)}), 2 workers ${show(sps.distributed_2)} (x${show(ratio.distributed_2)})  [goal: x2 the peer]`);
     say(`  CPU per scene, all processes: peer ${show(cps.peer, msOf)}, embedded ${show(cps.embedded, msOf)}, distributed ${show(cps.distributed_1, msOf)} (1 worker) / ${show(cps.distributed_2, msOf)} (2); ` +
       `distributed / embedded ${show(distOverEmb)} [goal <= 1.25]`);
-    say(`  storage share: embedded ${pct(storage.embedded)}, distributed ${pct(storage.distributed_1)} / ${pct(storage.distributed_2)} [goal <= 10%]`);
+    const pgShare = (c: ArchiveConfig) => (split[c] ? split[c]!.postgres / (split[c]!.command + split[c]!.workers + split[c]!.postgres + split[c]!.redis) : null);
+    say(`  storage share: of the run's time (a result write in flight) embedded ${pct(storage.embedded)}, distributed ${pct(storage.distributed_1)} / ${pct(storage.distributed_2)}; ` +
+      `of all CPU (the PostgreSQL server) distributed ${pct(pgShare('distributed_1'))} / ${pct(pgShare('distributed_2'))}, peer ${pct(pgShare('peer'))} [goal <= 10%]`);
     if (scale) {
       say(`  scale-out model: ${scale.model}`);
       say(`    inputs: X(1) = ${s2(scale.inputs.x1)}, X(2) = ${s2(scale.inputs.x2)} scenes/s (workers pinned to separate processors); per scene CPU: workers ${msOf(scale.inputs.workerCpuPerScene)}, PostgreSQL ${msOf(scale.inputs.postgresCpuPerScene)}, Redis ${msOf(scale.inputs.redisCpuPerScene)}, ingest command ${msOf(scale.inputs.cliCpuPerScene)}; PostgreSQL given ${scale.inputs.postgresCores} cores`);
@@ -483,7 +501,8 @@ export async function runArchiveBench(options: ArchiveOptions = {}): Promise<Arc
     if (problems.length) say(`  problems: ${problems.length}; first: ${problems[0]}`);
     const figures: ArchiveFigures = {
       scenes: data.scenes, repetitions: reps, scenes_per_second: sps, ratio_over_peer: ratio, cpu_seconds_per_scene: cps,
-      cpu_split_per_scene_ms: split, distributed_over_embedded_cpu: distOverEmb, storage_fraction: storage, writes, scale_model: scale,
+      cpu_split_per_scene_ms: split, distributed_over_embedded_cpu: distOverEmb, storage_fraction: storage,
+      storage_cpu_fraction: all(ARCHIVE_CONFIGS.map((c) => [c, c === 'embedded' || c === 'embedded_fresh' ? null : pgShare(c)])), writes, scale_model: scale,
       runs, problems, skipped, machine: { cpus: cpus().length, loadavg_at_start: loadStart, loadavg_at_end: loadavg() },
       section_seconds: (performance.now() - started) / 1000,
     };

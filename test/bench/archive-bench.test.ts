@@ -32,6 +32,8 @@ describe('scale model', () => {
     // ceilings c / D: PostgreSQL 1 / 0.01 = 100, Redis 500, ingest command 1000; 64 workers would give 10*64/(1+0.0526*63) = 148
     expect(m.bottleneck?.name).toBe('PostgreSQL');
     expect(m.predictions[2]).toMatchObject({ predicted: 100, boundBy: 'PostgreSQL' });
+    // beside it, the demand bound: lambda = 1 / 0.09 s per scene, no contention, the same ceilings
+    expect(m.demandPredictions!.map((p) => p.predicted)).toEqual([1 / 0.09, 2 / 0.09, 100]);
   });
 
   it('falls back to the service demands when two workers were no faster than one', () => {

@@ -495,7 +495,12 @@ export async function runArchiveBench(options: ArchiveOptions = {}): Promise<Arc
       say(`    throughput fit: lambda ${s2(scale.throughputFit.lambda)} scenes/s, sigma ${scale.throughputFit.sigmaRaw.toFixed(3)}${scale.fallbackReason ? ` -- not used: ${scale.fallbackReason}` : ''}`);
       say(`    prediction from the ${scale.fit} fit: lambda ${s2(scale.lambda)} scenes/s per worker, sigma ${scale.sigma.toFixed(3)}, Amdahl asymptote ${Number.isFinite(scale.asymptote) ? `${s2(scale.asymptote)} scenes/s` : 'none'}`);
       say(`    ceilings: ${scale.ceilings.map((c) => `${c.name} ${s2(c.scenesPerSecond)} scenes/s${c.saturatesAtWorkers !== null ? ` (reached at ~${c.saturatesAtWorkers.toFixed(0)} workers)` : ' (not reached)'}`).join('; ')}`);
-      say(`    predicted scenes/s: ${scale.predictions.map((p) => `${p.workers}: ${s2(p.predicted)}${p.boundBy.startsWith('workers') ? '' : ` (${p.boundBy})`}`).join(', ')}`);
+      const line = (ps: { workers: number; predicted: number; boundBy: string }[]) =>
+        ps.map((p) => `${p.workers}: ${s2(p.predicted)}${p.boundBy.startsWith('workers') ? '' : ` (${p.boundBy})`}`).join(', ');
+      say(`    predicted scenes/s (${scale.fit} fit): ${line(scale.predictions)}`);
+      if (scale.fit === 'throughput' && scale.demandPredictions) {
+        say(`    with a core for each worker (demand bounds, lambda ${s2(1 / scale.inputs.workerCpuPerScene)}, sigma 0): ${line(scale.demandPredictions)}`);
+      }
       say(`    saturates first: ${scale.bottleneck ? `${scale.bottleneck.name} at ~${scale.bottleneck.saturatesAtWorkers!.toFixed(0)} workers` : 'nothing within reach; contention alone bounds it'}`);
     }
     if (problems.length) say(`  problems: ${problems.length}; first: ${problems[0]}`);

@@ -73,6 +73,12 @@ export interface ScalePrediction {
   /** λ / σ: the Amdahl asymptote, scenes per second (Infinity when σ = 0). */
   asymptote: number;
   predictions: { workers: number; amdahl: number; predicted: number; boundBy: string }[];
+  /**
+   * The demand fit's predictions whichever fit predicts (λ = 1 / worker CPU per
+   * scene, σ = 0, the same ceilings): the bound for workers with a core each,
+   * beside a throughput fit taken on a machine whose cores the servers share.
+   */
+  demandPredictions: { workers: number; predicted: number; boundBy: string }[] | null;
 }
 
 /** Amdahl throughput of `n` workers. */
@@ -112,18 +118,23 @@ export function fitScaleModel(input: ScaleInputs, workers: readonly number[] = [
     ceiling('ingest command', input.cliCpuPerScene > 0 ? 1 / input.cliCpuPerScene : Infinity),
   ];
   const reached = ceilings.filter((c) => c.saturatesAtWorkers !== null).sort((a, b) => a.saturatesAtWorkers! - b.saturatesAtWorkers!);
-  const predictions = workers.map((n) => {
-    const a = amdahl(lambda, sigma, n);
-    const lowest = ceilings.reduce((m, c) => (c.scenesPerSecond < m.scenesPerSecond ? c : m));
+  const lowest = ceilings.reduce((m, c) => (c.scenesPerSecond < m.scenesPerSecond ? c : m));
+  const curve = (l: number, sg: number) => workers.map((n) => {
+    const a = amdahl(l, sg, n);
     return a <= lowest.scenesPerSecond
       ? { workers: n, amdahl: a, predicted: a, boundBy: 'workers (Amdahl)' }
       : { workers: n, amdahl: a, predicted: lowest.scenesPerSecond, boundBy: lowest.name };
   });
+  const predictions = curve(lambda, sigma);
+  const demandPredictions = input.workerCpuPerScene > 0
+    ? curve(1 / input.workerCpuPerScene, 0).map(({ workers: n, predicted, boundBy }) => ({ workers: n, predicted, boundBy }))
+    : null;
   return {
     model: 'Amdahl (USL with kappa = 0) fitted to 1 and 2 workers, capped by c / D of PostgreSQL, Redis and the ingest command',
     fit, fallbackReason, throughputFit: { lambda: input.x1, sigmaRaw },
     lambda, sigma, sigmaRaw, ceilings, bottleneck: reached[0] ?? null,
     asymptote: sigma > 0 ? lambda / sigma : Infinity,
     predictions,
+    demandPredictions,
   };
 }

@@ -172,6 +172,24 @@ describe('zonalScene from scene to scene (histogram buffers kept for the next sc
       for (const want of reference.rows.filter((r) => r.scene === 'a' && r.rule === 'centre')) checkRow(rows.find((r) => r.id === want.id)!, want, 9);
     }
   });
+
+  test('masks kept per geometry and grid: the same geometry on another grid gets its own mask (scene A shifted by one cell)', async () => {
+    const names = ['irregular', 'hole', 'multipolygon'];
+    const targets = names.map((id) => ({ id, geometry: load(id).geometry as number[][][][] }));
+    const utm = fromGdal(load('hole').gdalTransform);
+    const { dn } = sceneA(30, 30);
+    const common = { width: 30, height: 30, sampleFormat: 'uint' as const, bitsPerSample: 16 as const, nodata: 0, scale: 0.02 };
+    const on = await zonalScene(new FakeRaster(dn, { ...common, transform: utm }), targets, { coverage: 'centre' });
+    // the grid moved one cell west: the same polygons cover other cells (derived from the centre rule)
+    const shifted = { ...utm, c: utm.c - utm.a };
+    const moved = await zonalScene(new FakeRaster(dn, { ...common, transform: shifted }), targets, { coverage: 'centre' });
+    const fresh = await zonalScene(new FakeRaster(dn, { ...common, transform: shifted }), names.map((id) => ({ id, geometry: load(id).geometry as number[][][][] })), { coverage: 'centre' });
+    expect(moved.map((r) => r.stats)).toEqual(fresh.map((r) => r.stats));
+    expect(moved.map((r) => r.stats.mean)).not.toEqual(on.map((r) => r.stats.mean));
+    // and back on the first grid, the first answer again
+    const again = await zonalScene(new FakeRaster(dn, { ...common, transform: utm }), targets, { coverage: 'centre' });
+    expect(again).toEqual(on);
+  });
 });
 
 describe('zonalScene behaviour', () => {

@@ -334,7 +334,8 @@ function prepareQa(raster: RasterFile, qa: NonNullable<ZonalSceneOptions['qa']>)
  * each once; each block goes to every target whose window it meets.
  *
  * @param raster the scene (RasterFile contract of workers/core/raster)
- * @param targets zones with MultiPolygon coordinates in the raster's CRS
+ * @param targets zones with MultiPolygon coordinates in the raster's CRS; a
+ *   geometry must not change once used (its masks are kept per geometry and grid)
  * @param options coverage rule, plausible range, QA raster, band (0-based)
  * @returns one entry per target, in input order; targets off the raster get
  *   pixels 0 and null statistics
@@ -394,6 +395,29 @@ function dnClasses(h: RasterFile['header'], kind: IntegerKind | null, lo: number
 }
 
 /** Each target's pixel mask on the raster grid, window, pixel count and (float path) accumulator. */
+/**
+ * Masks kept per target geometry and grid. A worker's zonal job hands scene after
+ * scene the same (cached, reprojected) geometry object per district, and the scenes
+ * of an archive mostly share one grid, so their masks are made once, as a careful
+ * script computes them once per grid. Masks are only read once made. Keyed weakly
+ * by the geometry: masks go when nobody holds the geometry any longer.
+ */
+const maskCache = new WeakMap<object, Map<string, CentreMask | FractionMask | null>>();
+
+function gridKey(h: RasterFile['header'], fraction: boolean): string {
+  const t = h.transform;
+  return `${fraction ? 'fraction' : 'centre'} ${t.a} ${t.b} ${t.c} ${t.d} ${t.e} ${t.f} ${h.width} ${h.height}`;
+}
+
+function cachedMask<M extends CentreMask | FractionMask>(geometry: object, key: string, make: () => M | null): M | null {
+  let byGrid = maskCache.get(geometry);
+  if (!byGrid) maskCache.set(geometry, (byGrid = new Map()));
+  if (byGrid.has(key)) return byGrid.get(key) as M | null;
+  const m = make();
+  byGrid.set(key, m);
+  return m;
+}
+
 async function targetStates(h: RasterFile['header'], targets: readonly ZonalTarget[], fraction: boolean, kind: IntegerKind | null): Promise<TargetState[]> {
   // Loaded when needed: most LST rasters are integer DNs read by the centre rule.
   const fractionMask = fraction ? (await import('../coverage/fraction.js')).fractionMask : null;
@@ -403,15 +427,19 @@ async function targetStates(h: RasterFile['header'], targets: readonly ZonalTarg
       throw new InputError('a zonal target has no string id', h.path);
     }
     const source = `target ${JSON.stringify(t.id)}`;
+    const key = gridKey(h, fraction);
+    const cacheable = t.geometry !== null && typeof t.geometry === 'object';
     let window: Window | null = null, centre: CentreMask | null = null, frac: FractionMask | null = null, pixels = 0;
     if (fraction) {
-      frac = fractionMask!(t.geometry, h.transform, h.width, h.height, source);
+      const make = () => fractionMask!(t.geometry, h.transform, h.width, h.height, source);
+      frac = cacheable ? cachedMask(t.geometry, key, make) : make();
       if (frac !== null) {
         for (let i = 0; i < frac.fractions.length; i++) if (frac.fractions[i] > 0) pixels++;
         window = frac.window;
       }
     } else {
-      centre = centreMask(t.geometry, h.transform, h.width, h.height, source);
+      const make = () => centreMask(t.geometry, h.transform, h.width, h.height, source);
+      centre = cacheable ? cachedMask(t.geometry, key, make) : make();
       if (centre !== null && centre.count > 0) { pixels = centre.count; window = centre.window; }
     }
     if (pixels === 0) window = null;

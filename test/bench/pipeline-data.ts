@@ -123,6 +123,39 @@ export function districtCollection(): object {
   return { type: 'FeatureCollection', features };
 }
 
+/**
+ * A rural reference for the archive bench: the square ring from `innerMetres`
+ * to `outerMetres` outside the district grid (UTM), as one lon/lat Polygon
+ * with a hole (RFC 7946 winding: exterior counter-clockwise, hole clockwise),
+ * `VERTICES_PER_SIDE` vertices per side.
+ */
+export function ruralRingCollection(innerMetres = 2000, outerMetres = 6000): object {
+  const toLonLat = proj4(BENCH_UTM_PROJ4, 'EPSG:4326');
+  const halfW = (DISTRICT_COLS * DISTRICT_CELL_METRES) / 2, halfH = (DISTRICT_ROWS * DISTRICT_CELL_METRES) / 2;
+  const square = (margin: number, clockwise: boolean): number[][] => {
+    const x0 = CENTRE_EASTING - halfW - margin, x1 = CENTRE_EASTING + halfW + margin;
+    const y0 = CENTRE_NORTHING - halfH - margin, y1 = CENTRE_NORTHING + halfH + margin;
+    const ccw: [number, number][] = [[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
+    const corners = clockwise ? [...ccw].reverse() : ccw;
+    const ring: number[][] = [];
+    for (let k = 0; k < 4; k++) {
+      const [ax, ay] = corners[k];
+      const [bx, by] = corners[(k + 1) % 4];
+      for (let s = 0; s < VERTICES_PER_SIDE; s++) {
+        const t = s / VERTICES_PER_SIDE;
+        const [lon, lat] = toLonLat.forward([ax + (bx - ax) * t, ay + (by - ay) * t]);
+        ring.push([Math.round(lon * 1e7) / 1e7, Math.round(lat * 1e7) / 1e7]);
+      }
+    }
+    ring.push(ring[0]);
+    return ring;
+  };
+  return {
+    type: 'FeatureCollection',
+    features: [{ type: 'Feature', properties: { id: 'rural', name: 'Rural ring' }, geometry: { type: 'Polygon', coordinates: [square(outerMetres, false), square(innerMetres, true)] } }],
+  };
+}
+
 /** Smooth value noise in [-1, 1]: bilinear between hashed lattice values (spacing in pixels). */
 function valueNoise(size: number, spacing: number, seed: number): Float32Array {
   const n = Math.ceil(size / spacing) + 2;

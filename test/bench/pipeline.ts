@@ -44,13 +44,13 @@ import { median } from './timing.js';
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work/pipeline');
 const CLI = join(ROOT, 'dist/workers/cli.js');
-const REGISTER = join(ROOT, 'dist/test/bench/pipeline-register.js');
+export const REGISTER = join(ROOT, 'dist/test/bench/pipeline-register.js');
 const EMBEDDED_CHILD = join(ROOT, 'dist/test/bench/pipeline-embedded-child.js');
 const NODE = process.execPath;
 export const BENCH_REDIS_URL = 'redis://127.0.0.1:6379';
 export const BENCH_POSTGRES_URL = 'postgres://postgres@127.0.0.1:5432/postgres';
 /** A run taking longer than this is killed and reported as failed (a bench must never hang). */
-const RUN_TIMEOUT_MS = 300_000;
+export const RUN_TIMEOUT_MS = 300_000;
 
 export type PipelineConfig = 'embedded_1' | 'embedded_2' | 'distributed_1' | 'distributed_2';
 const CONFIGS: PipelineConfig[] = ['embedded_1', 'embedded_2', 'distributed_1', 'distributed_2'];
@@ -185,7 +185,7 @@ function mergeMethods(timings: RepoTiming[]): RunFigures['methods'] {
 }
 
 /** Environment of a child: ours minus anything that selects a store or a queue. */
-function cleanEnv(extra: Record<string, string>): NodeJS.ProcessEnv {
+export function cleanEnv(extra: Record<string, string>): NodeJS.ProcessEnv {
   const env: NodeJS.ProcessEnv = {};
   for (const [k, v] of Object.entries(process.env)) {
     if (k === 'DATABASE_URL' || k === 'REDIS_URL' || k === 'NODE_OPTIONS' || k.startsWith('HEATLEDGER_') || k.startsWith('BENCH_')) continue;
@@ -194,12 +194,12 @@ function cleanEnv(extra: Record<string, string>): NodeJS.ProcessEnv {
   return { ...env, ...extra };
 }
 
-interface ChildRun { code: number | null; signal: NodeJS.Signals | null; stdout: string; stderr: string; wallSeconds: number; timedOut: boolean }
+export interface ChildRun { code: number | null; signal: NodeJS.Signals | null; stdout: string; stderr: string; wallSeconds: number; timedOut: boolean }
 
 /** Spawn with an IPC channel (children end when the bench goes away) and collect the output; SIGKILL after `timeoutMs`. */
-function runChild(args: string[], env: NodeJS.ProcessEnv, timeoutMs: number): { child: ChildProcess; done: Promise<ChildRun> } {
+export function runChild(args: string[], env: NodeJS.ProcessEnv, timeoutMs: number, command: string = NODE): { child: ChildProcess; done: Promise<ChildRun> } {
   const t0 = performance.now();
-  const child = spawn(NODE, args, { cwd: ROOT, env, stdio: ['ignore', 'pipe', 'pipe', 'ipc'] });
+  const child = spawn(command, args, { cwd: ROOT, env, stdio: ['ignore', 'pipe', 'pipe', 'ipc'] });
   let stdout = '', stderr = '';
   child.stdout!.on('data', (d) => { stdout += d; });
   child.stderr!.on('data', (d) => { stderr += d; });
@@ -215,7 +215,7 @@ function runChild(args: string[], env: NodeJS.ProcessEnv, timeoutMs: number): { 
 }
 
 /** SIGTERM (then SIGKILL after `graceMs`) and wait for the exit. */
-function stopProcess(child: ChildProcess, graceMs = 15_000): Promise<void> {
+export function stopProcess(child: ChildProcess, graceMs = 15_000): Promise<void> {
   if (child.exitCode !== null || child.signalCode !== null) return Promise.resolve();
   return new Promise((res) => {
     const t = setTimeout(() => child.kill('SIGKILL'), graceMs);
@@ -224,11 +224,11 @@ function stopProcess(child: ChildProcess, graceMs = 15_000): Promise<void> {
   });
 }
 
-function describeExit(r: ChildRun): string {
+export function describeExit(r: ChildRun): string {
   return `${r.timedOut ? `timed out after ${RUN_TIMEOUT_MS / 1000} s, ` : ''}exit ${r.code ?? r.signal}: ${r.stderr.trim().slice(-1500)}`;
 }
 
-interface SummaryJson {
+export interface SummaryJson {
   scenes: number;
   seconds: number;
   failures: { name: string; error: string }[];
@@ -300,9 +300,12 @@ async function embeddedRun(data: PipelineBenchData, threads: number, cpuProfileD
   }
 }
 
-/** Start `heatledger worker` (timed repository) and wait for its "serving" line. */
-function startWorker(env: NodeJS.ProcessEnv): Promise<ChildProcess> {
-  const child = spawn(NODE, ['--import', REGISTER, CLI, 'worker'], { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });
+/** Start `heatledger worker` (timed repository) and wait for its "serving" line; `cpu` pins it to that processor (taskset). */
+export function startWorker(env: NodeJS.ProcessEnv, cpu?: number): Promise<ChildProcess> {
+  const argv = [NODE, '--import', REGISTER, CLI, 'worker'];
+  const child = cpu === undefined
+    ? spawn(argv[0], argv.slice(1), { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe', 'ipc'] })
+    : spawn('taskset', ['-c', String(cpu), ...argv], { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });
   let err = '';
   return new Promise((res, rej) => {
     const t = setTimeout(() => { child.kill('SIGKILL'); rej(new Error(`heatledger worker did not report "serving" within 30 s: ${err.trim()}`)); }, 30_000);

@@ -3,6 +3,8 @@
  *
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
+ *     node dist/test/bench/run.js --archive [--json] [--archive-reps N] [--archive-configs list]
+ *                                        (a 200-scene archive against a Python peer; archive.ts)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -27,6 +29,7 @@ import { loadTargets, measureCoverage, measureDecode, measureStats, type PhasePr
 import { median, timeProcess } from './timing.js';
 import { pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
+import { archiveFlags, runArchiveBench } from './archive.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -184,13 +187,20 @@ function phaseLine(p: PhaseProfile): string {
 
 async function main(): Promise<void> {
   const all = process.argv.includes('--all');
+  const archiveArgs = archiveFlags(process.argv.slice(2));
+  if (archiveArgs.archive && !all) {
+    // The whole archive against the Python peer alone (its own servers, about ten minutes)
+    const archive = await runArchiveBench({ ...archiveArgs.options, say });
+    if (archiveArgs.argv.includes('--json')) process.stdout.write(JSON.stringify({ archive }) + '\n');
+    return;
+  }
   if (process.argv.includes('--trends') && !all) {
     // Trend and hot-spot statistics alone: pure computation, seconds.
     const trends = runTrendsBench(say);
     if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ trends }) + '\n');
     return;
   }
-  const pipelineArgs = pipelineFlags(process.argv.slice(2).filter((a) => a !== '--trends')); // --pipeline / --all and the section's own flags
+  const pipelineArgs = pipelineFlags(archiveArgs.argv.filter((a) => a !== '--trends')); // --pipeline / --all and the section's own flags
   const args = parseArgs(pipelineArgs.argv);
   if (!existsSync(CLI) || !existsSync(CHILD)) fail('dist/ is missing; run `npm run build` first (npm run bench does)');
   const started = performance.now();
@@ -263,6 +273,7 @@ async function main(): Promise<void> {
 
   const pipeline = pipelineArgs.pipeline ? await runPipelineBench({ ...pipelineArgs.options, say }) : null;
   const trends = all ? runTrendsBench(say) : null;
+  const archive = all ? await runArchiveBench({ ...archiveArgs.options, say }) : null;
 
   const med = (s: Size, k: 'oursSeconds' | 'peerSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
   const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
@@ -290,6 +301,7 @@ async function main(): Promise<void> {
     machine: { cpus: cpus().length, loadavg_at_end: loadavg() },
     pipeline,
     trends,
+    archive,
     bench_seconds: (performance.now() - started) / 1000,
   };
   say(`\nbench took ${summary.bench_seconds.toFixed(0)} s; speedup vs peer (smaller of the sizes' ratios): ${summary.speedup_vs_peer === null ? 'n/a (no peer)' : summary.speedup_vs_peer.toFixed(2)}; agree: ${summary.agree === null ? 'n/a' : summary.agree ? 'yes' : 'NO'}`);

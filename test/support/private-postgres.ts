@@ -5,7 +5,7 @@
  * (PostgreSQL refuses to run as root).
  */
 import { execFile } from 'node:child_process';
-import { chownSync, existsSync, mkdtempSync, readdirSync, rmSync } from 'node:fs';
+import { chownSync, existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
 import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
@@ -31,11 +31,11 @@ function portFree(port: number): Promise<boolean> {
   });
 }
 
-/** A port of 54040-54059 nobody listens on now (tried in random order). */
-export async function freeFaultPort(): Promise<number> {
-  const ports = Array.from({ length: PORT_RANGE[1] - PORT_RANGE[0] + 1 }, (_, i) => PORT_RANGE[0] + i).sort(() => Math.random() - 0.5);
+/** A port of `range` (default 54040-54059) nobody listens on now (tried in random order). */
+export async function freeFaultPort(range: readonly [number, number] = PORT_RANGE): Promise<number> {
+  const ports = Array.from({ length: range[1] - range[0] + 1 }, (_, i) => range[0] + i).sort(() => Math.random() - 0.5);
   for (const p of ports) if (await portFree(p)) return p;
-  throw new Error(`no free port in ${PORT_RANGE[0]}-${PORT_RANGE[1]}`);
+  throw new Error(`no free port in ${range[0]}-${range[1]}`);
 }
 
 export interface PrivatePostgres {
@@ -49,10 +49,19 @@ export interface PrivatePostgres {
   restart(): Promise<void>;
   /** Stop the server and remove its folder. */
   destroy(): Promise<void>;
+  /** Process id of the running postmaster (first line of postmaster.pid). */
+  postmasterPid(): number;
+}
+
+export interface PrivatePostgresOptions {
+  /** Ports to choose from (default the fault-test range 54040-54059). */
+  ports?: readonly [number, number];
+  /** Keep fsync and full-page writes on, as a production server has them (default off: fault tests need no durability on disk). */
+  durable?: boolean;
 }
 
 /** initdb a cluster in a temp folder and start it on a free port of the fault-test range. */
-export async function startPrivatePostgres(tag: string): Promise<PrivatePostgres> {
+export async function startPrivatePostgres(tag: string, options: PrivatePostgresOptions = {}): Promise<PrivatePostgres> {
   const bin = postgresBinDir();
   if (!bin) throw new Error('PostgreSQL server binaries (initdb, pg_ctl) are not installed');
   const dir = mkdtempSync(path.join(os.tmpdir(), `hl-pg-${tag}-`));
@@ -69,11 +78,11 @@ export async function startPrivatePostgres(tag: string): Promise<PrivatePostgres
   let port = 0;
   const startOn = async () => {
     await cmd('pg_ctl', ['-D', data, '-l', path.join(dir, 'server.log'), '-w', '-t', '110',
-      '-o', `-p ${port} -k ${dir} -c listen_addresses=127.0.0.1 -c fsync=off -c full_page_writes=off`, 'start']);
+      '-o', `-p ${port} -k ${dir} -c listen_addresses=127.0.0.1${options.durable ? '' : ' -c fsync=off -c full_page_writes=off'}`, 'start']);
   };
   // Another test may take the port between the check and the start: try a few.
   for (let tries = 0; ; tries++) {
-    port = await freeFaultPort();
+    port = await freeFaultPort(options.ports);
     try {
       await startOn();
       break;
@@ -88,6 +97,7 @@ export async function startPrivatePostgres(tag: string): Promise<PrivatePostgres
     stop,
     start: startOn,
     restart: async () => { await cmd('pg_ctl', ['-D', data, '-m', 'fast', '-w', '-t', '110', '-l', path.join(dir, 'server.log'), 'restart']); },
+    postmasterPid: () => Number(readFileSync(path.join(data, 'postmaster.pid'), 'utf8').split('\n')[0]),
     destroy: async () => {
       await stop('immediate').catch(() => undefined);
       rmSync(dir, { recursive: true, force: true });

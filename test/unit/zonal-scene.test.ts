@@ -148,6 +148,50 @@ describe('zonalScene vs NumPy over GDAL masks / GEOS fractions (test/fixtures/co
   }
 });
 
+describe('zonalScene from scene to scene (histogram buffers kept for the next scene)', () => {
+  test('scene A after a scene of many DNs and after a scene that failed half-way still matches NumPy (test/fixtures/coverage/zonal-reference.json)', async () => {
+    const names = ['irregular', 'hole', 'multipolygon', 'tiny-miss', 'tiny-hit'];
+    const targets = names.map((id) => ({ id, geometry: load(id).geometry as number[][][][] }));
+    const utm = fromGdal(load('hole').gdalTransform);
+    const common = { width: 30, height: 30, sampleFormat: 'uint' as const, bitsPerSample: 16 as const, transform: utm };
+    // every bin from 1 to 900 in use, in every target
+    const busy = new Uint16Array(900).map((_, i) => 1 + ((i * 7919) % 900));
+    await zonalScene(new FakeRaster(busy, common), targets, { coverage: 'centre' });
+    // a scan that throws after its first block: its histograms hold counts and must not be used again
+    class Failing extends FakeRaster {
+      override async *blocks(window: Window, band = 0): AsyncIterable<RasterBlock> {
+        for await (const b of super.blocks(window, band)) { yield b; throw new Error('read error half-way'); }
+      }
+    }
+    await expect(zonalScene(new Failing(busy, common), targets, { coverage: 'centre' })).rejects.toThrow('half-way');
+    const { dn, qa } = sceneA(30, 30);
+    const raster = new FakeRaster(dn, { ...common, nodata: 0, scale: 0.02 });
+    const qaRaster = new FakeRaster(qa, { path: 'fake_qa.tif', width: 30, height: 30, sampleFormat: 'uint', bitsPerSample: 8, transform: utm });
+    for (let round = 0; round < 2; round++) {
+      const rows = await zonalScene(raster, targets, { coverage: 'centre', qa: { raster: qaRaster, maskBits: 2, maskValues: [8] } });
+      for (const want of reference.rows.filter((r) => r.scene === 'a' && r.rule === 'centre')) checkRow(rows.find((r) => r.id === want.id)!, want, 9);
+    }
+  });
+
+  test('masks kept per geometry and grid: the same geometry on another grid gets its own mask (scene A shifted by one cell)', async () => {
+    const names = ['irregular', 'hole', 'multipolygon'];
+    const targets = names.map((id) => ({ id, geometry: load(id).geometry as number[][][][] }));
+    const utm = fromGdal(load('hole').gdalTransform);
+    const { dn } = sceneA(30, 30);
+    const common = { width: 30, height: 30, sampleFormat: 'uint' as const, bitsPerSample: 16 as const, nodata: 0, scale: 0.02 };
+    const on = await zonalScene(new FakeRaster(dn, { ...common, transform: utm }), targets, { coverage: 'centre' });
+    // the grid moved one cell west: the same polygons cover other cells (derived from the centre rule)
+    const shifted = { ...utm, c: utm.c - utm.a };
+    const moved = await zonalScene(new FakeRaster(dn, { ...common, transform: shifted }), targets, { coverage: 'centre' });
+    const fresh = await zonalScene(new FakeRaster(dn, { ...common, transform: shifted }), names.map((id) => ({ id, geometry: load(id).geometry as number[][][][] })), { coverage: 'centre' });
+    expect(moved.map((r) => r.stats)).toEqual(fresh.map((r) => r.stats));
+    expect(moved.map((r) => r.stats.mean)).not.toEqual(on.map((r) => r.stats.mean));
+    // and back on the first grid, the first answer again
+    const again = await zonalScene(new FakeRaster(dn, { ...common, transform: utm }), targets, { coverage: 'centre' });
+    expect(again).toEqual(on);
+  });
+});
+
 describe('zonalScene behaviour', () => {
   const grid: Affine = { a: 30, b: 0, c: 0, d: 0, e: -30, f: 0 };
   const rect = (c0: number, r0: number, c1: number, r1: number) => [[[[c0 * 30, -r0 * 30], [c1 * 30, -r0 * 30], [c1 * 30, -r1 * 30], [c0 * 30, -r1 * 30], [c0 * 30, -r0 * 30]]]];

@@ -15,7 +15,7 @@
  * A code on another datum with no known shift is refused rather than
  * reprojected hundreds of metres off.
  */
-import { proj4 } from './proj4.js';
+import { loadProj4 } from './proj4.js';
 import { createRequire } from 'node:module';
 import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
@@ -118,7 +118,7 @@ function finish(epsg: number, raw: string): string {
   out.push('+no_defs');
   const def = out.join(' ');
   try {
-    proj4(def, 'WGS84');
+    loadProj4()(def, 'WGS84');
   } catch {
     throw new InputError(`EPSG code ${epsg} uses a projection method that proj4 cannot compute (${proj})`);
   }

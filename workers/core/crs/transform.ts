@@ -2,7 +2,8 @@
  * Reprojection of points, MultiPolygon coordinates and bounding boxes with proj4.
  * Coordinates are always easting/longitude first.
  */
-import { proj4, type Converter } from './proj4.js';
+import { loadProj4, type Converter } from './proj4.js';
+import { utmForward, utmZoneOf } from './utm.js';
 import { InputError } from '../errors.js';
 import type { BBox } from '../bbox.js';
 
@@ -39,7 +40,7 @@ function directProjection(fromDef: string, toDef: string): ((x: number, y: numbe
   if (!wgs84LonLat(fromDef) || isGeographic(toDef) || !/\+datum=WGS84(\s|$)/.test(toDef) || /\+(towgs84|nadgrids|axis|to_meter|geoidgrids)=/.test(toDef)) return null;
   let projection: { forward(p: { x: number; y: number }): { x: number; y: number } };
   try {
-    projection = new (proj4 as unknown as { Proj: new (def: string) => typeof projection }).Proj(toDef);
+    projection = new (loadProj4() as unknown as { Proj: new (def: string) => typeof projection }).Proj(toDef);
   } catch {
     return null;
   }
@@ -64,9 +65,34 @@ export function makeTransformer(fromDef: string, toDef: string): PointTransforme
   const key = `${fromDef}\u0000${toDef}`;
   const cached = transformers.get(key);
   if (cached) return cached;
+  const utm = fromDef.trim() === WGS84_LONLAT ? utmZoneOf(toDef) : null;
+  if (utm) {
+    // WGS 84 lon/lat into a WGS 84 UTM zone without loading proj4 (utm.ts); points
+    // the series does not take (far from the zone, non-finite) go the general way
+    const forward = utmForward(utm.zone, utm.south);
+    let general: PointTransformer | null = null;
+    const transform: PointTransformer = (x, y) => {
+      const out: [number, number] = [0, 0];
+      if (forward(x, y, out)) return out;
+      general ??= generalTransformer(fromDef, toDef);
+      return general(x, y);
+    };
+    transformers.set(key, transform);
+    return transform;
+  }
+  const transform = generalTransformer(fromDef, toDef);
+  transformers.set(key, transform);
+  return transform;
+}
+
+/** proj4's definition of WGS 84 lon/lat as crsDefinitionForEpsg(4326) writes it. */
+const WGS84_LONLAT = '+proj=longlat +datum=WGS84 +no_defs';
+
+/** The transformer through proj4 (with the direct projection where it applies). */
+function generalTransformer(fromDef: string, toDef: string): PointTransformer {
   let converter: Converter;
   try {
-    converter = proj4(fromDef, toDef);
+    converter = loadProj4()(fromDef, toDef);
   } catch (e) {
     throw new InputError(`cannot build a transformation from "${fromDef}" to "${toDef}": ${(e as Error).message}`);
   }
@@ -100,7 +126,6 @@ export function makeTransformer(fromDef: string, toDef: string): PointTransforme
     }
     return [out[0], out[1]];
   };
-  transformers.set(key, transform);
   return transform;
 }
 

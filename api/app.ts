@@ -17,12 +17,12 @@ import rateLimit from '@fastify/rate-limit';
 import swagger from '@fastify/swagger';
 import type { Store } from '../workers/store/index.js';
 import { districtTable } from '../workers/store/district-table.js';
-import { lastFinishedRun } from '../workers/store/store-summary.js';
+import { runMarks } from '../workers/store/store-summary.js';
 import { InputError, isInputError } from '../workers/core/errors.js';
 import { quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
 import { VERSION } from '../workers/version.js';
-import { UNITS } from './answers/common.js';
+import { noMemo, UNITS } from './answers/common.js';
 import { RunCache } from './cache.js';
 import { checkBearer } from './tokens.js';
 import { registerReadRoutes } from './routes.js';
@@ -101,10 +101,14 @@ function schemaMessage(errors: readonly SchemaError[], dataVar: string): string 
     .join('; ');
 }
 
-/** The tag of what the store holds: software version and the run that finished last. */
-async function runTag(store: Store): Promise<string> {
-  const run = await lastFinishedRun(store);
-  return run ? `"${VERSION}-r${run.id}-${Date.parse(run.finished_at)}"` : `"${VERSION}-r0"`;
+/**
+ * The tag of what the store holds: software version and the run that finished
+ * last; null while a run is running (its rows are arriving: nothing is tagged or kept).
+ */
+async function runTag(store: Store): Promise<string | null> {
+  const marks = await runMarks(store);
+  if (marks.runningId !== null) return null;
+  return marks.last ? `"${VERSION}-r${marks.last.id}-${Date.parse(marks.last.finished_at)}"` : `"${VERSION}-r0"`;
 }
 
 /** Whether an If-None-Match header names `tag` (a list, weak tags and * included; RFC 9110 §13.1.2). */
@@ -133,7 +137,7 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     global: true,
     max: options.readsPerMinute ?? DEFAULT_READS_PER_MINUTE,
     timeWindow: 60_000,
-    errorResponseBuilder: (_req, ctx) => ({ statusCode: ctx.statusCode, error: `too many requests from this address: at most ${ctx.max} a minute; retry after ${ctx.after}` }),
+    errorResponseBuilder: (_req, ctx) => ({ statusCode: ctx.statusCode, error: 'Too Many Requests', message: `too many requests from this address: at most ${ctx.max} a minute; retry after ${ctx.after}` }),
   });
 
   // Security headers; the Content-Security-Policy allows only this server's own files
@@ -185,7 +189,8 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
 
   app.setNotFoundHandler((req, reply) => {
     const where = (req.url.split('?')[0] ?? '').slice(0, 200);
-    return reply.status(404).send({ error: `no such resource: ${req.method} ${where.replace(/[^\x20-\x7e]/g, '?')}` });
+    // the path is the client's own, quoted back; GET /api/openapi.json lists what there is
+    return reply.status(404).send({ error: `no such resource: ${req.method} ${quoteGiven(where, 200)}; GET /api/openapi.json lists the routes` });
   });
 
   app.decorateRequest('runTag', '');
@@ -199,6 +204,11 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
       if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
     }
     const tag = await runTag(store);
+    if (tag === null) {
+      req.memo = noMemo;
+      reply.header('Cache-Control', 'no-store');
+      return;
+    }
     req.runTag = tag;
     req.memo = cache.memo(tag);
     reply.header('ETag', tag);
@@ -206,13 +216,13 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
   });
 
   app.addHook('preHandler', async (req, reply) => {
-    if (req.method !== 'GET' || !req.routeOptions.config.cacheBody) return;
+    if (req.method !== 'GET' || !req.routeOptions.config.cacheBody || !req.runTag) return;
     const kept = cache.body(req.runTag, `${req.headers.accept ?? ''} ${req.url}`);
     if (kept) return reply.type(kept.contentType).send(kept.payload);
   });
 
   app.addHook('onSend', async (req, reply, payload) => {
-    if (req.method === 'GET' && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
+    if (req.method === 'GET' && req.runTag && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
       cache.keepBody(req.runTag, `${req.headers.accept ?? ''} ${req.url}`, { contentType: String(reply.getHeader('content-type')), payload });
     }
     return payload;

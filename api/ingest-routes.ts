@@ -26,8 +26,8 @@ export interface JobAnswer {
 
 /** Where ingest requests go: the serve command gives the runner of its mode. */
 export interface IngestJobs {
-  /** Start ingesting these files (real absolute paths under the data root); returns the job id. */
-  start(files: string[]): Promise<string>;
+  /** Start ingesting these files with this district file (real absolute paths under the data root); returns the job id. */
+  start(files: string[], districtsPath: string): Promise<string>;
   /** A job's state, or null for an id this server does not know. */
   get(id: string): JobAnswer | null | Promise<JobAnswer | null>;
 }
@@ -49,7 +49,7 @@ export function registerIngestRoutes(
     return undefined;
   };
 
-  app.post<{ Body: { files: string[] } }>('/api/ingest', {
+  app.post<{ Body: { files: string[]; districts?: string } }>('/api/ingest', {
     config: { rateLimit },
     onRequest: guard as never,
     schema: {
@@ -61,7 +61,8 @@ export function registerIngestRoutes(
     if (o.dataRoot === undefined) return reply.status(503).send({ error: 'ingest over HTTP needs a data root: start the server with HEATLEDGER_DATA_ROOT' });
     if (!o.jobs) return reply.status(503).send({ error: 'this server takes no ingest jobs' });
     const files = await filesUnderRoot(o.dataRoot, req.body.files);
-    const id = await o.jobs.start(files);
+    const [districts] = await filesUnderRoot(o.dataRoot, [req.body.districts ?? 'districts.geojson'], 'districts');
+    const id = await o.jobs.start(files, districts);
     return reply.status(202).send({ job_id: id });
   });
 

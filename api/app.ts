@@ -71,6 +71,8 @@ export interface AppOptions {
   writesPerMinute?: number;
   /** What POST /api/ingest hands its files to; without it, ingest answers 503. */
   jobs?: IngestJobs;
+  /** Keep answers while the last run stays the same (default true; the bench turns it off to show the cost of computing them). */
+  keepAnswers?: boolean;
 }
 
 interface SchemaError {
@@ -205,13 +207,17 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     }
     const tag = await runTag(store);
     if (tag === null) {
+      // a run is running: its rows are arriving, so nothing is tagged or kept
       req.memo = noMemo;
       reply.header('Cache-Control', 'no-store');
       return;
     }
-    req.runTag = tag;
-    req.memo = cache.memo(tag);
     reply.header('ETag', tag);
+    if (options.keepAnswers === false) req.memo = noMemo;
+    else {
+      req.runTag = tag;
+      req.memo = cache.memo(tag);
+    }
     if ((req.method === 'GET' || req.method === 'HEAD') && tagMatches(req.headers['if-none-match'], tag)) return reply.status(304).send();
   });
 

@@ -3,6 +3,7 @@
  *
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
+ *     node dist/test/bench/run.js --api [--api-seconds N] [--json]   (the HTTP API under load only)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -27,6 +28,7 @@ import { loadTargets, measureCoverage, measureDecode, measureStats, type PhasePr
 import { median, timeProcess } from './timing.js';
 import { pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
+import { runApiBench } from './api.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -184,6 +186,15 @@ function phaseLine(p: PhaseProfile): string {
 
 async function main(): Promise<void> {
   const all = process.argv.includes('--all');
+  if (process.argv.includes('--api') && !all) {
+    // The HTTP API alone: 20 s per route and store by default (--api-seconds N for another time).
+    const i = process.argv.indexOf('--api-seconds');
+    const seconds = i >= 0 ? Number(process.argv[i + 1]) : 20;
+    if (!Number.isInteger(seconds) || seconds < 1 || seconds > 600) fail(`--api-seconds needs a whole number from 1 to 600, got "${process.argv[i + 1]}"`);
+    const api = await runApiBench(say, { seconds, computedSeconds: Math.max(1, Math.round(seconds / 4)) });
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ api }) + '\n');
+    return;
+  }
   if (process.argv.includes('--trends') && !all) {
     // Trend and hot-spot statistics alone: pure computation, seconds.
     const trends = runTrendsBench(say);

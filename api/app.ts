@@ -198,43 +198,45 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
   app.decorateRequest('runTag', '');
   app.decorateRequest('memo', null as never);
 
-  // reads: open, or closed by the read token; the write routes check their own token
-  app.addHook('onRequest', async (req, reply) => {
-    if (!req.url.startsWith('/api/')) return;
-    if (options.readToken !== undefined && req.method !== 'POST') {
-      const denied = checkBearer(req.headers.authorization, [options.readToken, options.token]);
-      if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
-    }
-    const tag = await runTag(store);
-    if (tag === null) {
-      // a run is running: its rows are arriving, so nothing is tagged or kept
-      req.memo = noMemo;
-      reply.header('Cache-Control', 'no-store');
-      return;
-    }
-    reply.header('ETag', tag);
-    if (options.keepAnswers === false) req.memo = noMemo;
-    else {
-      req.runTag = tag;
-      req.memo = cache.memo(tag);
-    }
-    if ((req.method === 'GET' || req.method === 'HEAD') && tagMatches(req.headers['if-none-match'], tag)) return reply.status(304).send();
-  });
-
-  app.addHook('preHandler', async (req, reply) => {
-    if (req.method !== 'GET' || !req.routeOptions.config.cacheBody || !req.runTag) return;
-    const kept = cache.body(req.runTag, `${req.headers.accept ?? ''} ${req.url}`);
-    if (kept) return reply.type(kept.contentType).send(kept.payload);
-  });
-
-  app.addHook('onSend', async (req, reply, payload) => {
-    if (req.method === 'GET' && req.runTag && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
-      cache.keepBody(req.runTag, `${req.headers.accept ?? ''} ${req.url}`, { contentType: String(reply.getHeader('content-type')), payload });
-    }
-    return payload;
-  });
-
+  // the hooks and routes in one context; the token and tag check runs before validation, after the
+  // rate limit (an onRequest hook of every route), so every request is counted, a refused token included
   void app.register(async (api) => {
+    // reads: open, or closed by the read token; the write routes check their own token
+    api.addHook('preValidation', async (req, reply) => {
+      if (!req.url.startsWith('/api/')) return;
+      if (options.readToken !== undefined && req.method !== 'POST') {
+        const denied = checkBearer(req.headers.authorization, [options.readToken, options.token]);
+        if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
+      }
+      const tag = await runTag(store);
+      if (tag === null) {
+        // a run is running: its rows are arriving, so nothing is tagged or kept
+        req.memo = noMemo;
+        reply.header('Cache-Control', 'no-store');
+        return;
+      }
+      reply.header('ETag', tag);
+      if (options.keepAnswers === false) req.memo = noMemo;
+      else {
+        req.runTag = tag;
+        req.memo = cache.memo(tag);
+      }
+      if ((req.method === 'GET' || req.method === 'HEAD') && tagMatches(req.headers['if-none-match'], tag)) return reply.status(304).send();
+    });
+
+    api.addHook('preHandler', async (req, reply) => {
+      if (req.method !== 'GET' || !req.routeOptions.config.cacheBody || !req.runTag) return;
+      const kept = cache.body(req.runTag, `${req.headers.accept ?? ''} ${req.url}`);
+      if (kept) return reply.type(kept.contentType).send(kept.payload);
+    });
+
+    api.addHook('onSend', async (req, reply, payload) => {
+      if (req.method === 'GET' && req.runTag && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
+        cache.keepBody(req.runTag, `${req.headers.accept ?? ''} ${req.url}`, { contentType: String(reply.getHeader('content-type')), payload });
+      }
+      return payload;
+    });
+
     registerReadRoutes(api, store, { dataRoot: options.dataRoot });
     registerIngestRoutes(api, { token: options.token, dataRoot: options.dataRoot, jobs: options.jobs, writesPerMinute: options.writesPerMinute ?? DEFAULT_WRITES_PER_MINUTE });
 

@@ -41,7 +41,7 @@ export function registerIngestRoutes(
   const ERRORS = { 400: ERROR_BODY, 401: ERROR_BODY, 403: ERROR_BODY, 404: ERROR_BODY, 429: ERROR_BODY, 503: ERROR_BODY };
   const rateLimit = { max: o.writesPerMinute, timeWindow: 60_000 };
 
-  // the token first: without one configured nothing is written; a wrong one is refused
+  // the token before validation (after the rate limit): without one configured nothing is written; a wrong one is refused
   const guard = async (req: { headers: { authorization?: string } }, reply: { status: (n: number) => { header: (k: string, v: string) => { send: (b: unknown) => unknown } } }) => {
     if (o.token === undefined) return reply.status(403).header('WWW-Authenticate', 'Bearer').send({ error: 'writes are off on this server: it was started without HEATLEDGER_TOKEN' });
     const denied = checkBearer(req.headers.authorization, [o.token]);
@@ -51,7 +51,7 @@ export function registerIngestRoutes(
 
   app.post<{ Body: { files: string[]; districts?: string } }>('/api/ingest', {
     config: { rateLimit },
-    onRequest: guard as never,
+    preValidation: guard as never,
     schema: {
       summary: 'Ingest scene files that lie under the data root (HEATLEDGER_DATA_ROOT); answers with the job id',
       security: [{ bearer: [] }],
@@ -68,7 +68,7 @@ export function registerIngestRoutes(
 
   app.get<{ Params: { id: string } }>('/api/jobs/:id', {
     config: { rateLimit },
-    onRequest: guard as never,
+    preValidation: guard as never,
     schema: {
       summary: 'An ingest job: its state, progress and result',
       security: [{ bearer: [] }],

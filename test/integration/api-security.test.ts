@@ -286,6 +286,16 @@ describe('rate limits, headers and CORS', () => {
     // another address has its own count
     expect((await a.inject({ method: 'GET', url: '/api/health', remoteAddress: '127.0.0.2' })).statusCode).toBe(200);
   });
+  it('counts refused tokens too, so guessing a token meets the limit', async () => {
+    const a = app({ token: TOKEN, readToken: READ_TOKEN, readsPerMinute: 3 });
+    const codes: number[] = [];
+    for (let i = 0; i < 4; i++) codes.push((await a.inject({ method: 'GET', url: '/api/health', headers: { authorization: `Bearer guess-${i}-0123456789abcdef` } })).statusCode);
+    expect(codes).toEqual([401, 401, 401, 429]);
+    const w = app({ token: TOKEN, jobs: recordingJobs(), writesPerMinute: 2 });
+    const writes: number[] = [];
+    for (let i = 0; i < 3; i++) writes.push((await w.inject({ method: 'POST', url: '/api/ingest', payload: { files: ['scenes/a.tif'] }, headers: { authorization: `Bearer guess-${i}-0123456789abcdef` } })).statusCode);
+    expect(writes).toEqual([401, 401, 429]);
+  });
   it('sends no CORS headers unless an origin is configured, then only for that origin', async () => {
     const off = await app().inject({ method: 'GET', url: '/api/health', headers: { origin: 'https://dashboard.example.invalid' } });
     expect(off.headers['access-control-allow-origin']).toBeUndefined();

@@ -10,7 +10,7 @@
  * The expected years come from the generator's options (years 2019-2020), the
  * rows from the command-line `table` of the same store.
  */
-import { cpSync, mkdirSync, mkdtempSync, rmSync } from 'node:fs';
+import { cpSync, mkdirSync, mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -94,6 +94,19 @@ describe('a running server shows a new year once its ingest ends', () => {
       const table = (await (await fetch(`${base}/api/table?level=year`)).json()) as { rows: unknown[] };
       const health = (await (await fetch(`${base}/api/health`)).json()) as { last_run: { id: number; state: string } };
       expect(health.last_run).toMatchObject({ id: (job as unknown as { run_id: number }).run_id, state: 'succeeded' });
+      // a file that is not a raster: the job ends incomplete, naming it relative to the data root only
+      writeFileSync(path.join(root, 'not-a-scene.tif'), 'plain text, not a TIFF\n');
+      const bad = await fetch(`${base}/api/ingest`, { method: 'POST', headers: { authorization: `Bearer ${TOKEN}`, 'content-type': 'application/json' }, body: JSON.stringify({ files: ['not-a-scene.tif'] }) });
+      expect(bad.status).toBe(202);
+      const badId = ((await bad.json()) as { job_id: string }).job_id;
+      const badJob = await waitFor(async () => {
+        const j = (await (await fetch(`${base}/api/jobs/${badId}`, { headers: { authorization: `Bearer ${TOKEN}` } })).json()) as { state: string; errors: string[] };
+        return j.state === 'queued' || j.state === 'running' ? undefined : j;
+      }, 'the failing job to end', 480_000, 250);
+      expect(badJob).toMatchObject({ state: 'incomplete', scenes_asked: 1, scenes_done: 0, scenes_failed: 1 });
+      expect(badJob.errors.length).toBeGreaterThan(0);
+      expect(badJob.errors[0].startsWith('not-a-scene.tif: ')).toBe(true);
+      for (const e of badJob.errors) expect(e).not.toContain(tmp);
       const stopped = await stopChild(server.child, 'SIGTERM');
       expect(stopped.code).toBe(0);
       const cli = JSON.parse(await cliOk(['table', '--level', 'year', '--format', 'json', '--data-dir', dataDir], cleanEnv(), 240_000)) as unknown[];

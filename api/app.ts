@@ -23,7 +23,7 @@ import { quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
 import { VERSION } from '../workers/version.js';
 import { noMemo, UNITS } from './answers/common.js';
-import { RunCache } from './cache.js';
+import { freshRead, RunCache } from './cache.js';
 import { checkBearer } from './tokens.js';
 import { registerReadRoutes } from './routes.js';
 import { registerIngestRoutes, type IngestJobs } from './ingest-routes.js';
@@ -134,6 +134,7 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     schemaErrorFormatter: (errors, dataVar) => new Error(schemaMessage(errors as unknown as SchemaError[], dataVar)),
   });
   const cache = new RunCache();
+  const currentTag = freshRead(() => runTag(store));
 
   void app.register(rateLimit, {
     global: true,
@@ -208,7 +209,7 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
         const denied = checkBearer(req.headers.authorization, [options.readToken, options.token]);
         if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
       }
-      const tag = await runTag(store);
+      const tag = await currentTag();
       if (tag === null) {
         // a run is running: its rows are arriving, so nothing is tagged or kept
         req.memo = noMemo;

@@ -5,10 +5,11 @@
  * loopback, the load generator (autocannon) in a second process
  * (api-load-child.ts), for a set time per route:
  *   /api/trends, /api/districts, /api/districts/{id}/series (every district in turn).
- * Printed per store and route: requests/s, p50 and p99 latency with answers
- * kept (the normal server) and, shorter, with nothing kept (every request
- * computes); and where the time of one uncached answer goes (queries,
- * statistics, JSON). Figures, not assertions.
+ * Printed per store and route: requests/s, p50 and p99 latency after a 2 s
+ * warm-up with answers kept (the normal server) and, shorter, with nothing kept
+ * (every request computes); and where the time of one uncached answer goes
+ * (queries, statistics, JSON) — the first request of each question pays it.
+ * Figures, not assertions.
  */
 import { spawn } from 'node:child_process';
 import { mkdtempSync, rmSync } from 'node:fs';
@@ -125,7 +126,7 @@ export async function runApiBench(say: (line?: string) => void, options: { secon
   const computedSeconds = options.computedSeconds ?? 5;
   const connections = options.connections ?? 10;
   say(`\n[api] ${DISTRICTS} districts × ${YEARS} years stored; server in this process on 127.0.0.1, autocannon in a second process, ${connections} connections; ` +
-    `${seconds} s per route with answers kept, ${computedSeconds} s with nothing kept; ${cpus().length} CPU(s), load average ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
+    `${seconds} s per route (after 2 s of warm-up) with answers kept, ${computedSeconds} s with nothing kept; ${cpus().length} CPU(s), load average ${loadavg().map((x) => x.toFixed(2)).join(' ')}`);
   const kinds: { name: string; open: () => Promise<{ store: Store; done: () => Promise<void> }> }[] = [
     { name: 'pglite', open: async () => { const dir = mkdtempSync(join(tmpdir(), 'heatledger-api-bench-')); const store = await openStore({ dataDir: dir }); return { store, done: async () => { await store.close(); rmSync(dir, { recursive: true, force: true }); } }; } },
   ];

@@ -16,7 +16,7 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { ArchiveResult } from '../../demo-data/generate.js';
 import {
-  SMALL_ARCHIVE, cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren, makeArchive, startCliUntil,
+  SMALL_ARCHIVE, cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren, makeArchive, runCli, startCliUntil,
   startCliWorker, stopChild, uniquePrefix, waitFor, type StartedCli,
 } from '../support/pipeline-harness.js';
 import { serviceAvailable, testRedisUrl } from '../support/services.js';
@@ -59,6 +59,23 @@ beforeAll(async () => {
 afterAll(async () => {
   await killAllChildren();
   if (tmp) rmSync(tmp, { recursive: true, force: true });
+});
+
+describe('serve settings from the environment', () => {
+  it('refuses a short token and a rate that is not plain digits, by name, with exit 2 (bad input)', async () => {
+    const cases: [Record<string, string>, RegExp][] = [
+      [{ HEATLEDGER_TOKEN: 'short' }, /HEATLEDGER_TOKEN must be 16 to 512 printable characters without blanks/],
+      [{ HEATLEDGER_READ_TOKEN: 'has blanks in it, 0123456789' }, /HEATLEDGER_READ_TOKEN must be 16 to 512 printable characters without blanks/],
+      [{ HEATLEDGER_READS_PER_MINUTE: '1e3' }, /HEATLEDGER_READS_PER_MINUTE must be a whole number of requests per minute from 1 to 1000000000, got "1e3"/],
+      [{ HEATLEDGER_WRITES_PER_MINUTE: '0' }, /HEATLEDGER_WRITES_PER_MINUTE must be a whole number/],
+    ];
+    for (const [extra, message] of cases) {
+      const r = await runCli(['serve', '--port', '0', '--data-dir', path.join(tmp, 'nowhere')], cleanEnv(extra), 120_000);
+      expect(r.code, JSON.stringify(extra)).toBe(2);
+      expect(r.stderr, JSON.stringify(extra)).toMatch(message);
+      expect(r.stderr).not.toContain('short');
+    }
+  }, 600_000);
 });
 
 describe('a running server shows a new year once its ingest ends', () => {

@@ -10,10 +10,12 @@
  *   in NumPy from the formulas (Gilbert 1987, ch. 16, equations from memory);
  * - Moran's I with row-standardised queen weights, written in NumPy from its formula
  *   (Moran 1950; Cliff & Ord 1981, from memory), the grid's neighbours listed by hand.
+ * - GDAL's GeoJSON driver (OGR, Debian python3-gdal) and shapely (python3-shapely) read the
+ *   district map back: RFC 7946 as GDAL understands it, OGC-valid polygons.
  * Invented data (test/support/api-store.ts) are inputs only.
  */
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -26,6 +28,11 @@ import { FIRST_YEAR, GRID_IDS, LAST_YEAR, seedApiStore, type ApiStore } from '..
 
 const PYTHON = '/usr/bin/python3';
 const HAVE_SCIPY = spawnSync(PYTHON, ['-c', 'import scipy.stats, numpy'], { stdio: 'ignore' }).status === 0;
+const HAVE_GDAL = HAVE_SCIPY && spawnSync(PYTHON, ['-c', 'from osgeo import ogr; import shapely'], { stdio: 'ignore' }).status === 0;
+if (HAVE_SCIPY && !HAVE_GDAL) {
+  if (process.env.HEATLEDGER_REQUIRE_SERVICES === '1') throw new Error('api-routes: /usr/bin/python3 with GDAL (python3-gdal) and shapely is required');
+  console.log('SKIPPED api-routes GeoJSON read-back: /usr/bin/python3 with GDAL (python3-gdal) and shapely is missing');
+}
 if (!HAVE_SCIPY) {
   if (process.env.HEATLEDGER_REQUIRE_SERVICES === '1') throw new Error('api-routes: /usr/bin/python3 with numpy and scipy (python3-scipy) is required');
   console.log('SKIPPED api-routes reference checks: /usr/bin/python3 with numpy and scipy (python3-scipy) is missing');
@@ -138,6 +145,39 @@ describe.skipIf(!HAVE_SCIPY)('read routes against NumPy / SciPy', () => {
         expect(f.properties.value).toBe(f.properties.suhi_day_k);
       }
     }
+  });
+  it.skipIf(!HAVE_GDAL)('GET /api/districts reads back through GDAL\'s GeoJSON driver (OGR) with valid polygons (shapely) and the same properties', async () => {
+    const body = (await get('/api/districts?year=2019&metric=suhi_night')).body;
+    // GDAL 3 reads GeoJSON (RFC 7946) as WGS 84 lon/lat; shapely checks OGC validity (is_valid) and areas
+    const code = [
+      'import json, sys',
+      'from osgeo import ogr',
+      'from shapely.geometry import shape',
+      'ds = ogr.Open(sys.argv[1]); layer = ds.GetLayer(0)',
+      'srs = layer.GetSpatialRef()',
+      'out = {"driver": ds.GetDriver().GetName(), "count": layer.GetFeatureCount(), "epsg": srs.GetAuthorityCode(None) if srs else None, "features": {}}',
+      'for f in layer:',
+      '    g = shape(json.loads(f.GetGeometryRef().ExportToJson()))',
+      '    out["features"][f.GetField("id")] = {"valid": g.is_valid, "area": g.area, "suhi_night_k": f.GetField("suhi_night_k"), "value": f.GetField("value"), "role": f.GetField("role")}',
+      'print(json.dumps(out))',
+    ].join('\n');
+    const file = path.join(tmp, 'districts.geojson');
+    writeFileSync(file, body);
+    const r = spawnSync(PYTHON, ['-c', code, file], { encoding: 'utf8' });
+    expect(r.status, r.stderr).toBe(0);
+    const ogr = JSON.parse(r.stdout) as { driver: string; count: number; epsg: string | null; features: Record<string, { valid: boolean; area: number; suhi_night_k: number | null; value: number | null; role: string }> };
+    expect(ogr.driver).toBe('GeoJSON');
+    expect(ogr.count).toBe(GRID_IDS.length + 1);
+    expect(ogr.epsg).toBe('4326');
+    for (const id of GRID_IDS) {
+      const f = ogr.features[id];
+      expect(f.valid, id).toBe(true);
+      // each grid cell is 0.01° × 0.01° (test/support/api-store.ts): 1e-4 square degrees
+      expect(f.area).toBeCloseTo(1e-4, 10);
+      expect(f.suhi_night_k).toBeCloseTo(ref.means.all[id]['2019'].suhi_night_k, 4);
+      expect(f.value).toBe(f.suhi_night_k);
+    }
+    expect(ogr.features.rural.role).toBe('rural');
   });
   it('GET /api/districts defaults to the latest year; CSV by format=csv or Accept: text/csv, without geometry', async () => {
     expect((await get('/api/districts')).json().year).toBe(LAST_YEAR);

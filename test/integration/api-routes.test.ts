@@ -24,6 +24,7 @@ import { buildApp } from '../../api/app.js';
 import { answerDistricts, answerTrends } from '../../api/answers/index.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { finishRun, registerScene, replaceDerived, startRun } from '../../workers/store/index.js';
+import { sceneProgress } from '../../workers/store/scene-listing.js';
 import { FIRST_YEAR, GRID_IDS, LAST_YEAR, seedApiStore, type ApiStore } from '../support/api-store.js';
 
 const PYTHON = '/usr/bin/python3';
@@ -347,6 +348,19 @@ describe('paging, scenes and parameters', () => {
       expect(r.statusCode, url).toBe(400);
       expect(r.json().error, url).toMatch(message);
     }
+  });
+});
+
+describe('ingest job progress', () => {
+  it('counts the stored scenes among named files and under named folders; LIKE wildcards in a folder name match only themselves', async () => {
+    const archive = path.join(tmp, 'archive');
+    const in2016 = seeded.scenes.filter((x) => x.path.startsWith(path.join(archive, '2016') + path.sep));
+    expect(in2016.length).toBe(8); // four dates a year, a day and a night scene each (test/support/api-store.ts)
+    const files = [seeded.scenes[0].path, seeded.failedPath, path.join(archive, 'missing.tif')];
+    expect(await sceneProgress(store, files, [path.join(archive, '2016')])).toEqual({ processed: 1 + 8, failed: 1 });
+    // "_" and "%" are LIKE wildcards: as folder names they must not match 2016/ or everything
+    expect(await sceneProgress(store, [], [path.join(archive, '20_6'), path.join(archive, '%')])).toEqual({ processed: 0, failed: 0 });
+    expect(await sceneProgress(store, [], [path.join(archive, '2016') + '/'])).toEqual({ processed: 8, failed: 0 });
   });
 });
 

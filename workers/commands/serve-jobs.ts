@@ -5,14 +5,19 @@
  * child takes the store over from the server for the run and the server reads
  * through it meanwhile ("one owner per embedded store"). Jobs run one at a time,
  * in the order they were asked for; they live in the server's memory (a restart
- * forgets them; the runs they made stay in the store).
+ * forgets them; the runs they made stay in the store). While a job runs, its
+ * progress is the count of its scenes stored so far (read from the server's store);
+ * when it ends, the run's own summary.
  */
 import { spawn } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
+import { statSync } from 'node:fs';
 import path from 'node:path';
 import type { IngestJobs, JobAnswer } from '../../api/ingest-routes.js';
 import { relativeInText } from '../../api/relative-paths.js';
 import { problemText } from '../format.js';
+import type { Store } from '../store/index.js';
+import { sceneProgress } from '../store/scene-listing.js';
 
 /** Jobs kept for GET /api/jobs/{id}; the oldest finished ones go beyond this. */
 const MAX_JOBS = 1000;
@@ -29,12 +34,16 @@ export interface ServeJobsOptions {
   /** The data root (files and the district file lie under it). */
   dataRoot: string;
   dataDir?: string;
+  /** The server's store: a running job's progress is read from it (scenes of its files stored so far). */
+  store?: Store;
   /** The CLI script to run (default: the one running now). */
   cliPath?: string;
 }
 
 export function serveIngestJobs(o: ServeJobsOptions): IngestJobs {
   const jobs = new Map<string, JobAnswer>();
+  /** The files and folders each job was given (real absolute paths). */
+  const inputs = new Map<string, { files: string[]; folders: string[] }>();
   let chain: Promise<void> = Promise.resolve();
   const root = path.resolve(o.dataRoot);
   const rel = (text: string) => relativeInText(problemText(text), root);
@@ -76,15 +85,25 @@ export function serveIngestJobs(o: ServeJobsOptions): IngestJobs {
       const id = randomUUID();
       const job: JobAnswer = { id, state: 'queued', scenes_asked: files.length, scenes_done: 0, scenes_failed: 0, run_id: null, errors: [] };
       jobs.set(id, job);
+      const isFolder = (f: string) => { try { return statSync(f).isDirectory(); } catch { return false; } };
+      inputs.set(id, { files: files.filter((f) => !isFolder(f)), folders: files.filter(isFolder) });
       if (jobs.size > MAX_JOBS) {
-        for (const [k, j] of jobs) { if (j.state !== 'queued' && j.state !== 'running') { jobs.delete(k); break; } }
+        for (const [k, j] of jobs) { if (j.state !== 'queued' && j.state !== 'running') { jobs.delete(k); inputs.delete(k); break; } }
       }
       chain = chain.then(() => run(job, files, districtsPath));
       return id;
     },
-    get(id) {
+    async get(id) {
       const j = jobs.get(id);
-      return j ? { ...j, errors: [...j.errors] } : null;
+      if (!j) return null;
+      const answer = { ...j, errors: [...j.errors] };
+      const given = inputs.get(id);
+      if (j.state === 'running' && o.store && given) {
+        // while the run runs: its scenes stored so far (a file of an earlier run counts once it is stored again)
+        const p = await sceneProgress(o.store, given.files, given.folders).catch(() => null);
+        if (p) { answer.scenes_done = p.processed; answer.scenes_failed = p.failed; }
+      }
+      return answer;
     },
   };
 }

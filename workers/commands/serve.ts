@@ -53,8 +53,9 @@ export async function runServeCommand(opts: { port?: number; host?: string; data
   const corsOrigin = process.env[ENV.corsOrigin] || undefined;
   const readsPerMinute = perMinute(ENV.readsPerMinute, DEFAULT_READS_PER_MINUTE);
   const writesPerMinute = perMinute(ENV.writesPerMinute, DEFAULT_WRITES_PER_MINUTE);
-  const jobs = dataRoot && token ? (await import('./serve-jobs.js')).serveIngestJobs({ dataRoot, dataDir: opts.dataDir }) : undefined;
+  const { serveIngestJobs } = await import('./serve-jobs.js');
   await withStore(opts, async (store) => {
+    const jobs = dataRoot && token ? serveIngestJobs({ dataRoot, dataDir: opts.dataDir, store }) : undefined;
     const app = buildApp(store, { logLevel, dataRoot, token, readToken, corsOrigin, readsPerMinute, writesPerMinute, jobs });
     try {
       await app.listen({ port, host });

@@ -16,13 +16,13 @@ import helmet from '@fastify/helmet';
 import rateLimit from '@fastify/rate-limit';
 import swagger from '@fastify/swagger';
 import type { Store } from '../workers/store/index.js';
-import { lastFinishedRun } from '../workers/store/store-summary.js';
-import { isInputError } from '../workers/core/errors.js';
+import { runMarks } from '../workers/store/store-summary.js';
+import { InputError, isInputError } from '../workers/core/errors.js';
 import { quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
 import { VERSION } from '../workers/version.js';
-import { UNITS } from './answers/common.js';
-import { RunCache } from './cache.js';
+import { noMemo, UNITS } from './answers/common.js';
+import { freshRead, RunCache } from './cache.js';
 import { checkBearer } from './tokens.js';
 import { registerReadRoutes } from './routes.js';
 import { registerIngestRoutes, type IngestJobs } from './ingest-routes.js';
@@ -62,6 +62,8 @@ export interface AppOptions {
   writesPerMinute?: number;
   /** What POST /api/ingest hands its files to; without it, ingest answers 503. */
   jobs?: IngestJobs;
+  /** Keep answers while the last run stays the same (default true; the bench turns it off to show the cost of computing them). */
+  keepAnswers?: boolean;
 }
 
 interface SchemaError {
@@ -92,10 +94,14 @@ function schemaMessage(errors: readonly SchemaError[], dataVar: string): string 
     .join('; ');
 }
 
-/** The tag of what the store holds: software version and the run that finished last. */
-async function runTag(store: Store): Promise<string> {
-  const run = await lastFinishedRun(store);
-  return run ? `"${VERSION}-r${run.id}-${Date.parse(run.finished_at)}"` : `"${VERSION}-r0"`;
+/**
+ * The tag of what the store holds: software version and the run that finished
+ * last; null while a run is running (its rows are arriving: nothing is tagged or kept).
+ */
+async function runTag(store: Store): Promise<string | null> {
+  const marks = await runMarks(store);
+  if (marks.runningId !== null) return null;
+  return marks.last ? `"${VERSION}-r${marks.last.id}-${Date.parse(marks.last.finished_at)}"` : `"${VERSION}-r0"`;
 }
 
 /** Whether an If-None-Match header names `tag` (a list, weak tags and * included; RFC 9110 §13.1.2). */
@@ -120,12 +126,13 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
     schemaErrorFormatter: (errors, dataVar) => new Error(schemaMessage(errors as unknown as SchemaError[], dataVar)),
   });
   const cache = new RunCache();
+  const currentTag = freshRead(() => runTag(store));
 
   void app.register(rateLimit, {
     global: true,
     max: options.readsPerMinute ?? DEFAULT_READS_PER_MINUTE,
     timeWindow: 60_000,
-    errorResponseBuilder: (_req, ctx) => ({ statusCode: ctx.statusCode, error: `too many requests from this address: at most ${ctx.max} a minute; retry after ${ctx.after}` }),
+    errorResponseBuilder: (_req, ctx) => ({ statusCode: ctx.statusCode, error: 'Too Many Requests', message: `too many requests from this address: at most ${ctx.max} a minute; retry after ${ctx.after}` }),
   });
 
   // Security headers; the Content-Security-Policy allows only this server's own files
@@ -177,40 +184,52 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
 
   app.setNotFoundHandler((req, reply) => {
     const where = (req.url.split('?')[0] ?? '').slice(0, 200);
-    return reply.status(404).send({ error: `no such resource: ${req.method} ${where.replace(/[^\x20-\x7e]/g, '?')}` });
+    // the path is the client's own, quoted back; GET /api/openapi.json lists what there is
+    return reply.status(404).send({ error: `no such resource: ${req.method} ${quoteGiven(where, 200)}; GET /api/openapi.json lists the routes` });
   });
 
   app.decorateRequest('runTag', '');
   app.decorateRequest('memo', null as never);
 
-  // reads: open, or closed by the read token; the write routes check their own token
-  app.addHook('onRequest', async (req, reply) => {
-    if (!req.url.startsWith('/api/')) return;
-    if (options.readToken !== undefined && req.method !== 'POST') {
-      const denied = checkBearer(req.headers.authorization, [options.readToken, options.token]);
-      if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
-    }
-    const tag = await runTag(store);
-    req.runTag = tag;
-    req.memo = cache.memo(tag);
-    reply.header('ETag', tag);
-    if ((req.method === 'GET' || req.method === 'HEAD') && tagMatches(req.headers['if-none-match'], tag)) return reply.status(304).send();
-  });
-
-  app.addHook('preHandler', async (req, reply) => {
-    if (req.method !== 'GET' || !req.routeOptions.config.cacheBody) return;
-    const kept = cache.body(req.runTag, `${req.headers.accept ?? ''} ${req.url}`);
-    if (kept) return reply.type(kept.contentType).send(kept.payload);
-  });
-
-  app.addHook('onSend', async (req, reply, payload) => {
-    if (req.method === 'GET' && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
-      cache.keepBody(req.runTag, `${req.headers.accept ?? ''} ${req.url}`, { contentType: String(reply.getHeader('content-type')), payload });
-    }
-    return payload;
-  });
-
+  // the hooks and routes in one context; the token and tag check runs before validation, after the
+  // rate limit (an onRequest hook of every route), so every request is counted, a refused token included
   void app.register(async (api) => {
+    // reads: open, or closed by the read token; the write routes check their own token
+    api.addHook('preValidation', async (req, reply) => {
+      if (!req.url.startsWith('/api/')) return;
+      if (options.readToken !== undefined && req.method !== 'POST') {
+        const denied = checkBearer(req.headers.authorization, [options.readToken, options.token]);
+        if (denied) return reply.status(denied.status).header('WWW-Authenticate', 'Bearer').send({ error: denied.error });
+      }
+      const tag = await currentTag();
+      if (tag === null) {
+        // a run is running: its rows are arriving, so nothing is tagged or kept
+        req.memo = noMemo;
+        reply.header('Cache-Control', 'no-store');
+        return;
+      }
+      reply.header('ETag', tag);
+      if (options.keepAnswers === false) req.memo = noMemo;
+      else {
+        req.runTag = tag;
+        req.memo = cache.memo(tag);
+      }
+      if ((req.method === 'GET' || req.method === 'HEAD') && tagMatches(req.headers['if-none-match'], tag)) return reply.status(304).send();
+    });
+
+    api.addHook('preHandler', async (req, reply) => {
+      if (req.method !== 'GET' || !req.routeOptions.config.cacheBody || !req.runTag) return;
+      const kept = cache.body(req.runTag, `${req.headers.accept ?? ''} ${req.url}`);
+      if (kept) return reply.type(kept.contentType).send(kept.payload);
+    });
+
+    api.addHook('onSend', async (req, reply, payload) => {
+      if (req.method === 'GET' && req.runTag && req.routeOptions.config?.cacheBody && reply.statusCode === 200 && typeof payload === 'string') {
+        cache.keepBody(req.runTag, `${req.headers.accept ?? ''} ${req.url}`, { contentType: String(reply.getHeader('content-type')), payload });
+      }
+      return payload;
+    });
+
     registerReadRoutes(api, store, { dataRoot: options.dataRoot });
     registerIngestRoutes(api, { token: options.token, dataRoot: options.dataRoot, jobs: options.jobs, writesPerMinute: options.writesPerMinute ?? DEFAULT_WRITES_PER_MINUTE });
 

@@ -69,3 +69,34 @@ declare module 'fastify' {
     cacheBody?: boolean;
   }
 }
+
+/**
+ * Shares one read among the callers that asked while it was waiting to start,
+ * never one that had started before a caller asked: a caller always gets a
+ * value read after its call (so a run that ended before a request is seen by
+ * it), while concurrent callers cost at most two reads in flight instead of one
+ * each. The embedded engine runs queries one at a time on the server's thread,
+ * where this matters under load.
+ */
+export function freshRead<T>(read: () => Promise<T>): () => Promise<T> {
+  let running: Promise<T> | null = null;
+  let queued: Promise<T> | null = null;
+  const start = (): Promise<T> => {
+    const p = read();
+    running = p;
+    const clear = () => { if (running === p) running = null; };
+    p.then(clear, clear);
+    return p;
+  };
+  return () => {
+    if (running === null) return start();
+    if (queued === null) {
+      const after = running.then(() => undefined, () => undefined);
+      queued = after.then(() => {
+        queued = null;
+        return start();
+      });
+    }
+    return queued;
+  };
+}

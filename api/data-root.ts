@@ -18,7 +18,7 @@ function inside(root: string, p: string): boolean {
 }
 
 /** The real absolute path of each file, in order; the first file that breaks a rule is refused. */
-export async function filesUnderRoot(root: string, files: readonly string[]): Promise<string[]> {
+export async function filesUnderRoot(root: string, files: readonly string[], field = 'files'): Promise<string[]> {
   let realRoot: string;
   try {
     realRoot = await realpath(path.resolve(root));
@@ -27,7 +27,7 @@ export async function filesUnderRoot(root: string, files: readonly string[]): Pr
   }
   const out: string[] = [];
   for (const [i, f] of files.entries()) {
-    const name = `files[${i}] ${quoteGiven(f, 80)}`;
+    const name = `body field ${field === 'files' ? `files[${i}]` : field} ${quoteGiven(f, 80)}`;
     if (f.includes('\0')) throw new InputError(`${name} holds a NUL character`);
     const lexical = path.resolve(realRoot, f);
     if (!inside(realRoot, lexical)) throw new InputError(`${name} lies outside the data root; give a path under it (relative to it, or absolute inside it)`);

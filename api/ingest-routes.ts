@@ -26,8 +26,8 @@ export interface JobAnswer {
 
 /** Where ingest requests go: the serve command gives the runner of its mode. */
 export interface IngestJobs {
-  /** Start ingesting these files (real absolute paths under the data root); returns the job id. */
-  start(files: string[]): Promise<string>;
+  /** Start ingesting these files with this district file (real absolute paths under the data root); returns the job id. */
+  start(files: string[], districtsPath: string): Promise<string>;
   /** A job's state, or null for an id this server does not know. */
   get(id: string): JobAnswer | null | Promise<JobAnswer | null>;
 }
@@ -41,7 +41,7 @@ export function registerIngestRoutes(
   const ERRORS = { 400: ERROR_BODY, 401: ERROR_BODY, 403: ERROR_BODY, 404: ERROR_BODY, 429: ERROR_BODY, 503: ERROR_BODY };
   const rateLimit = { max: o.writesPerMinute, timeWindow: 60_000 };
 
-  // the token first: without one configured nothing is written; a wrong one is refused
+  // the token before validation (after the rate limit): without one configured nothing is written; a wrong one is refused
   const guard = async (req: { headers: { authorization?: string } }, reply: { status: (n: number) => { header: (k: string, v: string) => { send: (b: unknown) => unknown } } }) => {
     if (o.token === undefined) return reply.status(403).header('WWW-Authenticate', 'Bearer').send({ error: 'writes are off on this server: it was started without HEATLEDGER_TOKEN' });
     const denied = checkBearer(req.headers.authorization, [o.token]);
@@ -49,9 +49,9 @@ export function registerIngestRoutes(
     return undefined;
   };
 
-  app.post<{ Body: { files: string[] } }>('/api/ingest', {
+  app.post<{ Body: { files: string[]; districts?: string } }>('/api/ingest', {
     config: { rateLimit },
-    onRequest: guard as never,
+    preValidation: guard as never,
     schema: {
       summary: 'Ingest scene files that lie under the data root (HEATLEDGER_DATA_ROOT); answers with the job id',
       security: [{ bearer: [] }],
@@ -61,13 +61,14 @@ export function registerIngestRoutes(
     if (o.dataRoot === undefined) return reply.status(503).send({ error: 'ingest over HTTP needs a data root: start the server with HEATLEDGER_DATA_ROOT' });
     if (!o.jobs) return reply.status(503).send({ error: 'this server takes no ingest jobs' });
     const files = await filesUnderRoot(o.dataRoot, req.body.files);
-    const id = await o.jobs.start(files);
+    const [districts] = await filesUnderRoot(o.dataRoot, [req.body.districts ?? 'districts.geojson'], 'districts');
+    const id = await o.jobs.start(files, districts);
     return reply.status(202).send({ job_id: id });
   });
 
   app.get<{ Params: { id: string } }>('/api/jobs/:id', {
     config: { rateLimit },
-    onRequest: guard as never,
+    preValidation: guard as never,
     schema: {
       summary: 'An ingest job: its state, progress and result',
       security: [{ bearer: [] }],

@@ -29,6 +29,9 @@ import {
 
 type Query = Record<string, string | undefined>;
 
+/** A CSV table: a header line of field names (units in the names), then one line per row (RFC 4180). */
+const CSV_BODY = { type: 'string', description: 'CSV (RFC 4180), header line first' } as const;
+
 /** Error bodies every read route may answer with. */
 const ERRORS = { 400: ERROR_BODY, 401: ERROR_BODY, 404: ERROR_BODY, 429: ERROR_BODY, 503: ERROR_BODY };
 
@@ -62,7 +65,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
       summary: 'The districts as a GeoJSON FeatureCollection with one season-year\'s means as properties',
       description: 'RFC 7946, lon/lat. The rural reference is the feature with role "rural". format=csv (or Accept: text/csv) gives the same rows without geometry.',
       querystring: querySchema({ year: Q.year, season: { ...Q.season, default: 'all' }, metric: { ...Q.metric, default: 'suhi_night' }, format: Q.format, limit: Q.limit, cursor: Q.cursor }),
-      response: { 200: DISTRICTS_BODY, ...ERRORS },
+      response: { 200: { description: 'GeoJSON, or CSV on request', content: { 'application/geo+json': { schema: DISTRICTS_BODY }, 'text/csv': { schema: CSV_BODY } } }, ...ERRORS },
     },
   }, async (req, reply) => {
     const q = req.query;
@@ -187,7 +190,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     schema: {
       summary: 'The district table by date or by year (units in the field names and CSV headers)',
       querystring: querySchema({ level: { type: 'string', enum: ['date', 'year'], default: 'date' }, year: Q.year, format: { ...Q.format, default: 'json' } }),
-      response: { 200: TABLE_BODY, ...ERRORS },
+      response: { 200: { description: 'JSON, or CSV with format=csv', content: { 'application/json': { schema: TABLE_BODY }, 'text/csv': { schema: CSV_BODY } } }, ...ERRORS },
     },
   }, async (req, reply) => {
     const q = req.query;

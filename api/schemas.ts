@@ -148,5 +148,6 @@ export const INGEST_REQUEST = {
       type: 'array', minItems: 1, maxItems: 1000, description: 'scene files under the data root (relative to it, or absolute inside it)',
       items: { type: 'string', minLength: 1, maxLength: 1024 },
     },
+    districts: { type: 'string', minLength: 1, maxLength: 1024, description: 'the district GeoJSON under the data root; default districts.geojson in it' },
   },
 } as const;

@@ -338,12 +338,15 @@ function addServeCommand(program: Command): void {
   program
     .command('serve')
     .description(
-      'HTTP API and web page over the store: /api/table, /api/status, /api/districts, /api/health, and / (district table page).\n' +
+      'HTTP API and web page over the store: the routes under /api/ (listed in /api/openapi.json) and / (district page).\n' +
         'While an ingest writes to the same embedded store, the server reads through it and shows its rows once it is done. ' +
-        `Log: JSON lines at $${ENV.logLevel} (default info). Scene paths are shown relative to $${ENV.dataRoot} when set.`,
+        `Log: JSON lines at $${ENV.logLevel} (default info). Scene paths are shown relative to $${ENV.dataRoot} when set.\n` +
+        `Writes (POST /api/ingest of files under $${ENV.dataRoot}) need the bearer token $${ENV.apiToken} and are off without it; ` +
+        `$${ENV.apiReadToken} closes reads too; $${ENV.corsOrigin} allows one browser origin; ` +
+        `$${ENV.readsPerMinute} and $${ENV.writesPerMinute} limit requests per address.`,
     )
     .option('--port <port>', `port (default: $${ENV.apiPort}, else ${DEFAULT_API_PORT})`, parseInteger('--port', 0, 65535))
-    .option('--host <host>', `address to listen on (default: $${ENV.apiHost}, else 127.0.0.1)`)
+    .option('--host <host>', `address to listen on (default: $${ENV.apiHost}, else 127.0.0.1: this machine only; 0.0.0.0 lets other machines in)`)
     .addOption(dataDirOption())
     .action(async (opts) => {
       const { runServeCommand } = await import('./commands/serve.js');

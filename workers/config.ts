@@ -29,6 +29,16 @@ export const ENV = {
   logLevel: 'LOG_LEVEL',
   /** Headless Chromium that prints `report --pdf` (default /usr/bin/chromium, from the Debian package chromium). */
   chromium: 'HEATLEDGER_CHROMIUM',
+  /** Bearer token the API's write routes (POST /api/ingest, GET /api/jobs/{id}) need; unset = writes refused. */
+  apiToken: 'HEATLEDGER_TOKEN',
+  /** Bearer token the API's read routes need too; unset = reads open. */
+  apiReadToken: 'HEATLEDGER_READ_TOKEN',
+  /** The one browser origin allowed to call the API from elsewhere (CORS); unset = CORS off. */
+  corsOrigin: 'HEATLEDGER_CORS_ORIGIN',
+  /** API reads per client address and minute (default 6000). */
+  readsPerMinute: 'HEATLEDGER_READS_PER_MINUTE',
+  /** API writes per client address and minute (default 30). */
+  writesPerMinute: 'HEATLEDGER_WRITES_PER_MINUTE',
 } as const;
 
 /** Defaults the CLI shows for --data-dir and --port (from the defaults module). */

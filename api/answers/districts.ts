@@ -9,7 +9,7 @@ import { PRECISION, roundNumber } from '../../workers/format.js';
 import { listDistricts, type DistrictRow, type GeoJsonGeometry, type Store } from '../../workers/store/index.js';
 import { districtSeasonMeans, type DistrictSeasonMeans } from '../../workers/store/district-means.js';
 import {
-  byteOrder, LIMIT_DEFAULT, METRIC_PROPERTY, noMemo, pageByKey, seasonSelection, UNITS,
+  LIMIT_DEFAULT, METRIC_PROPERTY, noMemo, pageByKey, seasonSelection, UNITS,
   type AnswerContext, type Memo, type Metric, type Season,
 } from './common.js';
 
@@ -143,4 +143,3 @@ export class UnknownDistrictError extends InputError {
   }
 }
 
-export { byteOrder };

@@ -81,8 +81,9 @@ function perDecade(v: number | null, metric: Metric): number | null {
 export function trendTable(store: Store, q: Required<Omit<TrendQuery, 'from' | 'to'>> & Pick<TrendQuery, 'from' | 'to'>, memo: Memo): Promise<TrendRow[]> {
   const key = `trends:${q.metric}:${q.season}:${q.from ?? ''}:${q.to ?? ''}:${q.alpha}:${q.serial_correction}`;
   return memo(key, async () => {
+    const series = [...(await seasonSeries(store, q.metric, q.season, memo)).values()].flat();
     const { rows } = await districtTrends(store, {
-      metric: q.metric, season: q.season, hemisphere: await districtsHemisphere(store, memo),
+      metric: q.metric, season: q.season, hemisphere: await districtsHemisphere(store, memo), series,
       from: q.from, to: q.to, alpha: q.alpha, serialCorrection: q.serial_correction, ciRanks: 'rounded', minDates: MIN_DATES_PER_YEAR,
     });
     const tested = rows.filter((r) => (q.serial_correction === 'hamed-rao' ? r.p_corrected ?? null : r.p) !== null).length;

@@ -5,6 +5,7 @@
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
  *     node dist/test/bench/run.js --archive [--json] [--archive-reps N] [--archive-configs list]
  *                                        (a 200-scene archive against a Python peer; archive.ts)
+ *     node dist/test/bench/run.js --api [--api-seconds N] [--json]   (the HTTP API under load only)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -30,6 +31,7 @@ import { median, timeProcess } from './timing.js';
 import { pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
 import { archiveFlags, runArchiveBench } from './archive.js';
+import { runApiBench } from './api.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -192,6 +194,15 @@ async function main(): Promise<void> {
     // The whole archive against the Python peer alone (its own servers, about ten minutes)
     const archive = await runArchiveBench({ ...archiveArgs.options, say });
     if (archiveArgs.argv.includes('--json')) process.stdout.write(JSON.stringify({ archive }) + '\n');
+    return;
+  }
+  if (process.argv.includes('--api') && !all) {
+    // The HTTP API alone: 20 s per route and store by default (--api-seconds N for another time).
+    const i = process.argv.indexOf('--api-seconds');
+    const seconds = i >= 0 ? Number(process.argv[i + 1]) : 20;
+    if (!Number.isInteger(seconds) || seconds < 1 || seconds > 600) fail(`--api-seconds needs a whole number from 1 to 600, got "${process.argv[i + 1]}"`);
+    const api = await runApiBench(say, { seconds, computedSeconds: Math.max(1, Math.round(seconds / 4)) });
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ api }) + '\n');
     return;
   }
   if (process.argv.includes('--trends') && !all) {

@@ -10,10 +10,12 @@
  *   in NumPy from the formulas (Gilbert 1987, ch. 16, equations from memory);
  * - Moran's I with row-standardised queen weights, written in NumPy from its formula
  *   (Moran 1950; Cliff & Ord 1981, from memory), the grid's neighbours listed by hand.
+ * - GDAL's GeoJSON driver (OGR, Debian python3-gdal) and shapely (python3-shapely) read the
+ *   district map back: RFC 7946 as GDAL understands it, OGC-valid polygons.
  * Invented data (test/support/api-store.ts) are inputs only.
  */
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, rmSync } from 'node:fs';
+import { mkdtempSync, rmSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
@@ -21,11 +23,17 @@ import type { FastifyInstance } from 'fastify';
 import { buildApp } from '../../api/app.js';
 import { answerDistricts, answerTrends } from '../../api/answers/index.js';
 import { openStore, type Store } from '../../workers/store/store.js';
-import { finishRun, startRun } from '../../workers/store/index.js';
+import { finishRun, registerScene, replaceDerived, startRun } from '../../workers/store/index.js';
+import { sceneProgress } from '../../workers/store/scene-listing.js';
 import { FIRST_YEAR, GRID_IDS, LAST_YEAR, seedApiStore, type ApiStore } from '../support/api-store.js';
 
 const PYTHON = '/usr/bin/python3';
 const HAVE_SCIPY = spawnSync(PYTHON, ['-c', 'import scipy.stats, numpy'], { stdio: 'ignore' }).status === 0;
+const HAVE_GDAL = HAVE_SCIPY && spawnSync(PYTHON, ['-c', 'from osgeo import ogr; import shapely'], { stdio: 'ignore' }).status === 0;
+if (HAVE_SCIPY && !HAVE_GDAL) {
+  if (process.env.HEATLEDGER_REQUIRE_SERVICES === '1') throw new Error('api-routes: /usr/bin/python3 with GDAL (python3-gdal) and shapely is required');
+  console.log('SKIPPED api-routes GeoJSON read-back: /usr/bin/python3 with GDAL (python3-gdal) and shapely is missing');
+}
 if (!HAVE_SCIPY) {
   if (process.env.HEATLEDGER_REQUIRE_SERVICES === '1') throw new Error('api-routes: /usr/bin/python3 with numpy and scipy (python3-scipy) is required');
   console.log('SKIPPED api-routes reference checks: /usr/bin/python3 with numpy and scipy (python3-scipy) is missing');
@@ -138,6 +146,39 @@ describe.skipIf(!HAVE_SCIPY)('read routes against NumPy / SciPy', () => {
         expect(f.properties.value).toBe(f.properties.suhi_day_k);
       }
     }
+  });
+  it.skipIf(!HAVE_GDAL)('GET /api/districts reads back through GDAL\'s GeoJSON driver (OGR) with valid polygons (shapely) and the same properties', async () => {
+    const body = (await get('/api/districts?year=2019&metric=suhi_night')).body;
+    // GDAL 3 reads GeoJSON (RFC 7946) as WGS 84 lon/lat; shapely checks OGC validity (is_valid) and areas
+    const code = [
+      'import json, sys',
+      'from osgeo import ogr',
+      'from shapely.geometry import shape',
+      'ds = ogr.Open(sys.argv[1]); layer = ds.GetLayer(0)',
+      'srs = layer.GetSpatialRef()',
+      'out = {"driver": ds.GetDriver().GetName(), "count": layer.GetFeatureCount(), "epsg": srs.GetAuthorityCode(None) if srs else None, "features": {}}',
+      'for f in layer:',
+      '    g = shape(json.loads(f.GetGeometryRef().ExportToJson()))',
+      '    out["features"][f.GetField("id")] = {"valid": g.is_valid, "area": g.area, "suhi_night_k": f.GetField("suhi_night_k"), "value": f.GetField("value"), "role": f.GetField("role")}',
+      'print(json.dumps(out))',
+    ].join('\n');
+    const file = path.join(tmp, 'districts.geojson');
+    writeFileSync(file, body);
+    const r = spawnSync(PYTHON, ['-c', code, file], { encoding: 'utf8' });
+    expect(r.status, r.stderr).toBe(0);
+    const ogr = JSON.parse(r.stdout) as { driver: string; count: number; epsg: string | null; features: Record<string, { valid: boolean; area: number; suhi_night_k: number | null; value: number | null; role: string }> };
+    expect(ogr.driver).toBe('GeoJSON');
+    expect(ogr.count).toBe(GRID_IDS.length + 1);
+    expect(ogr.epsg).toBe('4326');
+    for (const id of GRID_IDS) {
+      const f = ogr.features[id];
+      expect(f.valid, id).toBe(true);
+      // each grid cell is 0.01° × 0.01° (test/support/api-store.ts): 1e-4 square degrees
+      expect(f.area).toBeCloseTo(1e-4, 10);
+      expect(f.suhi_night_k).toBeCloseTo(ref.means.all[id]['2019'].suhi_night_k, 4);
+      expect(f.value).toBe(f.suhi_night_k);
+    }
+    expect(ogr.features.rural.role).toBe('rural');
   });
   it('GET /api/districts defaults to the latest year; CSV by format=csv or Accept: text/csv, without geometry', async () => {
     expect((await get('/api/districts')).json().year).toBe(LAST_YEAR);
@@ -310,6 +351,19 @@ describe('paging, scenes and parameters', () => {
   });
 });
 
+describe('ingest job progress', () => {
+  it('counts the stored scenes among named files and under named folders; LIKE wildcards in a folder name match only themselves', async () => {
+    const archive = path.join(tmp, 'archive');
+    const in2016 = seeded.scenes.filter((x) => x.path.startsWith(path.join(archive, '2016') + path.sep));
+    expect(in2016.length).toBe(8); // four dates a year, a day and a night scene each (test/support/api-store.ts)
+    const files = [seeded.scenes[0].path, seeded.failedPath, path.join(archive, 'missing.tif')];
+    expect(await sceneProgress(store, files, [path.join(archive, '2016')])).toEqual({ processed: 1 + 8, failed: 1 });
+    // "_" and "%" are LIKE wildcards: as folder names they must not match 2016/ or everything
+    expect(await sceneProgress(store, [], [path.join(archive, '20_6'), path.join(archive, '%')])).toEqual({ processed: 0, failed: 0 });
+    expect(await sceneProgress(store, [], [path.join(archive, '2016') + '/'])).toEqual({ processed: 8, failed: 0 });
+  });
+});
+
 describe('response tags', () => {
   it('tags each answer with the last run, answers 304 to a matching If-None-Match, and shows a new year once its run ends', async () => {
     const first = await get('/api/districts');
@@ -320,17 +374,17 @@ describe('response tags', () => {
     expect(again.body).toBe('');
     expect((await get('/api/health', { 'if-none-match': `W/${tag}` })).statusCode).toBe(304);
     // a new year arrives with a run: the tag changes and the answers show it
-    const other = await openStore({ memory: true });
-    try {
+    {
       const runId = await startRun(store, { softwareVersion: 'test', mode: 'embedded', parameters: {} });
-      const extra = await seedApiStore(other, path.join(tmp, 'other'), { seed: 7, lastYear: FIRST_YEAR });
-      expect(extra.derived.length).toBeGreaterThan(0);
-      // the same rows one year on, written into the served store
-      const { replaceDerived, registerScene } = await import('../../workers/store/index.js');
+      // one more year, written into the served store by the run
       const day = await registerScene(store, { kind: 'lst', epsg: 32625, crsDefinition: null, width: 10, height: 10, pixelSizeMetres: 100, scale: 1, offset: 0, nodata: null, path: path.join(tmp, 'archive', 'new', 'day.tif'), contentHash: 'f'.repeat(64), acquiredAt: `${LAST_YEAR + 1}-07-10T11:40:00.000Z`, pass: 'day' });
       await replaceDerived(store, GRID_IDS.map((id, k) => ({ obsDate: `${LAST_YEAR + 1}-07-10`, districtId: id, daySceneId: day, nightSceneId: null, albedoSceneId: null, albedoSource: null, tDayKelvin: 310 + k, tNightKelvin: null, albedo: null, atiPerKelvin: null, suhiDayKelvin: 5 + k, suhiNightKelvin: null, status: 'ok' })));
-      // before the run ends the old tag still stands
-      expect((await get('/api/districts', { 'if-none-match': tag })).statusCode).toBe(304);
+      // while the run runs its rows arrive: answered fresh, untagged, nothing kept
+      const during = await get('/api/districts', { 'if-none-match': tag });
+      expect(during.statusCode).toBe(200);
+      expect(during.headers.etag).toBeUndefined();
+      expect(during.headers['cache-control']).toBe('no-store');
+      expect(during.json().year).toBe(LAST_YEAR + 1);
       await finishRun(store, runId, { status: 'succeeded' });
       const after = await get('/api/districts', { 'if-none-match': tag });
       expect(after.statusCode).toBe(200);
@@ -340,8 +394,6 @@ describe('response tags', () => {
       const health = (await get('/api/health')).json();
       expect(health.last_run).toMatchObject({ id: runId, state: 'succeeded' });
       expect(health.years).toContain(LAST_YEAR + 1);
-    } finally {
-      await other.close();
     }
   });
 });

@@ -156,7 +156,7 @@ describe('HTTP API', () => {
   it('answers an unknown route with a JSON 404', async () => {
     const r = await app.inject({ method: 'GET', url: '/api/nothing-here' });
     expect(r.statusCode).toBe(404);
-    expect(r.json().error).toMatch(/no such resource: GET \/api\/nothing-here/);
+    expect(r.json().error).toMatch(/no such resource: GET "\/api\/nothing-here"/);
   });
 });
 

@@ -22,14 +22,41 @@ function listenError(e: unknown, port: number, host: string): unknown {
   return e;
 }
 
+/** A count per minute from the environment (decimal digits, 1 to 1e9), else the default. */
+function perMinute(name: string, fallback: number): number {
+  const text = process.env[name];
+  if (text === undefined || text === '') return fallback;
+  const n = /^[0-9]{1,10}$/.test(text) ? Number(text) : NaN;
+  if (!(n >= 1 && n <= 1e9)) throw new InputError(`${name} must be a whole number of requests per minute from 1 to 1000000000, got ${quoteGiven(text)}`);
+  return n;
+}
+
+/** A token from the environment: unset or empty = none; otherwise printable ASCII without blanks, at least 16 characters. */
+function tokenFromEnv(name: string): string | undefined {
+  const t = process.env[name];
+  if (t === undefined || t === '') return undefined;
+  if (!/^[\x21-\x7e]{16,512}$/.test(t)) throw new InputError(`${name} must be 16 to 512 printable characters without blanks`);
+  return t;
+}
+
+/** Loopback addresses: reachable from this machine only. */
+const LOOPBACK = /^(127\.\d+\.\d+\.\d+|::1|localhost)$/;
+
 export async function runServeCommand(opts: { port?: number; host?: string; dataDir?: string }): Promise<void> {
   const port = resolvePort(opts.port);
-  const host = opts.host ?? process.env[ENV.apiHost] ?? '127.0.0.1';
-  const { buildApp, logLevelFromEnv } = await import('../../api/app.js');
+  const host = opts.host ?? (process.env[ENV.apiHost] || '127.0.0.1');
+  const { buildApp, logLevelFromEnv, DEFAULT_READS_PER_MINUTE, DEFAULT_WRITES_PER_MINUTE } = await import('../../api/app.js');
   const logLevel = logLevelFromEnv();
   const dataRoot = process.env[ENV.dataRoot] || undefined;
+  const token = tokenFromEnv(ENV.apiToken);
+  const readToken = tokenFromEnv(ENV.apiReadToken);
+  const corsOrigin = process.env[ENV.corsOrigin] || undefined;
+  const readsPerMinute = perMinute(ENV.readsPerMinute, DEFAULT_READS_PER_MINUTE);
+  const writesPerMinute = perMinute(ENV.writesPerMinute, DEFAULT_WRITES_PER_MINUTE);
+  const { serveIngestJobs } = await import('./serve-jobs.js');
   await withStore(opts, async (store) => {
-    const app = buildApp(store, { logLevel, dataRoot });
+    const jobs = dataRoot && token ? serveIngestJobs({ dataRoot, dataDir: opts.dataDir, store }) : undefined;
+    const app = buildApp(store, { logLevel, dataRoot, token, readToken, corsOrigin, readsPerMinute, writesPerMinute, jobs });
     try {
       await app.listen({ port, host });
     } catch (e) {
@@ -38,7 +65,17 @@ export async function runServeCommand(opts: { port?: number; host?: string; data
     }
     const address = app.server.address();
     const bound = address && typeof address === 'object' ? address.port : port;
-    process.stderr.write(`heatledger API on http://${host}:${bound}/ (page) and /api/table, /api/status, /api/districts, /api/health\n`);
+    const shown = host.includes(':') ? `[${host}]` : host;
+    // one write, so a reader of the first line has them all
+    const lines = [`heatledger API on http://${shown}:${bound}/api/ (routes: /api/openapi.json) and the page at /`];
+    if (!LOOPBACK.test(host)) {
+      lines.push(
+        `heatledger: listening on ${host}, not only on this machine (127.0.0.1): other machines can reach it; ` +
+          `reads are ${readToken ? `closed by ${ENV.apiReadToken}` : `open to them (set ${ENV.apiReadToken} to close them)`}`,
+      );
+    }
+    lines.push(`heatledger: writes (POST /api/ingest) ${token ? (dataRoot ? `need ${ENV.apiToken} and take files under ${ENV.dataRoot}` : `need ${ENV.dataRoot} too, which is not set`) : `are off (${ENV.apiToken} is not set)`}; CORS ${corsOrigin ? `allows ${corsOrigin}` : 'is off'}`);
+    process.stderr.write(`${lines.join('\n')}\n`);
     // SIGINT/SIGTERM are the normal way to stop a server: exit 0 once it has closed
     const { onInterrupt } = await import('../store/interrupt.js');
     await new Promise<void>((resolve) => {

@@ -14,7 +14,7 @@ import { centroidLonLat } from '../core/hotspot/weights.js';
 import { classifySpot, giStar, moranI, neighbours, type MoranResult, type WeightsKind } from '../core/hotspot/index.js';
 import { PRECISION, roundNumber, type Row } from '../format.js';
 import type { Store } from './interface.js';
-import { districtSeries, storedDistricts, type SeriesMetric } from './series.js';
+import { districtSeries, storedDistricts, type SeriesMetric, type SeriesRow } from './series.js';
 
 export interface DistrictTrendRow extends Omit<TrendResult, 'direction'> {
   district: string;
@@ -38,6 +38,8 @@ export interface DistrictTrendQuery {
   ciRanks: CiRanks;
   minDates: number;
   seasonalKendall?: boolean;
+  /** The yearly series of `metric` for the months asked for, when the caller already has them (else they are queried). */
+  series?: SeriesRow[];
 }
 
 /** The hemisphere of the stored districts, from the mean latitude of their centroids. */
@@ -55,7 +57,7 @@ export async function storedHemisphere(store: Store): Promise<Hemisphere> {
 export async function districtTrends(store: Store, q: DistrictTrendQuery): Promise<{ rows: DistrictTrendRow[]; selection: MonthSelection }> {
   const hemisphere = q.hemisphere ?? (await storedHemisphere(store));
   const sel = q.months ? parseMonths(q.months) : seasonMonths(q.season ?? 'all', hemisphere);
-  const rows = await districtSeries(store, { metric: q.metric, months: sel.months, wrapFromMonth: sel.wrapFromMonth, byMonth: !!q.seasonalKendall });
+  const rows = q.series && !q.seasonalKendall ? q.series : await districtSeries(store, { metric: q.metric, months: sel.months, wrapFromMonth: sel.wrapFromMonth, byMonth: !!q.seasonalKendall });
   const byDistrict = new Map<string, { name: string; rows: typeof rows }>();
   for (const r of rows) {
     const e = byDistrict.get(r.district_id) ?? { name: r.district_name, rows: [] };

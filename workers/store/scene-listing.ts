@@ -61,3 +61,10 @@ export async function sceneListing(db: Db, f: SceneListingFilter): Promise<Scene
   }
   return rows.map((r) => ({ ...r, id: Number(r.id), warnings: Array.isArray(r.warnings) ? r.warnings.map(String) : [], districts: byScene.get(Number(r.id)) ?? [] }));
 }
+
+/** Scenes stored as processed and as failed among these files and under these folders (absolute paths). */
+export async function sceneProgress(db: Db, files: readonly string[], folders: readonly string[]): Promise<{ processed: number; failed: number }> {
+  const escape = (p: string) => `${p.replace(/[\\%_]/g, (c) => `\\${c}`)}${p.endsWith('/') ? '' : '/'}`;
+  const [r] = await db.query<{ processed: number; failed: number }>(namedQuery('scene_progress'), [[...files], folders.map(escape)]);
+  return { processed: Number(r.processed), failed: Number(r.failed) };
+}

@@ -24,8 +24,11 @@ export async function storeSummary(db: Db): Promise<StoreSummary> {
   };
 }
 
-/** The run that finished last (its id, state and end time), or null: what the store holds changes only when a run ends. */
-export async function lastFinishedRun(db: Db): Promise<{ id: number; state: string; finished_at: UtcIso } | null> {
-  const [r] = await db.query<{ id: number; status: string; finished_at: UtcIso }>(namedQuery('last_run'));
-  return r ? { id: Number(r.id), state: r.status, finished_at: r.finished_at } : null;
+/** The run that finished last (its id, state and end time, or null) and the newest run still running (or null). */
+export async function runMarks(db: Db): Promise<{ last: { id: number; state: string; finished_at: UtcIso } | null; runningId: number | null }> {
+  const [r] = await db.query<{ id: number | null; status: string | null; finished_at: UtcIso | null; running_id: number | null }>(namedQuery('last_run'));
+  return {
+    last: r.id === null ? null : { id: Number(r.id), state: String(r.status), finished_at: r.finished_at as UtcIso },
+    runningId: r.running_id === null ? null : Number(r.running_id),
+  };
 }

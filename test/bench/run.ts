@@ -3,6 +3,7 @@
  *
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
+ *     node dist/test/bench/run.js --store-open [--json]   (a new embedded store: template against initdb)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -27,6 +28,7 @@ import { loadTargets, measureCoverage, measureDecode, measureStats, type PhasePr
 import { median, timeProcess } from './timing.js';
 import { pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
+import { runStoreOpenBench } from './store-open.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -184,6 +186,11 @@ function phaseLine(p: PhaseProfile): string {
 
 async function main(): Promise<void> {
   const all = process.argv.includes('--all');
+  if (process.argv.includes('--store-open')) {
+    const storeOpen = runStoreOpenBench(say);
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ store_open: storeOpen }) + '\n');
+    return;
+  }
   if (process.argv.includes('--trends') && !all) {
     // Trend and hot-spot statistics alone: pure computation, seconds.
     const trends = runTrendsBench(say);

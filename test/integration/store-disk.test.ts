@@ -97,8 +97,8 @@ describe('embedded store on disk', () => {
 
   it('creates the data directory, upgrades a schema-1 database keeping its rows, and applies no migration twice', async () => {
     expect(fs.existsSync(dataDir)).toBe(false);
-    // A database as heatledger left it before 002: only 001_init applied.
-    const first = await openPgliteStore({ dataDir, memory: false });
+    // A database as heatledger left it before 002: only 001_init applied (made from scratch, not from the prepared template).
+    const first = await openPgliteStore({ dataDir, memory: false, fromScratch: true });
     expect(await migrate(first, listMigrations().slice(0, 1))).toEqual({ applied: ['001_init'] });
     await upsertDistricts(first, [{ id: 'quay', name: 'Quay', geometry: [[[[0, 0], [1, 0], [1, 1], [0, 0]]]], areaSquareMetres: 5 }]);
     const scene = (tag: string, acquiredAt: string, pass: 'day' | 'night') =>

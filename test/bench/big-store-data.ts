@@ -70,6 +70,9 @@ export function bigStoreStatements(shape: BigStoreShape): string[] {
      CROSS JOIN LATERAL (SELECT CASE WHEN ${cloudy('di.i', 'sk.k', 'sk.night')} THEN 0
                                      ELSE 200 + floor(200 * ${noise('di.i + 1', 'sk.k')})::integer END AS valid,
                                 ${lst('di.i', 'sk.k', 'sk.night')} AS t) AS v`,
+    // statistics for the planner before the joins below
+    'ANALYZE scenes',
+    'ANALYZE zonal_stats',
     // one derived row per district and date: the day pass with the night pass of that evening
     // (none on one date in 17), SUHI against the rural row of the same scenes, ATI with albedo 0.15
     `INSERT INTO derived_metrics (obs_date, district_id, day_scene_id, night_scene_id, albedo_source, t_day_k, t_night_k, albedo,

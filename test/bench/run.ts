@@ -4,6 +4,7 @@
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
  *     node dist/test/bench/run.js --store-open [--json]   (a new embedded store: template against initdb)
+ *     node dist/test/bench/run.js --big-store [--keep] [--json]   (1,000 districts × 10 years on the server, before/after migration 006)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -29,6 +30,7 @@ import { median, timeProcess } from './timing.js';
 import { pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
 import { runStoreOpenBench } from './store-open.js';
+import { runBigStoreBench } from './big-store.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -186,6 +188,11 @@ function phaseLine(p: PhaseProfile): string {
 
 async function main(): Promise<void> {
   const all = process.argv.includes('--all');
+  if (process.argv.includes('--big-store')) {
+    const bigStore = await runBigStoreBench(say, { keep: process.argv.includes('--keep') });
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ big_store: bigStore }) + '\n');
+    return;
+  }
   if (process.argv.includes('--store-open')) {
     const storeOpen = runStoreOpenBench(say);
     if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ store_open: storeOpen }) + '\n');

@@ -19,7 +19,7 @@ import { afterAll, describe, expect, it } from 'vitest';
 import { listMigrations, migrate } from '../../workers/store/migrate.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import { openStore, type Store } from '../../workers/store/store.js';
-import { bigStoreStatements } from '../bench/big-store-data.js';
+import { QUERIES_BEFORE_006, SCENE_PAGE, bigStoreStatements } from '../bench/big-store-data.js';
 import { createTempDatabase, type TempDatabase } from '../support/pipeline-harness.js';
 import { serviceAvailable } from '../support/services.js';
 
@@ -27,51 +27,8 @@ const pgAvailable = await serviceAvailable('postgres', 'store-summaries.test.ts 
 
 const SHAPE = { districts: 4, years: 2, firstYear: 2023 };
 
-/** The named queries as they read before migration 006: every request aggregates district_daily(). */
-const BEFORE = {
-  district_table_date: `
-    SELECT d.id AS district_id, d.name AS district_name, d.role,
-           x.obs_date, x.lst_day_k, x.lst_night_k, x.suhi_day_k, x.suhi_night_k, x.ati_per_k,
-           x.day_scenes, x.night_scenes
-    FROM district_daily($2::double precision) x
-    JOIN districts d ON d.id = x.district_id
-    WHERE $1::integer IS NULL OR extract(year FROM x.obs_date)::integer = $1::integer
-    ORDER BY d.role COLLATE "C", d.id COLLATE "C", x.obs_date`,
-  district_table_year: `
-    WITH daily AS (SELECT * FROM district_daily($2::double precision)),
-    yearly AS (
-      SELECT district_id, extract(year FROM obs_date)::integer AS year,
-             count(*) FILTER (WHERE lst_day_k IS NOT NULL OR lst_night_k IS NOT NULL OR suhi_day_k IS NOT NULL
-                                 OR suhi_night_k IS NOT NULL OR ati_per_k IS NOT NULL) AS dates,
-             avg(lst_day_k) AS lst_day_k, avg(lst_night_k) AS lst_night_k, avg(suhi_day_k) AS suhi_day_k,
-             avg(suhi_night_k) AS suhi_night_k, avg(ati_per_k) AS ati_per_k,
-             sum(day_scenes) AS day_scenes, sum(night_scenes) AS night_scenes
-      FROM daily GROUP BY district_id, extract(year FROM obs_date)::integer
-    )
-    SELECT d.id AS district_id, d.name AS district_name, d.role,
-           y.year, y.dates, y.lst_day_k, y.lst_night_k, y.suhi_day_k, y.suhi_night_k, y.ati_per_k,
-           y.day_scenes, y.night_scenes
-    FROM yearly y JOIN districts d ON d.id = y.district_id
-    WHERE $1::integer IS NULL OR y.year = $1::integer
-    ORDER BY d.role COLLATE "C", d.id COLLATE "C", y.year`,
-  district_series: `
-    WITH picked AS (
-      SELECT x.district_id, extract(month FROM x.obs_date)::integer AS obs_month, extract(year FROM x.obs_date)::integer AS obs_year,
-             CASE $1::text WHEN 'lst_day' THEN x.lst_day_k WHEN 'lst_night' THEN x.lst_night_k WHEN 'suhi_day' THEN x.suhi_day_k
-                           WHEN 'suhi_night' THEN x.suhi_night_k WHEN 'ati' THEN x.ati_per_k END AS value
-      FROM district_daily($5::double precision) x
-    )
-    SELECT d.id AS district_id, d.name AS district_name,
-           p.obs_year + CASE WHEN $3::integer IS NOT NULL AND p.obs_month >= $3::integer THEN 1 ELSE 0 END AS season_year,
-           CASE WHEN $4::boolean THEN p.obs_month ELSE 0 END AS month,
-           count(p.value)::integer AS dates, avg(p.value) AS value
-    FROM picked p JOIN districts d ON d.id = p.district_id AND d.role = 'district'
-    WHERE $2::text IS NULL OR p.obs_month = ANY (string_to_array($2::text, ',')::integer[])
-    GROUP BY 1, 2, 3, 4 HAVING count(p.value) > 0
-    ORDER BY d.id COLLATE "C", 3, 4`,
-} as const;
-
-type QueryName = keyof typeof BEFORE;
+type QueryName = keyof typeof QUERIES_BEFORE_006;
+const BEFORE = QUERIES_BEFORE_006;
 
 /** Parameter sets: every year and one year, no filter and a minimum valid fraction; series of several metrics and seasons. */
 const CASES: [QueryName, unknown[]][] = [
@@ -112,18 +69,12 @@ async function compareAll(store: Store, stage: string): Promise<void> {
   }
 }
 
-const LISTING = `
-  SELECT id, acquired_at, pass, status FROM scenes
-  WHERE ($1::text IS NULL OR status = $1::text) AND ($2::text IS NULL OR kind = $2::text) AND ($3::text IS NULL OR pass = $3::text)
-    AND ($4::timestamptz IS NULL OR (acquired_at, id) > ($4::timestamptz, $5::bigint))
-  ORDER BY acquired_at, id LIMIT $6`;
-
 /** Every page of the keyset listing, joined. */
 async function pages(db: { query<T>(sql: string, p?: unknown[]): Promise<T[]> }, pass: string | null, size: number): Promise<unknown[]> {
   const out: { id: number; acquired_at: string }[] = [];
   for (;;) {
     const last = out.at(-1);
-    const page = await db.query<{ id: number; acquired_at: string }>(LISTING, ['processed', 'lst', pass, last?.acquired_at ?? null, last?.id ?? null, size]);
+    const page = await db.query<{ id: number; acquired_at: string }>(SCENE_PAGE, ['processed', 'lst', pass, last?.acquired_at ?? null, last?.id ?? null, size]);
     out.push(...page);
     if (page.length < size) return out;
   }

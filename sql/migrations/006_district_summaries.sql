@@ -21,7 +21,10 @@
 -- compute from derived_metrics and zonal_stats as before (district_daily($1)).
 -- A mean over a year or a season is the sum of the daily values over the number
 -- of dates with a value: the same mean as averaging the daily rows, up to
--- floating-point rounding in the last digits.
+-- floating-point rounding in the last digits. Every floating-point sum runs in
+-- date order (sum(... ORDER BY ...)), so the result does not depend on the order
+-- rows happen to be stored in: the embedded engine and the server, fed the same
+-- rows in any order, give the same digits.
 --
 -- The scene listing pages by (acquired_at, id): scenes_acquired_id serves its
 -- keyset condition and order.
@@ -83,9 +86,9 @@ LANGUAGE sql AS $fn$
    WHERE s.district_id = k.district_id AND s.obs_year = extract(year FROM k.first_day) AND s.obs_month = extract(month FROM k.first_day);
   INSERT INTO district_month_summary
   SELECT d.district_id, m.obs_year, m.obs_month, sum(m.has_value),
-         sum(d.lst_day_k), count(d.lst_day_k), sum(d.lst_night_k), count(d.lst_night_k),
-         sum(d.suhi_day_k), count(d.suhi_day_k), sum(d.suhi_night_k), count(d.suhi_night_k),
-         sum(d.ati_per_k), count(d.ati_per_k), sum(d.day_scenes), sum(d.night_scenes)
+         sum(d.lst_day_k ORDER BY d.obs_date), count(d.lst_day_k), sum(d.lst_night_k ORDER BY d.obs_date), count(d.lst_night_k),
+         sum(d.suhi_day_k ORDER BY d.obs_date), count(d.suhi_day_k), sum(d.suhi_night_k ORDER BY d.obs_date), count(d.suhi_night_k),
+         sum(d.ati_per_k ORDER BY d.obs_date), count(d.ati_per_k), sum(d.day_scenes), sum(d.night_scenes)
   FROM (SELECT DISTINCT * FROM unnest(ids, first_days) AS k(district_id, first_day)) k
   JOIN district_day_summary d
     ON d.district_id = k.district_id AND d.obs_date >= k.first_day AND d.obs_date < (k.first_day + interval '1 month')::date
@@ -190,9 +193,9 @@ LANGUAGE sql STABLE AS $fn$
   UNION ALL
   -- the sums of district_month_summary_refresh(), over computed days
   SELECT d.district_id, m.obs_year, m.obs_month, sum(m.has_value)::integer,
-         sum(d.lst_day_k), count(d.lst_day_k)::integer, sum(d.lst_night_k), count(d.lst_night_k)::integer,
-         sum(d.suhi_day_k), count(d.suhi_day_k)::integer, sum(d.suhi_night_k), count(d.suhi_night_k)::integer,
-         sum(d.ati_per_k), count(d.ati_per_k)::integer, sum(d.day_scenes)::bigint, sum(d.night_scenes)::bigint
+         sum(d.lst_day_k ORDER BY d.obs_date), count(d.lst_day_k)::integer, sum(d.lst_night_k ORDER BY d.obs_date), count(d.lst_night_k)::integer,
+         sum(d.suhi_day_k ORDER BY d.obs_date), count(d.suhi_day_k)::integer, sum(d.suhi_night_k ORDER BY d.obs_date), count(d.suhi_night_k)::integer,
+         sum(d.ati_per_k ORDER BY d.obs_date), count(d.ati_per_k)::integer, sum(d.day_scenes)::bigint, sum(d.night_scenes)::bigint
   FROM district_daily(min_valid_fraction) d
   CROSS JOIN LATERAL district_month_of(d.obs_date, d.lst_day_k, d.lst_night_k, d.suhi_day_k, d.suhi_night_k, d.ati_per_k) m
   WHERE min_valid_fraction IS NOT NULL

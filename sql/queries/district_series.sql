@@ -9,7 +9,8 @@
 --   $4  true: one row per month as well (month 1-12); false: month is 0
 --   $5  minimum valid fraction, as in district_table_date.sql; NULL = no further filter
 -- Each date weighs the same, whatever its number of scenes: the mean is the sum
--- of the daily values over the number of dates with one. Years without a
+-- of the daily values over the number of dates with one, summed in month order
+-- (the same digits whatever order the months are stored in). Years without a
 -- date with a value have no row: nothing is filled in.
 -- The months come from district_months() (sql/migrations/006_district_summaries.sql),
 -- kept or computed from district_daily() (sql/migrations/003_district_daily.sql).
@@ -36,7 +37,7 @@ SELECT d.id AS district_id,
        p.obs_year + CASE WHEN $3::integer IS NOT NULL AND p.obs_month >= $3::integer THEN 1 ELSE 0 END AS season_year,
        CASE WHEN $4::boolean THEN p.obs_month ELSE 0 END AS month,
        sum(p.value_dates)::integer AS dates,
-       sum(p.value_sum) / sum(p.value_dates) AS value
+       sum(p.value_sum ORDER BY p.obs_year, p.obs_month) / sum(p.value_dates) AS value
 FROM picked p
 JOIN districts d ON d.id = p.district_id AND d.role = 'district'
 WHERE $2::text IS NULL OR p.obs_month = ANY (string_to_array($2::text, ',')::integer[])

@@ -3,7 +3,8 @@
 --   $2  minimum valid fraction, as in district_table_date.sql; NULL = no further filter
 -- Each mean is over the dates of that year that have the value (every date
 -- weighs the same, whatever its number of scenes): the sum of the daily values
--- over the number of dates with one; the counts are totals.
+-- over the number of dates with one, summed in month order (the same digits
+-- whatever order the months are stored in); the counts are totals.
 -- The months come from district_months() (sql/migrations/006_district_summaries.sql),
 -- kept or computed from district_daily() (sql/migrations/003_district_daily.sql).
 WITH yearly AS (
@@ -11,11 +12,11 @@ WITH yearly AS (
          obs_year AS year,
          -- dates with any value (a date whose passes all fell below $2 has none)
          sum(dates) AS dates,
-         sum(lst_day_sum) / nullif(sum(lst_day_dates), 0)       AS lst_day_k,
-         sum(lst_night_sum) / nullif(sum(lst_night_dates), 0)   AS lst_night_k,
-         sum(suhi_day_sum) / nullif(sum(suhi_day_dates), 0)     AS suhi_day_k,
-         sum(suhi_night_sum) / nullif(sum(suhi_night_dates), 0) AS suhi_night_k,
-         sum(ati_sum) / nullif(sum(ati_dates), 0)               AS ati_per_k,
+         sum(lst_day_sum ORDER BY obs_month) / nullif(sum(lst_day_dates), 0)       AS lst_day_k,
+         sum(lst_night_sum ORDER BY obs_month) / nullif(sum(lst_night_dates), 0)   AS lst_night_k,
+         sum(suhi_day_sum ORDER BY obs_month) / nullif(sum(suhi_day_dates), 0)     AS suhi_day_k,
+         sum(suhi_night_sum ORDER BY obs_month) / nullif(sum(suhi_night_dates), 0) AS suhi_night_k,
+         sum(ati_sum ORDER BY obs_month) / nullif(sum(ati_dates), 0)               AS ati_per_k,
          sum(day_scenes)   AS day_scenes,
          sum(night_scenes) AS night_scenes
   FROM district_months($2::double precision)

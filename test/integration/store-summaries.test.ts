@@ -61,8 +61,9 @@ function expectSameRows(after: Record<string, unknown>[], before: Record<string,
   }
 }
 
-async function compareAll(store: Store, stage: string): Promise<void> {
-  for (const [name, params] of CASES) {
+/** The readings of the kept summaries (no minimum valid fraction) against the reference, after the rows changed. */
+async function compareKept(store: Store, stage: string): Promise<void> {
+  for (const [name, params] of CASES.filter(([, p]) => p.at(-1) === null)) {
     const before = await store.query<Record<string, unknown>>(BEFORE[name], params);
     const after = await store.query<Record<string, unknown>>(namedQuery(name), params);
     expectSameRows(after, before, `${stage}: ${name}(${params.map(String).join(', ')})`);
@@ -107,12 +108,12 @@ function suite(name: string, fill: 'before-006' | 'after-006', open: () => Promi
     it('the kept summaries follow updates, deleted scenes and re-derived districts', async () => {
       await store.query(`UPDATE derived_metrics SET t_day_k = t_day_k + 0.5, suhi_night_k = NULL WHERE obs_date BETWEEN $1 AND $2`,
         [`${SHAPE.firstYear}-02-10`, `${SHAPE.firstYear}-03-20`]);
-      await compareAll(store, 'after an update');
+      await compareKept(store, 'after an update');
       // a night scene deleted: its paired rows lose the night values (ON DELETE SET NULL, 001_init.sql)
       await store.query(`DELETE FROM scenes WHERE pass = 'night' AND acquired_at::date = $1::date`, [`${SHAPE.firstYear}-07-04`]);
       // a day scene deleted: its rows go (ON DELETE CASCADE)
       await store.query(`DELETE FROM scenes WHERE pass = 'day' AND acquired_at::date = $1::date`, [`${SHAPE.firstYear + 1}-01-31`]);
-      await compareAll(store, 'after deleting scenes');
+      await compareKept(store, 'after deleting scenes');
       // a district re-derived in one transaction: its rows deleted, some written back
       await store.transaction(async (tx) => {
         await tx.query(`CREATE TEMP TABLE kept AS SELECT * FROM derived_metrics WHERE district_id = 'd00002' AND obs_date < $1`, [`${SHAPE.firstYear + 1}-06-01`]);
@@ -120,7 +121,7 @@ function suite(name: string, fill: 'before-006' | 'after-006', open: () => Promi
         await tx.query(`INSERT INTO derived_metrics SELECT * FROM kept`);
         await tx.query('DROP TABLE kept');
       });
-      await compareAll(store, 'after re-deriving a district');
+      await compareKept(store, 'after re-deriving a district');
       expect(await store.query(`SELECT count(*)::int AS n FROM district_day_summary WHERE district_id = 'd00002'`))
         .toEqual(await store.query(`SELECT count(DISTINCT obs_date)::int AS n FROM derived_metrics WHERE district_id = 'd00002'`));
     });

@@ -1,7 +1,8 @@
 -- District summaries kept beside derived_metrics, so the district table and the
--- trend series answer from a store of 1,000 districts × 10 years (3.65 million
--- derived rows, 7.3 million zonal rows) in well under a second instead of
--- aggregating every derived row on each request.
+-- trend series of a store of 1,000 districts × 10 years (3.65 million derived
+-- rows, 7.3 million zonal rows) read at most one row per district and date
+-- (a year of the table by date) or per district and month (the yearly table and
+-- the series) instead of aggregating every derived row on each request.
 --
 --   district_day_summary    district_daily(NULL) kept as a table: one row per district and date
 --   district_month_summary  per district and calendar month (UTC): for each metric the sum of

@@ -16,7 +16,8 @@
  * slow ones: before 006 and the computed readings), and the
  * server's own EXPLAIN (ANALYZE, BUFFERS) execution time and buffers; the full
  * plans go to test/bench/.work/big-store-plans.txt. Figures, not assertions.
- * --keep leaves the working copy (its name is printed).
+ * --keep leaves the working copy (its name is printed); --big-store-shape DxY (e.g. 20x2)
+ * tries the bench on a smaller store of D districts and Y years.
  */
 import { createHash } from 'node:crypto';
 import { mkdirSync, writeFileSync } from 'node:fs';
@@ -27,7 +28,7 @@ import { listMigrations, migrate } from '../../workers/store/migrate.js';
 import { openPgStore } from '../../workers/store/pg.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import type { Store } from '../../workers/store/interface.js';
-import { BIG_STORE, QUERIES_BEFORE_006, SCENE_PAGE, bigStoreStatements } from './big-store-data.js';
+import { BIG_STORE, QUERIES_BEFORE_006, SCENE_PAGE, bigStoreStatements, type BigStoreShape } from './big-store-data.js';
 import { median } from './timing.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
@@ -82,7 +83,7 @@ async function exists(serverUrl: string, db: string): Promise<boolean> {
 }
 
 /** The kept store: generated (migrations before 006, then the generator) unless already there. Returns the seconds spent, or null. */
-async function ensureBase(serverUrl: string, base: string, say: (l: string) => void): Promise<number | null> {
+async function ensureBase(serverUrl: string, base: string, shape: BigStoreShape, say: (l: string) => void): Promise<number | null> {
   if (await exists(serverUrl, base)) return null;
   const building = `${base}_building`;
   const t0 = performance.now();
@@ -94,14 +95,16 @@ async function ensureBase(serverUrl: string, base: string, say: (l: string) => v
   const store = await openPgStore(urlOf(serverUrl, building));
   try {
     await migrate(store, listMigrations().filter((m) => m.version < SUMMARY_MIGRATION));
-    // the generated rows satisfy the foreign keys by construction; skipping their checks saves most of the time
-    await store.exec('SET session_replication_role = replica');
-    for (const sql of bigStoreStatements(BIG_STORE)) {
-      const t = performance.now();
-      await store.exec(sql);
-      say(`    ${sql.trim().split('\n')[0].slice(0, 48).padEnd(48)} ${((performance.now() - t) / 1000).toFixed(1)} s`);
-    }
-    await store.exec('SET session_replication_role = origin');
+    // one transaction on one connection; the generated rows satisfy the foreign keys by
+    // construction, so their checks are skipped for it (SET LOCAL: most of the time otherwise)
+    await store.transaction(async (tx) => {
+      await tx.exec('SET LOCAL session_replication_role = replica');
+      for (const sql of bigStoreStatements(shape)) {
+        const t = performance.now();
+        await tx.exec(sql);
+        say(`    ${sql.trim().split('\n')[0].slice(0, 48).padEnd(48)} ${((performance.now() - t) / 1000).toFixed(1)} s`);
+      }
+    });
   } finally {
     await store.close();
   }
@@ -136,16 +139,17 @@ function line(f: QueryFigure): string {
   return `  ${f.name.padEnd(34)} ${String(f.rows).padStart(7)} rows  wall ${f.wall_ms.toFixed(0).padStart(6)} ms  server ${f.server_ms.toFixed(0).padStart(6)} ms  buffers ${f.buffers}`;
 }
 
-export async function runBigStoreBench(say: (l?: string) => void, options: { keep?: boolean } = {}): Promise<BigStoreResult> {
+export async function runBigStoreBench(say: (l?: string) => void, options: { keep?: boolean; shape?: BigStoreShape } = {}): Promise<BigStoreResult> {
+  const shape = options.shape ?? BIG_STORE;
   const serverUrl = process.env.HEATLEDGER_TEST_DATABASE_URL ?? 'postgres://postgres@127.0.0.1:5432/test';
   const before006 = listMigrations().filter((m) => m.version < SUMMARY_MIGRATION);
   const fingerprint = createHash('sha256')
-    .update(JSON.stringify([bigStoreStatements(BIG_STORE), before006.map((m) => m.sql)]))
+    .update(JSON.stringify([bigStoreStatements(shape), before006.map((m) => m.sql)]))
     .digest('hex').slice(0, 12);
   const base = `hlbigstore_${fingerprint}`;
   const work = `hlbigstore_run_${process.pid}`;
-  say(`\n[big store] ${BIG_STORE.districts} districts × ${BIG_STORE.years} years × 2 passes a day on ${new URL(serverUrl).host}`);
-  const generated = await ensureBase(serverUrl, base, say);
+  say(`\n[big store] ${shape.districts} districts × ${shape.years} years × 2 passes a day on ${new URL(serverUrl).host}`);
+  const generated = await ensureBase(serverUrl, base, shape, say);
   if (generated !== null) say(`  generated in ${generated.toFixed(0)} s`);
   let t = performance.now();
   await admin(serverUrl, async (c) => {
@@ -160,7 +164,7 @@ export async function runBigStoreBench(say: (l?: string) => void, options: { kee
       `SELECT (SELECT count(*) FROM zonal_stats)::bigint AS zonal, (SELECT count(*) FROM derived_metrics)::bigint AS derived,
               (SELECT count(*) FROM scenes)::bigint AS scenes, pg_size_pretty(pg_database_size(current_database())) AS size`);
     say(`  ${counts.zonal} zonal (district-pass) rows, ${counts.derived} derived rows, ${counts.scenes} scenes; ${counts.size}; copied for this run in ${copySeconds.toFixed(0)} s`);
-    const lastYear = BIG_STORE.firstYear + BIG_STORE.years - 1;
+    const lastYear = shape.firstYear + shape.years - 1;
     const midScene = await store.query<{ acquired_at: string; id: number }>(
       `SELECT acquired_at, id FROM scenes ORDER BY acquired_at, id OFFSET (SELECT count(*) / 2 FROM scenes) LIMIT 1`);
     const listing: Measured[] = [
@@ -213,7 +217,7 @@ export async function runBigStoreBench(say: (l?: string) => void, options: { kee
     say(`  plans: ${PLANS_FILE}`);
     say(`  kept for the next run: database ${base} (drop it with DROP DATABASE ${base})`);
     return {
-      districts: BIG_STORE.districts, years: BIG_STORE.years, zonal_rows: Number(counts.zonal), derived_rows: Number(counts.derived),
+      districts: shape.districts, years: shape.years, zonal_rows: Number(counts.zonal), derived_rows: Number(counts.derived),
       scenes: Number(counts.scenes), database_size: counts.size, generate_seconds: generated, copy_seconds: copySeconds,
       migration_006_seconds: migrationSeconds, before, after, after_computed: afterComputed,
     };

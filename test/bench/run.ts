@@ -4,7 +4,7 @@
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
  *     node dist/test/bench/run.js --store-open [--json]   (a new embedded store: template against initdb)
- *     node dist/test/bench/run.js --big-store [--keep] [--json]   (1,000 districts × 10 years on the server, before/after migration 006)
+ *     node dist/test/bench/run.js --big-store [--keep] [--big-store-shape DxY] [--json]   (1,000 districts × 10 years on the server, before/after migration 006)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -189,7 +189,13 @@ function phaseLine(p: PhaseProfile): string {
 async function main(): Promise<void> {
   const all = process.argv.includes('--all');
   if (process.argv.includes('--big-store')) {
-    const bigStore = await runBigStoreBench(say, { keep: process.argv.includes('--keep') });
+    const shapeArg = process.argv[process.argv.indexOf('--big-store-shape') + 1];
+    const m = process.argv.includes('--big-store-shape') ? /^(\d{1,5})x(\d{1,2})$/.exec(shapeArg ?? '') : null;
+    if (process.argv.includes('--big-store-shape') && !(m && Number(m[1]) > 0 && Number(m[2]) > 0)) {
+      fail(`--big-store-shape needs districts x years, e.g. 20x2, got "${shapeArg ?? ''}"`);
+    }
+    const shape = m ? { districts: Number(m[1]), years: Number(m[2]), firstYear: 2015 } : undefined;
+    const bigStore = await runBigStoreBench(say, { keep: process.argv.includes('--keep'), shape });
     if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ big_store: bigStore }) + '\n');
     return;
   }

@@ -8,31 +8,39 @@
 --       season, whose December counts with the following January), or NULL
 --   $4  true: one row per month as well (month 1-12); false: month is 0
 --   $5  minimum valid fraction, as in district_table_date.sql; NULL = no further filter
--- Each date weighs the same, whatever its number of scenes. Years without a
+-- Each date weighs the same, whatever its number of scenes: the mean is the sum
+-- of the daily values over the number of dates with one, summed in month order
+-- (the same digits whatever order the months are stored in). Years without a
 -- date with a value have no row: nothing is filled in.
--- The dates come from district_daily() (sql/migrations/003_district_daily.sql).
+-- The months come from district_months() (sql/migrations/006_district_summaries.sql),
+-- kept or computed from district_daily() (sql/migrations/003_district_daily.sql).
 WITH picked AS (
-  SELECT x.district_id,
-         extract(month FROM x.obs_date)::integer AS obs_month,
-         extract(year FROM x.obs_date)::integer AS obs_year,
+  SELECT m.district_id, m.obs_month, m.obs_year,
          CASE $1::text
-           WHEN 'lst_day' THEN x.lst_day_k
-           WHEN 'lst_night' THEN x.lst_night_k
-           WHEN 'suhi_day' THEN x.suhi_day_k
-           WHEN 'suhi_night' THEN x.suhi_night_k
-           WHEN 'ati' THEN x.ati_per_k
-         END AS value
-  FROM district_daily($5::double precision) x
+           WHEN 'lst_day' THEN m.lst_day_sum
+           WHEN 'lst_night' THEN m.lst_night_sum
+           WHEN 'suhi_day' THEN m.suhi_day_sum
+           WHEN 'suhi_night' THEN m.suhi_night_sum
+           WHEN 'ati' THEN m.ati_sum
+         END AS value_sum,
+         CASE $1::text
+           WHEN 'lst_day' THEN m.lst_day_dates
+           WHEN 'lst_night' THEN m.lst_night_dates
+           WHEN 'suhi_day' THEN m.suhi_day_dates
+           WHEN 'suhi_night' THEN m.suhi_night_dates
+           WHEN 'ati' THEN m.ati_dates
+         END AS value_dates
+  FROM district_months($5::double precision) m
 )
 SELECT d.id AS district_id,
        d.name AS district_name,
        p.obs_year + CASE WHEN $3::integer IS NOT NULL AND p.obs_month >= $3::integer THEN 1 ELSE 0 END AS season_year,
        CASE WHEN $4::boolean THEN p.obs_month ELSE 0 END AS month,
-       count(p.value)::integer AS dates,
-       avg(p.value) AS value
+       sum(p.value_dates)::integer AS dates,
+       sum(p.value_sum ORDER BY p.obs_year, p.obs_month) / sum(p.value_dates) AS value
 FROM picked p
 JOIN districts d ON d.id = p.district_id AND d.role = 'district'
 WHERE $2::text IS NULL OR p.obs_month = ANY (string_to_array($2::text, ',')::integer[])
 GROUP BY 1, 2, 3, 4
-HAVING count(p.value) > 0
+HAVING sum(p.value_dates) > 0
 ORDER BY d.id COLLATE "C", 3, 4

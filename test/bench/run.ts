@@ -6,6 +6,8 @@
  *     node dist/test/bench/run.js --archive [--json] [--archive-reps N] [--archive-configs list]
  *                                        (a 200-scene archive against a Python peer; archive.ts)
  *     node dist/test/bench/run.js --api [--api-seconds N] [--json]   (the HTTP API under load only)
+ *     node dist/test/bench/run.js --store-open [--json]   (a new embedded store: template against initdb)
+ *     node dist/test/bench/run.js --big-store [--keep] [--big-store-shape DxY] [--json]   (1,000 districts × 10 years on the server, before/after migration 006)
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
@@ -32,6 +34,8 @@ import { pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
 import { archiveFlags, runArchiveBench } from './archive.js';
 import { runApiBench } from './api.js';
+import { runStoreOpenBench } from './store-open.js';
+import { runBigStoreBench } from './big-store.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -203,6 +207,22 @@ async function main(): Promise<void> {
     if (!Number.isInteger(seconds) || seconds < 1 || seconds > 600) fail(`--api-seconds needs a whole number from 1 to 600, got "${process.argv[i + 1]}"`);
     const api = await runApiBench(say, { seconds, computedSeconds: Math.max(1, Math.round(seconds / 4)) });
     if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ api }) + '\n');
+    return;
+  }
+  if (process.argv.includes('--big-store')) {
+    const shapeArg = process.argv[process.argv.indexOf('--big-store-shape') + 1];
+    const m = process.argv.includes('--big-store-shape') ? /^(\d{1,5})x(\d{1,2})$/.exec(shapeArg ?? '') : null;
+    if (process.argv.includes('--big-store-shape') && !(m && Number(m[1]) > 0 && Number(m[2]) > 0)) {
+      fail(`--big-store-shape needs districts x years, e.g. 20x2, got "${shapeArg ?? ''}"`);
+    }
+    const shape = m ? { districts: Number(m[1]), years: Number(m[2]), firstYear: 2015 } : undefined;
+    const bigStore = await runBigStoreBench(say, { keep: process.argv.includes('--keep'), shape });
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ big_store: bigStore }) + '\n');
+    return;
+  }
+  if (process.argv.includes('--store-open')) {
+    const storeOpen = runStoreOpenBench(say);
+    if (process.argv.includes('--json')) process.stdout.write(JSON.stringify({ store_open: storeOpen }) + '\n');
     return;
   }
   if (process.argv.includes('--trends') && !all) {

@@ -97,8 +97,8 @@ describe('embedded store on disk', () => {
 
   it('creates the data directory, upgrades a schema-1 database keeping its rows, and applies no migration twice', async () => {
     expect(fs.existsSync(dataDir)).toBe(false);
-    // A database as heatledger left it before 002: only 001_init applied.
-    const first = await openPgliteStore({ dataDir, memory: false });
+    // A database as heatledger left it before 002: only 001_init applied (made from scratch, not from the prepared template).
+    const first = await openPgliteStore({ dataDir, memory: false, fromScratch: true });
     expect(await migrate(first, listMigrations().slice(0, 1))).toEqual({ applied: ['001_init'] });
     await upsertDistricts(first, [{ id: 'quay', name: 'Quay', geometry: [[[[0, 0], [1, 0], [1, 1], [0, 0]]]], areaSquareMetres: 5 }]);
     const scene = (tag: string, acquiredAt: string, pass: 'day' | 'night') =>
@@ -129,7 +129,7 @@ describe('embedded store on disk', () => {
     store = await openStore({ dataDir });
     expect(await migrate(store)).toEqual({ applied: [] });
     expect(await store.query('SELECT id, area_m2 FROM districts')).toEqual([{ id: 'quay', area_m2: 5 }]);
-    expect(await store.query('SELECT version FROM schema_migrations ORDER BY version')).toEqual([{ version: 1 }, { version: 2 }, { version: 3 }, { version: 4 }, { version: 5 }]);
+    expect(await store.query('SELECT version FROM schema_migrations ORDER BY version')).toEqual([{ version: 1 }, { version: 2 }, { version: 3 }, { version: 4 }, { version: 5 }, { version: 6 }]);
     // The schema-1 row survived, and replaceDerived's key (day scene, else night scene)
     // finds it: writing it again updates it in place; a night-only row is now accepted, once.
     const row = (values: Partial<DerivedInput>): DerivedInput => ({

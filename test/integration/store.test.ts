@@ -161,7 +161,7 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     await store?.close();
   });
 
-  it('applies migrations 001 to 005 once and records them', async () => {
+  it('applies migrations 001 to 006 once and records them', async () => {
     const rows = await store.query<{ version: number; name: string }>('SELECT version, name FROM schema_migrations ORDER BY version');
     expect(rows).toEqual([
       { version: 1, name: 'init' },
@@ -169,6 +169,7 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
       { version: 3, name: 'district_daily' },
       { version: 4, name: 'run_states' },
       { version: 5, name: 'thermal_scenes' },
+      { version: 6, name: 'district_summaries' },
     ]);
     expect(await migrate(store)).toEqual({ applied: [] });
     const again = await reopen();
@@ -781,10 +782,12 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
   });
 
   it('reads named queries from sql/queries and rejects unknown names', () => {
-    // Both tables read the one per-date definition (district_daily() of migration 003).
-    for (const name of ['district_table_date', 'district_table_year']) {
-      expect(namedQuery(name)).toMatch(/FROM district_daily\(\$2::double precision\)/);
-      expect(namedQuery(name)).not.toMatch(/FROM zonal_stats|FROM derived_metrics/);
+    // Both tables read the one per-date definition (district_daily() of migration 003), through
+    // its kept summaries by day and by month (migration 006), never the tables underneath.
+    expect(namedQuery('district_table_date')).toMatch(/FROM district_days\(\$2::double precision, \$1::integer\)/);
+    expect(namedQuery('district_table_year')).toMatch(/FROM district_months\(\$2::double precision\)/);
+    for (const name of ['district_table_date', 'district_table_year', 'district_series']) {
+      expect(namedQuery(name)).not.toMatch(/FROM zonal_stats|FROM derived_metrics|_summary/);
     }
     expect(() => namedQuery('../etc/passwd')).toThrow(/lower-case/);
     expect(() => namedQuery('no_such_query')).toThrow(/no named query "no_such_query"/);
@@ -839,7 +842,7 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
     try {
       const results = await Promise.all([migrate(a), migrate(b)]);
       // One process applies both migrations under the advisory lock; the other finds none left.
-      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes']]);
+      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes', '006_district_summaries']]);
     } finally {
       await Promise.all([a.close(), b.close()]);
     }

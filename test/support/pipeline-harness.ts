@@ -14,6 +14,7 @@ import pg from 'pg';
 import { Redis } from 'ioredis';
 import { generateArchive, type ArchiveOptions, type ArchiveResult } from '../../demo-data/generate.js';
 import { testDatabaseUrl } from './services.js';
+import { usableTemplate } from '../../workers/store/template.js';
 
 export const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
 export const cliPath = path.join(repoRoot, 'dist/workers/cli.js');
@@ -71,6 +72,10 @@ export async function ensurePipelineBuild(): Promise<void> {
         // tsc exits non-zero on type errors in files being edited by others; it still emits
       }
       if (!existsSync(cliPath)) throw new Error('dist/workers/cli.js is missing after `npx tsc -p tsconfig.json`');
+    }
+    // the embedded store's template, as `npm run build` makes it (a new store of a CLI child starts from it)
+    if (!usableTemplate()) {
+      execFileSync(process.execPath, [path.join(repoRoot, 'dist/workers/store/template-build.js')], { cwd: repoRoot, stdio: 'pipe', timeout: 840_000 });
     }
   } finally {
     rmdirSync(lock);

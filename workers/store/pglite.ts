@@ -11,11 +11,18 @@ import { TransactionGuard } from './guard.js';
 import { sqlHead } from './sql-head.js';
 import type { Store, Transaction } from './interface.js';
 import { SCALAR_PARSERS } from './value-parsers.js';
+import { listMigrations, migrate } from './migrate.js';
+import { PG_VERSION_FILE, copyTemplateInto, templateRecord, templateTar, usableTemplate, type TemplateRecord } from './template.js';
 
 export interface PgliteStoreOptions {
   /** Data directory, created if missing; ignored when `memory` is true. */
   dataDir: string;
   memory: boolean;
+  /**
+   * Make a new store from scratch (initdb) even when a prepared template
+   * matches (./template.ts); the template itself is made this way. Default false.
+   */
+  fromScratch?: boolean;
 }
 
 function queryError(e: unknown, where: string, sql: string): ServiceError {
@@ -37,12 +44,45 @@ export async function openPgliteStore(options: PgliteStoreOptions): Promise<Stor
   let db: PGlite;
   try {
     if (!options.memory) fs.mkdirSync(where, { recursive: true });
-    db = await PGlite.create(options.memory ? { parsers } : { dataDir: where, parsers });
+    // a new store starts from the prepared template when one matches this program's migrations
+    const isNew = options.memory || !fs.existsSync(path.join(where, PG_VERSION_FILE));
+    const template = isNew && !options.fromScratch ? usableTemplate() : null;
+    if (options.memory) {
+      db = await PGlite.create(template ? { loadDataDir: templateTar(template), parsers } : { parsers });
+    } else {
+      if (template) copyTemplateInto(template, where);
+      db = await PGlite.create({ dataDir: where, parsers });
+    }
     await db.exec("SET TimeZone = 'UTC'; SET DateStyle = 'ISO, YMD';");
   } catch (e) {
     throw new ServiceError(`cannot open the embedded database at ${where}: ${(e as Error)?.message ?? String(e)}`, { cause: e });
   }
   return new PgliteStore(db, where);
+}
+
+/**
+ * Make the prepared template of a new store in `outDir` (see ./template.ts):
+ * initdb and every migration in memory, then the data directory dumped as a tar
+ * and unpacked beside it, and the record written last. Returns the record.
+ */
+export async function writePgliteTemplate(outDir: string): Promise<TemplateRecord> {
+  const migrations = listMigrations();
+  const record = templateRecord(migrations);
+  const db = await PGlite.create({ parsers });
+  try {
+    await migrate(new PgliteStore(db, 'template'), migrations);
+    await db.exec('CHECKPOINT');
+    const tar = await db.dumpDataDir('none');
+    fs.mkdirSync(outDir, { recursive: true });
+    fs.writeFileSync(path.join(outDir, 'pgdata.tar'), new Uint8Array(await tar.arrayBuffer()));
+    // the same files as a data directory, shut down cleanly
+    const unpacked = await PGlite.create({ dataDir: path.join(outDir, 'pgdata'), loadDataDir: tar });
+    await unpacked.close();
+  } finally {
+    await db.close();
+  }
+  fs.writeFileSync(path.join(outDir, 'template.json'), JSON.stringify(record, null, 2) + '\n');
+  return record;
 }
 
 function wrapTx(tx: PgliteTransaction, where: string): Transaction {

@@ -51,7 +51,7 @@ tr.thin td { color: #8a5a00; }
 .flag { background: #fff4e5; border-left: 4px solid #e08a1e; padding: .35rem .7rem; margin: .5rem 0; break-inside: avoid; }
 .flag p { margin: .3rem 0; }
 table.scenes tr.flagged td { background: #fff4e5; }
-table.scenes .how { color: #555; }
+table.scenes .how { color: #555; white-space: nowrap; }
 table.scenes .flag-mark { color: #8a3b00; font-weight: 600; }
 table.scenes { font-size: 7pt; }
 table.scenes td.hash { font-family: "DejaVu Sans Mono", monospace; font-size: 5.6pt; white-space: nowrap; }

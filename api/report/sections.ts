@@ -141,7 +141,7 @@ function sourceList(sources: SourceCount[]): string {
  * one scene, loses most but not all of the bias (common practice, no source).
  */
 export const UNCORRECTED_MEANING =
-  'On these dates the surface temperatures are likely read too low, which pulls down the season\'s mean of that pass a little. ' +
+  'On these dates the surface temperatures are likely read too low, which pulls the yearly means of that pass (day or night) down a little. ' +
   'The heat island of these dates is affected less, because the countryside in the same scene is read too low as well, but not by exactly the same amount (its surfaces and temperatures differ). ' +
   'The day–night difference of these dates comes out too large, so their thermal inertia (ATI) comes out too small. ' +
   'Conclusions that rest on a few nights should be checked against the corrected passes.';
@@ -172,7 +172,9 @@ export function qualitySection(d: ReportData, q: QualityFigures): string {
   const cov = q.coverage.map((c) => `<tr class="${d.minDates > (c.datesNight ?? 0) ? 'thin' : ''}"><td>${esc(c.name)}</td><td class="n">${percent(c.validDay)}</td><td class="n">${percent(c.validNight)}</td><td class="n">${c.passesBelow} of ${c.passes}</td><td class="n">${c.datesNight ?? 0} / ${c.datesDay ?? 0}</td></tr>`).join('\n');
   const crossover = q.crossoverShare === null
     ? 'No scene of these years has been used yet.'
-    : `${percent(q.crossoverShare)} of the passes used were taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing). ` +
+    : q.crossoverShare === 0
+      ? 'None of the passes used was taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing).'
+      : `Of the passes used, ${percent(q.crossoverShare)} were taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing). ` +
       (q.crossoverKept
         ? `They were kept${q.crossoverSetting ? ` (run setting ${esc(q.crossoverSetting)})` : ' (the run has no setting that leaves them out)'}.`
         : `They were left out (run setting ${esc(q.crossoverSetting ?? '')}).`);

@@ -57,6 +57,8 @@ export interface ThermalQuality {
   emissivity: SourceCount[];
   /** The passes without atmospheric correction, in time order (season-year, UTC date, pass, file). */
   uncorrected: { year: number; date: string; pass: 'day' | 'night'; file: string }[];
+  /** Used passes without atmospheric correction outside the report's months (listed in the appendix, not used here). */
+  uncorrectedOutside: number;
 }
 
 export interface QualityFigures {
@@ -136,9 +138,11 @@ export function qualityFigures(d: ReportData): QualityFigures {
   let used = 0;
   let crossover = 0;
   const thermalUsed: { scene: ReportScene; year: number }[] = [];
+  let uncorrectedOutside = 0;
   for (const s of d.scenes) {
     if (!isLst(s)) continue;
     const y = sceneSeasonYear(s, d);
+    if (y === null && s.state === 'processed' && s.thermal?.lst_method === 'emissivity_only' && new Date(s.acquired_at as string).getUTCFullYear() <= year) uncorrectedOutside++;
     if (y === null || y > year) continue;
     const row = years.get(y) ?? { year: y, day: 0, night: 0, notUsed: 0, crossoverDay: 0, crossoverNight: 0, thermal: 0, uncorrected: 0 };
     years.set(y, row);
@@ -199,6 +203,7 @@ export function qualityFigures(d: ReportData): QualityFigures {
       uncorrected: thermalUsed.filter((t) => t.scene.thermal?.lst_method === 'emissivity_only')
         .sort((a, b) => String(a.scene.acquired_at).localeCompare(String(b.scene.acquired_at)))
         .map((t) => ({ year: t.year, date: (t.scene.acquired_at as string).slice(0, 10), pass: t.scene.pass as 'day' | 'night', file: t.scene.file })),
+      uncorrectedOutside,
     },
   };
 }

@@ -149,12 +149,15 @@ export const UNCORRECTED_MEANING =
 function thermalPart(d: ReportData, t: ThermalQuality): string {
   const nights = t.uncorrected.filter((u) => u.pass === 'night').length;
   const thisYear = t.uncorrected.filter((u) => u.year === d.request.year);
+  const outside = t.uncorrectedOutside
+    ? ` The store also holds ${count(t.uncorrectedOutside, 'pass', 'passes')} without atmospheric correction outside ${esc(d.selection.label)}; ${t.uncorrectedOutside === 1 ? 'it is' : 'they are'} shaded in the appendix but not used in this report.`
+    : '';
   const flag = t.uncorrected.length === 0
-    ? '<p>Every one of them was corrected for the atmosphere.</p>'
+    ? `<p>Every one of them was corrected for the atmosphere.${outside}</p>`
     : `<div class="flag" id="no-atmospheric-correction"><p><strong>Flag: no atmospheric correction</strong> on ${count(t.uncorrected.length, 'pass', 'passes')}${nights === t.uncorrected.length ? ` (all ${nights === 1 ? 'of them at night' : 'at night'})` : ''}` +
       `, ${thisYear.length ? `of which ${thisYear.length} in ${d.request.year} (${esc(thisYear.map((u) => u.date).join(', '))})` : `none of them in ${d.request.year}`}. ` +
       `${esc(capitalised(NO_ATMOSPHERIC_CORRECTION_TEXT))}</p>
-<p><strong>What this means:</strong> ${esc(UNCORRECTED_MEANING)} The appendix marks each of these passes.</p></div>`;
+<p><strong>What this means:</strong> ${esc(UNCORRECTED_MEANING)} The appendix marks each of these passes.${outside}</p></div>`;
   return `<h3>Passes made from raw thermal readings</h3>
 <p>Of the passes used, ${count(t.passes, 'pass', 'passes')} arrived as raw readings of the satellite's thermal band (Level-1 digital numbers) rather than as surface temperature; heatledger turned them into surface temperature when they were read in. How that was done:</p>
 <table class="data narrow"><thead><tr><th>How the surface temperature was made</th><th>Passes</th></tr></thead><tbody>
@@ -239,6 +242,17 @@ function parameterRows(params: Record<string, unknown>): string {
 
 const capitalised = (text: string) => text.charAt(0).toUpperCase() + text.slice(1);
 
+/** Distance in metres as the reader says it: "2 km" from 1000 m up when whole, else "500 m". */
+const distance = (metres: number) => (metres >= 1000 && metres % 100 === 0 ? `${metres / 1000} km` : `${metres} m`);
+
+/** The run's description of the rural ring in plain words; any other description as recorded. */
+export function ruralWords(description: string): string {
+  const m = /^ring ([0-9.]+)-([0-9.]+) m outside the union of the districts(?:, water from (.+) excluded)?$/.exec(description);
+  if (!m) return description;
+  return `the land between ${distance(Number(m[1]))} and ${distance(Number(m[2]))} outside the city's outer edge (all districts taken together)` +
+    `${m[3] ? `, with the water of ${m[3]} cut out` : ''}`;
+}
+
 export function methodsSection(d: ReportData): string {
   const p = d.run?.parameters ?? {};
   const rural = p.ruralReference && typeof p.ruralReference === 'object' ? relativeInText(String((p.ruralReference as Record<string, unknown>).description ?? ''), null) : null;
@@ -252,12 +266,16 @@ export function methodsSection(d: ReportData): string {
 <dt>Land-surface temperature (LST)</dt><dd>The temperature of the ground's skin (roofs, roads, grass, water) as a satellite's thermal sensor sees it through clear sky, in kelvin (K) in the data; shown here in ${d.request.units === 'C' ? '°C (K − 273.15)' : 'K'}. It is not the air temperature people feel.</dd>
 ${d.scenes.some((s) => s.kind === 'thermal' && s.state === 'processed') ? `<dt>Surface temperature from raw thermal readings</dt><dd>Some passes arrive as raw readings of the thermal band (Level-1 digital numbers). They are turned into LST pixel by pixel: reading to radiance with the scene's rescaling factors, the surface's emissivity and, where the scene's atmosphere is known, its transmittance and path radiances taken out by inverting the radiative transfer equation, and radiance to temperature with the band's thermal constants (inverse Planck function). Without the atmosphere only the emissivity is corrected, and the result is flagged (see “How good is the data?”).</dd>\n` : ''}<dt>Surface urban heat island (SUHI)</dt><dd>A district's mean LST minus the mean LST of the rural reference in the same scene, in K (a difference of 1 K equals 1 °C). Day and night are kept apart. The city figure is the mean over the districts weighted by their area; the baseline figure is the mean of the baseline years' city figures.</dd>
 <dt>Apparent thermal inertia (ATI)</dt><dd>(1 − albedo) / (day LST − night LST), in 1/K (Price 1977): how strongly a surface resists heating and cooling. Stored for every district; not used in this report's sentences.</dd>
-<dt>Rural reference</dt><dd>${rural ? esc(capitalised(rural)) : 'As recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
+<dt>Rural reference</dt><dd>${rural ? esc(capitalised(ruralWords(rural))) : 'As recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
 <dt>Pixel rule</dt><dd>${esc(capitalised(rule))}.</dd>
 <dt>Day and night passes</dt><dd>A pass is a day pass when the sun is above the horizon at the scene centre. A night pass is paired with the day pass closest in time${pairing !== null ? ` within ${pairing} hours` : ''}; the pair is dated by the UTC date of the day pass. A pass that saw less than ${percent(typeof p.minValidFraction === 'number' ? p.minValidFraction : null)} of a district gives no value for it.</dd>
 <dt>Trend</dt><dd>Mann–Kendall test of the yearly values (Mann 1945; Kendall 1975), Sen slope with its ${Math.round((1 - d.request.alpha) * 100)} % interval (Sen 1968), Benjamini–Hochberg false discovery rate across districts (Benjamini & Hochberg 1995). A year counts when it has at least ${d.minDates} clear dates; a trend needs at least ${MIN_TREND_YEARS} years.</dd>
 <dt>Hot spots</dt><dd>Getis–Ord Gi* with binary weights including the district itself (Ord & Getis 1995); Moran's I with row-standardised weights (Moran 1950).</dd>
 </dl>
+<div class="keep"><h3>Cautions</h3>
+<ul class="cautions">
+${cautionItems()}
+</ul></div>
 <h3>This report</h3>
 <table class="data narrow"><tbody>
 <tr><td>Software</td><td>heatledger ${esc(d.version)}</td></tr>
@@ -269,10 +287,6 @@ ${d.scenes.some((s) => s.kind === 'thermal' && s.state === 'processed') ? `<dt>S
 </tbody></table>
 <h3>Run settings</h3>
 <table class="data narrow"><tbody>${parameterRows(p)}</tbody></table>
-<div class="keep"><h3>Cautions</h3>
-<ul class="cautions">
-${cautionItems()}
-</ul></div>
 </section>`;
 }
 

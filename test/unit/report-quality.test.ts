@@ -116,6 +116,7 @@ describe('thermal passes in the data quality', () => {
         { year: 2023, date: '2023-08-20', pass: 'night', file: expect.any(String) },
         { year: 2024, date: '2024-07-20', pass: 'night', file: expect.any(String) },
       ],
+      uncorrectedOutside: 1, // the September pass: in the store, outside the summer months
     });
     // thermal passes are night passes of their year
     expect(q.byYear.map((y) => [y.year, y.day, y.night, y.thermal, y.uncorrected])).toEqual([[2023, 0, 1, 1, 1], [2024, 1, 2, 2, 1]]);

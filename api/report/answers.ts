@@ -35,7 +35,7 @@ export interface ThermalFacts {
   lst_method: 'rte' | 'emissivity_only' | null;
   constants_source: string | null;
   emissivity_source: string | null;
-  /** The one sentence saying how its LST was made (core/thermal/describe.ts). */
+  /** The one sentence saying how its LST was made (core/thermal/describe.ts); the appendix shows it on hover. */
   how: string;
 }
 

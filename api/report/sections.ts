@@ -294,7 +294,7 @@ ${cautionItems()}
 function kindCell(s: ReportScene): string {
   if (s.kind !== 'thermal') return esc(s.kind ?? '–');
   const m = s.thermal?.lst_method;
-  return `thermal DN<br><span class="how${m === 'emissivity_only' ? ' flag-mark' : ''}">${m === 'rte' ? 'atmosphere corrected' : m === 'emissivity_only' ? 'no atmospheric correction' : 'not converted'}</span>`;
+  return `thermal DN<br><span class="how${m === 'emissivity_only' ? ' flag-mark' : ''}"${s.thermal ? ` title="${esc(s.thermal.how)}"` : ''}>${m === 'rte' ? 'atmosphere corrected' : m === 'emissivity_only' ? 'no atmospheric correction' : 'not converted'}</span>`;
 }
 
 export function appendixSection(d: ReportData): string {

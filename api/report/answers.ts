@@ -29,6 +29,18 @@ export interface ReportRequest {
   alpha: number;
 }
 
+/** How the LST of a thermal (Level-1 DN) scene was made, as stored with it; paths cut to file names. */
+export interface ThermalFacts {
+  /** 'rte': radiative transfer equation inverted with the atmosphere; 'emissivity_only': no atmospheric correction; null: not yet processed. */
+  lst_method: 'rte' | 'emissivity_only' | null;
+  constants_source: string | null;
+  emissivity_source: string | null;
+  /** The one sentence saying how its LST was made (core/thermal/describe.ts); the appendix shows it on hover. */
+  how: string;
+}
+
+export type ReportScene = SceneAnswerRow & { content_hash: string | null; thermal?: ThermalFacts | null };
+
 /** A run's recorded parameters (the runs table), for the methods section. */
 export interface RunRecord {
   id: number;
@@ -61,8 +73,8 @@ export interface ReportData {
   /** Night SUHI hot spots of the year; null with the reason when they cannot be computed. */
   hotspots: HotspotsAnswer | null;
   hotspotsMissing: string | null;
-  /** Every stored scene, with the content hash the appendix lists. */
-  scenes: (SceneAnswerRow & { content_hash: string | null })[];
+  /** Every stored scene, with the content hash the appendix lists and, for a thermal (DN) scene, how its LST was made. */
+  scenes: ReportScene[];
   /** The run whose results the store holds (the latest finished one), or null. */
   run: RunRecord | null;
   /** The season's months (label e.g. "Jun-Aug"), for the scenes the data-quality section counts. */

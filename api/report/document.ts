@@ -22,6 +22,8 @@ header.title { border-bottom: 3px solid #b8471d; margin-bottom: 1rem; padding-bo
 h1 { font-size: 20pt; margin: .2rem 0 .4rem; line-height: 1.2; }
 h2 { font-size: 14pt; margin: 1.2rem 0 .5rem; color: #7a3517; border-bottom: 1px solid #e5c9b8; padding-bottom: .15rem; }
 h3 { font-size: 11pt; margin: 1rem 0 .35rem; }
+h2, h3 { break-after: avoid; }
+.keep { break-inside: avoid; }
 .meta, .note, figcaption { color: #555; font-size: 9pt; }
 p { margin: .45rem 0; }
 data { font-weight: 600; white-space: nowrap; }
@@ -46,6 +48,11 @@ table.data thead { display: table-header-group; }
 tr.up td { background: #fbe9e1; }
 td.years { white-space: nowrap; }
 tr.thin td { color: #8a5a00; }
+.flag { background: #fff4e5; border-left: 4px solid #e08a1e; padding: .35rem .7rem; margin: .5rem 0; break-inside: avoid; }
+.flag p { margin: .3rem 0; }
+table.scenes tr.flagged td { background: #fff4e5; }
+table.scenes .how { color: #555; white-space: nowrap; }
+table.scenes .flag-mark { color: #8a3b00; font-weight: 600; }
 table.scenes { font-size: 7pt; }
 table.scenes td.hash { font-family: "DejaVu Sans Mono", monospace; font-size: 5.6pt; white-space: nowrap; }
 table.scenes td.time { white-space: nowrap; }

@@ -8,11 +8,13 @@
 import { isInputError } from '../../workers/core/errors.js';
 import { seasonMonths } from '../../workers/core/trend/index.js';
 import type { Store } from '../../workers/store/index.js';
-import { getRun, listScenes } from '../../workers/store/index.js';
+import { getRun, listScenes, listThermalScenes } from '../../workers/store/index.js';
+import { lstMethodSentence } from '../../workers/core/thermal/describe.js';
+import { relativeInText } from '../relative-paths.js';
 import { storedHemisphere } from '../../workers/store/district-statistics.js';
 import { MIN_DATES_PER_YEAR } from '../answers/index.js';
 import type {
-  DistrictsAnswer, HealthAnswer, HotspotsAnswer, Metric, RankingsAnswer, ReportData, ReportRequest, SceneAnswerRow, SeriesAnswer, TrendsAnswer,
+  DistrictsAnswer, HealthAnswer, HotspotsAnswer, Metric, RankingsAnswer, ReportData, ReportRequest, SceneAnswerRow, SeriesAnswer, ThermalFacts, TrendsAnswer,
 } from './answers.js';
 
 /** The API answers the report reads, as functions of their query (lists already followed to their last page). */
@@ -63,7 +65,13 @@ export async function gatherReportData(store: Store, request: ReportRequest, ans
     hotspotsMissing = (e as Error).message;
   }
   const hashes = new Map((await listScenes(store)).map((s) => [String(s.id), s.contentHash]));
-  const scenes = (await answers.scenes()).map((s) => ({ ...s, content_hash: hashes.get(String(s.id)) ?? null }));
+  // how each thermal scene's LST was made (stored with it; file names only, as the API shows files)
+  const files = (text: string | null) => (text === null ? null : relativeInText(text, null));
+  const thermal = new Map<string, ThermalFacts>((await listThermalScenes(store)).map((t) => [String(t.sceneId), {
+    lst_method: t.lstMethod, constants_source: files(t.thermalConstantsSource), emissivity_source: files(t.emissivitySource),
+    how: relativeInText(lstMethodSentence(t), null),
+  }]));
+  const scenes = (await answers.scenes()).map((s) => ({ ...s, content_hash: hashes.get(String(s.id)) ?? null, thermal: thermal.get(String(s.id)) ?? null }));
   const runRow = health.last_run ? await getRun(store, health.last_run.id) : null;
   return {
     request, version, madeAt, health, districts, previous: previous && hasValues(previous) ? previous : null, baselineYears,

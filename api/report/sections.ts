@@ -2,17 +2,19 @@
  * The report's sections as HTML fragments: each a pure function of the
  * gathered answers (and, for the pictures, of the SVG the drawing code made).
  */
-import { CAUTION_TEXT } from '../../workers/core/defaults.js';
+import { CAUTION_TEXT, NO_ATMOSPHERIC_CORRECTION_TEXT } from '../../workers/core/defaults.js';
 import { MIN_TREND_YEARS } from '../../workers/core/trend/index.js';
 import { relativeInText } from '../relative-paths.js';
-import type { ReportData, TrendFields } from './answers.js';
-import type { QualityFigures } from './quality.js';
+import type { ReportData, ReportScene, TrendFields } from './answers.js';
+import type { QualityFigures, SourceCount, ThermalQuality } from './quality.js';
 import { summarySentences, type SummaryFigures } from './summary.js';
 import { count, difference, esc, fixed, percent, probability, temperature, unitSymbol } from './text.js';
 
 /** Pictures of the report (SVG markup), made by the drawing code; null where there is nothing to draw. */
 export interface ReportFigures {
   map: string | null;
+  /** Districts written on the map as a number (their name did not fit there), in the order of their numbers. */
+  mapKey: { label: string; name: string }[];
   /** Legend of the map's colour classes. */
   legend: string | null;
   bars: string | null;
@@ -24,12 +26,19 @@ export function periodText(d: ReportData): string {
   return d.request.season === 'all' ? String(d.request.year) : `${d.request.season} ${d.request.year} (${d.selection.label})`;
 }
 
+/** "160 satellite passes (80 of them from raw thermal readings)": the surface-temperature scenes used. */
+function passesText(d: ReportData): string {
+  const used = d.scenes.filter((s) => (s.kind === 'lst' || s.kind === 'thermal') && s.state === 'processed');
+  const raw = used.filter((s) => s.kind === 'thermal').length;
+  return `${count(used.length, 'satellite pass', 'satellite passes')}${raw ? ` (${raw} of them from raw thermal readings)` : ''}`;
+}
+
 export function titleBlock(d: ReportData, place: string | null): string {
   const made = d.madeAt.slice(0, 10);
   return `<header class="title">
 <p class="kicker">Yearly surface heat report</p>
 <h1>${place ? `${esc(place)}: s` : 'S'}urface heat in ${esc(d.request.season === 'all' ? String(d.request.year) : `${d.request.season} ${d.request.year}`)}</h1>
-<p class="meta">${d.request.season === 'all' ? 'The whole year' : `Months ${esc(d.selection.label)}`}, compared with ${d.request.baseline.from === d.request.baseline.to ? d.request.baseline.from : `${d.request.baseline.from}–${d.request.baseline.to}`}. Made on ${esc(made)} (UTC) with heatledger ${esc(d.version)} from ${count(d.districts.features.filter((f) => f.properties.role === 'district').length, 'district')} and ${count(d.scenes.filter((s) => s.kind === 'lst' && s.state === 'processed').length, 'satellite scene')}. Temperatures in ${d.request.units === 'C' ? 'degrees Celsius (°C)' : 'kelvin (K)'}; a difference of 1 K is a difference of 1 °C.</p>
+<p class="meta">${d.request.season === 'all' ? 'The whole year' : `Months ${esc(d.selection.label)}`}, compared with ${d.request.baseline.from === d.request.baseline.to ? d.request.baseline.from : `${d.request.baseline.from}–${d.request.baseline.to}`}. Made on ${esc(made)} (UTC) with heatledger ${esc(d.version)} from ${count(d.districts.features.filter((f) => f.properties.role === 'district').length, 'district')} and ${passesText(d)}. Temperatures in ${d.request.units === 'C' ? 'degrees Celsius (°C)' : 'kelvin (K)'}; a difference of 1 K is a difference of 1 °C.</p>
 </header>`;
 }
 
@@ -60,7 +69,7 @@ export function hottestSection(d: ReportData, figs: ReportFigures): string {
   return `<section id="where" class="page">
 <h2>Where it is hottest</h2>
 <p>How much warmer each district's surface was than the countryside around the city, on average over the clear nights of ${esc(periodText(d))}. Deeper red is warmer; blue districts were cooler than the countryside.${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Thick outlines mark the hot and cold spots described below.' : ''}</p>
-${figs.map ? `<figure class="map"><div class="map-drawing">${figs.map}</div>${figs.legend ? `<div class="legend">${figs.legend}</div>` : ''}<figcaption>Night heat island by district, ${esc(periodText(d))} (${unitSymbol(d.request.units)} above the rural reference).${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Solid thick outline: hot spot; dashed: cold spot.' : ''}</figcaption></figure>` : ''}
+${figs.map ? `<figure class="map"><div class="map-drawing">${figs.map}</div>${figs.legend ? `<div class="legend">${figs.legend}</div>` : ''}<figcaption>Night heat island by district, ${esc(periodText(d))} (${unitSymbol(d.request.units)} above the rural reference).${figs.mapKey.length ? ` Numbers on the map: ${figs.mapKey.map((k) => `${esc(k.label)} ${esc(k.name)}`).join(', ')}.` : ''}${d.hotspots?.rows.some((r) => r.spot !== 'none') ? ' Solid thick outline: hot spot; dashed: cold spot.' : ''}</figcaption></figure>` : ''}
 ${figs.bars ? `<figure class="bars">${figs.bars}<figcaption>Districts ranked by their night heat island, ${esc(periodText(d))}.</figcaption></figure>` : ''}
 <h3>Every district this year</h3>
 ${yearTable(d)}
@@ -82,7 +91,7 @@ export function trendSection(d: ReportData, figs: ReportFigures): string {
     `<td>${verdict(r)}</td><td class="years">${esc(r.years_used)}</td></tr>`).join('\n');
   const multiples = figs.multiples.length
     ? `<div class="multiples">${figs.multiples.map((m) => `<figure>${m.svg}<figcaption>${esc(m.name)}</figcaption></figure>`).join('\n')}</div>
-<p class="note">The ${figs.multiples.length} districts hottest at night this year. Each small chart shows one district's yearly night heat island (dots), the trend line fitted through them (Sen slope) and, shaded, the range of slopes the data allow at ${Math.round((1 - d.request.alpha) * 100)} %. Each chart has its own vertical scale, chosen to show its district's ups and downs: compare the size of changes with the table below, not the steepness of the lines.</p>`
+<p class="note">The ${figs.multiples.length} districts hottest at night this year. Each small chart shows one district's yearly night heat island (dots), the trend line fitted through them (Sen slope) and, shaded, the range of slopes the data allow at ${Math.round((1 - d.request.alpha) * 100)} %. ${figs.multiples.length > 1 ? `The ${figs.multiples.length === 2 ? 'two' : figs.multiples.length} charts share one vertical scale, so a steeper line is a faster change and the districts can be compared by eye; the table below gives the rates in figures.` : 'The table below gives the rate in figures.'}</p>`
     : '';
   return `<section id="trend" class="page">
 <h2>Is it getting warmer?</h2>
@@ -121,12 +130,54 @@ ${chance}
 </section>`;
 }
 
+/** "12 from the scene's own metadata file, 2 from the archive's manifest". */
+function sourceList(sources: SourceCount[]): string {
+  return sources.map((c) => `${c.passes} from ${esc(c.source)}`).join('; ');
+}
+
+/**
+ * What a flagged pass without atmospheric correction means for the conclusions: its LST is
+ * too low, the day–night difference too large and so ATI too small; SUHI, a difference within
+ * one scene, loses most but not all of the bias (common practice, no source).
+ */
+export const UNCORRECTED_MEANING =
+  'On these dates the surface temperatures are likely read too low, which pulls the yearly means of that pass (day or night) down a little. ' +
+  'The heat island of these dates is affected less, because the countryside in the same scene is read too low as well, but not by exactly the same amount (its surfaces and temperatures differ). ' +
+  'The day–night difference of these dates comes out too large, so their thermal inertia (ATI) comes out too small. ' +
+  'Conclusions that rest on a few nights should be checked against the corrected passes.';
+
+function thermalPart(d: ReportData, t: ThermalQuality): string {
+  const nights = t.uncorrected.filter((u) => u.pass === 'night').length;
+  const thisYear = t.uncorrected.filter((u) => u.year === d.request.year);
+  const outside = t.uncorrectedOutside
+    ? ` The store also holds ${count(t.uncorrectedOutside, 'pass', 'passes')} without atmospheric correction outside ${esc(d.selection.label)}; ${t.uncorrectedOutside === 1 ? 'it is' : 'they are'} shaded in the appendix but not used in this report.`
+    : '';
+  const flag = t.uncorrected.length === 0
+    ? `<p>Every one of them was corrected for the atmosphere.${outside}</p>`
+    : `<div class="flag" id="no-atmospheric-correction"><p><strong>Flag: no atmospheric correction</strong> on ${count(t.uncorrected.length, 'pass', 'passes')}${nights === t.uncorrected.length ? ` (all ${nights === 1 ? 'of them at night' : 'at night'})` : ''}` +
+      `, ${thisYear.length ? `of which ${thisYear.length} in ${d.request.year} (${esc(thisYear.map((u) => u.date).join(', '))})` : `none of them in ${d.request.year}`}. ` +
+      `${esc(capitalised(NO_ATMOSPHERIC_CORRECTION_TEXT))}</p>
+<p><strong>What this means:</strong> ${esc(UNCORRECTED_MEANING)} The appendix marks each of these passes.${outside}</p></div>`;
+  return `<h3>Passes made from raw thermal readings</h3>
+<p>Of the passes used, ${count(t.passes, 'pass', 'passes')} arrived as raw readings of the satellite's thermal band (Level-1 digital numbers) rather than as surface temperature; heatledger turned them into surface temperature when they were read in. How that was done:</p>
+<table class="data narrow"><thead><tr><th>How the surface temperature was made</th><th>Passes</th></tr></thead><tbody>
+<tr><td>Corrected for the atmosphere (radiative transfer equation inverted with the scene's transmittance and path radiances)</td><td class="n">${t.withAtmosphere}</td></tr>
+<tr${t.emissivityOnly ? ' class="thin"' : ''}><td>Emissivity correction only: no atmospheric correction</td><td class="n">${t.emissivityOnly}</td></tr>
+</tbody></table>
+<p>Rescaling and thermal constants: ${sourceList(t.constants)}. Emissivity of the surface: ${sourceList(t.emissivity)}.</p>
+${flag}`;
+}
+
 export function qualitySection(d: ReportData, q: QualityFigures): string {
-  const yearRows = q.byYear.map((y) => `<tr><td>${y.year}</td><td class="n">${y.day}</td><td class="n">${y.night}</td><td class="n">${y.crossoverDay + y.crossoverNight}</td><td class="n">${y.notUsed}</td></tr>`).join('\n');
+  const thermal = q.thermal !== null;
+  const yearRows = q.byYear.map((y) => `<tr><td>${y.year}</td><td class="n">${y.day}</td><td class="n">${y.night}</td><td class="n">${y.crossoverDay + y.crossoverNight}</td>` +
+    `${thermal ? `<td class="n">${y.thermal}</td><td class="n">${y.uncorrected}</td>` : ''}<td class="n">${y.notUsed}</td></tr>`).join('\n');
   const cov = q.coverage.map((c) => `<tr class="${d.minDates > (c.datesNight ?? 0) ? 'thin' : ''}"><td>${esc(c.name)}</td><td class="n">${percent(c.validDay)}</td><td class="n">${percent(c.validNight)}</td><td class="n">${c.passesBelow} of ${c.passes}</td><td class="n">${c.datesNight ?? 0} / ${c.datesDay ?? 0}</td></tr>`).join('\n');
   const crossover = q.crossoverShare === null
     ? 'No scene of these years has been used yet.'
-    : `${percent(q.crossoverShare)} of the passes used were taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing). ` +
+    : q.crossoverShare === 0
+      ? 'None of the passes used was taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing).'
+      : `Of the passes used, ${percent(q.crossoverShare)} were taken near sunrise or sunset, when built-up and open ground have nearly the same surface temperature and the heat island looks smaller than it is (“crossover” timing). ` +
       (q.crossoverKept
         ? `They were kept${q.crossoverSetting ? ` (run setting ${esc(q.crossoverSetting)})` : ' (the run has no setting that leaves them out)'}.`
         : `They were left out (run setting ${esc(q.crossoverSetting ?? '')}).`);
@@ -141,8 +192,9 @@ export function qualitySection(d: ReportData, q: QualityFigures): string {
 <h2>How good is the data?</h2>
 <p>Satellites see the ground only through clear sky. Every figure in this report is a mean over the clear days of each season, so a cloudy year rests on fewer days, and years with different weather are not strictly alike.</p>
 <h3>Scenes used per year</h3>
-<table class="data narrow"><thead><tr><th>Year</th><th>Day passes</th><th>Night passes</th><th>Of them near sunrise or sunset</th><th>Not usable</th></tr></thead><tbody>${yearRows}</tbody></table>
+<table class="data narrow"><thead><tr><th>Year</th><th>Day passes</th><th>Night passes</th><th>Of them near sunrise or sunset</th>${thermal ? '<th>Of them from raw thermal readings</th><th>Of those without atmospheric correction</th>' : ''}<th>Not usable</th></tr></thead><tbody>${yearRows}</tbody></table>
 <p>${crossover}</p>
+${q.thermal ? thermalPart(d, q.thermal) : ''}
 ${q.unreadable ? `<p>${count(q.unreadable, 'file')} could not be read at all and ${q.unreadable === 1 ? 'is' : 'are'} left out; the appendix lists ${q.unreadable === 1 ? 'it' : 'them'} with the state “failed”.</p>` : ''}
 <h3>Clear view of each district, ${d.request.year}</h3>
 <p>The share of each district's ground the satellite saw clearly (not cloud, not out of range), averaged over the year's passes. A pass that saw less than ${percent(q.minValidFraction)} of a district is not used for that district.</p>
@@ -190,6 +242,17 @@ function parameterRows(params: Record<string, unknown>): string {
 
 const capitalised = (text: string) => text.charAt(0).toUpperCase() + text.slice(1);
 
+/** Distance in metres as the reader says it: "2 km" from 1000 m up when whole, else "500 m". */
+const distance = (metres: number) => (metres >= 1000 && metres % 100 === 0 ? `${metres / 1000} km` : `${metres} m`);
+
+/** The run's description of the rural ring in plain words; any other description as recorded. */
+export function ruralWords(description: string): string {
+  const m = /^ring ([0-9.]+)-([0-9.]+) m outside the union of the districts(?:, water from (.+) excluded)?$/.exec(description);
+  if (!m) return description;
+  return `the land between ${distance(Number(m[1]))} and ${distance(Number(m[2]))} outside the city's outer edge (all districts taken together)` +
+    `${m[3] ? `, with the water of ${m[3]} cut out` : ''}`;
+}
+
 export function methodsSection(d: ReportData): string {
   const p = d.run?.parameters ?? {};
   const rural = p.ruralReference && typeof p.ruralReference === 'object' ? relativeInText(String((p.ruralReference as Record<string, unknown>).description ?? ''), null) : null;
@@ -201,14 +264,18 @@ export function methodsSection(d: ReportData): string {
 <h2>How the figures are made</h2>
 <dl class="defs">
 <dt>Land-surface temperature (LST)</dt><dd>The temperature of the ground's skin (roofs, roads, grass, water) as a satellite's thermal sensor sees it through clear sky, in kelvin (K) in the data; shown here in ${d.request.units === 'C' ? '°C (K − 273.15)' : 'K'}. It is not the air temperature people feel.</dd>
-<dt>Surface urban heat island (SUHI)</dt><dd>A district's mean LST minus the mean LST of the rural reference in the same scene, in K (a difference of 1 K equals 1 °C). Day and night are kept apart. The city figure is the mean over the districts weighted by their area; the baseline figure is the mean of the baseline years' city figures.</dd>
+${d.scenes.some((s) => s.kind === 'thermal' && s.state === 'processed') ? `<dt>Surface temperature from raw thermal readings</dt><dd>Some passes arrive as raw readings of the thermal band (Level-1 digital numbers). They are turned into LST pixel by pixel: reading to radiance with the scene's rescaling factors, the surface's emissivity and, where the scene's atmosphere is known, its transmittance and path radiances taken out by inverting the radiative transfer equation, and radiance to temperature with the band's thermal constants (inverse Planck function). Without the atmosphere only the emissivity is corrected, and the result is flagged (see “How good is the data?”).</dd>\n` : ''}<dt>Surface urban heat island (SUHI)</dt><dd>A district's mean LST minus the mean LST of the rural reference in the same scene, in K (a difference of 1 K equals 1 °C). Day and night are kept apart. The city figure is the mean over the districts weighted by their area; the baseline figure is the mean of the baseline years' city figures.</dd>
 <dt>Apparent thermal inertia (ATI)</dt><dd>(1 − albedo) / (day LST − night LST), in 1/K (Price 1977): how strongly a surface resists heating and cooling. Stored for every district; not used in this report's sentences.</dd>
-<dt>Rural reference</dt><dd>${rural ? esc(capitalised(rural)) : 'As recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
+<dt>Rural reference</dt><dd>${rural ? esc(capitalised(ruralWords(rural))) : 'As recorded with the run'}. A different reference (further out, or with other land cover) shifts every SUHI figure by the same amount.</dd>
 <dt>Pixel rule</dt><dd>${esc(capitalised(rule))}.</dd>
 <dt>Day and night passes</dt><dd>A pass is a day pass when the sun is above the horizon at the scene centre. A night pass is paired with the day pass closest in time${pairing !== null ? ` within ${pairing} hours` : ''}; the pair is dated by the UTC date of the day pass. A pass that saw less than ${percent(typeof p.minValidFraction === 'number' ? p.minValidFraction : null)} of a district gives no value for it.</dd>
 <dt>Trend</dt><dd>Mann–Kendall test of the yearly values (Mann 1945; Kendall 1975), Sen slope with its ${Math.round((1 - d.request.alpha) * 100)} % interval (Sen 1968), Benjamini–Hochberg false discovery rate across districts (Benjamini & Hochberg 1995). A year counts when it has at least ${d.minDates} clear dates; a trend needs at least ${MIN_TREND_YEARS} years.</dd>
 <dt>Hot spots</dt><dd>Getis–Ord Gi* with binary weights including the district itself (Ord & Getis 1995); Moran's I with row-standardised weights (Moran 1950).</dd>
 </dl>
+<div class="keep"><h3>Cautions</h3>
+<ul class="cautions">
+${cautionItems()}
+</ul></div>
 <h3>This report</h3>
 <table class="data narrow"><tbody>
 <tr><td>Software</td><td>heatledger ${esc(d.version)}</td></tr>
@@ -220,21 +287,25 @@ export function methodsSection(d: ReportData): string {
 </tbody></table>
 <h3>Run settings</h3>
 <table class="data narrow"><tbody>${parameterRows(p)}</tbody></table>
-<h3>Cautions</h3>
-<ul class="cautions">
-${cautionItems()}
-</ul>
 </section>`;
 }
 
+/** The appendix's kind of a scene; a thermal scene also says how its LST was made. */
+function kindCell(s: ReportScene): string {
+  if (s.kind !== 'thermal') return esc(s.kind ?? '–');
+  const m = s.thermal?.lst_method;
+  return `thermal DN<br><span class="how${m === 'emissivity_only' ? ' flag-mark' : ''}"${s.thermal ? ` title="${esc(s.thermal.how)}"` : ''}>${m === 'rte' ? 'atmosphere corrected' : m === 'emissivity_only' ? 'no atmospheric correction' : 'not converted'}</span>`;
+}
+
 export function appendixSection(d: ReportData): string {
+  const thermal = d.scenes.some((s) => s.kind === 'thermal');
   const rows = [...d.scenes]
     .sort((a, b) => String(a.acquired_at ?? '').localeCompare(String(b.acquired_at ?? '')) || a.file.localeCompare(b.file))
-    .map((s) => `<tr><td>${esc(s.file)}</td><td class="time">${esc(s.acquired_at ? `${s.acquired_at.slice(0, 10)} ${s.acquired_at.slice(11, 16)}` : '–')}</td><td>${esc(s.kind ?? '–')}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td>${esc(s.state)}</td><td class="hash">${esc(s.content_hash ?? '–')}</td></tr>`)
+    .map((s) => `<tr${s.thermal?.lst_method === 'emissivity_only' ? ' class="flagged"' : ''}><td>${esc(s.file)}</td><td class="time">${esc(s.acquired_at ? `${s.acquired_at.slice(0, 10)} ${s.acquired_at.slice(11, 16)}` : '–')}</td><td>${kindCell(s)}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td>${esc(s.state)}</td><td class="hash">${esc(s.content_hash ?? '–')}</td></tr>`)
     .join('\n');
   return `<section id="appendix" class="page">
 <h2>Appendix: input scenes</h2>
-<p>Every scene file in the store: acquisition time (UTC), kind, pass, timing rating, whether it was used, and its SHA-256 content hash, which identifies the exact file.</p>
+<p>Every scene file in the store: acquisition time (UTC), kind, pass, timing rating, whether it was used, and its SHA-256 content hash, which identifies the exact file.${thermal ? ' Kind “lst” is a surface-temperature product; “thermal DN” is a raw thermal reading turned into surface temperature here, with or without atmospheric correction (rows without it are shaded; see “How good is the data?”).' : ''}</p>
 <table class="data scenes"><thead><tr><th>File</th><th>Acquired, UTC</th><th>Kind</th><th>Pass</th><th>Timing</th><th>State</th><th>SHA-256</th></tr></thead>
 <tbody>${rows}</tbody></table>
 </section>`;

@@ -6,11 +6,11 @@
 import { readdirSync, readFileSync } from 'node:fs';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
-import { area as turfArea } from '@turf/turf';
+import { booleanPointInPolygon, centroid as turfCentroid, area as turfArea } from '@turf/turf';
 import { describe, expect, it } from 'vitest';
 import {
-  colourClasses, classOf, drawLegend, drawMap, drawRankedBars, drawSeriesChart, formatValue, METRIC_NAMES,
-  toDisplay, trendSentence, unitLabel, type MapFeature,
+  colourClasses, classOf, drawLegend, drawMap, drawRankedBars, drawSeriesChart, formatValue, METRIC_NAMES, seriesValueExtent,
+  toDisplay, trendSentence, unitLabel, type ChartSeries, type MapFeature,
 } from '../../api/web/draw/index.js';
 import { SERIES_METRICS } from '../../workers/store/series.js';
 
@@ -177,6 +177,89 @@ describe('map', () => {
   });
 });
 
+describe('map labels', () => {
+  // an invented U-shaped district: its centroid falls in the notch, outside the shape
+  const U: MapFeature = { id: 'U', name: 'Upper Notch Gardens', role: 'district', value: 0.9, geometry: { type: 'Polygon', coordinates: [[
+    [-35.66, 44.2], [-35.63, 44.2], [-35.63, 44.23], [-35.635, 44.23], [-35.635, 44.205], [-35.655, 44.205], [-35.655, 44.23], [-35.66, 44.23], [-35.66, 44.2],
+  ]] } };
+  const features = [U, ...FEATURES];
+  const districts = features.filter((f) => f.role === 'district');
+  const classes = colourClasses('diverging', districts.map((f) => f.value), 'K');
+  const opts = { width: 1400, classes, formatValue: String, title: 't', spots: { A: 'hot' as const } };
+  const drawn = drawMap(features, { ...opts, labels: true });
+  const labelled = drawn.svg;
+  /** The words of each label, its lines joined by a space, by district id. */
+  const wordsOf = (svg: string) => new Map([...svg.matchAll(/<text class="hl-label[^"]*" data-id="(\w+)"[^>]*>(.*?)<\/text>/g)]
+    .map((m) => [m[1], m[2].replace(/<title>.*?<\/title>/g, '').replace(/<tspan[^>]*>/g, ' ').replace(/<\/tspan>/g, '')]));
+  /** Rings of a district's drawn path (M/L/Z commands), pixels. */
+  const ringsOf = (d: string) => d.split(/Z/i).filter((x) => /\d/.test(x))
+    .map((sub) => { const r = [...sub.matchAll(/(-?[\d.]+),(-?[\d.]+)/g)].map((m) => [Number(m[1]), Number(m[2])]); return [...r, r[0]]; });
+  const labels = elements(labelled, 'text', 'hl-label"');
+
+  it('are off unless asked for', () => {
+    expect(elements(drawMap(features, opts).svg, 'text', 'hl-label"')).toHaveLength(0);
+  });
+
+  it('writes one label per district (none for the rural reference), with its name, escaped', () => {
+    expect(labels.map((l) => l['data-id']).sort()).toEqual(districts.map((f) => f.id).sort());
+    // at this size every name fits inside its district
+    expect(drawn.key).toEqual([]);
+    expect(Object.fromEntries(wordsOf(labelled))).toEqual({
+      U: 'Upper Notch Gardens', A: 'Alder Quarter', B: 'Brook End', D: 'Dockside &#60;&#38;&#62;',
+      C: 'Cinder Lane no data', // the district without a value says so under its name
+    });
+    expect((labelled.match(/>no data<\/tspan>/g) ?? []).length).toBe(1);
+    expect(labelled).not.toMatch(/>no data<\/text>/);
+  });
+
+  it('puts each label inside its own district, also where the centroid is outside (point in polygon by @turf/turf)', () => {
+    const paths = new Map(elements(labelled, 'path', 'hl-district').map((p) => [p['data-id'], p.d]));
+    for (const l of labels) {
+      const at = [Number(l['data-x']), Number(l['data-y'])];
+      const poly = { type: 'Polygon' as const, coordinates: ringsOf(paths.get(l['data-id']) as string) };
+      expect(booleanPointInPolygon(at, poly), l['data-id']).toBe(true);
+      // and not in any other district
+      for (const [id, d] of paths) if (id !== l['data-id']) expect(booleanPointInPolygon(at, { type: 'Polygon', coordinates: ringsOf(d) }), `${l['data-id']} in ${id}`).toBe(false);
+    }
+    // the check can fail: the U's own centroid (turf's mean of vertices, the same in lon/lat) lies outside it
+    const c = turfCentroid({ type: 'Feature', properties: {}, geometry: U.geometry as never });
+    expect(booleanPointInPolygon(c, U.geometry as never)).toBe(false);
+  });
+
+  it('puts the label of a concave district in its widest part, not near an edge', () => {
+    // In the 1400 px drawing (0.22° of longitude) the U's arms are 0.005° wide, ~32 px, and its base
+    // 0.005° of latitude tall, ~44 px: the point farthest from the edges lies mid-base, ~22 px from
+    // the nearest edge, or mid-arm, ~16 px (Garcia-Castellanos & Lombardo 2007, pole of
+    // inaccessibility; planar point-to-segment distance, common practice, no source).
+    const paths = new Map(elements(labelled, 'path', 'hl-district').map((p) => [p['data-id'], p.d]));
+    const u = labels.find((l) => l['data-id'] === 'U') as Record<string, string>;
+    const ring = ringsOf(paths.get('U') as string)[0];
+    const [x, y] = [Number(u['data-x']), Number(u['data-y'])];
+    let nearest = Infinity;
+    for (let i = 0; i + 1 < ring.length; i++) {
+      const [ax, ay] = ring[i]; const [bx, by] = ring[i + 1];
+      const t = Math.max(0, Math.min(1, ((x - ax) * (bx - ax) + (y - ay) * (by - ay)) / ((bx - ax) ** 2 + (by - ay) ** 2 || 1)));
+      nearest = Math.min(nearest, Math.hypot(x - (ax + t * (bx - ax)), y - (ay + t * (by - ay))));
+    }
+    expect(nearest).toBeGreaterThan(12);
+  });
+
+  it('writes a number where a name does not fit, and the key names its district', () => {
+    const small = drawMap(features, { ...opts, width: 300, labels: true });
+    const words = wordsOf(small.svg);
+    expect([...words.keys()].sort()).toEqual(districts.map((f) => f.id).sort());
+    // at 300 px the U's arms are ~7 px wide: its name cannot sit inside it
+    expect(small.key.map((k) => k.id)).toContain('U');
+    expect(small.key.map((k) => k.label)).toEqual(small.key.map((_, i) => String(i + 1)));
+    for (const [id, w] of words) {
+      const f = districts.find((x) => x.id === id) as MapFeature;
+      const k = small.key.find((x) => x.id === id);
+      const text = k ? k.label : f.name.replace(/[&<>]/g, (c) => `&#${c.charCodeAt(0)};`);
+      expect(w, id).toBe(f.value === null ? `${text} no data` : text);
+      if (k) expect(k.name).toBe(f.name);
+    }  });
+});
+
 describe('ranked bars', () => {
   it('orders bars by value with the largest first and puts no data last', () => {
     const classes = colourClasses('diverging', [1.7, -0.4, 3.2]);
@@ -224,6 +307,57 @@ describe('series chart', () => {
     // at the last year the band spans the lower to the upper interval slope
     expect(corners[2][1]).toBeCloseTo(vy(2.5 + 0.13 * 4), 0);
     expect(corners[3][1]).toBeCloseTo(vy(2.5 + 0.04 * 4), 0);
+  });
+});
+
+describe('series charts sharing one vertical scale', () => {
+  const years = [2019, 2020, 2021, 2022, 2023];
+  // two invented districts: one low and flat, one high and rising
+  const low: ChartSeries[] = [{ key: 'night', label: 'Night', colour: '#2166ac', marker: 'circle', trend: null, points: years.map((y, i) => ({ year: y, value: 0.5 + 0.01 * i })) }];
+  const high: ChartSeries[] = [{ key: 'night', label: 'Night', colour: '#2166ac', marker: 'circle', points: years.map((y, i) => ({ year: y, value: 4 + 0.3 * i })),
+    trend: { pivot_year: 2021, pivot_value: 4.6, slope_per_year: 0.3, slope_ci_lower: 0.2, slope_ci_upper: 0.4 } }];
+  const base = { width: 240, height: 170, title: 't', unit: '°C', formatValue: String };
+  /** The value axis: [value, y of its grid line] per tick label (the label sits 4 px below the line). */
+  const axis = (svg: string) => [...svg.matchAll(/<text x="46" y="([\d.-]+)" text-anchor="end"[^>]*>([^<]+)<\/text>/g)]
+    .map((m) => [Number(m[2].replace('\u2212', '-')), Number(m[1]) - 4]);
+  /** The drawn y of a value, from the first and last grid line. */
+  const yOf = (svg: string) => {
+    const t = axis(svg);
+    const [[v0, y0], [v1, y1]] = [t[0], t[t.length - 1]];
+    return (v: number) => y0 + ((v - v0) * (y1 - y0)) / (v1 - v0);
+  };
+
+  it('the extent covers the points and the Sen line with its band at both ends (value = pivot + slope × years; Sen 1968)', () => {
+    expect(seriesValueExtent(low)).toEqual([0.5, 0.54]);
+    const [lo, hi] = seriesValueExtent(high) as [number, number];
+    expect(lo).toBeCloseTo(Math.min(4, 4.6 - 0.4 * 2), 12); // 2019 on the steepest interval line
+    expect(hi).toBeCloseTo(4.6 + 0.4 * 2, 12); // 2023 on the steepest interval line
+    expect(seriesValueExtent([])).toBeNull();
+  });
+
+  it('with a shared range, a value sits at the same height in every chart; without, each chart fills its own height', () => {
+    const e = [seriesValueExtent(low), seriesValueExtent(high)] as [number, number][];
+    const range: [number, number] = [Math.min(e[0][0], e[1][0]), Math.max(e[0][1], e[1][1])];
+    const a = drawSeriesChart(low, { ...base, valueRange: range }).svg;
+    const b = drawSeriesChart(high, { ...base, valueRange: range }).svg;
+    expect(axis(a).length).toBeGreaterThan(2);
+    expect(axis(a)).toEqual(axis(b));
+    // each chart's points sit where that common axis puts their values
+    for (const svg of [a, b]) {
+      for (const c of elements(svg, 'circle', 'hl-point')) expect(Number(c.cy)).toBeCloseTo(yOf(svg)(Number(c['data-value'])), 0);
+    }
+    // without it, each chart spreads its own values over its height: a rise of 1 °C is far taller in the flat one
+    const ownA = yOf(drawSeriesChart(low, base).svg);
+    const ownB = yOf(drawSeriesChart(high, base).svg);
+    expect((ownA(1) - ownA(2)) / (ownB(1) - ownB(2))).toBeGreaterThan(10);
+  });
+
+  it('a shared range narrower than a chart\'s own values widens to them (nothing drawn outside the frame)', () => {
+    const svg = drawSeriesChart(high, { ...base, valueRange: [0, 1] }).svg;
+    for (const c of elements(svg, 'circle', 'hl-point')) {
+      expect(Number(c.cy)).toBeGreaterThanOrEqual(0);
+      expect(Number(c.cy)).toBeLessThanOrEqual(170);
+    }
   });
 });
 

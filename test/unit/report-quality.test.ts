@@ -5,7 +5,7 @@
  */
 import { describe, expect, it } from 'vitest';
 import { seasonMonths } from '../../workers/core/trend/index.js';
-import { qualityFigures } from '../../api/report/quality.js';
+import { constantsSourceWords, emissivitySourceWords, qualityFigures } from '../../api/report/quality.js';
 import type { ReportData, SceneAnswerRow } from '../../api/report/answers.js';
 import { UNITS } from '../../api/answers/index.js';
 
@@ -51,8 +51,8 @@ describe('data quality', () => {
       scene('2025-07-01T11:00:00Z', 'day', 'midday', 'processed', { a: 1, b: 1 }), // after the report year
     ]));
     expect(q.byYear).toEqual([
-      { year: 2023, day: 0, night: 1, notUsed: 0, crossoverDay: 0, crossoverNight: 1 },
-      { year: 2024, day: 2, night: 1, notUsed: 1, crossoverDay: 1, crossoverNight: 0 },
+      { year: 2023, day: 0, night: 1, notUsed: 0, crossoverDay: 0, crossoverNight: 1, thermal: 0, uncorrected: 0 },
+      { year: 2024, day: 2, night: 1, notUsed: 1, crossoverDay: 1, crossoverNight: 0, thermal: 0, uncorrected: 0 },
     ]);
     expect(q.crossoverShare).toBeCloseTo(2 / 4, 12);
     expect(q.crossoverKept).toBe(true);
@@ -84,5 +84,56 @@ describe('data quality', () => {
     const q = qualityFigures(d);
     expect(q.crossoverKept).toBe(false);
     expect(q.crossoverSetting).toBe('excludeCrossover = true');
+  });
+});
+
+describe('thermal passes in the data quality', () => {
+  const thermal = (at: string, method: 'rte' | 'emissivity_only', constants: string, emissivity: string) => ({
+    ...scene(at, 'night', 'predawn', 'processed', { a: 0.9 }), kind: 'thermal' as const,
+    thermal: { lst_method: method, constants_source: constants, emissivity_source: emissivity, how: '' },
+  });
+
+  it('counts them by method and source, and lists those without atmospheric correction of the season', () => {
+    const q = qualityFigures(data('summer', [
+      thermal('2024-07-02T03:00:00Z', 'rte', 'metadata file a_MTL.txt', 'NDVI-threshold method on n.tif of day scene d.tif (2024-07-01T11:00:00Z, 0.7 d away)'),
+      thermal('2024-07-20T03:00:00Z', 'emissivity_only', 'metadata file b_MTL.txt', 'constant 0.97 (default)'),
+      thermal('2023-08-20T03:00:00Z', 'emissivity_only', 'built-in table (LANDSAT_8 band 10)', 'per district: district property emissivity 0.95; constant 0.97 (default)'),
+      thermal('2024-09-20T03:00:00Z', 'emissivity_only', 'manifest', 'constant 0.97 (default)'), // September: not summer
+      scene('2024-07-01T11:00:00Z', 'day', 'midday', 'processed', { a: 1 }),
+    ]));
+    expect(q.thermal).toEqual({
+      passes: 3, withAtmosphere: 1, emissivityOnly: 2,
+      constants: [
+        { source: "the scene's own metadata file", passes: 2 },
+        { source: 'the built-in table of published constants (LANDSAT_8 band 10)', passes: 1 },
+      ],
+      emissivity: [
+        { source: 'a constant emissivity of 0.97', passes: 1 },
+        { source: "each district's own emissivity value, else a constant", passes: 1 },
+        { source: 'the NDVI-threshold method on the vegetation index (NDVI) of a nearby day pass', passes: 1 },
+      ],
+      uncorrected: [
+        { year: 2023, date: '2023-08-20', pass: 'night', file: expect.any(String) },
+        { year: 2024, date: '2024-07-20', pass: 'night', file: expect.any(String) },
+      ],
+      uncorrectedOutside: 1, // the September pass: in the store, outside the summer months
+    });
+    // thermal passes are night passes of their year
+    expect(q.byYear.map((y) => [y.year, y.day, y.night, y.thermal, y.uncorrected])).toEqual([[2023, 0, 1, 1, 1], [2024, 1, 2, 2, 1]]);
+  });
+
+  it('has none when no thermal pass was used', () => {
+    expect(qualityFigures(data('summer', [scene('2024-07-01T11:00:00Z', 'day', 'midday', 'processed', { a: 1 })])).thermal).toBeNull();
+  });
+
+  it('says each kind of source in plain words', () => {
+    expect(constantsSourceWords('manifest')).toBe("the archive's manifest");
+    expect(constantsSourceWords(null)).toBe('not recorded');
+    expect(emissivitySourceWords('emissivity raster e.tif')).toBe('an emissivity raster given for the scene');
+    expect(emissivitySourceWords('constant 0.96 (manifest)')).toBe('a constant emissivity of 0.96 given in the manifest');
+    expect(emissivitySourceWords('district property emissivity 0.95')).toBe("each district's own emissivity value");
+    expect(emissivitySourceWords('NDVI-threshold method on r.tif and n.tif of day scene d.tif (2024-07-01T11:00:00Z, 1 d away)'))
+      .toBe('the NDVI-threshold method on red and near-infrared reflectance of a nearby day pass');
+    expect(emissivitySourceWords('NDVI-threshold method on n.tif')).toBe('the NDVI-threshold method on the vegetation index (NDVI) given for the scene');
   });
 });

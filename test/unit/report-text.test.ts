@@ -5,6 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { difference, figure, fixed, temperature } from '../../api/report/text.js';
 import { baselineMean, cityMean } from '../../api/report/summary.js';
 import { parseBaseline } from '../../workers/commands/report.js';
+import { ruralWords } from '../../api/report/sections.js';
 import { UNITS, type DistrictsAnswer } from '../../api/answers/index.js';
 
 describe('temperatures in the unit asked for', () => {
@@ -64,5 +65,16 @@ describe('--baseline', () => {
 
   it('refuses a reversed, hexadecimal or open range by naming the option', () => {
     for (const bad of ['2021-2019', '0x7e3-2021', '2019-', '19-21', '2019 - 2021x', '1900-1901']) expect(() => parseBaseline(bad)).toThrow(/--baseline/);
+  });
+});
+
+describe('the rural reference in plain words', () => {
+  it('says the default ring in kilometres from the city edge (1 km = 1000 m, SI), and its water cut', () => {
+    expect(ruralWords('ring 2000-10000 m outside the union of the districts, water from sea.geojson excluded'))
+      .toBe("the land between 2 km and 10 km outside the city's outer edge (all districts taken together), with the water of sea.geojson cut out");
+    expect(ruralWords('ring 500-2500 m outside the union of the districts')).toBe("the land between 500 m and 2.5 km outside the city's outer edge (all districts taken together)");
+  });
+  it('keeps any other description as the run recorded it', () => {
+    expect(ruralWords('user polygon(s) from rural.geojson')).toBe('user polygon(s) from rural.geojson');
   });
 });

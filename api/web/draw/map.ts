@@ -2,12 +2,14 @@
  * The district map as an SVG string: one filled path per district coloured by
  * its class, districts without a value hatched and labelled "no data", the
  * rural reference as a dashed outline, optional hot/cold spot outlines and a
- * selected district drawn on top. Projection and path come from d3-geo (a
+ * selected district drawn on top, and on request each district's name written
+ * inside it. Projection and path come from d3-geo (a
  * transverse Mercator centred on the area, conformal and nearly free of
  * distortion at city scale); nothing here touches a DOM.
  */
 import type { Feature, FeatureCollection, Geometry } from 'geojson';
-import { geoArea, geoPath, geoTransverseMercator } from 'd3-geo';
+import { geoArea, geoContains, geoPath, geoTransverseMercator, type GeoProjection } from 'd3-geo';
+import polylabel from 'polylabel';
 import { classOf, type ColourClasses } from './palette.js';
 import { attrs, esc, px } from './svg.js';
 
@@ -45,12 +47,41 @@ export interface MapOptions {
   fit?: 'districts' | 'all';
   /** Space around the fitted area as a fraction of the width (default 0; at least 6 px). */
   margin?: number;
+  /**
+   * Write each district's name inside it (true, or options); off by default. Each label sits at
+   * the point of the district farthest from its edges, in black on a white halo.
+   */
+  labels?: boolean | MapLabelOptions;
+}
+
+export interface MapLabelOptions {
+  /** Text of a district's label; default its name. */
+  text?: (feature: MapFeature) => string;
+  /** Font size in px (default 10). */
+  fontSize?: number;
+}
+
+/** Where a district's label goes: a point inside it (px) and the distance from there to its nearest edge (px). */
+export interface LabelPoint {
+  x: number;
+  y: number;
+  clearance: number;
 }
 
 export interface DrawnMap {
   svg: string;
   width: number;
   height: number;
+  /** With labels: the districts labelled by a number (their name did not fit), for a key beside the map. */
+  key: LabelKeyEntry[];
+}
+
+/** A district labelled on the map by a number instead of its name. */
+export interface LabelKeyEntry {
+  id: string;
+  name: string;
+  /** The number written on the map. */
+  label: string;
 }
 
 /** Stroke used for outlines and the hatch (dark grey, readable on every class colour). */
@@ -82,6 +113,63 @@ function innerRingVertices(g: Geometry): number[][] {
   if (g.type === 'Polygon') return g.coordinates.slice(1).flat();
   if (g.type === 'MultiPolygon') return g.coordinates.flatMap((p) => p.slice(1).flat());
   return [];
+}
+
+/** Polygons of a geometry (a MultiPolygon's parts), lon/lat. */
+function polygonsOf(g: Geometry): number[][][][] {
+  if (g.type === 'Polygon') return [g.coordinates];
+  if (g.type === 'MultiPolygon') return g.coordinates;
+  return [];
+}
+
+/**
+ * The label point of a district in drawing coordinates: the pole of inaccessibility (the
+ * inside point farthest from every edge, found by polylabel's grid search; Garcia-Castellanos
+ * & Lombardo 2007, "Poles of inaccessibility", Scottish Geographical Journal 123:227-233) of
+ * the projected part that leaves the most room. Unlike the centroid, it lies inside concave
+ * and ring-shaped districts. Null when nothing can be projected.
+ */
+export function labelPoint(geometry: Geometry, projection: GeoProjection): LabelPoint | null {
+  let best: LabelPoint | null = null;
+  for (const polygon of polygonsOf(geometry)) {
+    const rings = polygon.map((ring) => ring.map((c) => projection(c as [number, number])).filter((xy): xy is [number, number] => xy !== null));
+    if (rings.length === 0 || rings[0].length < 4) continue;
+    const pole = polylabel(rings, 0.25);
+    if (!Number.isFinite(pole[0]) || !Number.isFinite(pole[1])) continue;
+    if (best === null || pole.distance > best.clearance) best = { x: pole[0], y: pole[1], clearance: pole.distance };
+  }
+  return best;
+}
+
+/** An axis-aligned box in drawing coordinates. */
+interface Box { x0: number; y0: number; x1: number; y1: number }
+
+/** The box a label's lines take around its point (widths estimated from the glyph width). */
+function textBox(at: LabelPoint, lines: readonly string[], size: number, lineHeight: number): Box {
+  const w = Math.max(...lines.map((l) => l.length)) * size * GLYPH_WIDTH;
+  const h = lines.length * lineHeight;
+  return { x0: at.x - w / 2, x1: at.x + w / 2, y0: at.y - h / 2, y1: at.y + h / 2 };
+}
+
+/** Corners, edge midpoints and centre of a box. */
+function boxCorners(b: Box): [number, number][] {
+  const xm = (b.x0 + b.x1) / 2;
+  const ym = (b.y0 + b.y1) / 2;
+  return [[b.x0, b.y0], [xm, b.y0], [b.x1, b.y0], [b.x1, ym], [b.x1, b.y1], [xm, b.y1], [b.x0, b.y1], [b.x0, ym], [xm, ym]];
+}
+
+const overlaps = (a: Box, b: Box) => a.x0 < b.x1 && b.x0 < a.x1 && a.y0 < b.y1 && b.y0 < a.y1;
+
+/** Average glyph width of the sans-serif label font as a share of its size (common practice, no source). */
+const GLYPH_WIDTH = 0.56;
+
+/** A label's possible layouts: one line, then two (split at the space nearest the middle) when it has a space. */
+export function labelLayouts(text: string): string[][] {
+  const spaces = [...text.matchAll(/ /g)].map((m) => m.index as number);
+  if (spaces.length === 0) return [[text]];
+  const mid = text.length / 2;
+  const at = spaces.reduce((x, y) => (Math.abs(y - mid) < Math.abs(x - mid) ? y : x));
+  return [[text], [text.slice(0, at), text.slice(at + 1)]];
 }
 
 export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMap {
@@ -144,9 +232,10 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
   }
   parts.push('</g>');
 
-  // "no data" written on the districts that have no value
-  for (const f of districts.filter((x) => classOf(o.classes, x.value) === null)) {
-    const [cx, cy] = path.centroid(asD3.get(f.id) as Feature<Geometry>);
+  // "no data" written on the districts that have no value (with labels on, under the name instead)
+  for (const f of o.labels ? [] : districts.filter((x) => classOf(o.classes, x.value) === null)) {
+    const at = labelPoint(f.geometry as Geometry, projection);
+    const [cx, cy] = at ? [at.x, at.y] : path.centroid(asD3.get(f.id) as Feature<Geometry>);
     if (!Number.isFinite(cx) || !Number.isFinite(cy)) continue;
     parts.push(`<text${attrs({ class: 'hl-nodata-label', x: px(cx), y: px(cy), 'text-anchor': 'middle', 'dominant-baseline': 'middle', 'font-size': 10, fill: '#1a1a1a', stroke: '#ffffff', 'stroke-width': 3, 'paint-order': 'stroke', 'pointer-events': 'none' })}>no data</text>`);
   }
@@ -163,6 +252,59 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
     parts.push('</g>');
   }
 
+  const key: LabelKeyEntry[] = [];
+  if (o.labels) {
+    const lo: MapLabelOptions = o.labels === true ? {} : o.labels;
+    const size = lo.fontSize ?? 10;
+    const lineHeight = size * 1.1;
+    // the districts with the most room are labelled first; a name that would leave its district
+    // or cover a label already placed becomes a number, explained in the key
+    const placed: Box[] = [];
+    const spots = districts
+      .map((f) => ({ f, at: labelPoint(f.geometry as Geometry, projection) }))
+      .filter((x): x is { f: MapFeature; at: LabelPoint } => x.at !== null)
+      .sort((a, b) => b.at.clearance - a.at.clearance);
+    const labelled: { f: MapFeature; at: LabelPoint; lines: string[]; numbered: boolean }[] = [];
+    for (const { f, at } of spots) {
+      const feature = asD3.get(f.id) as Feature<Geometry>;
+      const fits = (box: Box) => !placed.some((b) => overlaps(b, box)) && boxCorners(box).every((c) => {
+        const ll = projection.invert?.(c);
+        return ll !== null && ll !== undefined && geoContains(feature, ll);
+      });
+      const layouts = labelLayouts(lo.text ? lo.text(f) : f.name).map((lines) => (classOf(o.classes, f.value) === null ? [...lines, 'no data'] : lines));
+      // each layout at the pole first, then slid sideways or up and down by a little (a long
+      // name may fit along an arm of the district whose roomiest point is at a bend)
+      let chosen: { lines: string[]; at: LabelPoint } | null = null;
+      for (const lines of layouts) {
+        const w = textBox(at, lines, size, lineHeight);
+        const dx = (w.x1 - w.x0) / 4;
+        for (const [ox, oy] of [[0, 0], [dx, 0], [-dx, 0], [2 * dx, 0], [-2 * dx, 0], [0, lineHeight], [0, -lineHeight]]) {
+          const moved = { ...at, x: at.x + ox, y: at.y + oy };
+          if (fits(textBox(moved, lines, size, lineHeight))) { chosen = { lines, at: moved }; break; }
+        }
+        if (chosen) break;
+      }
+      if (chosen) placed.push(textBox(chosen.at, chosen.lines, size, lineHeight));
+      labelled.push({ f, at: chosen?.at ?? at, lines: chosen?.lines ?? [], numbered: !chosen });
+    }
+    // numbers in reading order (top to bottom, then left to right), so the key is easy to follow
+    const numbered = labelled.filter((l) => l.numbered).sort((a, b) => a.at.y - b.at.y || a.at.x - b.at.x);
+    numbered.forEach((l, i) => {
+      const n = String(i + 1);
+      l.lines = classOf(o.classes, l.f.value) === null ? [n, 'no data'] : [n];
+      key.push({ id: l.f.id, name: l.f.name, label: n });
+    });
+    parts.push(`<g${attrs({ class: 'hl-labels', 'font-size': size, 'font-weight': 600, 'text-anchor': 'middle', fill: '#111111', stroke: HALO, 'stroke-width': 3, 'stroke-linejoin': 'round', 'paint-order': 'stroke', 'pointer-events': 'none' })}>`);
+    for (const { f, at, lines, numbered: isNumber } of labelled.sort((a, b) => districts.indexOf(a.f) - districts.indexOf(b.f))) {
+      // lines centred on the label point; a baseline sits about 0.35 em below the middle of its line
+      const first = at.y - ((lines.length - 1) * lineHeight) / 2 + size * 0.35;
+      parts.push(`<text${attrs({ class: isNumber ? 'hl-label hl-label-number' : 'hl-label', 'data-id': f.id, 'data-x': px(at.x), 'data-y': px(at.y), x: px(at.x), y: px(first) })}>` +
+        lines.map((line, i) => (i === 0 ? esc(line) : `<tspan${attrs({ x: px(at.x), dy: px(lineHeight) })}>${esc(line)}</tspan>`)).join('') +
+        `<title>${esc(f.name)}</title></text>`);
+    }
+    parts.push('</g>');
+  }
+
   if (o.selectedId) {
     const sel = districts.find((f) => f.id === o.selectedId);
     if (sel) {
@@ -172,5 +314,5 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
     }
   }
   parts.push('</svg>');
-  return { svg: parts.join('\n'), width, height };
+  return { svg: parts.join('\n'), width, height, key };
 }

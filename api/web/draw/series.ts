@@ -44,6 +44,11 @@ export interface SeriesChartOptions {
   /** Unit label of the value axis. */
   unit: string;
   formatValue: (value: number | null) => string;
+  /**
+   * Lowest and highest value the vertical axis must show (unit shown), for small charts that
+   * share one scale: give each the union of their `seriesValueExtent`. Default: this chart's own.
+   */
+  valueRange?: readonly [number, number];
 }
 
 /** Day and night colours: the dark ends of ColorBrewer RdBu (see palette.ts), told apart by marker too. */
@@ -59,13 +64,18 @@ function hasLine(t: SenLine | null): t is SenLine {
   return t !== null && t.pivot_year !== null && t.pivot_value !== null && t.slope_per_year !== null;
 }
 
-export function drawSeriesChart(series: readonly ChartSeries[], o: SeriesChartOptions): { svg: string; width: number; height: number } {
-  const width = Math.max(240, o.width);
-  const height = o.height ?? Math.round(Math.min(320, Math.max(200, width * 0.55)));
-  const m = { top: 28, right: 14, bottom: 34, left: 52 };
+/** First and last year of the charted points (2000–2001 when there are none). */
+function yearSpan(series: readonly ChartSeries[]): [number, number] {
   const years = series.flatMap((s) => s.points.map((p) => p.year));
-  const yearLo = years.length ? Math.min(...years) : 2000;
-  const yearHi = years.length ? Math.max(...years) : 2001;
+  return years.length ? [Math.min(...years), Math.max(...years)] : [2000, 2001];
+}
+
+/**
+ * Lowest and highest value a chart of these series draws: its points, and its Sen lines and
+ * slope bands at the first and last year; null when there is nothing to draw.
+ */
+export function seriesValueExtent(series: readonly ChartSeries[]): [number, number] | null {
+  const [yearLo, yearHi] = yearSpan(series);
   const values: number[] = [];
   for (const s of series) {
     for (const p of s.points) if (p.value !== null && Number.isFinite(p.value)) values.push(p.value);
@@ -78,8 +88,20 @@ export function drawSeriesChart(series: readonly ChartSeries[], o: SeriesChartOp
       }
     }
   }
-  let vLo = values.length ? Math.min(...values) : 0;
-  let vHi = values.length ? Math.max(...values) : 1;
+  return values.length ? [Math.min(...values), Math.max(...values)] : null;
+}
+
+export function drawSeriesChart(series: readonly ChartSeries[], o: SeriesChartOptions): { svg: string; width: number; height: number } {
+  const width = Math.max(240, o.width);
+  const height = o.height ?? Math.round(Math.min(320, Math.max(200, width * 0.55)));
+  const m = { top: 28, right: 14, bottom: 34, left: 52 };
+  const [yearLo, yearHi] = yearSpan(series);
+  const own = seriesValueExtent(series);
+  const given = o.valueRange && Number.isFinite(o.valueRange[0]) && Number.isFinite(o.valueRange[1]) ? o.valueRange : null;
+  // a shared range still widens to this chart's own values, so nothing is drawn outside the frame
+  let vLo = Math.min(given ? given[0] : Infinity, own ? own[0] : Infinity);
+  let vHi = Math.max(given ? given[1] : -Infinity, own ? own[1] : -Infinity);
+  if (!Number.isFinite(vLo) || !Number.isFinite(vHi)) { vLo = 0; vHi = 1; }
   if (vLo === vHi) { vLo -= 0.5; vHi += 0.5; }
   const padV = (vHi - vLo) * 0.06;
   vLo -= padV; vHi += padV;

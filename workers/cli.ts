@@ -9,7 +9,7 @@
 import { Command, CommanderError, Option } from 'commander';
 import { isInputError, isServiceError } from './core/errors.js';
 import {
-  ALBEDO_WINDOW_DAYS, CAUTION_TEXT, EMISSIVITY_WINDOW_DAYS, THERMAL_EMISSIVITY_DEFAULT, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
+  ALBEDO_WINDOW_DAYS, CAUTION_TEXT, EMISSIVITY_WINDOW_DAYS, THERMAL_EMISSIVITY_DEFAULT, MIN_DATES_PER_YEAR, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
   RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES,
 } from './core/defaults.js';
 import { parseYear, quoteGiven } from './core/year.js';
@@ -210,7 +210,7 @@ function addTrendCommand(program: Command): void {
     .option('--alpha <a>', 'significance level of direction and of the slope interval', parseNumber('--alpha'), 0.05)
     .addOption(new Option('--serial-correction <method>', 'hamed-rao: Var(S) corrected for serial correlation (adds z_corrected, p_corrected; they then give q and direction)').choices(['none', 'hamed-rao']).default('none'))
     .addOption(new Option('--ci-ranks <mode>', 'slope interval ranks: rounded to the nearest integer, or interpolated between order statistics').choices(['rounded', 'interpolate']).default('rounded'))
-    .option('--min-dates <n>', 'a year (or month, with --seasonal-kendall) counts only with at least this many dates', parseInteger('--min-dates', 1, 366), 3)
+    .option('--min-dates <n>', 'a year (or month, with --seasonal-kendall) counts only with at least this many dates', parseInteger('--min-dates', 1, 366), MIN_DATES_PER_YEAR)
     .option('--seasonal-kendall', 'Seasonal Kendall test over monthly means (seasons = months), slope = median of within-month slopes')
     .addOption(formatOption('table'))
     .addOption(dataDirOption())
@@ -240,7 +240,7 @@ function addHotspotsCommand(program: Command): void {
     .option('--k <n>', 'neighbours per district for --weights knn', parseInteger('--k', 1, 100), 4)
     .option('--tolerance-metres <m>', 'boundary points closer than this count as shared (queen)', parseNumber('--tolerance-metres'), 1)
     .option('--fdr', 'classify on Benjamini–Hochberg q across districts instead of p')
-    .option('--min-dates <n>', 'a year counts only with at least this many dates', parseInteger('--min-dates', 1, 366), 3)
+    .option('--min-dates <n>', 'a year counts only with at least this many dates', parseInteger('--min-dates', 1, 366), MIN_DATES_PER_YEAR)
     .addOption(formatOption('table'))
     .addOption(dataDirOption())
     .action(async (opts) => {
@@ -292,7 +292,7 @@ function addExportCommand(program: Command): void {
     .option('--metric <metrics...>', `only these metrics (default all): ${metricHelp}; several may be given, space- or comma-separated`)
     .option('--from <year>', 'first year (UTC)', parseYearOption('--from'))
     .option('--to <year>', 'last year (UTC)', parseYearOption('--to'))
-    .option('--min-dates <n>', 'GeoJSON trends: a year counts only with at least this many dates', parseInteger('--min-dates', 1, 366), 3)
+    .option('--min-dates <n>', 'GeoJSON trends: a year counts only with at least this many dates', parseInteger('--min-dates', 1, 366), MIN_DATES_PER_YEAR)
     .requiredOption('--out <path>', 'file to write (its folder must exist); the sidecar goes to PATH.json')
     .addOption(dataDirOption())
     .action(async (opts) => {

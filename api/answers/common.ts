@@ -34,9 +34,6 @@ export function unitOf(metric: SeriesMetric): 'K' | '1/K' {
 export const LIMIT_DEFAULT = 500;
 export const LIMIT_MAX = 5000;
 
-/** A year counts in a trend or a hot-spot map only with at least this many dates (the CLI's default too). */
-export const MIN_DATES_PER_YEAR = 3;
-
 /** Keeps a computed value while the store's last run stays the same (a server passes one; a single call needs none). */
 export type Memo = <T>(key: string, compute: () => Promise<T>) => Promise<T>;
 

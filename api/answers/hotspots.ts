@@ -2,11 +2,12 @@
  * GET /api/hotspots: Getis–Ord Gi* per district and the city's global Moran's I
  * for one season-year (queen contiguity, as the CLI's default).
  */
+import { MIN_DATES_PER_YEAR } from '../../workers/core/defaults.js';
 import { benjaminiHochberg } from '../../workers/core/trend/index.js';
 import { PRECISION, roundNumber } from '../../workers/format.js';
 import { districtHotspots } from '../../workers/store/district-statistics.js';
 import type { Store } from '../../workers/store/index.js';
-import { districtsHemisphere, MIN_DATES_PER_YEAR, noMemo, unitOf, type AnswerContext, type Metric, type Season } from './common.js';
+import { districtsHemisphere, noMemo, unitOf, type AnswerContext, type Metric, type Season } from './common.js';
 import { seasonMeans } from './districts.js';
 
 export interface HotspotsQuery {

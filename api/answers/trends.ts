@@ -4,6 +4,7 @@
  * direction); GET /api/districts/{id}/series: one district's yearly series with
  * its row of the same table.
  */
+import { MIN_DATES_PER_YEAR } from '../../workers/core/defaults.js';
 import type { SerialCorrection } from '../../workers/core/trend/index.js';
 import { PRECISION, roundNumber } from '../../workers/format.js';
 import { districtTrends, roundTrendRow, type DistrictTrendRow } from '../../workers/store/district-statistics.js';
@@ -11,7 +12,7 @@ import { districtSeries, type SeriesRow } from '../../workers/store/series.js';
 import { districtMetricDates } from '../../workers/store/district-means.js';
 import type { Store } from '../../workers/store/index.js';
 import {
-  districtsHemisphere, LIMIT_DEFAULT, MIN_DATES_PER_YEAR, noMemo, pageByKey, seasonSelection, unitOf,
+  districtsHemisphere, LIMIT_DEFAULT, noMemo, pageByKey, seasonSelection, unitOf,
   type AnswerContext, type Memo, type Metric, type Season,
 } from './common.js';
 import { storedDistrictRows, UnknownDistrictError } from './districts.js';

@@ -1,5 +1,5 @@
 /**
- * The defaults the built CLI prints in its --help (ingest, zonal, serve) are
+ * The defaults the built CLI prints in its --help (ingest, zonal, serve, trend, hotspots, export) are
  * the ones in workers/core/defaults.ts, so the help never says one thing while
  * a run does another. The CLI is run as a user runs it (dist/workers/cli.js,
  * built first); its help text is commander's "(default: ...)" form (common
@@ -40,7 +40,7 @@ const helps: Record<string, Map<string, string>> = {};
 
 beforeAll(async () => {
   await ensurePipelineBuild();
-  for (const command of ['ingest', 'zonal', 'serve']) {
+  for (const command of ['ingest', 'zonal', 'serve', 'trend', 'hotspots', 'export']) {
     const r = await runCli([command, '--help'], cleanEnv(), 120_000);
     expect(r.code, r.stderr).toBe(0);
     helps[command] = optionEntries(r.stdout);
@@ -68,5 +68,9 @@ describe('defaults printed by --help', () => {
   it('serve', () => {
     expect(helps.serve.get('--port')).toMatch(new RegExp(`else ${defaults.API_PORT}\\)`));
     expect(printedDefault(helps.serve, '--data-dir')).toBe(`"${defaults.DATA_DIR_NAME}"`);
+  });
+
+  it('trend, hotspots and export: the dates a year needs, the one the API and the report use', () => {
+    for (const command of ['trend', 'hotspots', 'export']) expect(printedDefault(helps[command], '--min-dates'), command).toBe(String(defaults.MIN_DATES_PER_YEAR));
   });
 });

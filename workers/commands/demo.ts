@@ -5,6 +5,7 @@
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
 import { mkdir, rm, writeFile } from 'node:fs/promises';
 import { join, relative, resolve } from 'node:path';
+import { MIN_DATES_PER_YEAR } from '../core/defaults.js';
 import { runtimeConfig } from '../run/config.js';
 import type { Row } from '../format.js';
 import type { Store } from '../store/interface.js';
@@ -138,10 +139,10 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   try {
     byDate = await districtTable(store, 'date');
     byYear = await districtTable(store, 'year');
-    trends = (await districtTrends(store, { metric: 'suhi_night', season: 'summer', alpha: 0.05, serialCorrection: 'none', ciRanks: 'rounded', minDates: 3 })).rows;
+    trends = (await districtTrends(store, { metric: 'suhi_night', season: 'summer', alpha: 0.05, serialCorrection: 'none', ciRanks: 'rounded', minDates: MIN_DATES_PER_YEAR })).rows;
     const lastYear = Math.max(...byYear.map((r) => Number(r.year)));
     if (Number.isFinite(lastYear)) {
-      hotspots = await districtHotspots(store, { metric: 'suhi_night', from: lastYear, to: lastYear, season: 'summer', weights: 'queen', minDates: 3 });
+      hotspots = await districtHotspots(store, { metric: 'suhi_night', from: lastYear, to: lastYear, season: 'summer', weights: 'queen', minDates: MIN_DATES_PER_YEAR });
     }
     const { listDistricts } = await import('../store/districts.js');
     for (const d of await listDistricts(store)) {

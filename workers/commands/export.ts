@@ -6,7 +6,7 @@
  * (their parameters) and the content hashes of the scenes behind them.
  */
 import { basename } from 'node:path';
-import { CAUTION_TEXT } from '../core/defaults.js';
+import { CAUTION_TEXT, MIN_DATES_PER_YEAR } from '../core/defaults.js';
 import { InputError } from '../core/errors.js';
 import { hashFile } from '../core/hash.js';
 import {
@@ -53,10 +53,10 @@ export interface ExportSpec {
  * them are means over all dates), Mann–Kendall at alpha 0.05 with
  * Benjamini–Hochberg q across districts, Sen slope interval with rounded ranks
  * — the defaults of `heatledger trend`; a year counts with at least
- * `--min-dates` dates (default 3, as there).
+ * `--min-dates` dates (default MIN_DATES_PER_YEAR, as there).
  */
 export const EXPORT_TREND_SETTINGS = { season: 'all', alpha: 0.05, serialCorrection: 'none', ciRanks: 'rounded' } as const;
-export const EXPORT_TREND_MIN_DATES = 3;
+export const EXPORT_TREND_MIN_DATES = MIN_DATES_PER_YEAR;
 
 /** The options checked before the store is opened: years, level, metrics and the output folder. */
 export async function exportSpec(opts: ExportCommandOptions): Promise<ExportSpec> {

@@ -52,6 +52,12 @@ export const CAUTION_SHORT_TEXT =
   'LST is surface (skin) temperature, not air temperature; yearly means depend on which days were clear and SUHI on the rural reference chosen; ' +
   'these figures inform, and do not replace, local heat-action plans, codes and licensed professionals.';
 
+/**
+ * A year (or, in a seasonal test, a month) counts in a trend or a hot-spot map only with at
+ * least this many dates: the CLI's `--min-dates` default and what the API and the report use.
+ */
+export const MIN_DATES_PER_YEAR = 3;
+
 /** A thermal (Level-1 DN) night pass takes NDVI (or red and near-infrared reflectance) from the nearest day scene within this many days, either side. */
 export const EMISSIVITY_WINDOW_DAYS = 16;
 

@@ -12,7 +12,7 @@ import { getRun, listScenes, listThermalScenes } from '../../workers/store/index
 import { lstMethodSentence } from '../../workers/core/thermal/describe.js';
 import { relativeInText } from '../relative-paths.js';
 import { storedHemisphere } from '../../workers/store/district-statistics.js';
-import { MIN_DATES_PER_YEAR } from '../answers/index.js';
+import { MIN_DATES_PER_YEAR } from '../../workers/core/defaults.js';
 import type {
   DistrictsAnswer, HealthAnswer, HotspotsAnswer, Metric, RankingsAnswer, ReportData, ReportRequest, SceneAnswerRow, SeriesAnswer, ThermalFacts, TrendsAnswer,
 } from './answers.js';

@@ -68,6 +68,11 @@ export function roundMeans(m: Pick<DistrictSeasonMeans, 'lst_day_k' | 'lst_night
   };
 }
 
+/** A district's area to 0.1 m² (PRECISION.area, as the GeoJSON export rounds it). */
+function roundArea(areaSquareMetres: number): number {
+  return roundNumber(Number(areaSquareMetres), PRECISION.area) as number;
+}
+
 /** Stored districts (rural reference included), in byte order of id; kept while the last run stays. */
 export function storedDistrictRows(store: Store, memo: Memo): Promise<DistrictRow[]> {
   return memo('district-rows', () => listDistricts(store));
@@ -99,7 +104,7 @@ export async function answerDistricts(store: Store, q: DistrictsQuery, ctx: Answ
     return {
       type: 'Feature', id: d.id, geometry: d.geometry,
       properties: {
-        id: d.id, name: d.name, role: d.role, area_m2: Number(d.areaSquareMetres), ...values,
+        id: d.id, name: d.name, role: d.role, area_m2: roundArea(d.areaSquareMetres), ...values,
         dates_day: m?.dates_day ?? 0, dates_night: m?.dates_night ?? 0, value: values[property],
       },
     };
@@ -132,7 +137,7 @@ export async function answerDistrict(store: Store, id: string, ctx: AnswerContex
   if (!d) throw new UnknownDistrictError(id);
   const means = await seasonMeans(store, 'all', memo);
   const years = means.years.filter((y) => means.byYear.get(y)?.has(id));
-  return { id: d.id, name: d.name, role: d.role, area_m2: Number(d.areaSquareMetres), geometry: d.geometry, properties: d.properties ?? {}, years };
+  return { id: d.id, name: d.name, role: d.role, area_m2: roundArea(d.areaSquareMetres), geometry: d.geometry, properties: d.properties ?? {}, years };
 }
 
 /** A district id the store does not hold (a 404, not a 400: the path names a missing resource). */

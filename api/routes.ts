@@ -9,7 +9,7 @@ import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import type {} from '@fastify/swagger';
 import type {} from './cache.js';
 import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
-import { failures, sceneStatusCounts, type Store } from '../workers/store/index.js';
+import { failures, sceneStatusCounts, thermalPasses, type Store } from '../workers/store/index.js';
 import type { RankOrder } from '../workers/core/ranking.js';
 import type { SerialCorrection } from '../workers/core/trend/index.js';
 import type { Metric, Season } from './answers/common.js';
@@ -163,7 +163,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     schema: {
       summary: 'Scenes in acquisition order: time (UTC), pass, timing rating, sensor, state, failure reason, valid fraction per district',
       querystring: querySchema({
-        state: { type: 'string', enum: ['registered', 'processed', 'failed'] }, kind: { type: 'string', enum: ['lst', 'albedo', 'qa'] },
+        state: { type: 'string', enum: ['registered', 'processed', 'failed'] }, kind: { type: 'string', enum: ['lst', 'albedo', 'qa', 'thermal'] },
         pass: { type: 'string', enum: ['day', 'night'] }, from: Q.day('first'), to: Q.day('last'), limit: Q.limit, cursor: Q.cursor,
       }),
       response: { 200: SCENES_BODY, ...ERRORS },
@@ -202,7 +202,10 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
 
   app.get('/api/status', {
     config: cached,
-    schema: { summary: 'Scene counts by state and the stored failures (paths relative to the data root)', querystring: querySchema({}), response: { 200: STATUS_BODY, ...ERRORS } },
+    schema: {
+      summary: 'Scene counts by state, the stored failures and how each thermal pass\'s LST was made (paths relative to the data root)',
+      querystring: querySchema({}), response: { 200: STATUS_BODY, ...ERRORS },
+    },
   }, async (req) => {
     const root = options.dataRoot !== undefined ? path.resolve(options.dataRoot) : await sceneRoot(store, undefined, req.memo);
     const fails = (await failures(store)).map((f) => {
@@ -210,6 +213,12 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
       // the scene's own path first (it may hold blanks), then any other absolute path in the message
       return { ...f, path: rel, error: relativeInText(problemText(f.error).split(f.path).join(rel), root) };
     });
-    return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails });
+    // what `heatledger status` lists for thermal passes, from the same store function
+    const rel = (t: string | null) => (t === null ? null : relativeInText(t, root));
+    const thermal = (await thermalPasses(store)).map((t) => ({
+      ...t, path: relativeToRoot(t.path, root), thermalConstantsSource: rel(t.thermalConstantsSource), emissivitySource: rel(t.emissivitySource),
+      howLstWasMade: relativeInText(t.howLstWasMade, root),
+    }));
+    return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails, thermalScenes: thermal });
   });
 }

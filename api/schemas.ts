@@ -111,9 +111,20 @@ export const HOTSPOTS_BODY = obj({
   })),
 });
 
+/** How a thermal (Level-1 DN) pass's LST was made; null for other kinds of scene. */
+const THERMAL_FIELDS = {
+  lst_method: { type: ['string', 'null'], enum: ['rte', 'emissivity_only', null], description: 'thermal passes: rte = radiative transfer equation inverted with the scene\'s atmosphere; emissivity_only = emissivity correction alone' },
+  atmospheric_correction: { type: ['boolean', 'null'], description: 'thermal passes: whether the LST was corrected for the atmosphere' },
+  thermal_constants_source: { ...str, description: 'thermal passes: where the rescaling and thermal constants came from' },
+  emissivity_source: { ...str, description: 'thermal passes: where the surface emissivity came from' },
+  how_lst_was_made: { ...str, description: 'thermal passes: one sentence on how the LST was made' },
+  atmospheric_correction_note: { ...str, description: 'a thermal pass without atmospheric correction: the typical size of the error this leaves' },
+} as const;
+
 export const SCENE_BODY = obj({
   id: { type: 'integer' }, file: { type: 'string', description: 'relative to the data root' }, acquired_at: str, pass: str, kind: str, sensor: str, timing_rating: str,
   state: { type: 'string', enum: ['registered', 'processed', 'failed'] }, reason: str, warnings: arr({ type: 'string' }),
+  ...THERMAL_FIELDS,
   districts: arr(obj({ district: { type: 'string' }, valid_fraction: num, missing_reason: str })),
 });
 
@@ -132,6 +143,10 @@ export const TABLE_BODY = obj({ level: { type: 'string', enum: ['date', 'year'] 
 export const STATUS_BODY = obj({
   scenes: { type: 'object', additionalProperties: { type: 'integer' } },
   failures: arr({ type: 'object', additionalProperties: true }),
+  thermal_scenes: arr(obj({
+    scene_id: { type: 'integer' }, path: { type: 'string', description: 'relative to the data root' }, acquired_at: str, pass: str,
+    status: { type: 'string' }, ...THERMAL_FIELDS, how_lst_was_made: { type: 'string', description: 'one sentence on how the LST was made' },
+  })),
 });
 
 export const JOB_BODY = obj({

@@ -1,11 +1,14 @@
 /**
  * GET /api/scenes and /api/scenes/{id}: each scene with its acquisition time
  * (UTC), pass, timing rating, sensor, state, the stored reason of a failure,
- * and per district the valid fraction and why a value is missing. Paths are
- * relative to the data root (./../relative-paths.ts), never the server's own.
+ * per district the valid fraction and why a value is missing, and for a
+ * thermal (Level-1 DN) pass how its LST was made (the one description of
+ * workers/core/thermal/describe.ts). Paths are relative to the data root
+ * (./../relative-paths.ts), never the server's own.
  */
 import path from 'node:path';
 import { InputError } from '../../workers/core/errors.js';
+import { describeLstMethod } from '../../workers/core/thermal/describe.js';
 import { PRECISION, problemText, roundNumber } from '../../workers/format.js';
 import type { SceneKind, ScenePass, SceneStatus, Store } from '../../workers/store/index.js';
 import { sceneListing, type SceneListingRow } from '../../workers/store/scene-listing.js';
@@ -37,7 +40,33 @@ export interface SceneAnswerRow {
   /** The stored reason of a failure, or null. */
   reason: string | null;
   warnings: string[];
+  /** Thermal passes: 'rte' (radiative transfer equation inverted) or 'emissivity_only'; null for other kinds or before ingest decided. */
+  lst_method: 'rte' | 'emissivity_only' | null;
+  /** Thermal passes: whether the LST was corrected for the atmosphere; null for other kinds. */
+  atmospheric_correction: boolean | null;
+  thermal_constants_source: string | null;
+  emissivity_source: string | null;
+  /** Thermal passes: one sentence on how the LST was made; null for other kinds. */
+  how_lst_was_made: string | null;
+  /** A thermal pass without atmospheric correction: the typical size of the error it leaves; else null. */
+  atmospheric_correction_note: string | null;
   districts: { district: string; valid_fraction: number | null; missing_reason: string | null }[];
+}
+
+/** The thermal fields of a scene row: paths in them relative to the root, as the scene's own file. */
+function thermalFields(r: SceneListingRow, root: string | null): Pick<SceneAnswerRow, 'lst_method' | 'atmospheric_correction' | 'thermal_constants_source' | 'emissivity_source' | 'how_lst_was_made' | 'atmospheric_correction_note'> {
+  if (r.kind !== 'thermal') {
+    return { lst_method: null, atmospheric_correction: null, thermal_constants_source: null, emissivity_source: null, how_lst_was_made: null, atmospheric_correction_note: null };
+  }
+  const d = describeLstMethod({
+    lstMethod: r.lst_method, atmosphericCorrection: r.atmospheric_correction, atmosphere: r.atmosphere,
+    thermalConstantsSource: r.thermal_constants_source, emissivitySource: r.emissivity_source,
+  });
+  const rel = (t: string | null) => (t === null ? null : relativeInText(t, root));
+  return {
+    lst_method: d.lstMethod, atmospheric_correction: d.atmosphericCorrection, thermal_constants_source: rel(d.thermalConstantsSource),
+    emissivity_source: rel(d.emissivitySource), how_lst_was_made: rel(d.howLstWasMade), atmospheric_correction_note: d.atmosphericCorrectionNote,
+  };
 }
 
 export interface ScenesAnswer {
@@ -63,6 +92,7 @@ function sceneRow(r: SceneListingRow, root: string | null): SceneAnswerRow {
     // the scene's own path first (it may hold blanks), then any other absolute path in the message
     reason: r.error === null ? null : relativeInText(problemText(r.error).split(r.path).join(file), root),
     warnings: r.warnings.map((w) => relativeInText(w.split(r.path).join(file), root)),
+    ...thermalFields(r, root),
     districts: r.districts.map((d) => ({ district: d.district_id, valid_fraction: roundNumber(d.valid_fraction, PRECISION.fraction), missing_reason: d.missing_reason })),
   };
 }

@@ -8,8 +8,7 @@
 import { isInputError } from '../../workers/core/errors.js';
 import { seasonMonths } from '../../workers/core/trend/index.js';
 import type { Store } from '../../workers/store/index.js';
-import { getRun, listScenes, listThermalScenes } from '../../workers/store/index.js';
-import { lstMethodSentence } from '../../workers/core/thermal/describe.js';
+import { getRun, listScenes, thermalPasses } from '../../workers/store/index.js';
 import { relativeInText } from '../relative-paths.js';
 import { storedHemisphere } from '../../workers/store/district-statistics.js';
 import { MIN_DATES_PER_YEAR } from '../../workers/core/defaults.js';
@@ -67,9 +66,9 @@ export async function gatherReportData(store: Store, request: ReportRequest, ans
   const hashes = new Map((await listScenes(store)).map((s) => [String(s.id), s.contentHash]));
   // how each thermal scene's LST was made (stored with it; file names only, as the API shows files)
   const files = (text: string | null) => (text === null ? null : relativeInText(text, null));
-  const thermal = new Map<string, ThermalFacts>((await listThermalScenes(store)).map((t) => [String(t.sceneId), {
+  const thermal = new Map<string, ThermalFacts>((await thermalPasses(store)).map((t) => [String(t.sceneId), {
     lst_method: t.lstMethod, constants_source: files(t.thermalConstantsSource), emissivity_source: files(t.emissivitySource),
-    how: relativeInText(lstMethodSentence(t), null),
+    how: relativeInText(t.howLstWasMade, null),
   }]));
   const scenes = (await answers.scenes()).map((s) => ({ ...s, content_hash: hashes.get(String(s.id)) ?? null, thermal: thermal.get(String(s.id)) ?? null }));
   const runRow = health.last_run ? await getRun(store, health.last_run.id) : null;

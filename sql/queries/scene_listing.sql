@@ -1,7 +1,8 @@
 -- scene_listing: scenes in acquisition order (scenes without a time last), then id,
--- one page after a cursor, with the filters of the scenes route.
+-- one page after a cursor, with the filters of the scenes route; a thermal scene's columns on how
+-- its LST was made (migration 005) come along, NULL for other kinds.
 --   $1  status ('registered' | 'processed' | 'failed') or NULL
---   $2  kind ('lst' | 'albedo' | 'qa') or NULL
+--   $2  kind ('lst' | 'albedo' | 'qa' | 'thermal') or NULL
 --   $3  pass ('day' | 'night') or NULL
 --   $4  acquired at or after (timestamptz, UTC) or NULL
 --   $5  acquired before (timestamptz, UTC) or NULL
@@ -10,7 +11,8 @@
 --   $7  cursor: id of the last row of the previous page (with $6)
 --   $8  rows to return (the caller asks for one more than it shows, to know whether a page follows)
 --   $9  one scene id, or NULL for every scene
-SELECT s.id, s.path, s.kind, s.sensor, s.acquired_at, s.pass, s.timing_rating, s.status, s.error, s.warnings
+SELECT s.id, s.path, s.kind, s.sensor, s.acquired_at, s.pass, s.timing_rating, s.status, s.error, s.warnings,
+       s.lst_method, s.atmospheric_correction, s.atmosphere, s.thermal_constants_source, s.emissivity_source
 FROM scenes s
 WHERE ($1::text IS NULL OR s.status = $1::text)
   AND ($2::text IS NULL OR s.kind = $2::text)

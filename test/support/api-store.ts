@@ -12,7 +12,10 @@
 import path from 'node:path';
 import { mulberry32 } from '../../workers/core/prng.js';
 import type { Store } from '../../workers/store/store.js';
-import { markSceneFailed, registerScene, replaceDerived, replaceZonalStats, setSceneWarnings, upsertDistricts } from '../../workers/store/index.js';
+import {
+  markSceneFailed, registerScene, replaceDerived, replaceZonalStats, setEmissivitySources, setSceneThermal, setSceneWarnings, upsertDistricts,
+  type ThermalSceneInput,
+} from '../../workers/store/index.js';
 
 export const FIRST_YEAR = 2015;
 export const LAST_YEAR = 2023;
@@ -121,4 +124,44 @@ function zonal(districtId: string, mean: number, validFraction: number) {
     districtId, pixels: 100, valid: 100 * validFraction, validFraction, meanKelvin: mean, stdKelvin: 1, minKelvin: mean - 1, maxKelvin: mean + 1,
     medianKelvin: mean, p10Kelvin: mean - 1, p90Kelvin: mean + 1, nodataCount: 100 - 100 * validFraction, maskedCount: 0, implausibleCount: 0, coverageRule: 'centre',
   };
+}
+
+/** One thermal pass written by {@link addThermalPasses}: what ingest would have decided for it. */
+export interface SeededThermalPass {
+  id: number;
+  path: string;
+  acquiredAt: string;
+  thermal: ThermalSceneInput;
+  emissivitySource: string;
+}
+
+/**
+ * Two night passes delivered as Level-1 thermal DN (kind 'thermal'), stored through the
+ * functions ingest uses: one corrected for the atmosphere (the radiative transfer equation
+ * with invented transmittance and path radiances), one with the emissivity correction alone.
+ * Their metadata file lies under `archiveDir`, so the API must show it relative to the root.
+ * No derived rows: the district means stay those of {@link seedApiStore}.
+ */
+export async function addThermalPasses(store: Store, archiveDir: string, year = LAST_YEAR): Promise<SeededThermalPass[]> {
+  const base = { kind: 'thermal' as const, epsg: 32625, crsDefinition: null, width: 10, height: 10, pixelSizeMetres: 100, scale: 1, offset: 0, nodata: 0, sensor: 'invented-tir' };
+  const plans = [
+    {
+      md: '09-10', at: `${year}-09-10T22:50:00.000Z`, emissivitySource: 'constant 0.97 (default)',
+      thermal: { lstMethod: 'rte', atmosphere: { transmittance: 0.88, upwellingRadiance: 0.61, downwellingRadiance: 1.02 }, constantsSource: 'manifest' },
+    },
+    {
+      md: '09-26', at: `${year}-09-26T22:55:00.000Z`, emissivitySource: 'district property emissivity',
+      thermal: { lstMethod: 'emissivity_only', atmosphere: null, constantsSource: `metadata file ${path.join(archiveDir, String(year), 'thermal-09-26_MTL.txt')}` },
+    },
+  ] as const;
+  const out: SeededThermalPass[] = [];
+  for (const [k, p] of plans.entries()) {
+    const file = path.join(archiveDir, String(year), `thermal-${p.md}_B10.tif`);
+    const id = await registerScene(store, { ...base, path: file, contentHash: `${'e'.repeat(62)}${String(k).padStart(2, '0')}`, acquiredAt: p.at, pass: 'night' });
+    await setSceneThermal(store, id, p.thermal);
+    await replaceZonalStats(store, id, GRID_IDS.map((d, i) => zonal(d, 288 + i * 0.2, 0.8 + i * 0.02)));
+    await setEmissivitySources(store, id, p.emissivitySource, Object.fromEntries(GRID_IDS.map((d) => [d, p.emissivitySource])));
+    out.push({ id, path: file, acquiredAt: p.at, thermal: p.thermal, emissivitySource: p.emissivitySource });
+  }
+  return out;
 }

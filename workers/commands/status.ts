@@ -11,8 +11,7 @@ export const STATUS_CSV_FIELDS = ['kind', 'pass', 'status', 'scenes'] as const;
  * in the other two formats).
  */
 export async function runStatusCommand(opts: { dataDir?: string; format: OutputFormat }): Promise<void> {
-  const { sceneStatusCounts, failures, listThermalScenes } = await import('../store/index.js');
-  const { lstMethodSentence } = await import('../core/thermal/describe.js');
+  const { sceneStatusCounts, failures, thermalPasses } = await import('../store/index.js');
   await withStore(opts, async (store, config) => {
     const counts = await sceneStatusCounts(store);
     const fails = (await failures(store)).map((f) => ({ ...f, error: problemText(f.error) }));
@@ -23,11 +22,7 @@ export async function runStatusCommand(opts: { dataDir?: string; format: OutputF
       `SELECT id, status, started_at, finished_at, mode, software_version, scenes_left, error FROM runs ORDER BY id DESC LIMIT 1`,
     );
     // how each thermal (Level-1 DN) pass had its LST made, the missing atmospheric correction said plainly
-    const thermal = (await listThermalScenes(store)).map((t) => ({
-      path: t.path, acquiredAt: t.acquiredAt, pass: t.pass, status: t.status, lstMethod: t.lstMethod,
-      atmosphericCorrection: t.atmosphericCorrection, thermalConstantsSource: t.thermalConstantsSource,
-      emissivitySource: t.emissivitySource, howLstWasMade: lstMethodSentence(t),
-    }));
+    const thermal = await thermalPasses(store);
     const lastRun = runs[0] ? { ...runs[0], error: runs[0].error === null ? null : problemText(runs[0].error) } : null;
     if (opts.format === 'json') {
       const body = {

@@ -1,12 +1,14 @@
 /**
  * Scenes as the API lists them (sql/queries/scene_listing.sql, scene_districts.sql):
  * a page in acquisition order after a cursor, with each district's valid
- * fraction and the stored reason of a missing value.
+ * fraction and the stored reason of a missing value, and for a thermal scene
+ * the stored facts of how its LST was made.
  */
 import type { UtcIso } from '../core/units.js';
 import { namedQuery } from './queries.js';
 import type { Db } from './db.js';
 import type { SceneKind, ScenePass, SceneStatus, TimingRating } from './scenes.js';
+import type { StoredAtmosphere } from './thermal-scenes.js';
 
 export interface SceneListingFilter {
   status?: SceneStatus;
@@ -41,6 +43,12 @@ export interface SceneListingRow {
   status: SceneStatus;
   error: string | null;
   warnings: string[];
+  /** How a thermal scene's LST was made (migration 005); null for other kinds. */
+  lst_method: 'rte' | 'emissivity_only' | null;
+  atmospheric_correction: boolean | null;
+  atmosphere: StoredAtmosphere | null;
+  thermal_constants_source: string | null;
+  emissivity_source: string | null;
   districts: SceneDistrictRow[];
 }
 

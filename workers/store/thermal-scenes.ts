@@ -2,6 +2,7 @@
  * How the LST of thermal scenes was made (migration 005): the scenes table's
  * thermal columns and zonal_stats.emissivity_source.
  */
+import { describeLstMethod, type LstMethodDescription } from '../core/thermal/describe.js';
 import type { UtcIso } from '../core/units.js';
 import { type Db, inTransaction } from './db.js';
 
@@ -74,6 +75,16 @@ export function listThermalScenes(db: Db): Promise<ThermalSceneRow[]> {
             emissivity_source AS "emissivitySource"
      FROM scenes WHERE kind = 'thermal' ORDER BY acquired_at NULLS LAST, id`,
   );
+}
+
+/** A thermal scene with how its LST was made, described (core/thermal/describe.ts). */
+export type ThermalPassRow = Pick<ThermalSceneRow, 'sceneId' | 'path' | 'acquiredAt' | 'pass' | 'status'> & LstMethodDescription;
+
+/** Every thermal scene, in acquisition order, with how its LST was made: what `status` and /api/status list. */
+export async function thermalPasses(db: Db): Promise<ThermalPassRow[]> {
+  return (await listThermalScenes(db)).map((t) => ({
+    sceneId: t.sceneId, path: t.path, acquiredAt: t.acquiredAt, pass: t.pass, status: t.status, ...describeLstMethod(t),
+  }));
 }
 
 /** Emissivity source per district of one scene. */

@@ -34,3 +34,31 @@ export function lstMethodSentence(f: LstMethodFacts): string {
   }
   return parts.join('; ');
 }
+
+/** What a thermal scene whose method was never stored (refused or not yet ingested) says instead of the sentence. */
+export const LST_NOT_MADE_TEXT = 'LST not made from this thermal scene: no method was stored (see its state and reason)';
+
+/** How a thermal scene's LST was made, as every listing shows it (status, the API's scenes and status). */
+export interface LstMethodDescription {
+  lstMethod: 'rte' | 'emissivity_only' | null;
+  atmosphericCorrection: boolean | null;
+  thermalConstantsSource: string | null;
+  emissivitySource: string | null;
+  /** {@link lstMethodSentence}, or {@link LST_NOT_MADE_TEXT} when no method was stored. */
+  howLstWasMade: string;
+  /** NO_ATMOSPHERIC_CORRECTION_TEXT for a pass made without atmospheric correction, else null. */
+  atmosphericCorrectionNote: string | null;
+}
+
+/** The stored facts of a thermal scene, described once for every listing. */
+export function describeLstMethod(f: LstMethodFacts & { atmosphericCorrection: boolean | null }): LstMethodDescription {
+  return {
+    lstMethod: f.lstMethod,
+    atmosphericCorrection: f.atmosphericCorrection,
+    thermalConstantsSource: f.thermalConstantsSource,
+    emissivitySource: f.emissivitySource,
+    howLstWasMade: f.lstMethod !== null ? lstMethodSentence(f) : LST_NOT_MADE_TEXT,
+    // the sentence says the correction is missing exactly then
+    atmosphericCorrectionNote: f.lstMethod === 'emissivity_only' || (f.lstMethod === 'rte' && !f.atmosphere) ? NO_ATMOSPHERIC_CORRECTION_TEXT : null,
+  };
+}

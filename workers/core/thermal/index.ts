@@ -64,4 +64,4 @@ export {
 } from './lst-raster.js';
 export { chooseSceneEmissivity, type NdviSource, type OwnEmissivityInputs, type SceneEmissivityInput } from './emissivity-choice.js';
 export { writeThermalLst } from './write-lst.js';
-export { lstMethodSentence, type LstMethodFacts } from './describe.js';
+export { describeLstMethod, LST_NOT_MADE_TEXT, lstMethodSentence, type LstMethodDescription, type LstMethodFacts } from './describe.js';

@@ -2,7 +2,9 @@
  * The same answers from the embedded engine (PGlite) and the PostgreSQL
  * server: both stores seeded with the same invented grid (test/support/api-store.ts),
  * every read route asked the same questions, the bodies compared whole (the
- * store kind of /api/health aside). Injection strings on the server leave its
+ * store kind of /api/health aside). Two night passes delivered as thermal DN are
+ * among the scenes, so the thermal fields of the scene listing and of /api/status
+ * are compared too. Injection strings on the server leave its
  * tables as they were, as on the embedded engine (api-security.test.ts).
  */
 import { mkdtempSync, rmSync } from 'node:fs';
@@ -14,7 +16,7 @@ import { buildApp } from '../../api/app.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { createTempDatabase, type TempDatabase } from '../support/pipeline-harness.js';
 import { serviceAvailable } from '../support/services.js';
-import { seedApiStore } from '../support/api-store.js';
+import { addThermalPasses, seedApiStore } from '../support/api-store.js';
 
 const serverUp = await serviceAvailable('postgres', 'api-stores');
 
@@ -26,7 +28,7 @@ const URLS = [
   '/api/trends', '/api/trends?metric=lst_day&season=summer&serial_correction=hamed-rao', '/api/trends?metric=ati&alpha=0.01&limit=4',
   '/api/rankings?year=2021&metric=suhi_day', '/api/rankings?metric=ati&order=asc&season=summer',
   '/api/hotspots', '/api/hotspots?year=2018&metric=lst_day&fdr=true',
-  '/api/scenes?limit=10', '/api/scenes?pass=day&from=2019-01-01&to=2019-12-31', '/api/scenes?state=failed',
+  '/api/scenes?limit=10', '/api/scenes?pass=day&from=2019-01-01&to=2019-12-31', '/api/scenes?state=failed', '/api/scenes?kind=thermal',
   '/api/table?level=year', '/api/table?level=date&year=2016&format=csv',
   '/api/status',
 ];
@@ -37,16 +39,19 @@ let server: Store | null = null;
 let db: TempDatabase | null = null;
 let liteApp: FastifyInstance;
 let serverApp: FastifyInstance | null = null;
+let thermalIds: number[] = [];
 
 beforeAll(async () => {
   tmp = mkdtempSync(path.join(tmpdir(), 'heatledger-api-stores-'));
   lite = await openStore({ memory: true });
   await seedApiStore(lite, path.join(tmp, 'archive'));
+  thermalIds = (await addThermalPasses(lite, path.join(tmp, 'archive'))).map((t) => t.id);
   liteApp = buildApp(lite, { logLevel: 'silent', readsPerMinute: 1e6 });
   if (serverUp) {
     db = await createTempDatabase('apistores');
     server = await openStore({ databaseUrl: db.url });
     await seedApiStore(server, path.join(tmp, 'archive'));
+    await addThermalPasses(server, path.join(tmp, 'archive'));
     serverApp = buildApp(server, { logLevel: 'silent', readsPerMinute: 1e6 });
   }
 }, 600_000);
@@ -61,7 +66,9 @@ afterAll(async () => {
 
 describe.skipIf(!serverUp)('PGlite and the PostgreSQL server', () => {
   it('give the same body for every route', async () => {
-    for (const url of URLS) {
+    // the same seeding gives the same ids on both stores
+    expect(thermalIds).toHaveLength(2);
+    for (const url of [...URLS, ...thermalIds.map((id) => `/api/scenes/${id}`)]) {
       const a = await liteApp.inject({ method: 'GET', url });
       const b = await serverApp!.inject({ method: 'GET', url });
       expect(a.statusCode, url).toBe(200);

@@ -26,18 +26,12 @@ import { openStore, type Store } from '../../workers/store/store.js';
 import { finishRun, registerScene, replaceDerived, startRun } from '../../workers/store/index.js';
 import { sceneProgress } from '../../workers/store/scene-listing.js';
 import { FIRST_YEAR, GRID_IDS, LAST_YEAR, seedApiStore, type ApiStore } from '../support/api-store.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const PYTHON = '/usr/bin/python3';
-const HAVE_SCIPY = spawnSync(PYTHON, ['-c', 'import scipy.stats, numpy'], { stdio: 'ignore' }).status === 0;
-const HAVE_GDAL = HAVE_SCIPY && spawnSync(PYTHON, ['-c', 'from osgeo import ogr; import shapely'], { stdio: 'ignore' }).status === 0;
-if (HAVE_SCIPY && !HAVE_GDAL) {
-  if (process.env.HEATLEDGER_REQUIRE_SERVICES === '1') throw new Error('api-routes: /usr/bin/python3 with GDAL (python3-gdal) and shapely is required');
-  console.log('SKIPPED api-routes GeoJSON read-back: /usr/bin/python3 with GDAL (python3-gdal) and shapely is missing');
-}
-if (!HAVE_SCIPY) {
-  if (process.env.HEATLEDGER_REQUIRE_SERVICES === '1') throw new Error('api-routes: /usr/bin/python3 with numpy and scipy (python3-scipy) is required');
-  console.log('SKIPPED api-routes reference checks: /usr/bin/python3 with numpy and scipy (python3-scipy) is missing');
-}
+// one mechanism for reference tools (test/support/services.ts): skipped with a SKIPPED line, or a failure under HEATLEDGER_REQUIRE_SERVICES=1
+const HAVE_SCIPY = await pythonModulesAvailable(['scipy.stats', 'numpy'], 'api-routes reference checks');
+const HAVE_GDAL = HAVE_SCIPY && await pythonModulesAvailable(['osgeo.ogr', 'shapely'], 'api-routes GeoJSON read-back');
 
 const REFERENCE = String.raw`
 import json, sys

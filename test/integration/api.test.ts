@@ -10,6 +10,10 @@ import { buildApp, CAUTION, logLevelFromEnv } from '../../api/app.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { FORMULA_NAME, seedHeatStore, type SeededStore } from '../support/heat-store.js';
 import { ensurePageBuild } from '../support/page-build.js';
+import { pythonModulesAvailable } from '../support/services.js';
+
+/** Python's csv and os.path are the outside references of the CSV and path checks (test/support/services.ts decides). */
+const hasPython = await pythonModulesAvailable(['csv', 'json', 'os.path'], 'api CSV and path checks');
 
 const ROOT = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
 let store: Store;
@@ -90,7 +94,7 @@ describe('HTTP API', () => {
     expect(lines[0]).toBe('district,name,year,dates,lst_day_k,lst_night_k,suhi_day_k,suhi_night_k,ati_per_k,day_scenes,night_scenes');
     expect(lines[1]).toMatch(/^core,Core,2024,1,315,293,10,4,/);
   });
-  it('escapes a formula-like district name in CSV but keeps a negative SUHI a number', async () => {
+  it.runIf(hasPython)('escapes a formula-like district name in CSV but keeps a negative SUHI a number', async () => {
     const r = await app.inject({ method: 'GET', url: '/api/table?level=date&format=csv' });
     expect(r.statusCode).toBe(200);
     // OWASP "CSV Injection": a cell starting with = + - @ tab or CR gets a leading single quote and is quoted;
@@ -163,7 +167,7 @@ describe('HTTP API', () => {
 describe('paths in /api/status', () => {
   const scenePaths = () => [path.join(archive, '2024', 'day-0714.tif'), path.join(archive, '2024', 'night-0715.tif'), path.join(archive, '2023', 'broken.tif')];
 
-  it('are relative to the common folder of the stored scenes by default, messages included', async () => {
+  it.runIf(hasPython)('are relative to the common folder of the stored scenes by default, messages included', async () => {
     const r = await app.inject({ method: 'GET', url: '/api/status' });
     expect(r.statusCode).toBe(200);
     const body = r.json();
@@ -179,7 +183,7 @@ describe('paths in /api/status', () => {
       expect(s).not.toMatch(/(^|[\s"'(])\//);
     }
   });
-  it('are relative to the configured data root when one is set', async () => {
+  it.runIf(hasPython)('are relative to the configured data root when one is set', async () => {
     const rooted = buildApp(store, { logLevel: 'silent', dataRoot: tmp });
     try {
       const body = (await rooted.inject({ method: 'GET', url: '/api/status' })).json();

@@ -83,6 +83,14 @@ export interface SceneRow {
   state: string;
   reason: string | null;
   warnings: string[];
+  /** Thermal passes: how the LST was made (null for other kinds). */
+  lst_method: 'rte' | 'emissivity_only' | null;
+  atmospheric_correction: boolean | null;
+  thermal_constants_source: string | null;
+  emissivity_source: string | null;
+  how_lst_was_made: string | null;
+  /** A thermal pass without atmospheric correction: the typical size of the error; else null. */
+  atmospheric_correction_note: string | null;
   districts: { district: string; valid_fraction: number | null; missing_reason: string | null }[];
 }
 

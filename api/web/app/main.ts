@@ -9,8 +9,9 @@ import {
   toDisplay, trendSentence, unitLabel, type ChartSeries, type MapFeature, type MetricName, type SpotKind, type TemperatureUnit,
 } from '../draw/index.js';
 import { esc, formatNumber } from '../draw/svg.js';
-import { api, ApiProblem, urls, type DistrictsAnswer, type HotspotsAnswer, type SceneRow, type SeriesAnswer, type TrendFields } from './api.js';
+import { api, ApiProblem, urls, type DistrictsAnswer, type HotspotsAnswer, type SeriesAnswer, type TrendFields } from './api.js';
 import { parseState, stateToSearch, type SortKey, type ViewState } from './state.js';
+import { yearScenesHtml } from './scenes.js';
 import { tableHtml, type TableRow } from './table.js';
 
 const $ = <T extends HTMLElement>(id: string) => document.getElementById(id) as T;
@@ -274,20 +275,7 @@ async function toggleScenes(button: HTMLButtonElement): Promise<void> {
   try {
     const id = state.district;
     const answer = await api.scenes({ from: `${year}-01-01`, to: `${year}-12-31` });
-    const scenes = answer.rows
-      .filter((s) => s.pass === 'day' || s.pass === 'night') // temperature scenes; albedo scenes have no pass
-      .map((s) => ({ s, d: s.districts.find((x) => x.district === id) }))
-      .filter((x): x is { s: SceneRow; d: SceneRow['districts'][number] } => x.d !== undefined)
-      .sort((a, b) => String(a.s.acquired_at).localeCompare(String(b.s.acquired_at)));
-    const day = scenes.filter((x) => x.s.pass === 'day').length;
-    const night = scenes.filter((x) => x.s.pass === 'night').length;
-    const pct = (v: number | null) => (v === null ? '–' : `${Math.round(v * 100)} %`);
-    cell.innerHTML = scenes.length === 0
-      ? '<span class="muted">No scene of this year covers the district.</span>'
-      : `<p class="small">${scenes.length} scene${scenes.length === 1 ? '' : 's'} of ${year} over this district (${day} by day, ${night} at night), all seasons:</p>
-<table class="scenes"><thead><tr><th scope="col">Taken (UTC)</th><th scope="col">Pass</th><th scope="col">Timing</th><th scope="col" class="num">Clear part of district</th><th scope="col">State</th></tr></thead><tbody>
-${scenes.map(({ s, d }) => `<tr><td>${esc((s.acquired_at ?? '').replace('T', ' ').slice(0, 16))}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td class="num">${pct(d.valid_fraction)}${d.missing_reason ? ` <span class="muted">(${esc(d.missing_reason)})</span>` : ''}</td><td>${esc(s.state)}</td></tr>`).join('')}
-</tbody></table>`;
+    cell.innerHTML = yearScenesHtml(answer.rows, id, year);
   } catch (e) {
     cell.innerHTML = `<span class="problem">${esc(e instanceof ApiProblem ? e.message : String(e))}</span>`;
   }

@@ -3,7 +3,10 @@
  * playwright-core), against `heatledger serve` on a store made from a small
  * generated archive of the invented city: 8 summers, four day/night pairs each
  * (a trend year needs 3 clear dates),
- * Merrowin Vale (D16) warming by 0.6 K a year and no other district warming.
+ * Merrowin Vale (D16) warming by 0.6 K a year and no other district warming. The
+ * night passes arrive as Level-1 thermal DN with a metadata file (the generator gives
+ * every night but the last of a summer its atmosphere in the manifest), so the list
+ * of a year's scenes shows passes corrected for the atmosphere and passes not.
  *
  * Every expected value is read from the API of the same server (the page must
  * show what the API answers), never from the page's own code: legend classes
@@ -173,9 +176,10 @@ beforeAll(async () => {
   await ensurePipelineBuild();
   await ensurePageBuild();
   tmp = mkdtempSync(path.join(tmpdir(), 'heatledger-page-'));
-  const archive = await makeArchive(path.join(tmp, 'archive'), { years: 8, pairsPerYear: 4, pixelSizeMetres: 500, trendsKelvinPerYear: { [WARMING]: 0.6 } });
+  const archive = await makeArchive(path.join(tmp, 'archive'), { years: 8, pairsPerYear: 4, pixelSizeMetres: 500, trendsKelvinPerYear: { [WARMING]: 0.6 }, nightAsThermal: true });
   const dataDir = path.join(tmp, 'store');
-  await cliOk(['ingest', path.join(tmp, 'archive'), '--districts', archive.districtsPath, '--data-dir', dataDir, '--no-progress', '--threads', '1'], cleanEnv(), 300_000);
+  await cliOk(['ingest', path.join(tmp, 'archive'), '--districts', archive.districtsPath, '--manifest', archive.manifestPath as string,
+    '--data-dir', dataDir, '--no-progress', '--threads', '1'], cleanEnv(), 300_000);
   // port 0: a free port from the system; serve prints the one it got
   server = await startCliUntil(['serve', '--port', '0', '--data-dir', dataDir], cleanEnv({ LOG_LEVEL: 'warn' }), /heatledger API on http:\/\/[^\s/]+:\d+\//);
   const port = /heatledger API on http:\/\/[^\s/]+:(\d+)\//.exec(server.stderr())![1];
@@ -360,6 +364,38 @@ describe.skipIf(!hasChromium)('the web page', () => {
     expect(mapTop).toBeLessThan(tableTop);
     await phone.screenshot({ path: path.join(ARTEFACTS, 'page-phone.png'), fullPage: true });
     await phone.context().close();
+  });
+
+  it('lists the scenes behind a year, saying for each night pass from thermal DN whether the atmosphere was corrected, as the API says', async () => {
+    const district = new URL(page.url()).searchParams.get('district')!;
+    await page.click(`#panel-body button.scenes[data-year="${latest}"]`);
+    const list = page.locator(`tr.scenes-row[data-year="${latest}"] table.scenes`);
+    await list.waitFor();
+    const shown = await list.locator('tbody tr').evaluateAll((rows) => rows.map((r) => Array.from(r.querySelectorAll('td')).map((c) => ({
+      text: (c.textContent ?? '').trim(), marked: c.querySelector('.uncorrected') !== null, title: c.querySelector('[title]')?.getAttribute('title') ?? null,
+    }))));
+    type Row = { acquired_at: string; pass: string | null; kind: string; atmospheric_correction: boolean | null; how_lst_was_made: string | null; atmospheric_correction_note: string | null; districts: { district: string }[] };
+    const api = (await apiJson<{ rows: Row[] }>(`/api/scenes?from=${latest}-01-01&to=${latest}-12-31&limit=5000`)).rows
+      .filter((r) => r.pass !== null && r.districts.some((d) => d.district === district));
+    expect(shown.map((c) => c[0].text)).toEqual(api.map((r) => r.acquired_at.replace('T', ' ').slice(0, 16)));
+    const nights = api.filter((r) => r.kind === 'thermal');
+    // the generated archive gives both kinds of night pass in a summer
+    expect(nights.map((r) => r.atmospheric_correction)).toContain(true);
+    expect(nights.map((r) => r.atmospheric_correction)).toContain(false);
+    for (const [i, r] of api.entries()) {
+      const made = shown[i][4];
+      if (r.kind !== 'thermal') {
+        expect(made.text).toBe('supplied as surface temperature');
+        continue;
+      }
+      expect(made.title).toBe(r.how_lst_was_made);
+      expect(made.marked).toBe(r.atmospheric_correction === false);
+      expect(made.text).toMatch(r.atmospheric_correction ? /^raw thermal readings, corrected for the atmosphere$/ : /^raw thermal readings, not corrected for the atmosphere/);
+    }
+    const note = await page.locator(`tr.scenes-row[data-year="${latest}"] .uncorrected-note`).innerText();
+    const said = nights.find((r) => r.atmospheric_correction === false)!.atmospheric_correction_note!;
+    expect(note).toContain(said.slice(1));
+    await page.locator(`tr.scenes-row[data-year="${latest}"]`).screenshot({ path: path.join(ARTEFACTS, 'page-scenes.png') });
   });
 
   it('asked for nothing outside the server and broke no content policy', () => {

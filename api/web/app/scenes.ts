@@ -46,14 +46,14 @@ export function yearScenesHtml(rows: readonly SceneRow[], district: string, year
       ? `<span class="uncorrected"${title}>${esc(how.words)} ${UNCORRECTED_MARK}</span>`
       : `<span${title}>${esc(how.words)}</span>`;
     return `<tr><td>${esc((s.acquired_at ?? '').replace('T', ' ').slice(0, 16))}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td>`
-      + `<td class="num">${pct(d.valid_fraction)}${d.missing_reason ? ` <span class="muted">(${esc(d.missing_reason)})</span>` : ''}</td>`
+      + `<td class="num">${pct(d.valid_fraction)}${d.missing_reason ? ` <span class="muted reason">(${esc(d.missing_reason)})</span>` : ''}</td>`
       + `<td>${made}</td><td>${esc(s.state)}</td></tr>`;
   }).join('\n');
   // one footnote for every pass without atmospheric correction: the API's sentence on the size of the error
   const n = uncorrected.length;
   const note = n === 0 ? '' : `<p class="small uncorrected-note">${UNCORRECTED_MARK} ${esc(sentence(uncorrected[0].s.atmospheric_correction_note ?? 'no atmospheric correction: its temperatures are likely too low.'))} This applies to ${n === 1 ? 'one pass' : `${n} passes`} above.</p>`;
   return `<p class="small">${scenes.length} scene${scenes.length === 1 ? '' : 's'} of ${year} over this district (${day} by day, ${night} at night), all seasons:</p>
-<table class="scenes"><thead><tr><th scope="col">Taken (UTC)</th><th scope="col">Pass</th><th scope="col">Timing</th><th scope="col" class="num">Clear part of district</th><th scope="col">Temperature from</th><th scope="col">State</th></tr></thead><tbody>
+<div class="table-wrap"><table class="scenes"><thead><tr><th scope="col">Taken (UTC)</th><th scope="col">Pass</th><th scope="col">Timing</th><th scope="col" class="num">Clear part of district</th><th scope="col">Temperature from</th><th scope="col">State</th></tr></thead><tbody>
 ${body}
-</tbody></table>${note}`;
+</tbody></table></div>${note}`;
 }

@@ -22,6 +22,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { FastifyInstance } from 'fastify';
 import { buildApp } from '../../api/app.js';
 import { MIN_DATES_PER_YEAR, NO_ATMOSPHERIC_CORRECTION_TEXT } from '../../workers/core/defaults.js';
+import { roundingOf } from '../../workers/core/export/tidy.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { addThermalPasses, LAST_YEAR, seedApiStore, type ApiStore, type SeededThermalPass } from '../support/api-store.js';
 import { cleanEnv, cliOk, ensurePipelineBuild, killAllChildren } from '../support/pipeline-harness.js';
@@ -78,6 +79,8 @@ describe('district areas', () => {
     expect((await get<{ area_m2: number }>('/api/districts/b2')).area_m2).toBe(AREA_TO_TENTH_M2);
     const csv = await app.inject({ method: 'GET', url: '/api/districts?format=csv' });
     expect(csv.body.split('\n').find((l) => l.startsWith('b2,'))!.split(',')[3]).toBe(String(AREA_TO_TENTH_M2));
+    // the GeoJSON export rounds the same column by the same stated precision
+    expect(roundingOf('area_m2')).toBe('area');
   });
 });
 

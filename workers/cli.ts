@@ -72,7 +72,7 @@ const dataDirOption = () =>
   new Option('--data-dir <dir>', 'embedded database folder (ignored when DATABASE_URL is set)').env(ENV.dataDir).default(DEFAULT_DATA_DIR);
 
 const seasonOption = () =>
-  new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
+  new Option('--season <season>', 'months used: summer = Jun-Aug north of the equator, Dec-Feb south of it (from the districts\' centroid latitude); a Dec-Feb season counts in the year of its January; without --season or --months, all months').choices(['summer', 'winter', 'spring', 'autumn', 'all']);
 
 const hemisphereOption = (forSeriesFiles = false) =>
   new Option('--hemisphere <h>', `hemisphere for --season (default: from the stored districts${forSeriesFiles ? '; north for --series' : ''})`).choices(['north', 'south']);
@@ -230,7 +230,7 @@ function addHotspotsCommand(program: Command): void {
         'with its expectation, variance, z and two-sided p under normality and under randomisation. Values in K (1/K for ati).\n' + CAUTION,
     )
     .requiredOption('--metric <metric>', metricHelp)
-    .option('--year <year>', 'the year', parseYearOption('--year'))
+    .option('--year <year>', 'the year (give --year, or --from and --to)', parseYearOption('--year'))
     .option('--from <year>', 'first year of a range', parseYearOption('--from'))
     .option('--to <year>', 'last year of a range', parseYearOption('--to'))
     .addOption(seasonOption())
@@ -310,7 +310,7 @@ function addWorkerCommand(program: Command): void {
         `Log: one JSON line per event on standard output at $${ENV.logLevel} (fatal, error, warn, info — the default —, debug, trace, silent): ` +
         'ready and stopped, each job done with its milliseconds (info), a failed try (warn), a file refused as bad input or a lost connection (error), jobs taken (debug).',
     )
-    .option('--concurrency <n>', 'jobs at once per queue', parseInteger('--concurrency', 1, 1024), Number(process.env[ENV.concurrency] ?? 1))
+    .option('--concurrency <n>', `jobs at once per queue; $${ENV.concurrency} sets the default`, parseInteger('--concurrency', 1, 1024), Number(process.env[ENV.concurrency] ?? 1))
     .addOption(new Option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value')
       .env(ENV.stalledInterval).argParser(parseNumber('--stalled-interval')).default(STALLED_INTERVAL_MS / 1000))
     .action(async (opts) => {
@@ -323,9 +323,13 @@ function addWorkerCommand(program: Command): void {
 function addDemoCommand(program: Command): void {
   program
     .command('demo')
-    .description('Generate an invented city and its multi-year scene archive (first run only), run the whole pipeline and print the hottest districts.')
-    .option('--archive <dir>', 'where the demo archive is (generated when missing)')
-    .option('--threads <n>', 'worker threads', parseInteger('--threads', 1, 1024))
+    .description(
+      'Generate an invented city and its multi-year scene archive (first run only), run the whole pipeline (night passes as Level-1 thermal DN), ' +
+        'print the hottest districts, the significant night-SUHI trends and the last summer\'s hot spots, and write the exports ' +
+        '(CSV, Parquet, GeoJSON with their .json sidecars) and the yearly report (HTML, and PDF when Chromium is installed) into ./heatledger-output.',
+    )
+    .option('--archive <dir>', 'where the demo archive is (generated when missing; default: demo-data/.generated under the working folder)')
+    .option('--threads <n>', 'worker threads (default: CPU cores)', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
     .action(async (opts) => {
       const { runDemoCommand } = await import('./commands/demo.js');

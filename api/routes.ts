@@ -21,7 +21,7 @@ import { answerScene, answerScenes, sceneRoot } from './answers/scenes.js';
 import { answerTable, TABLE_FIELDS } from './answers/table.js';
 import { answerSeries, answerTrends } from './answers/trends.js';
 import { alphaParam, dayParam, idParam, limitParam, yearParam, yearRange } from './params.js';
-import { relativeInText, relativeToRoot } from './relative-paths.js';
+import { relativeInText, relativeToRoot } from '../workers/core/relative-paths.js';
 import {
   DISTRICT_BODY, DISTRICTS_BODY, ERROR_BODY, HEALTH_BODY, HOTSPOTS_BODY, Q, querySchema, RANKINGS_BODY, SCENE_BODY, SCENES_BODY,
   SERIES_BODY, STATUS_BODY, TABLE_BODY, TRENDS_BODY,

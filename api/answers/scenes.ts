@@ -2,14 +2,14 @@
  * GET /api/scenes and /api/scenes/{id}: each scene with its acquisition time
  * (UTC), pass, timing rating, sensor, state, the stored reason of a failure,
  * and per district the valid fraction and why a value is missing. Paths are
- * relative to the data root (./../relative-paths.ts), never the server's own.
+ * relative to the data root (workers/core/relative-paths.ts), never the server's own.
  */
 import path from 'node:path';
 import { InputError } from '../../workers/core/errors.js';
 import { PRECISION, problemText, roundNumber } from '../../workers/format.js';
 import type { SceneKind, ScenePass, SceneStatus, Store } from '../../workers/store/index.js';
 import { sceneListing, type SceneListingRow } from '../../workers/store/scene-listing.js';
-import { commonDirectory, relativeInText, relativeToRoot } from '../relative-paths.js';
+import { commonDirectory, relativeInText, relativeToRoot } from '../../workers/core/relative-paths.js';
 import { decodeCursor, encodeCursor, LIMIT_DEFAULT, noMemo, type AnswerContext, type Memo } from './common.js';
 
 export interface ScenesQuery {

@@ -1,6 +1,7 @@
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
-import { commonDirectory, relativeInText, relativeToRoot } from '../../api/relative-paths.js';
+import { commonDirectory, fileForReader, handedOnParameters, relativeInText, relativeToRoot } from '../../workers/core/relative-paths.js';
+import { readRuralDescription, writeRuralDescription } from '../../workers/core/districts/rural-description.js';
 import { failureLine, PRECISION, problemText, roundNumber, snakeCase, snakeCaseKeys, toCsv } from '../../workers/format.js';
 import { failedJobLine, summaryJson } from '../../workers/commands/ingest.js';
 import type { PipelineSummary } from '../../workers/run/pipeline.js';
@@ -136,5 +137,33 @@ describe('paths relative to a data root', () => {
     expect(relativeInText('/srv/archive/2023/a.tif: QA raster /srv/archive/2023/qa.tif (ENOENT) and /etc/x', '/srv/archive'))
       .toBe('2023/a.tif: QA raster 2023/qa.tif (ENOENT) and x');
     expect(relativeInText('ATI in 1/K, day/night', '/srv')).toBe('ATI in 1/K, day/night');
+  });
+  it('name a file by os.path.basename when no root applies, a relative path included (its starting folder is unknown)', () => {
+    for (const p of ['/srv/heat data/water polygons.geojson', 'inputs/../sea/water.geojson', 'water.geojson', '/srv/a/b/']) {
+      expect(fileForReader(p, null), p).toBe(python('print(json.dumps(os.path.basename(os.path.normpath(sys.argv[1]))))', p));
+    }
+    expect(fileForReader('/srv/archive/aux/water.geojson', '/srv/archive')).toBe('aux/water.geojson');
+  });
+  it('hand on a run\'s parameters with no folder of the server in them, the rest as stored (project rule, no source)', () => {
+    const folder = '/srv/heat data/run 7';
+    const stored = {
+      coverageRule: 'centre',
+      ruralReference: { districtId: 'rural', description: writeRuralDescription({ kind: 'ring', innerMetres: 2000, outerMetres: 10000, waterPath: `${folder}/sea and river.geojson` }) },
+      plausibleRangeKelvin: [170, 360],
+      qaMaskBits: null,
+      districtIds: ['D01', '/D02'],
+      note: 'manifest /srv/archive/manifest.csv read',
+    };
+    const out = handedOnParameters(stored, null);
+    expect(JSON.stringify(out)).not.toContain('/srv');
+    expect(out).toEqual({
+      ...stored,
+      ruralReference: { districtId: 'rural', description: 'ring 2000-10000 m outside the union of the districts, water from sea and river.geojson excluded' },
+      note: 'manifest manifest.csv read',
+    });
+    // user polygons: the whole path, blanks included, becomes the file name
+    const polygons = handedOnParameters({ ruralReference: { districtId: 'rural', description: writeRuralDescription({ kind: 'polygons', path: `${folder}/rural area.geojson` }) } }, '/srv/heat data');
+    expect(polygons.ruralReference).toEqual({ districtId: 'rural', description: 'user polygon(s) from run 7/rural area.geojson' });
+    expect(readRuralDescription('ring 2000-10000 m outside the union of the districts')).toEqual({ kind: 'ring', innerMetres: 2000, outerMetres: 10000, waterPath: null });
   });
 });

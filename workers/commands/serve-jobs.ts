@@ -14,7 +14,7 @@ import { randomUUID } from 'node:crypto';
 import { statSync } from 'node:fs';
 import path from 'node:path';
 import type { IngestJobs, JobAnswer } from '../../api/ingest-routes.js';
-import { relativeInText } from '../../api/relative-paths.js';
+import { relativeInText } from '../core/relative-paths.js';
 import { problemText } from '../format.js';
 import type { Store } from '../store/index.js';
 import { sceneProgress } from '../store/scene-listing.js';

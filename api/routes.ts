@@ -8,7 +8,7 @@ import path from 'node:path';
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import type {} from '@fastify/swagger';
 import type {} from './cache.js';
-import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
+import { snakeCaseKeys, toCsv } from '../workers/format.js';
 import { failures, sceneStatusCounts, type Store } from '../workers/store/index.js';
 import type { RankOrder } from '../workers/core/ranking.js';
 import type { SerialCorrection } from '../workers/core/trend/index.js';
@@ -208,7 +208,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     const fails = (await failures(store)).map((f) => {
       const rel = relativeToRoot(f.path, root);
       // the scene's own path first (it may hold blanks), then any other absolute path in the message
-      return { ...f, path: rel, error: relativeInText(problemText(f.error).split(f.path).join(rel), root) };
+      return { ...f, path: rel, error: relativeInText(f.error.split(f.path).join(rel), root) };
     });
     return snakeCaseKeys({ scenes: await sceneStatusCounts(store), failures: fails });
   });

@@ -6,7 +6,7 @@
  */
 import path from 'node:path';
 import { InputError } from '../../workers/core/errors.js';
-import { PRECISION, problemText, roundNumber } from '../../workers/format.js';
+import { PRECISION, roundNumber } from '../../workers/format.js';
 import type { SceneKind, ScenePass, SceneStatus, Store } from '../../workers/store/index.js';
 import { sceneListing, type SceneListingRow } from '../../workers/store/scene-listing.js';
 import { commonDirectory, relativeInText, relativeToRoot } from '../../workers/core/relative-paths.js';
@@ -61,7 +61,7 @@ function sceneRow(r: SceneListingRow, root: string | null): SceneAnswerRow {
   return {
     id: r.id, file, acquired_at: r.acquired_at, pass: r.pass, kind: r.kind, sensor: r.sensor, timing_rating: r.timing_rating, state: r.status,
     // the scene's own path first (it may hold blanks), then any other absolute path in the message
-    reason: r.error === null ? null : relativeInText(problemText(r.error).split(r.path).join(file), root),
+    reason: r.error === null ? null : relativeInText(r.error.split(r.path).join(file), root),
     warnings: r.warnings.map((w) => relativeInText(w.split(r.path).join(file), root)),
     districts: r.districts.map((d) => ({ district: d.district_id, valid_fraction: roundNumber(d.valid_fraction, PRECISION.fraction), missing_reason: d.missing_reason })),
   };

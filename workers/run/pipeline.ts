@@ -293,6 +293,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     finishing = onServer(() => finishRun(store, runId, {
       status: outcome.status,
       error: outcome.error,
+      errorKind: outcome.errorKind,
       scenesLeft: outcome.status === 'succeeded' ? 0 : outcome.scenesLeft,
     }));
     await finishing;

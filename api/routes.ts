@@ -8,7 +8,7 @@ import path from 'node:path';
 import type { FastifyInstance, FastifyReply, FastifyRequest } from 'fastify';
 import type {} from '@fastify/swagger';
 import type {} from './cache.js';
-import { problemText, snakeCaseKeys, toCsv } from '../workers/format.js';
+import { snakeCaseKeys, toCsv } from '../workers/format.js';
 import { failures, sceneStatusCounts, thermalPasses, type Store } from '../workers/store/index.js';
 import type { RankOrder } from '../workers/core/ranking.js';
 import type { SerialCorrection } from '../workers/core/trend/index.js';
@@ -21,7 +21,7 @@ import { answerScene, answerScenes, sceneRoot } from './answers/scenes.js';
 import { answerTable, TABLE_FIELDS } from './answers/table.js';
 import { answerSeries, answerTrends } from './answers/trends.js';
 import { alphaParam, dayParam, idParam, limitParam, yearParam, yearRange } from './params.js';
-import { relativeInText, relativeToRoot } from './relative-paths.js';
+import { relativeInText, relativeToRoot } from '../workers/core/relative-paths.js';
 import {
   DISTRICT_BODY, DISTRICTS_BODY, ERROR_BODY, HEALTH_BODY, HOTSPOTS_BODY, Q, querySchema, RANKINGS_BODY, SCENE_BODY, SCENES_BODY,
   SERIES_BODY, STATUS_BODY, TABLE_BODY, TRENDS_BODY,
@@ -211,7 +211,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     const fails = (await failures(store)).map((f) => {
       const rel = relativeToRoot(f.path, root);
       // the scene's own path first (it may hold blanks), then any other absolute path in the message
-      return { ...f, path: rel, error: relativeInText(problemText(f.error).split(f.path).join(rel), root) };
+      return { ...f, path: rel, error: relativeInText(f.error.split(f.path).join(rel), root) };
     });
     // what `heatledger status` lists for thermal passes, from the same store function
     const rel = (t: string | null) => (t === null ? null : relativeInText(t, root));

@@ -140,19 +140,10 @@ export function formatRows(rows: readonly Row[], format: OutputFormat, options: 
 }
 
 /**
- * A recorded problem without the internal class name the runners keep in front
- * of it (`InputError: x.tif: not a TIFF file` → `x.tif: not a TIFF file`).
- */
-export function problemText(error: string): string {
-  return error.replace(/^(?:[A-Z][A-Za-z]*)?Error: /, '');
-}
-
-/**
  * One line for a failed file: "path: problem". A stored problem that already
- * starts with the path (an InputError names its file) is not given it twice;
- * an internal class name in front of the problem is dropped.
+ * starts with the path (an InputError names its file) is not given it twice.
+ * The problem is printed as stored: its kind is kept apart (migration 007).
  */
 export function failureLine(path: string, problem: string): string {
-  const text = problemText(problem);
-  return text.startsWith(`${path}: `) ? text : `${path}: ${text}`;
+  return problem.startsWith(`${path}: `) ? problem : `${path}: ${problem}`;
 }

@@ -4,15 +4,15 @@
  * per district the valid fraction and why a value is missing, and for a
  * thermal (Level-1 DN) pass how its LST was made (the one description of
  * workers/core/thermal/describe.ts). Paths are relative to the data root
- * (./../relative-paths.ts), never the server's own.
+ * (workers/core/relative-paths.ts), never the server's own.
  */
 import path from 'node:path';
 import { InputError } from '../../workers/core/errors.js';
 import { describeLstMethod } from '../../workers/core/thermal/describe.js';
-import { PRECISION, problemText, roundNumber } from '../../workers/format.js';
+import { PRECISION, roundNumber } from '../../workers/format.js';
 import type { SceneKind, ScenePass, SceneStatus, Store } from '../../workers/store/index.js';
 import { sceneListing, type SceneListingRow } from '../../workers/store/scene-listing.js';
-import { commonDirectory, relativeInText, relativeToRoot } from '../relative-paths.js';
+import { commonDirectory, relativeInText, relativeToRoot } from '../../workers/core/relative-paths.js';
 import { decodeCursor, encodeCursor, LIMIT_DEFAULT, noMemo, type AnswerContext, type Memo } from './common.js';
 
 export interface ScenesQuery {
@@ -90,7 +90,7 @@ function sceneRow(r: SceneListingRow, root: string | null): SceneAnswerRow {
   return {
     id: r.id, file, acquired_at: r.acquired_at, pass: r.pass, kind: r.kind, sensor: r.sensor, timing_rating: r.timing_rating, state: r.status,
     // the scene's own path first (it may hold blanks), then any other absolute path in the message
-    reason: r.error === null ? null : relativeInText(problemText(r.error).split(r.path).join(file), root),
+    reason: r.error === null ? null : relativeInText(r.error.split(r.path).join(file), root),
     warnings: r.warnings.map((w) => relativeInText(w.split(r.path).join(file), root)),
     ...thermalFields(r, root),
     districts: r.districts.map((d) => ({ district: d.district_id, valid_fraction: roundNumber(d.valid_fraction, PRECISION.fraction), missing_reason: d.missing_reason })),

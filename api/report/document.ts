@@ -24,6 +24,10 @@ h2 { font-size: 14pt; margin: 1.2rem 0 .5rem; color: #7a3517; border-bottom: 1px
 h3 { font-size: 11pt; margin: 1rem 0 .35rem; }
 h2, h3 { break-after: avoid; }
 .keep { break-inside: avoid; }
+.settings { display: grid; grid-template-columns: 5fr 7fr; gap: 0 1.2rem; break-inside: avoid; }
+.settings > div:first-child td:first-child { white-space: nowrap; }
+.settings > div + div td:first-child { width: 38%; }
+.settings h3 { margin-top: .7rem; }
 .meta, .note, figcaption { color: #555; font-size: 9pt; }
 p { margin: .45rem 0; }
 data { font-weight: 600; white-space: nowrap; }

@@ -9,7 +9,7 @@ import { isInputError } from '../../workers/core/errors.js';
 import { seasonMonths } from '../../workers/core/trend/index.js';
 import type { Store } from '../../workers/store/index.js';
 import { getRun, listScenes, thermalPasses } from '../../workers/store/index.js';
-import { relativeInText } from '../relative-paths.js';
+import { handedOnParameters, relativeInText } from '../../workers/core/relative-paths.js';
 import { storedHemisphere } from '../../workers/store/district-statistics.js';
 import { MIN_DATES_PER_YEAR } from '../../workers/core/defaults.js';
 import type {
@@ -75,7 +75,7 @@ export async function gatherReportData(store: Store, request: ReportRequest, ans
   return {
     request, version, madeAt, health, districts, previous: previous && hasValues(previous) ? previous : null, baselineYears,
     rankingNight, rankingDay, trendsNight, trendsDay, series, hotspots, hotspotsMissing, scenes,
-    run: runRow ? { id: runRow.id, mode: runRow.mode, softwareVersion: runRow.softwareVersion, finishedAt: runRow.finishedAt, state: health.last_run?.state ?? runRow.status, parameters: runRow.parameters ?? {} } : null,
+    run: runRow ? { id: runRow.id, mode: runRow.mode, softwareVersion: runRow.softwareVersion, finishedAt: runRow.finishedAt, state: health.last_run?.state ?? runRow.status, parameters: handedOnParameters(runRow.parameters ?? {}, null) } : null,
     selection: seasonMonths(season, await storedHemisphere(store)),
     minDates: MIN_DATES_PER_YEAR,
   };

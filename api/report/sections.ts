@@ -4,7 +4,7 @@
  */
 import { CAUTION_TEXT, NO_ATMOSPHERIC_CORRECTION_TEXT } from '../../workers/core/defaults.js';
 import { MIN_TREND_YEARS } from '../../workers/core/trend/index.js';
-import { relativeInText } from '../relative-paths.js';
+import { readRuralDescription } from '../../workers/core/districts/rural-description.js';
 import type { ReportData, ReportScene, TrendFields } from './answers.js';
 import type { QualityFigures, SourceCount, ThermalQuality } from './quality.js';
 import { summarySentences, type SummaryFigures } from './summary.js';
@@ -211,51 +211,99 @@ function cautionItems(): string {
   return CAUTION_TEXT.split(/(?<=\.)\s+/).map((c) => `<li>${esc(c)}</li>`).join('\n');
 }
 
-/** Plain names of the run settings the pipeline records (others are shown by their key alone). */
-const SETTING_NAMES: Record<string, string> = {
-  coverageRule: 'Pixel rule',
-  ruralReference: 'Rural reference',
-  plausibleRangeKelvin: 'Plausible surface temperature, K',
-  minValidFraction: 'Smallest clear share of a district for a pass to count',
-  pairingWindowHours: 'Longest day–night separation of a pair, hours',
-  albedoWindowDays: 'Longest distance to the albedo scene used, days',
-  atiMinDifferenceKelvin: 'Smallest day–night difference for ATI, K',
-  qaMaskBits: 'Quality bits that mask a pixel',
-  districtIds: 'Districts',
-};
-
-function settingText(k: string, v: unknown): string {
-  if (v === null || v === undefined) return 'none';
-  if (Array.isArray(v) && k === 'districtIds') return `${v.length}`;
-  if (Array.isArray(v)) return v.map((x) => (typeof x === 'object' ? JSON.stringify(x) : String(x))).join(' to ');
-  if (typeof v === 'object') {
-    const o = v as Record<string, unknown>;
-    return 'description' in o ? String(o.description) : JSON.stringify(o);
-  }
-  return String(v);
-}
-
-function parameterRows(params: Record<string, unknown>): string {
-  return Object.keys(params).sort((a, b) => (SETTING_NAMES[a] ? 0 : 1) - (SETTING_NAMES[b] ? 0 : 1) || a.localeCompare(b))
-    .map((k) => `<tr><td>${esc(SETTING_NAMES[k] ?? '')} <code>${esc(k)}</code></td><td>${esc(relativeInText(settingText(k, params[k]), null))}</td></tr>`).join('\n');
-}
-
 const capitalised = (text: string) => text.charAt(0).toUpperCase() + text.slice(1);
 
 /** Distance in metres as the reader says it: "2 km" from 1000 m up when whole, else "500 m". */
 const distance = (metres: number) => (metres >= 1000 && metres % 100 === 0 ? `${metres / 1000} km` : `${metres} m`);
 
-/** The run's description of the rural ring in plain words; any other description as recorded. */
+/**
+ * The run's description of the rural reference in plain words. Its files are
+ * named as stored in the report's data (file names alone: gather.ts passes the
+ * run's parameters through `handedOnParameters`).
+ */
 export function ruralWords(description: string): string {
-  const m = /^ring ([0-9.]+)-([0-9.]+) m outside the union of the districts(?:, water from (.+) excluded)?$/.exec(description);
-  if (!m) return description;
-  return `the land between ${distance(Number(m[1]))} and ${distance(Number(m[2]))} outside the city's outer edge (all districts taken together)` +
-    `${m[3] ? `, with the water of ${m[3]} cut out` : ''}`;
+  const r = readRuralDescription(description);
+  if (r.kind === 'polygons') return `the area drawn in the file ${r.path}`;
+  if (r.kind === 'other') return r.text;
+  return `the land between ${distance(r.innerMetres)} and ${distance(r.outerMetres)} outside the city's outer edge (all districts taken together)` +
+    `${r.waterPath !== null ? `, with the water of ${r.waterPath} cut out` : ''}`;
+}
+
+/** A plain number without float noise (up to 4 decimals). */
+const plain = (n: number) => String(Number(n.toFixed(4)));
+
+/** Bit positions (0 = lowest) set in a mask, said as a list: "bits 0, 3 and 5". */
+function bitList(mask: number): string {
+  const bits: number[] = [];
+  for (let b = 0; b < 53 && 2 ** b <= mask; b++) if (Math.floor(mask / 2 ** b) % 2 === 1) bits.push(b);
+  const list = bits.length > 1 ? `${bits.slice(0, -1).join(', ')} and ${bits[bits.length - 1]}` : String(bits[0]);
+  return `${bits.length > 1 ? 'bits' : 'bit'} ${list}`;
+}
+
+/** A setting the run recorded that the report has no plain words for: its key and value as recorded. */
+function recordedText(v: unknown): string {
+  if (v === null || v === undefined) return 'none';
+  if (Array.isArray(v)) return v.map(recordedText).join(', ');
+  if (typeof v === 'object') return JSON.stringify(v);
+  return String(v);
+}
+
+/** The settings the report words, in the order it lists them (others follow by key). */
+const SETTING_ORDER = ['districtIds', 'ruralReference', 'coverageRule', 'plausibleRangeKelvin', 'qaMaskBits', 'minValidFraction', 'pairingWindowHours', 'albedoWindowDays', 'atiMinDifferenceKelvin'];
+
+/**
+ * The run's settings as [what, how it was set] in plain words, for a reader
+ * without the command line; a setting the report does not know keeps its
+ * recorded key and value.
+ */
+export function runSettingRows(params: Record<string, unknown>, units: ReportData['request']['units']): [string, string][] {
+  const rows: [string, string][] = [];
+  const num = (k: string) => (typeof params[k] === 'number' && Number.isFinite(params[k]) ? (params[k] as number) : null);
+  const order = (k: string) => (SETTING_ORDER.indexOf(k) + SETTING_ORDER.length + 1) % (SETTING_ORDER.length + 1);
+  for (const [k, v] of Object.entries(params).sort(([a], [b]) => order(a) - order(b) || a.localeCompare(b))) {
+    switch (k) {
+      case 'districtIds':
+        rows.push(['Districts', Array.isArray(v) ? `${v.length}, each compared with the rural reference` : recordedText(v)]);
+        break;
+      case 'ruralReference': {
+        const d = v !== null && typeof v === 'object' ? (v as Record<string, unknown>).description : null;
+        rows.push(['Rural reference', typeof d === 'string' ? capitalised(ruralWords(d)) : recordedText(v)]);
+        break;
+      }
+      case 'coverageRule':
+        rows.push(['Pixels of a district', v === 'fraction' ? 'Counted by the share of each pixel inside the boundary' : 'Those whose centre lies inside the boundary']);
+        break;
+      case 'plausibleRangeKelvin':
+        rows.push(['Readings kept as surface temperature', Array.isArray(v) && v.length === 2 && v.every((x) => typeof x === 'number')
+          ? `From ${temperature(v[0] as number, units)} to ${temperature(v[1] as number, units)}; others are left out as faulty`
+          : v === null ? 'All readings' : recordedText(v)]);
+        break;
+      case 'minValidFraction':
+        rows.push(['Clear view a pass needs', num(k) !== null ? `At least ${percent(num(k))} of the district` : recordedText(v)]);
+        break;
+      case 'pairingWindowHours':
+        rows.push(['Day and night passes paired', num(k) !== null ? `When at most ${plain(num(k) as number)} hours apart` : recordedText(v)]);
+        break;
+      case 'albedoWindowDays':
+        rows.push(['Ground brightness (albedo) for ATI', num(k) !== null ? `From an albedo scene at most ${plain(num(k) as number)} days from the pass` : recordedText(v)]);
+        break;
+      case 'atiMinDifferenceKelvin':
+        rows.push(['ATI computed', num(k) !== null ? `Only where day and night differ by at least ${plain(num(k) as number)} K` : recordedText(v)]);
+        break;
+      case 'qaMaskBits':
+        rows.push(['Pixels flagged by the data provider', num(k) !== null && (num(k) as number) > 0 && Number.isInteger(num(k))
+          ? `Left out when the quality flag has ${bitList(num(k) as number)} set` : 'No quality flags were used']);
+        break;
+      default:
+        rows.push([k, recordedText(v)]);
+    }
+  }
+  return rows;
 }
 
 export function methodsSection(d: ReportData): string {
   const p = d.run?.parameters ?? {};
-  const rural = p.ruralReference && typeof p.ruralReference === 'object' ? relativeInText(String((p.ruralReference as Record<string, unknown>).description ?? ''), null) : null;
+  const rural = p.ruralReference && typeof p.ruralReference === 'object' ? String((p.ruralReference as Record<string, unknown>).description ?? '') : null;
   const rule = p.coverageRule === 'fraction'
     ? 'a pixel counts for a district in proportion to the share of its area inside the district boundary'
     : 'a pixel belongs to a district when its centre lies inside the district boundary';
@@ -276,17 +324,7 @@ ${d.scenes.some((s) => s.kind === 'thermal' && s.state === 'processed') ? `<dt>S
 <ul class="cautions">
 ${cautionItems()}
 </ul></div>
-<h3>This report</h3>
-<table class="data narrow"><tbody>
-<tr><td>Software</td><td>heatledger ${esc(d.version)}</td></tr>
-<tr><td>Year and season</td><td>${esc(periodText(d))}</td></tr>
-<tr><td>Baseline period</td><td>${d.request.baseline.from}–${d.request.baseline.to}</td></tr>
-<tr><td>Significance level</td><td>${d.request.alpha}</td></tr>
-<tr><td>Store</td><td>${esc(d.health.store)}, schema version ${esc(d.health.schema_version)}</td></tr>
-<tr><td>Run</td><td>${d.run ? `${d.run.id} (${esc(d.run.mode)}, ${esc(d.run.state)}${d.run.finishedAt ? `, finished ${esc(d.run.finishedAt)}` : ''}, software ${esc(d.run.softwareVersion)})` : 'none recorded'}</td></tr>
-</tbody></table>
-<h3>Run settings</h3>
-<table class="data narrow"><tbody>${parameterRows(p)}</tbody></table>
+<p class="note">The settings behind this report and its run are listed at the start of the appendix.</p>
 </section>`;
 }
 
@@ -303,8 +341,23 @@ export function appendixSection(d: ReportData): string {
     .sort((a, b) => String(a.acquired_at ?? '').localeCompare(String(b.acquired_at ?? '')) || a.file.localeCompare(b.file))
     .map((s) => `<tr${s.thermal?.lst_method === 'emissivity_only' ? ' class="flagged"' : ''}><td>${esc(s.file)}</td><td class="time">${esc(s.acquired_at ? `${s.acquired_at.slice(0, 10)} ${s.acquired_at.slice(11, 16)}` : '–')}</td><td>${kindCell(s)}</td><td>${esc(s.pass ?? '–')}</td><td>${esc(s.timing_rating ?? '–')}</td><td>${esc(s.state)}</td><td class="hash">${esc(s.content_hash ?? '–')}</td></tr>`)
     .join('\n');
+  const p = d.run?.parameters ?? {};
   return `<section id="appendix" class="page">
-<h2>Appendix: input scenes</h2>
+<h2>Appendix: settings and input scenes</h2>
+<div class="settings">
+<div><h3>This report</h3>
+<table class="data"><tbody>
+<tr><td>Software</td><td>heatledger ${esc(d.version)}</td></tr>
+<tr><td>Year and season</td><td>${esc(periodText(d))}</td></tr>
+<tr><td>Baseline period</td><td>${d.request.baseline.from}–${d.request.baseline.to}</td></tr>
+<tr><td>Significance level</td><td>${d.request.alpha}</td></tr>
+<tr><td>Results from</td><td>${d.run ? `run ${d.run.id}, ${esc(d.run.state)}${d.run.finishedAt ? ` ${esc(d.run.finishedAt.slice(0, 10))} ${esc(d.run.finishedAt.slice(11, 16))} UTC` : ''} (heatledger ${esc(d.run.softwareVersion)}, ${esc(d.run.mode)})` : 'no run recorded'}</td></tr>
+<tr><td>Database</td><td>${esc(d.health.store)}, schema version ${esc(d.health.schema_version)}</td></tr>
+</tbody></table></div>
+<div><h3>How the data were processed</h3>
+<table class="data"><tbody>${runSettingRows(p, d.request.units).map(([what, how]) => `<tr><td>${esc(what)}</td><td>${esc(how)}</td></tr>`).join('\n')}</tbody></table></div>
+</div>
+<h3>Input scenes</h3>
 <p>Every scene file in the store: acquisition time (UTC), kind, pass, timing rating, whether it was used, and its SHA-256 content hash, which identifies the exact file.${thermal ? ' Kind “lst” is a surface-temperature product; “thermal DN” is a raw thermal reading turned into surface temperature here, with or without atmospheric correction (rows without it are shaded; see “How good is the data?”).' : ''}</p>
 <table class="data scenes"><thead><tr><th>File</th><th>Acquired, UTC</th><th>Kind</th><th>Pass</th><th>Timing</th><th>State</th><th>SHA-256</th></tr></thead>
 <tbody>${rows}</tbody></table>

@@ -155,6 +155,23 @@ describe('serve', () => {
       const body = await res.json() as { failures: { path: string; error: string }[] };
       expect(body.failures[0].path).toBe(path.relative(tmp, seeded.failedPath)); // Node's path.relative
       expect(JSON.stringify(body)).not.toContain(tmp);
+      // every read route of the OpenAPI document (ids from the listings): no answer names a folder of this machine
+      // (this small store has too few districts for hot spots: that answer is a refusal, checked alike)
+      const json = async (u: string) => {
+        const r = await fetch(`http://127.0.0.1:${port}${u}`);
+        const text = await r.text();
+        expect(r.status, `${u}: ${text.slice(0, 300)}`).toBe(u.startsWith('/api/hotspots') ? 400 : 200);
+        return text;
+      };
+      const doc = JSON.parse(await json('/api/openapi.json')) as { paths: Record<string, { get?: unknown }> };
+      const districtId = (JSON.parse(await json('/api/districts')) as { features: { id: string }[] }).features[0].id;
+      const sceneId = (JSON.parse(await json('/api/scenes')) as { rows: { id: number | string }[] }).rows[0].id;
+      const routes = Object.keys(doc.paths).filter((r) => doc.paths[r].get && r.startsWith('/api/') && !r.startsWith('/api/jobs'));
+      expect(routes.length).toBeGreaterThanOrEqual(10);
+      for (const r of routes) {
+        const u = r.replace('/districts/{id}', `/districts/${encodeURIComponent(districtId)}`).replace('/scenes/{id}', `/scenes/${encodeURIComponent(String(sceneId))}`);
+        expect(await json(u), u).not.toContain(tmp);
+      }
       // the log line may reach us after the response: wait for it
       const requestLogged = () => server.stdout().split('\n').filter(Boolean).some((l) => {
         try { const j = JSON.parse(l); return j.level === 30 && j.res?.statusCode === 200; } catch { return false; }

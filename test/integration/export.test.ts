@@ -8,7 +8,9 @@
  * The reference values are read from the stored derived rows with SQL of this
  * test (plain averages over derived_metrics), not through the export's queries.
  * Store: a small generated archive of the invented city (5 summers, 2 day/night
- * pairs each), ingested embedded.
+ * pairs each), ingested embedded, its rural ring cut by the city's water polygons
+ * kept in a folder whose name holds blanks. No sidecar names a folder of this
+ * machine (project rule, no source: files handed on are named by their names alone).
  */
 import { createHash } from 'node:crypto';
 import { existsSync, mkdirSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
@@ -19,6 +21,7 @@ import * as turf from '@turf/turf';
 import { DuckDBInstance, type DuckDBConnection } from '@duckdb/node-api';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { openStore } from '../../workers/store/store.js';
+import { writeWaterGeoJson } from '../../demo-data/city.js';
 import { cleanEnv, cliOk, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli } from '../support/pipeline-harness.js';
 
 await ensurePipelineBuild();
@@ -27,6 +30,7 @@ const tmp = mkdtempSync(path.join(tmpdir(), 'heatledger-export-'));
 const archiveDir = path.join(tmp, 'archive');
 const dataDir = path.join(tmp, 'store');
 const out = (name: string) => path.join(tmp, name);
+const waterPath = path.join(tmp, 'server side', 'sea and river.geojson');
 const VERSION = JSON.parse(readFileSync(path.join(repoRoot, 'package.json'), 'utf8')).version as string;
 const KELVIN = ['lst_day_k', 'lst_night_k', 'suhi_day_k', 'suhi_night_k'];
 
@@ -39,8 +43,9 @@ let ingestStderr = '';
 
 beforeAll(async () => {
   await makeArchive(archiveDir, { years: 5, pairsPerYear: 2, pixelSizeMetres: 500 });
+  await writeWaterGeoJson(waterPath, 12000);
   // with progress (the default): standard error is a pipe here, not a terminal
-  const ingest = await runCli(['ingest', archiveDir, '--districts', path.join(archiveDir, 'corvenmouth_districts.geojson'), '--data-dir', dataDir, '--threads', '1'], cleanEnv(), 300_000);
+  const ingest = await runCli(['ingest', archiveDir, '--districts', path.join(archiveDir, 'corvenmouth_districts.geojson'), '--water', waterPath, '--data-dir', dataDir, '--threads', '1'], cleanEnv(), 300_000);
   if (ingest.code !== 0) throw new Error(`ingest exited ${ingest.code}: ${ingest.stderr.slice(0, 2000)}`);
   ingestStderr = ingest.stderr;
   const run = (args: string[]) => cliOk(['export', ...args, '--data-dir', dataDir], cleanEnv());
@@ -327,6 +332,19 @@ describe('sidecar PATH.json', () => {
       .map((f) => createHash('sha256').update(readFileSync(path.join(archiveDir, f))).digest('hex')));
     for (const h of hashes) expect(archiveHashes.has(h)).toBe(true);
     expect(side.caution).toMatch(/not (the )?air temperature/i);
+  });
+
+  it('names files by their names alone: no folder of this machine in any sidecar, the water file in the run\'s rural reference', () => {
+    const sidecars = readdirSync(tmp).filter((f) => f.endsWith('.json'));
+    expect(sidecars.length).toBeGreaterThanOrEqual(7);
+    for (const f of sidecars) {
+      const text = readFileSync(path.join(tmp, f), 'utf8');
+      expect(text, f).not.toContain(tmp);
+      expect(text, f).not.toContain('server side');
+    }
+    const side = JSON.parse(readFileSync(out('districts.geojson.json'), 'utf8'));
+    expect(side.runs[0].parameters.rural_reference.description).toBe('ring 2000-10000 m outside the union of the districts, water from sea and river.geojson excluded');
+    expect(side.runs[0].parameters.district_ids.length).toBe(17);
   });
 
   it('a --from/--to export names only the scenes of those years', () => {

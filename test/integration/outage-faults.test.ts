@@ -66,8 +66,8 @@ async function withClient<T>(url: string, fn: (c: pg.Client) => Promise<T>): Pro
   try { return await fn(c); } finally { await c.end().catch(() => undefined); }
 }
 
-async function lastRun(url: string): Promise<{ id: number; status: string; scenes_left: number | null; error: string | null }> {
-  return withClient(url, async (c) => (await c.query('SELECT id, status, scenes_left, error FROM runs ORDER BY id DESC LIMIT 1')).rows[0]);
+async function lastRun(url: string): Promise<{ id: number; status: string; scenes_left: number | null; error: string | null; error_kind: string | null }> {
+  return withClient(url, async (c) => (await c.query('SELECT id, status, scenes_left, error, error_kind FROM runs ORDER BY id DESC LIMIT 1')).rows[0]);
 }
 
 describe.skipIf(!up)('distributed pipeline through service outages', { concurrent: true }, () => {
@@ -150,7 +150,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     // The next ingest finishes what is left (or re-runs nothing) and the table equals the undisturbed one.
     const again = await runCli(ingestArgs(archive), env, 240_000);
     expect(again.code, again.stderr).toBe(0);
-    expect(JSON.parse(again.stdout).outcome).toEqual({ status: 'succeeded', scenes_left: 0, refused: 0, derived: true, error: null });
+    expect(JSON.parse(again.stdout).outcome).toEqual({ status: 'succeeded', scenes_left: 0, refused: 0, derived: true, error: null, error_kind: null });
     expect(await serverCounts(server.url('heat'))).toEqual({ scenes: files, zonal: files * TARGETS, derived: datesOf(HALF) * TARGETS, zonalDuplicates: 0 });
     expect(await cliOk(['table', '--format', 'json'], env)).toBe(await baseline);
     expect(worker.child.exitCode).toBe(null);
@@ -222,7 +222,8 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     expect(line).toMatch(new RegExp(`^heatledger: service error: run \\d+ is incomplete \\(${files} of ${files} scene\\(s\\) not finished, district table not derived\\): PostgreSQL failed for \\d+ s \\(longer than the service retry budget\\): cannot reach PostgreSQL at 127\\.0\\.0\\.1:${proxy.port}: ECONNREFUSED\\. Nothing stored is lost; run the same command again to finish the run$`));
     const run = await lastRun(db.url);
     expect(run).toMatchObject({ status: 'incomplete', scenes_left: files });
-    expect(run.error).toContain(`cannot reach PostgreSQL at 127.0.0.1:${proxy.port}`);
+    expect(run.error).toMatch(new RegExp(`^cannot reach PostgreSQL at 127\\.0\\.0\\.1:${proxy.port}`)); // the message alone, its kind apart
+    expect(run.error_kind).toBe('service');
     const status = await cliOk(['status'], env);
     expect(status).toContain(`last run: ${run.id} incomplete`);
     expect(status).toContain(`${files} scene(s) left: `);

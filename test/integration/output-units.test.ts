@@ -198,9 +198,10 @@ describe('status', () => {
     const keys = (v: unknown): string[] => (Array.isArray(v) ? v.flatMap(keys) : v && typeof v === 'object' ? Object.entries(v).flatMap(([k, x]) => [k, ...keys(x)]) : []);
     for (const k of keys(body)) expect(k).toMatch(/^[a-z0-9]+(_[a-z0-9]+)*$/);
     expect(Object.keys(body)).toEqual(['store', 'scenes', 'by_kind', 'failures', 'thermal_scenes', 'last_run']);
-    const failures = body.failures as { error: string; content_hash: string | null; scene_id: number }[];
+    const failures = body.failures as { error: string; error_kind: string; content_hash: string | null; scene_id: number }[];
     expect(failures).toHaveLength(1);
     expect(failures[0].error).not.toMatch(/^\w*Error: /);
+    expect(failures[0].error_kind).toBe('input'); // a broken file is bad input (workers/core/errors.ts)
   });
 });
 

@@ -57,7 +57,7 @@ function checkTree(r: FlowResult, tag: string) {
   // The parent ran without the failed child: sum of the first 32 bits of each digest (derived from the digests above).
   const total = expectedDigests.reduce((s, d) => s + parseInt(d.slice(0, 8), 16), 0);
   expect(r.results.get(`sum-${tag}`)).toEqual({ value: total, count: 5, failedChildren: [`bad-${tag}`] });
-  expect(r.failures).toEqual([{ id: `bad-${tag}`, name: 'bad', error: 'InputError: district-07.tif: band 1 has no GDAL_NODATA tag', kind: 'input' }]);
+  expect(r.failures).toEqual([{ id: `bad-${tag}`, name: 'bad', error: 'district-07.tif: band 1 has no GDAL_NODATA tag', kind: 'input' }]);
 }
 
 /** Results with the run tag removed from ids, to compare two runs. */
@@ -108,7 +108,7 @@ describe('in-process runner', () => {
     // A Date crossed the thread by structured clone, then became JSON like a BullMQ result.
     expect(r.results.get('proxy-ok')).toEqual({ value: 0, found: { key: 'd-12', at: '2021-07-01T10:30:00.000Z' } });
     // The InputError was rebuilt as InputError on the thread (else the processor throws "not an InputError") and not retried.
-    expect(r.failures).toEqual([{ id: 'proxy-missing', name: 'repoEcho', error: 'InputError: districts.geojson: no district with this id', kind: 'input' }]);
+    expect(r.failures).toEqual([{ id: 'proxy-missing', name: 'repoEcho', error: 'districts.geojson: no district with this id', kind: 'input' }]);
     expect(repo.calls - before).toBe(2);
   });
 
@@ -120,7 +120,7 @@ describe('in-process runner', () => {
     expect(performance.now() - t0).toBeGreaterThanOrEqual(backoffDelayMs(1, 50) + backoffDelayMs(2, 50) - 5);
     const f = await runner.runFlow({ name: 'flaky', id: 'flaky-ip-never', data: { failUntil: 99 } });
     // A ServiceError is a service failure; with no service budget (the runner's default) it gets `attempts` tries like a bug.
-    expect(f.failures.map(({ serviceFailingSeconds: _s, ...rest }) => rest)).toEqual([{ id: 'flaky-ip-never', name: 'flaky', error: 'ServiceError: database unreachable (attempt 3)', kind: 'service' }]);
+    expect(f.failures.map(({ serviceFailingSeconds: _s, ...rest }) => rest)).toEqual([{ id: 'flaky-ip-never', name: 'flaky', error: 'database unreachable (attempt 3)', kind: 'service' }]);
     expect(testProcs.runCounts.get('flaky-ip-never')).toBe(3);
   });
 
@@ -199,7 +199,7 @@ describe.skipIf(!redisUp)('BullMQ runner', () => {
     expect(performance.now() - t0).toBeGreaterThanOrEqual(backoffDelayMs(1, 50) + backoffDelayMs(2, 50) - 5);
     const f = await runner.runFlow({ name: 'flaky', id: 'flaky-bq-never', data: { failUntil: 99 } });
     // A ServiceError is a service failure; with no service budget (the runner's default) it gets `attempts` tries like a bug.
-    expect(f.failures.map(({ serviceFailingSeconds: _s, ...rest }) => rest)).toEqual([{ id: 'flaky-bq-never', name: 'flaky', error: 'ServiceError: database unreachable (attempt 3)', kind: 'service' }]);
+    expect(f.failures.map(({ serviceFailingSeconds: _s, ...rest }) => rest)).toEqual([{ id: 'flaky-bq-never', name: 'flaky', error: 'database unreachable (attempt 3)', kind: 'service' }]);
     expect(testProcs.runCounts.get('flaky-bq-never')).toBe(3);
   });
 

@@ -23,6 +23,7 @@ import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { cleanEnv, cliOk, ensurePipelineBuild, killAllChildren, makeArchive, repoRoot, runCli } from '../support/pipeline-harness.js';
 import { CHROMIUM_PATH, toolAvailable } from '../support/services.js';
 import { openStore, type Store } from '../../workers/store/index.js';
+import { writeWaterGeoJson } from '../../demo-data/city.js';
 import { answerDistricts, answerRankings, answerTrends, type DistrictsAnswer, type DistrictsQuery, type RankingsQuery, type TrendQuery } from '../../api/answers/index.js';
 
 await ensurePipelineBuild();
@@ -34,11 +35,14 @@ const tmp = mkdtempSync(path.join(tmpdir(), 'heatledger-report-'));
 const dataDir = path.join(tmp, 'store');
 const htmlPath = path.join(tmp, 'out', 'report.html');
 const pdfPath = path.join(tmp, 'out', 'report.pdf');
+const waterPath = path.join(tmp, 'server side', 'sea and river.geojson');
 let html = '';
 
 beforeAll(async () => {
   const archive = await makeArchive(path.join(tmp, 'archive'), { years: 8, pairsPerYear: 5, pixelSizeMetres: 500, trendsKelvinPerYear: { D16: 0.6 } });
-  await cliOk(['ingest', path.join(tmp, 'archive'), '--districts', archive.districtsPath, '--data-dir', dataDir, '--no-progress', '--threads', '1'], cleanEnv(), 240_000);
+  // the water polygons in a folder of this machine that the report must not name
+  await writeWaterGeoJson(waterPath, 12000);
+  await cliOk(['ingest', path.join(tmp, 'archive'), '--districts', archive.districtsPath, '--water', waterPath, '--data-dir', dataDir, '--no-progress', '--threads', '1'], cleanEnv(), 240_000);
   const args = ['report', '--year', String(YEAR), '--baseline', '2019-2020', '--place', 'Corvenmouth', '--out', htmlPath, '--data-dir', dataDir];
   await cliOk(tools ? [...args, '--pdf', pdfPath] : args, cleanEnv({ HEATLEDGER_CHROMIUM: CHROMIUM_PATH }), 240_000);
   html = readFileSync(htmlPath, 'utf8');
@@ -200,6 +204,22 @@ describe.skipIf(!tools)('report in Chromium and as PDF', () => {
     expect(text).toContain(`heatledger ${VERSION}`);
     expect(text).toContain(`page ${pages} of ${pages}`);
   }, 120_000);
+
+  it('names no folder of this machine, says the run settings in words, and keeps them on the methods page (project rule, no source)', () => {
+    for (const doc of [html, execFileSync('pdftotext', ['-layout', pdfPath, '-'], { encoding: 'utf8' })]) {
+      expect(doc).not.toContain(tmp);
+      expect(doc).not.toContain('server side');
+    }
+    const appendix = html.slice(html.indexOf('<section id="appendix"'));
+    expect(appendix).toContain('with the water of sea and river.geojson cut out');
+    expect(appendix).toContain('At least 50 % of the district');
+    expect(appendix).not.toMatch(/minValidFraction|pairingWindowHours|ruralReference|<code>/);
+    // pdftotext ends each page with a form feed: the settings share the appendix's first page with the first scenes
+    const pageTexts = execFileSync('pdftotext', ['-layout', pdfPath, '-'], { encoding: 'utf8' }).split('\f');
+    const first = pageTexts.find((t) => t.includes('Appendix: settings and input scenes'))!;
+    for (const words of ['Software', 'How the data were processed', 'ATI computed', 'Input scenes']) expect(first).toContain(words);
+    expect(first).toMatch(/\.tif /);
+  });
 });
 
 describe('report: units', () => {

@@ -101,11 +101,13 @@ describe('embedded store on disk', () => {
     const first = await openPgliteStore({ dataDir, memory: false, fromScratch: true });
     expect(await migrate(first, listMigrations().slice(0, 1))).toEqual({ applied: ['001_init'] });
     await upsertDistricts(first, [{ id: 'quay', name: 'Quay', geometry: [[[[0, 0], [1, 0], [1, 1], [0, 0]]]], areaSquareMetres: 5 }]);
-    const scene = (tag: string, acquiredAt: string, pass: 'day' | 'night') =>
-      registerScene(first, {
-        contentHash: crypto.createHash('sha256').update(tag).digest('hex'), path: `/archive/${tag}.tif`, kind: 'lst',
-        acquiredAt, pass, epsg: 32632, crsDefinition: null, width: 10, height: 10, pixelSizeMetres: 30, scale: 1, offset: 0, nodata: null,
-      });
+    // written with schema 1's columns (the program of today writes columns added since)
+    const scene = async (tag: string, acquiredAt: string, pass: 'day' | 'night') =>
+      (await first.query<{ id: number }>(
+        `INSERT INTO scenes (content_hash, path, kind, acquired_at, pass, epsg, width, height, pixel_size_m, scale, add_offset)
+         VALUES ($1, $2, 'lst', $3::timestamptz, $4, 32632, 10, 10, 30, 1, 0) RETURNING id`,
+        [crypto.createHash('sha256').update(tag).digest('hex'), `/archive/${tag}.tif`, acquiredAt, pass],
+      ))[0].id;
     const day = await scene('quay-day', '2024-07-14T10:30:00Z', 'day');
     const night = await scene('quay-night', '2024-07-14T21:15:00Z', 'night');
     const lateNight = await scene('quay-late-night', '2024-07-16T22:30:00Z', 'night');
@@ -129,7 +131,7 @@ describe('embedded store on disk', () => {
     store = await openStore({ dataDir });
     expect(await migrate(store)).toEqual({ applied: [] });
     expect(await store.query('SELECT id, area_m2 FROM districts')).toEqual([{ id: 'quay', area_m2: 5 }]);
-    expect(await store.query('SELECT version FROM schema_migrations ORDER BY version')).toEqual([{ version: 1 }, { version: 2 }, { version: 3 }, { version: 4 }, { version: 5 }, { version: 6 }]);
+    expect(await store.query('SELECT version FROM schema_migrations ORDER BY version')).toEqual([{ version: 1 }, { version: 2 }, { version: 3 }, { version: 4 }, { version: 5 }, { version: 6 }, { version: 7 }]);
     // The schema-1 row survived, and replaceDerived's key (day scene, else night scene)
     // finds it: writing it again updates it in place; a night-only row is now accepted, once.
     const row = (values: Partial<DerivedInput>): DerivedInput => ({

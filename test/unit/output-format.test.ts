@@ -1,10 +1,13 @@
 import { execFileSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
-import { commonDirectory, relativeInText, relativeToRoot } from '../../api/relative-paths.js';
-import { failureLine, PRECISION, problemText, roundNumber, snakeCase, snakeCaseKeys, toCsv } from '../../workers/format.js';
+import { commonDirectory, fileForReader, handedOnParameters, relativeInText, relativeToRoot } from '../../workers/core/relative-paths.js';
+import { readRuralDescription, writeRuralDescription } from '../../workers/core/districts/rural-description.js';
+import { failureLine, PRECISION, roundNumber, snakeCase, snakeCaseKeys, toCsv } from '../../workers/format.js';
 import { failedJobLine, summaryJson } from '../../workers/commands/ingest.js';
 import type { PipelineSummary } from '../../workers/run/pipeline.js';
 import { parseYear } from '../../workers/core/year.js';
+import { InputError, ServiceError } from '../../workers/core/errors.js';
+import { failureRecord } from '../../workers/queue/retry.js';
 
 /** Python's csv module (an RFC 4180 reader) as the outside reference for what a CSV says. */
 function readCsv(text: string): string[][] {
@@ -63,30 +66,31 @@ describe('JSON keys', () => {
     expect(snakeCaseKeys({ runId: 1, outcome: { scenesLeft: 0 }, duplicates: [{ sameAs: '/a.tif', path: '/b.tif' }], note: null }))
       .toEqual({ run_id: 1, outcome: { scenes_left: 0 }, duplicates: [{ same_as: '/a.tif', path: '/b.tif' }], note: null });
   });
-  it('of the ingest summary are snake_case, its errors without class names and its seconds rounded', () => {
+  it('of the ingest summary are snake_case, each error as recorded with its kind beside it, and its seconds rounded', () => {
     const summary: PipelineSummary = {
       runId: 3, mode: 'embedded', scenes: 2, duplicates: [{ path: '/a/copy.tif', sameAs: '/a/x.tif' }], unreadable: [],
-      failures: [{ id: 'j1', name: 'ingest', kind: 'input', error: 'InputError: /a/bad.tif: not a TIFF file' }],
+      failures: [{ id: 'j1', name: 'ingest', kind: 'input', error: '/a/bad.tif: not a TIFF file' }],
       derive: { rows: 4, ok: 4, scenes: { processed: 1, failed: 1 } },
-      outcome: { status: 'incomplete', scenesLeft: 0, refused: 1, derived: true, error: 'InputError: 1 file refused' },
+      outcome: { status: 'incomplete', scenesLeft: 0, refused: 1, derived: true, error: '1 file refused', errorKind: 'input' },
       seconds: 12.345678901,
     };
     const json = summaryJson(summary) as Record<string, unknown>;
     const keys = (v: unknown): string[] => (Array.isArray(v) ? v.flatMap(keys) : v && typeof v === 'object' ? Object.entries(v).flatMap(([k, x]) => [k, ...keys(x)]) : []);
     for (const k of keys(json)) expect(k).toMatch(/^[a-z0-9_]+$/);
-    expect(json).toMatchObject({ run_id: 3, seconds: 12.346, duplicates: [{ same_as: '/a/x.tif' }], outcome: { scenes_left: 0, error: '1 file refused' } });
-    expect((json.failures as { error: string }[])[0].error).toBe('/a/bad.tif: not a TIFF file');
+    expect(json).toMatchObject({ run_id: 3, seconds: 12.346, duplicates: [{ same_as: '/a/x.tif' }], outcome: { scenes_left: 0, error: '1 file refused', error_kind: 'input' } });
+    expect(json.failures).toEqual([{ id: 'j1', name: 'ingest', kind: 'input', error: '/a/bad.tif: not a TIFF file' }]);
   });
 });
 
 describe('failure lines', () => {
-  it('drop the internal class name in front of a problem', () => {
-    expect(problemText('InputError: /a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
-    expect(problemText('ServiceError: PostgreSQL is unreachable')).toBe('PostgreSQL is unreachable');
-    expect(problemText('/a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
-    expect(failureLine('/a/b.tif', 'InputError: /a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
-    expect(failedJobLine({ id: 'j', name: 'ingest', kind: 'input', error: 'InputError: /a/b.tif: not a TIFF file' })).toBe('/a/b.tif: not a TIFF file');
-    expect(failedJobLine({ id: 'j', name: 'zonal', kind: 'service', error: 'ServiceError: PostgreSQL is unreachable' })).toBe('zonal step: PostgreSQL is unreachable');
+  it('come from failures recorded as their message with the kind apart, printed as recorded', () => {
+    // the kinds of workers/core/errors.ts: InputError input, ServiceError service, anything else a bug
+    expect(failureRecord(new InputError('not a TIFF file', '/a/b.tif'), null, 5)).toEqual({ kind: 'input', error: '/a/b.tif: not a TIFF file', atMs: 5 });
+    expect(failureRecord(new ServiceError('PostgreSQL is unreachable', { service: 'PostgreSQL' }), null, 5))
+      .toEqual({ kind: 'service', error: 'PostgreSQL is unreachable', service: 'PostgreSQL', serviceFailingSinceMs: 5, atMs: 5 });
+    expect(failureRecord(new TypeError('x is not a function'), null, 5)).toEqual({ kind: 'bug', error: 'x is not a function', atMs: 5 });
+    expect(failedJobLine({ id: 'j', name: 'ingest', kind: 'input', error: '/a/b.tif: not a TIFF file' })).toBe('/a/b.tif: not a TIFF file');
+    expect(failedJobLine({ id: 'j', name: 'zonal', kind: 'service', error: 'PostgreSQL is unreachable' })).toBe('zonal step: PostgreSQL is unreachable');
   });
   it('name the file once', () => {
     expect(failureLine('/a/b.tif', '/a/b.tif: not a TIFF file')).toBe('/a/b.tif: not a TIFF file');
@@ -136,5 +140,33 @@ describe('paths relative to a data root', () => {
     expect(relativeInText('/srv/archive/2023/a.tif: QA raster /srv/archive/2023/qa.tif (ENOENT) and /etc/x', '/srv/archive'))
       .toBe('2023/a.tif: QA raster 2023/qa.tif (ENOENT) and x');
     expect(relativeInText('ATI in 1/K, day/night', '/srv')).toBe('ATI in 1/K, day/night');
+  });
+  it('name a file by os.path.basename when no root applies, a relative path included (its starting folder is unknown)', () => {
+    for (const p of ['/srv/heat data/water polygons.geojson', 'inputs/../sea/water.geojson', 'water.geojson', '/srv/a/b/']) {
+      expect(fileForReader(p, null), p).toBe(python('print(json.dumps(os.path.basename(os.path.normpath(sys.argv[1]))))', p));
+    }
+    expect(fileForReader('/srv/archive/aux/water.geojson', '/srv/archive')).toBe('aux/water.geojson');
+  });
+  it('hand on a run\'s parameters with no folder of the server in them, the rest as stored (project rule, no source)', () => {
+    const folder = '/srv/heat data/run 7';
+    const stored = {
+      coverageRule: 'centre',
+      ruralReference: { districtId: 'rural', description: writeRuralDescription({ kind: 'ring', innerMetres: 2000, outerMetres: 10000, waterPath: `${folder}/sea and river.geojson` }) },
+      plausibleRangeKelvin: [170, 360],
+      qaMaskBits: null,
+      districtIds: ['D01', '/D02'],
+      note: 'manifest /srv/archive/manifest.csv read',
+    };
+    const out = handedOnParameters(stored, null);
+    expect(JSON.stringify(out)).not.toContain('/srv');
+    expect(out).toEqual({
+      ...stored,
+      ruralReference: { districtId: 'rural', description: 'ring 2000-10000 m outside the union of the districts, water from sea and river.geojson excluded' },
+      note: 'manifest manifest.csv read',
+    });
+    // user polygons: the whole path, blanks included, becomes the file name
+    const polygons = handedOnParameters({ ruralReference: { districtId: 'rural', description: writeRuralDescription({ kind: 'polygons', path: `${folder}/rural area.geojson` }) } }, '/srv/heat data');
+    expect(polygons.ruralReference).toEqual({ districtId: 'rural', description: 'user polygon(s) from run 7/rural area.geojson' });
+    expect(readRuralDescription('ring 2000-10000 m outside the union of the districts')).toEqual({ kind: 'ring', innerMetres: 2000, outerMetres: 10000, waterPath: null });
   });
 });

@@ -5,7 +5,7 @@ import { describe, expect, it } from 'vitest';
 import { difference, figure, fixed, temperature } from '../../api/report/text.js';
 import { baselineMean, cityMean } from '../../api/report/summary.js';
 import { parseBaseline } from '../../workers/commands/report.js';
-import { ruralWords } from '../../api/report/sections.js';
+import { ruralWords, runSettingRows } from '../../api/report/sections.js';
 import { UNITS, type DistrictsAnswer } from '../../api/answers/index.js';
 
 describe('temperatures in the unit asked for', () => {
@@ -74,7 +74,39 @@ describe('the rural reference in plain words', () => {
       .toBe("the land between 2 km and 10 km outside the city's outer edge (all districts taken together), with the water of sea.geojson cut out");
     expect(ruralWords('ring 500-2500 m outside the union of the districts')).toBe("the land between 500 m and 2.5 km outside the city's outer edge (all districts taken together)");
   });
-  it('keeps any other description as the run recorded it', () => {
-    expect(ruralWords('user polygon(s) from rural.geojson')).toBe('user polygon(s) from rural.geojson');
+  it('says a user\'s polygons by their file, and keeps any other description as the run recorded it', () => {
+    expect(ruralWords('user polygon(s) from rural area.geojson')).toBe('the area drawn in the file rural area.geojson');
+    expect(ruralWords('fields north of the airport')).toBe('fields north of the airport');
+  });
+});
+
+describe('the run settings in plain words', () => {
+  const stored = {
+    qaMaskBits: 40, minValidFraction: 0.5, pairingWindowHours: 18, albedoWindowDays: 32, atiMinDifferenceKelvin: 0.5,
+    plausibleRangeKelvin: [170, 360], coverageRule: 'centre', districtIds: ['D01', 'D02', 'D03'],
+    ruralReference: { districtId: 'rural', description: 'ring 2000-10000 m outside the union of the districts, water from sea.geojson excluded' },
+    cloudRule: 'strict',
+  };
+  it('lists each known setting in words, in a fixed order, with no program key; an unknown one keeps its key', () => {
+    const rows = runSettingRows(stored, 'K');
+    expect(rows.map((r) => r[0])).toEqual([
+      'Districts', 'Rural reference', 'Pixels of a district', 'Readings kept as surface temperature', 'Pixels flagged by the data provider',
+      'Clear view a pass needs', 'Day and night passes paired', 'Ground brightness (albedo) for ATI', 'ATI computed', 'cloudRule',
+    ]);
+    const how = Object.fromEntries(rows);
+    expect(how.Districts).toBe('3, each compared with the rural reference');
+    expect(how['Rural reference']).toBe("The land between 2 km and 10 km outside the city's outer edge (all districts taken together), with the water of sea.geojson cut out");
+    // 40 = 2^3 + 2^5 (binary expansion; bit 0 the lowest, common practice, no source)
+    expect(how['Pixels flagged by the data provider']).toBe('Left out when the quality flag has bits 3 and 5 set');
+    expect(how['Clear view a pass needs']).toBe('At least 50 % of the district');
+    expect(how['Readings kept as surface temperature']).toBe('From 170.0 K to 360.0 K; others are left out as faulty');
+    expect(how.cloudRule).toBe('strict');
+    for (const [what, text] of rows.slice(0, -1)) expect(`${what} ${text}`).not.toMatch(/[a-z][A-Z]/);
+  });
+  it('says the plausible range in °C when the report is in °C (t/°C = T/K − 273.15, BIPM SI Brochure 9th ed. §2.3.1)', () => {
+    expect(Object.fromEntries(runSettingRows({ plausibleRangeKelvin: [273.15, 323.15], qaMaskBits: null }, 'C'))).toEqual({
+      'Readings kept as surface temperature': 'From 0.0 °C to 50.0 °C; others are left out as faulty',
+      'Pixels flagged by the data provider': 'No quality flags were used',
+    });
   });
 });

@@ -29,16 +29,16 @@ function result(n: number, failures: JobFailure[], stopped?: FlowResult['stopped
   const failed = new Set(failures.map((f) => f.id));
   return { results: new Map(all(n).filter((id) => !failed.has(id)).map((id) => [id, {}])), failures, ...(stopped ? { stopped } : {}) };
 }
-const pgDown: Omit<JobFailure, 'id' | 'name'> = { kind: 'service', service: 'PostgreSQL', error: 'ServiceError: cannot reach PostgreSQL at db:5432: ECONNREFUSED', serviceFailingSeconds: 301 };
+const pgDown: Omit<JobFailure, 'id' | 'name'> = { kind: 'service', service: 'PostgreSQL', error: 'cannot reach PostgreSQL at db:5432: ECONNREFUSED', serviceFailingSeconds: 301 };
 
 describe('run outcome', () => {
   it('succeeds when every job completed', () => {
-    expect(runOutcome(tree(3), result(3, []))).toEqual({ status: 'succeeded', scenesLeft: 0, refused: 0, derived: true, error: null });
+    expect(runOutcome(tree(3), result(3, []))).toEqual({ status: 'succeeded', scenesLeft: 0, refused: 0, derived: true, error: null, errorKind: null });
   });
 
   it('is incomplete with nothing left when a scene was refused as bad input or a path was unreadable (recorded; a re-run cannot fix it)', () => {
-    const r = result(3, [{ id: 'ingest-2', name: 'ingest', kind: 'input', error: 'InputError: b.tif: has no acquisition time' }]);
-    expect(runOutcome(tree(3), r)).toMatchObject({ status: 'incomplete', scenesLeft: 0, refused: 1, derived: true });
+    const r = result(3, [{ id: 'ingest-2', name: 'ingest', kind: 'input', error: 'b.tif: has no acquisition time' }]);
+    expect(runOutcome(tree(3), r)).toMatchObject({ status: 'incomplete', scenesLeft: 0, refused: 1, derived: true, errorKind: 'input' });
     expect(runOutcome(tree(3), result(3, []), 2)).toMatchObject({ status: 'incomplete', scenesLeft: 0, refused: 2, derived: true });
   });
 
@@ -47,7 +47,7 @@ describe('run outcome', () => {
       { id: 'ingest-1', name: 'ingest', ...pgDown },
       { id: 'zonal-3', name: 'zonal', ...pgDown },
     ]);
-    expect(runOutcome(tree(4), r)).toEqual({ status: 'incomplete', scenesLeft: 2, refused: 0, derived: true, error: pgDown.error, service: 'PostgreSQL', serviceFailingSeconds: 301 });
+    expect(runOutcome(tree(4), r)).toEqual({ status: 'incomplete', scenesLeft: 2, refused: 0, derived: true, error: pgDown.error, errorKind: 'service', service: 'PostgreSQL', serviceFailingSeconds: 301 });
   });
 
   it('is incomplete when only the derive step failed on a service', () => {
@@ -56,13 +56,13 @@ describe('run outcome', () => {
 
   it('is incomplete, every unfinished scene left, when the runner stopped waiting', () => {
     const stopped = { kind: 'service' as const, service: 'worker' as const, error: 'no heatledger worker made progress on this run for 180 s' };
-    const unfinished = all(3).map((id) => ({ id, name: id.split('-')[0], kind: 'service' as const, error: 'ServiceError: job not finished (state waiting)' }));
-    expect(runOutcome(tree(3), { results: new Map(), failures: unfinished, stopped })).toEqual({ status: 'incomplete', scenesLeft: 3, refused: 0, derived: false, error: stopped.error, service: 'worker' });
+    const unfinished = all(3).map((id) => ({ id, name: id.split('-')[0], kind: 'service' as const, error: 'job not finished (state waiting)' }));
+    expect(runOutcome(tree(3), { results: new Map(), failures: unfinished, stopped })).toEqual({ status: 'incomplete', scenesLeft: 3, refused: 0, derived: false, error: stopped.error, errorKind: 'service', service: 'worker' });
   });
 
   it('is incomplete when a scene failed on a bug (it may pass on a re-run), and failed when the derive step did', () => {
-    const bug = { kind: 'bug' as const, error: 'TypeError: x is undefined' };
-    expect(runOutcome(tree(2), result(2, [{ id: 'zonal-2', name: 'zonal', ...bug }]))).toEqual({ status: 'incomplete', scenesLeft: 1, refused: 0, derived: true, error: bug.error });
-    expect(runOutcome(tree(2), result(2, [{ id: 'derive', name: 'derive', ...bug }]))).toEqual({ status: 'failed', scenesLeft: 0, refused: 0, derived: false, error: bug.error });
+    const bug = { kind: 'bug' as const, error: 'x is undefined' };
+    expect(runOutcome(tree(2), result(2, [{ id: 'zonal-2', name: 'zonal', ...bug }]))).toEqual({ status: 'incomplete', scenesLeft: 1, refused: 0, derived: true, error: bug.error, errorKind: 'bug' });
+    expect(runOutcome(tree(2), result(2, [{ id: 'derive', name: 'derive', ...bug }]))).toEqual({ status: 'failed', scenesLeft: 0, refused: 0, derived: false, error: bug.error, errorKind: 'bug' });
   });
 });

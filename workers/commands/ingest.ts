@@ -2,7 +2,7 @@ import { InputError, isServiceError, ServiceError } from '../core/errors.js';
 import { runtimeConfig } from '../run/config.js';
 import { parsePlausible } from './common.js';
 import { startProgress } from './progress.js';
-import { failureLine, problemText, roundNumber, snakeCaseKeys } from '../format.js';
+import { failureLine, roundNumber, snakeCaseKeys } from '../format.js';
 import type { PipelineOptions, PipelineSummary } from '../run/pipeline.js';
 import type { FlowProgress } from '../queue/types.js';
 
@@ -53,20 +53,17 @@ export function sceneProgress(p: FlowProgress): { done: number; failed: number; 
  * failure or a bug says which step it stopped.
  */
 export function failedJobLine(f: PipelineSummary['failures'][number]): string {
-  const text = problemText(f.error);
-  return f.kind === 'input' ? text : `${f.name} step: ${text}`;
+  return f.kind === 'input' ? f.error : `${f.name} step: ${f.error}`;
 }
 
 /**
- * The run summary as `ingest --json` prints it: snake_case keys, job errors
- * without internal class names, seconds to 0.001 s.
+ * The run summary as `ingest --json` prints it: snake_case keys, each job
+ * error's message with its kind beside it, seconds to 0.001 s.
  */
 export function summaryJson(s: PipelineSummary): unknown {
   return snakeCaseKeys({
     ...s,
     seconds: roundNumber(s.seconds, { decimals: 3 }),
-    failures: s.failures.map((f) => ({ ...f, error: problemText(f.error) })),
-    outcome: { ...s.outcome, error: s.outcome.error === null ? null : problemText(s.outcome.error) },
   });
 }
 
@@ -191,7 +188,7 @@ export function throwIfRunFailed(summary: PipelineSummary): void {
     : o.service ? `${o.service} failed${o.serviceFailingSeconds !== undefined ? ` for ${o.serviceFailingSeconds} s (longer than the service retry budget)` : ''}`
       : 'a job failed';
   const resume = o.service === 'worker' ? 'start `heatledger worker` and run the same command again' : 'run the same command again to finish the run';
-  const reason = problemText(o.error ?? 'the run did not finish');
+  const reason = o.error ?? 'the run did not finish';
   throw new ServiceError(
     `run ${summary.runId} is incomplete (${left}): ${service}: ${reason}${/[.?!]$/.test(reason) ? '' : '.'} Nothing stored is lost; ${resume}`,
     { service: o.service },

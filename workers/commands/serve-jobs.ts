@@ -14,8 +14,7 @@ import { randomUUID } from 'node:crypto';
 import { statSync } from 'node:fs';
 import path from 'node:path';
 import type { IngestJobs, JobAnswer } from '../../api/ingest-routes.js';
-import { relativeInText } from '../../api/relative-paths.js';
-import { problemText } from '../format.js';
+import { relativeInText } from '../core/relative-paths.js';
 import type { Store } from '../store/index.js';
 import { sceneProgress } from '../store/scene-listing.js';
 
@@ -46,7 +45,7 @@ export function serveIngestJobs(o: ServeJobsOptions): IngestJobs {
   const inputs = new Map<string, { files: string[]; folders: string[] }>();
   let chain: Promise<void> = Promise.resolve();
   const root = path.resolve(o.dataRoot);
-  const rel = (text: string) => relativeInText(problemText(text), root);
+  const rel = (text: string) => relativeInText(text, root);
 
   const run = (job: JobAnswer, files: string[], districtsPath: string) => new Promise<void>((resolve) => {
     job.state = 'running';

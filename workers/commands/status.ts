@@ -1,4 +1,4 @@
-import { failureLine, formatRows, problemText, snakeCaseKeys, toCsv, type OutputFormat } from '../format.js';
+import { failureLine, formatRows, snakeCaseKeys, toCsv, type OutputFormat } from '../format.js';
 import { withStore } from './common.js';
 
 /** Columns of `status --format csv`: scene counts by kind, pass and state. */
@@ -14,16 +14,16 @@ export async function runStatusCommand(opts: { dataDir?: string; format: OutputF
   const { sceneStatusCounts, failures, thermalPasses } = await import('../store/index.js');
   await withStore(opts, async (store, config) => {
     const counts = await sceneStatusCounts(store);
-    const fails = (await failures(store)).map((f) => ({ ...f, error: problemText(f.error) }));
+    const fails = await failures(store);
     const byKind = await store.query<{ kind: string | null; pass: string | null; status: string; n: number }>(
       `SELECT kind, pass, status, count(*)::int AS n FROM scenes GROUP BY kind, pass, status ORDER BY kind NULLS LAST, pass NULLS LAST, status`,
     );
-    const runs = await store.query<{ id: number; status: string; started_at: string; finished_at: string | null; mode: string; software_version: string; scenes_left: number | null; error: string | null }>(
-      `SELECT id, status, started_at, finished_at, mode, software_version, scenes_left, error FROM runs ORDER BY id DESC LIMIT 1`,
+    const runs = await store.query<{ id: number; status: string; started_at: string; finished_at: string | null; mode: string; software_version: string; scenes_left: number | null; error: string | null; error_kind: string | null }>(
+      `SELECT id, status, started_at, finished_at, mode, software_version, scenes_left, error, error_kind FROM runs ORDER BY id DESC LIMIT 1`,
     );
     // how each thermal (Level-1 DN) pass had its LST made, the missing atmospheric correction said plainly
     const thermal = await thermalPasses(store);
-    const lastRun = runs[0] ? { ...runs[0], error: runs[0].error === null ? null : problemText(runs[0].error) } : null;
+    const lastRun = runs[0] ?? null;
     if (opts.format === 'json') {
       const body = {
         store: config.databaseUrl ? 'postgresql' : `embedded (${config.dataDir})`,

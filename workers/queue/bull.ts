@@ -257,12 +257,12 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
       if (s.state === 'completed') { results.set(n.spec.id, s.job!.returnvalue ?? null); continue; }
       const last = lastFailureOf(s.job);
       if (s.state === 'failed') {
-        const reason = s.job!.failedReason || 'Error: failed without a reason';
+        const reason = s.job!.failedReason || 'failed without a reason';
         // A failure the processor did not record (BullMQ gave the job up: its worker
         // stalled too often, or lost its lock) is the queue's, not the input's.
         failures.push(jobFailure(n.spec.id, n.spec.name, last?.error === reason ? last : null, { kind: 'service', error: reason }));
       } else {
-        failures.push(jobFailure(n.spec.id, n.spec.name, null, { kind: 'service', error: `ServiceError: job not finished (state ${s.state})` }));
+        failures.push(jobFailure(n.spec.id, n.spec.name, null, { kind: 'service', error: `job not finished (state ${s.state})` }));
       }
     }
     return { results, failures };

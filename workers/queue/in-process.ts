@@ -206,7 +206,7 @@ function flowResult(nodes: readonly FlatNode[], values: ReadonlyMap<string, unkn
   const failures: JobFailure[] = [];
   for (const n of nodes) {
     if (values.has(n.spec.id)) results.set(n.spec.id, values.get(n.spec.id));
-    else failures.push(jobFailure(n.spec.id, n.spec.name, failed.get(n.spec.id), { kind: 'bug', error: 'Error: job did not run' }));
+    else failures.push(jobFailure(n.spec.id, n.spec.name, failed.get(n.spec.id), { kind: 'bug', error: 'job did not run' }));
   }
   return { results, failures };
 }

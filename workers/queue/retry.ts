@@ -12,7 +12,7 @@
  * 2^(n-1)·delay) and is capped at MAX_BACKOFF_MS, so a service that comes back
  * is used again within that time.
  */
-import { describeError } from './tree.js';
+import { failureMessage } from './tree.js';
 import { failureKind, ServiceError, type FailureKind, type ServiceName } from '../core/errors.js';
 import type { JobFailure } from './types.js';
 
@@ -31,7 +31,7 @@ export interface RetryPolicy {
 /** What the runners remember of a job's last failed try (JSON: BullMQ keeps it in Redis). */
 export interface FailureRecord {
   kind: FailureKind;
-  /** `<ErrorName>: <message>` of the try. */
+  /** The message of the try (its kind apart, above). */
   error: string;
   /** The service that failed, when the error said. */
   service?: ServiceName;
@@ -44,7 +44,7 @@ export interface FailureRecord {
 /** The record of a failed try, continuing the previous record's run of service failures. */
 export function failureRecord(e: unknown, previous: FailureRecord | null | undefined, nowMs: number): FailureRecord {
   const kind = failureKind(e);
-  const record: FailureRecord = { kind, error: describeError(e), atMs: nowMs };
+  const record: FailureRecord = { kind, error: failureMessage(e), atMs: nowMs };
   if (kind === 'service') {
     const service = (e as { service?: unknown }).service;
     if (typeof service === 'string') record.service = service as ServiceName;

@@ -65,10 +65,14 @@ export function reusableIds(nodes: FlatNode[], completed: (id: string) => boolea
   return reusable;
 }
 
-/** `<ErrorName>: <message>`, the failure text both runners report. */
-export function describeError(e: unknown): string {
-  if (e instanceof Error) return `${e.name}: ${e.message}`;
-  return `Error: ${String(e)}`;
+/**
+ * The failure text both runners report and the store keeps: the message alone.
+ * What kind of failure it was travels beside it (`failureKind`), never as a
+ * class name in front of the text.
+ */
+export function failureMessage(e: unknown): string {
+  if (e instanceof Error) return e.message;
+  return String(e);
 }
 
 /**

@@ -65,7 +65,7 @@ export interface RunFlowOptions {
 export interface JobFailure {
   id: string;
   name: string;
-  /** `<ErrorName>: <message>` of the last attempt. */
+  /** The message of the last attempt (its kind apart, below). */
   error: string;
   /** Why it failed: bad input (final), a service (worth running again once it is back), or a bug. */
   kind: FailureKind;

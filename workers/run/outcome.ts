@@ -1,5 +1,5 @@
 /** How a run ended, from its job tree and what the runner reported. */
-import type { ServiceName } from '../core/errors.js';
+import type { FailureKind, ServiceName } from '../core/errors.js';
 import type { FlowResult, JobFailure, JobSpec } from '../queue/types.js';
 
 /** How a run ended: every scene stored and the table derived, or not (and why). */
@@ -11,8 +11,10 @@ export interface RunOutcome {
   refused: number;
   /** Whether the derive step produced the district table. */
   derived: boolean;
-  /** Why the run is not 'succeeded'. */
+  /** Why the run is not 'succeeded': a message, without the kind in front. */
   error: string | null;
+  /** The kind of the failure `error` reports (input for files refused as bad input); null when no failure is known (the run did not finish). */
+  errorKind: FailureKind | null;
   /** The service that kept the run from finishing, when one did, and how long (s) it kept failing. */
   service?: ServiceName;
   serviceFailingSeconds?: number;
@@ -50,15 +52,16 @@ export function runOutcome(root: JobSpec, result: FlowResult, unreadable = 0): R
   const derived = result.results.has(root.id);
   const deriveFailure = failures.get(root.id);
   const first = (kind?: string) => reasons.find((f) => kind === undefined || f.kind === kind);
-  const pick = result.stopped ? { error: result.stopped.error, service: result.stopped.service, serviceFailingSeconds: undefined }
+  const pick = result.stopped ? { error: result.stopped.error, kind: result.stopped.kind, service: result.stopped.service, serviceFailingSeconds: undefined }
     : deriveFailure ?? first('service') ?? first();
   if (deriveFailure && deriveFailure.kind !== 'service' && !result.stopped) {
-    return { status: 'failed', scenesLeft, refused, derived, error: deriveFailure.error, service: deriveFailure.service };
+    return { status: 'failed', scenesLeft, refused, derived, error: deriveFailure.error, errorKind: deriveFailure.kind, service: deriveFailure.service };
   }
   if (!derived || scenesLeft > 0 || result.stopped) {
     return {
       status: 'incomplete', scenesLeft, refused, derived,
       error: pick?.error ?? 'the run did not finish',
+      errorKind: pick?.kind ?? null,
       ...(pick?.service ? { service: pick.service } : {}),
       ...(pick?.serviceFailingSeconds !== undefined ? { serviceFailingSeconds: pick.serviceFailingSeconds } : {}),
     };
@@ -67,7 +70,8 @@ export function runOutcome(root: JobSpec, result: FlowResult, unreadable = 0): R
     return {
       status: 'incomplete', scenesLeft: 0, refused, derived,
       error: `${refused} file(s) asked for were refused as bad input and are recorded with their reasons (heatledger status); every other scene is stored`,
+      errorKind: 'input',
     };
   }
-  return { status: 'succeeded', scenesLeft: 0, refused: 0, derived, error: null };
+  return { status: 'succeeded', scenesLeft: 0, refused: 0, derived, error: null, errorKind: null };
 }

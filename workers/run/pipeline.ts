@@ -9,6 +9,7 @@ import os from 'node:os';
 import { resolve } from 'node:path';
 import { InputError, isServiceError } from '../core/errors.js';
 import { readDistricts, ruralRing, subtractPolygons, type District } from '../core/districts/index.js';
+import { writeRuralDescription } from '../core/districts/rural-description.js';
 import type { DeriveOptions } from '../core/derive/metrics.js';
 import { DEFAULT_DERIVE_OPTIONS } from '../core/derive/metrics.js';
 import { fingerprint } from '../core/hash.js';
@@ -121,14 +122,14 @@ async function runDistricts(options: PipelineOptions): Promise<District[]> {
 /** The rural reference: the user's polygons, else a ring around the districts (without water), and how it was made. */
 async function ruralReference(options: PipelineOptions, districts: District[]): Promise<{ rural: District; description: string }> {
   if (options.ruralPath) {
-    return { rural: await readRuralReference(options.ruralPath), description: `user polygon(s) from ${options.ruralPath}` };
+    return { rural: await readRuralReference(options.ruralPath), description: writeRuralDescription({ kind: 'polygons', path: options.ruralPath }) };
   }
   const inner = options.ruralInnerMetres ?? RURAL_RING_INNER_METRES;
   const outer = options.ruralOuterMetres ?? RURAL_RING_OUTER_METRES;
   const ring = ruralRing(districts, inner, outer, { source: options.districtsPath });
-  const description = `ring ${inner}-${outer} m outside the union of the districts`;
+  const description = writeRuralDescription({ kind: 'ring', innerMetres: inner, outerMetres: outer, waterPath: options.waterPath ?? null });
   if (!options.waterPath) return { rural: ring, description };
-  return { rural: await subtractWater(ring, options.waterPath), description: `${description}, water from ${options.waterPath} excluded` };
+  return { rural: await subtractWater(ring, options.waterPath), description };
 }
 
 /** The scene files of a run (hashed, duplicates and unreadable paths apart), each with its manifest entry. */
@@ -292,6 +293,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     finishing = onServer(() => finishRun(store, runId, {
       status: outcome.status,
       error: outcome.error,
+      errorKind: outcome.errorKind,
       scenesLeft: outcome.status === 'succeeded' ? 0 : outcome.scenesLeft,
     }));
     await finishing;

@@ -8,6 +8,7 @@
  */
 import type { Db } from './db.js';
 import { namedQuery } from './queries.js';
+import { fileForReader, handedOnParameters } from '../core/relative-paths.js';
 
 /** Column order of the district table per scene; `_k` Kelvin, `_per_k` 1/K. */
 export const SCENE_TABLE_FIELDS = [
@@ -47,7 +48,7 @@ export async function districtSceneTable(db: Db, range: YearRange): Promise<Scen
 /** A scene behind exported values. */
 export interface SourceScene {
   contentHash: string;
-  /** File name only (the folder is the operator's, not the export reader's). */
+  /** File name only (the folder is the operator's, not the export reader's; core/relative-paths.ts). */
   file: string;
   kind: string;
   pass: string | null;
@@ -62,6 +63,7 @@ export interface SourceRun {
   softwareVersion: string;
   mode: string;
   status: string;
+  /** As stored, with files named by their names alone (core/relative-paths.ts, `handedOnParameters`). */
   parameters: Record<string, unknown>;
 }
 
@@ -93,8 +95,8 @@ export async function exportSources(db: Db, range: YearRange): Promise<{ scenes:
   );
   return {
     scenes: scenes.map((s) => ({
-      contentHash: s.content_hash, file: s.path.split(/[\\/]/).pop() ?? s.path, kind: s.kind, pass: s.pass, acquiredAt: s.acquired_at,
+      contentHash: s.content_hash, file: fileForReader(s.path, null), kind: s.kind, pass: s.pass, acquiredAt: s.acquired_at,
     })),
-    runs: runs.map((r) => ({ ...r, id: Number(r.id) })),
+    runs: runs.map((r) => ({ ...r, id: Number(r.id), parameters: handedOnParameters(r.parameters ?? {}, null) })),
   };
 }

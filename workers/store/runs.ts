@@ -1,6 +1,7 @@
 /** The runs table: one row per ingest run, its parameters and how it ended. */
 import type { Kelvin, UtcIso } from '../core/units.js';
 import { type Db, json } from './db.js';
+import type { FailureKind } from '../core/errors.js';
 
 /** What a run was computed with; stored as runs.parameters (jsonb). */
 export interface RunParameters {
@@ -47,13 +48,14 @@ export type RunState = 'running' | RunEndState;
 export async function finishRun(
   db: Db,
   runId: number,
-  outcome: { status: RunEndState; error?: string | null; scenesLeft?: number | null },
+  outcome: { status: RunEndState; error?: string | null; errorKind?: FailureKind | null; scenesLeft?: number | null },
 ): Promise<void> {
-  await db.query(`UPDATE runs SET finished_at = now(), status = $2, error = $3, scenes_left = $4 WHERE id = $1`, [
+  await db.query(`UPDATE runs SET finished_at = now(), status = $2, error = $3, error_kind = $5, scenes_left = $4 WHERE id = $1`, [
     runId,
     outcome.status,
     outcome.error ?? null,
     outcome.scenesLeft ?? null,
+    outcome.error ? outcome.errorKind ?? null : null,
   ]);
 }
 
@@ -65,14 +67,17 @@ export interface RunRow {
   mode: 'embedded' | 'distributed';
   parameters: RunParameters;
   status: RunState;
+  /** Why the run did not succeed, the message alone (null when it did). */
   error: string | null;
+  /** The kind of that failure, when it was one job's (input, service or bug); null otherwise. */
+  errorKind: FailureKind | null;
 }
 
 /** One run by id, or null. */
 export async function getRun(db: Db, runId: number): Promise<RunRow | null> {
   const rows = await db.query<RunRow>(
     `SELECT id, started_at AS "startedAt", finished_at AS "finishedAt", software_version AS "softwareVersion",
-            mode, parameters, status, error
+            mode, parameters, status, error, error_kind AS "errorKind"
      FROM runs WHERE id = $1`,
     [runId],
   );

@@ -1,6 +1,7 @@
 /** The scenes table: one row per scene file (keyed by content hash), its header facts and status. */
 import type { Epsg, UtcIso } from '../core/units.js';
 import type { TimingRating } from '../core/solar/index.js';
+import type { FailureKind } from '../core/errors.js';
 import { type Db, num } from './db.js';
 
 /** 'thermal': a Level-1 thermal band as DN, turned into LST on ingest (migration 005). */
@@ -128,7 +129,8 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
        pixel_size_m = EXCLUDED.pixel_size_m, scale = EXCLUDED.scale, add_offset = EXCLUDED.add_offset,
        nodata = EXCLUDED.nodata, run_id = coalesce(EXCLUDED.run_id, scenes.run_id),
        status = CASE WHEN scenes.status = 'failed' THEN 'registered' ELSE scenes.status END,
-       error = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error END
+       error = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error END,
+       error_kind = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error_kind END
      RETURNING id, (SELECT status FROM prev) AS "previousStatus"`,
     [
       scene.contentHash,
@@ -174,17 +176,17 @@ export async function setSceneWarnings(db: Db, sceneId: number, warnings: readon
  */
 export async function markSceneFailed(
   db: Db,
-  failure: { contentHash?: string | null; path: string; error: string; runId?: number | null },
+  failure: { contentHash?: string | null; path: string; error: string; kind?: FailureKind; runId?: number | null },
 ): Promise<number> {
   if (failure.contentHash) checkHash(failure.contentHash);
-  const params = [failure.contentHash ?? null, failure.path, failure.error, failure.runId ?? null];
+  const params = [failure.contentHash ?? null, failure.path, failure.error, failure.runId ?? null, failure.kind ?? 'input'];
   const sql = failure.contentHash
-    ? `INSERT INTO scenes (content_hash, path, status, error, run_id) VALUES ($1, $2, 'failed', $3, $4)
-       ON CONFLICT (content_hash) DO UPDATE SET status = 'failed', error = EXCLUDED.error,
+    ? `INSERT INTO scenes (content_hash, path, status, error, run_id, error_kind) VALUES ($1, $2, 'failed', $3, $4, $5)
+       ON CONFLICT (content_hash) DO UPDATE SET status = 'failed', error = EXCLUDED.error, error_kind = EXCLUDED.error_kind,
          run_id = coalesce(EXCLUDED.run_id, scenes.run_id), processed_at = NULL
        RETURNING id`
-    : `INSERT INTO scenes (content_hash, path, status, error, run_id) VALUES ($1, $2, 'failed', $3, $4)
-       ON CONFLICT (path) WHERE content_hash IS NULL DO UPDATE SET status = 'failed', error = EXCLUDED.error,
+    : `INSERT INTO scenes (content_hash, path, status, error, run_id, error_kind) VALUES ($1, $2, 'failed', $3, $4, $5)
+       ON CONFLICT (path) WHERE content_hash IS NULL DO UPDATE SET status = 'failed', error = EXCLUDED.error, error_kind = EXCLUDED.error_kind,
          run_id = coalesce(EXCLUDED.run_id, scenes.run_id)
        RETURNING id`;
   const rows = await db.query<{ id: number }>(sql, params);
@@ -208,7 +210,10 @@ export interface FailureRow {
   sceneId: number;
   contentHash: string | null;
   path: string;
+  /** The problem as stored: the message alone (its kind apart). */
   error: string;
+  /** input (bad file; re-running cannot fix it), service or bug. */
+  errorKind: FailureKind;
   runId: number | null;
   ingestedAt: UtcIso;
 }
@@ -216,7 +221,7 @@ export interface FailureRow {
 /** Failed scenes, ordered by path (byte order). */
 export function failures(db: Db): Promise<FailureRow[]> {
   return db.query<FailureRow>(
-    `SELECT id AS "sceneId", content_hash AS "contentHash", path, error, run_id AS "runId", ingested_at AS "ingestedAt"
+    `SELECT id AS "sceneId", content_hash AS "contentHash", path, error, error_kind AS "errorKind", run_id AS "runId", ingested_at AS "ingestedAt"
      FROM scenes WHERE status = 'failed' ORDER BY path COLLATE "C", id`,
   );
 }

@@ -56,7 +56,7 @@ const ZONAL_REPLACE_ONE = `WITH up AS (
       coverage_rule = EXCLUDED.coverage_rule, run_id = EXCLUDED.run_id
     RETURNING district_id),
   gone AS (DELETE FROM zonal_stats WHERE scene_id = $1::bigint AND NOT (district_id = ANY($2::text[]))),
-  mark AS (UPDATE scenes SET status = 'processed', error = NULL, processed_at = now(),
+  mark AS (UPDATE scenes SET status = 'processed', error = NULL, error_kind = NULL, processed_at = now(),
                              run_id = coalesce($${N_ZONAL + 5}::bigint, run_id)
            WHERE id = $1::bigint)
   SELECT count(*)::int AS n FROM up`;
@@ -103,7 +103,7 @@ export async function replaceZonalStats(
       ]);
     }
     await q.query(
-      `UPDATE scenes SET status = 'processed', error = NULL, processed_at = now(), run_id = coalesce($2, run_id)
+      `UPDATE scenes SET status = 'processed', error = NULL, error_kind = NULL, processed_at = now(), run_id = coalesce($2, run_id)
        WHERE id = $1`,
       [sceneId, options.runId ?? null],
     );

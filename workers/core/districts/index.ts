@@ -6,5 +6,6 @@ export { orientPolygon, orientMultiPolygon } from './orient.js';
 export { districtsBBox, geometryBBox } from './bbox.js';
 export { readMergedPolygons, readRuralReference } from './merged.js';
 export { ruralRing, subtractPolygons } from './rural.js';
+export { readRuralDescription, writeRuralDescription, type RuralDescription } from './rural-description.js';
 export { SIMPLIFY_TOLERANCE_METRES } from './overlay.js';
 export { adjacency, type AdjacencyOptions } from './adjacency.js';

@@ -369,7 +369,12 @@ export function buildProgram(): Command {
     .version(VERSION, '-V, --version')
     .showHelpAfterError('(run with --help for usage)')
     .exitOverride()
-    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+    .configureOutput({ writeErr: (s) => process.stderr.write(s) })
+    // the store's lock names the subcommand, however the program was started (bin link, npx, node cli.js)
+    .hook('preAction', async (_program, action) => {
+      const { setCurrentCommand } = await import('./store/owner.js');
+      setCurrentCommand(action.name());
+    });
 
   addZonalCommand(program);
   addIngestCommand(program);

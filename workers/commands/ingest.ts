@@ -1,4 +1,5 @@
 import { InputError, isServiceError, ServiceError } from '../core/errors.js';
+import { envNumber } from '../config.js';
 import { runtimeConfig } from '../run/config.js';
 import { parsePlausible } from './common.js';
 import { startProgress } from './progress.js';
@@ -109,7 +110,12 @@ export function sceneProgressDisplay(): { onProgress: NonNullable<PipelineOption
   };
 }
 
-export async function runIngestCommand(inputs: string[], opts: IngestCommandOptions): Promise<void> {
+export async function runIngestCommand(inputs: string[], given: IngestCommandOptions): Promise<void> {
+  const opts: IngestCommandOptions = {
+    ...given,
+    serviceRetryBudget: given.serviceRetryBudget ?? envNumber('serviceRetryBudget'),
+    stallTimeout: given.stallTimeout ?? envNumber('stallTimeout'),
+  };
   if (!(opts.minValidFraction >= 0 && opts.minValidFraction <= 1)) throw new InputError(`--min-valid-fraction must be between 0 and 1, got ${opts.minValidFraction}`);
   if (!(opts.pairingWindow > 0)) throw new InputError(`--pairing-window must be positive hours, got ${opts.pairingWindow}`);
   if (!(opts.albedoWindow > 0)) throw new InputError(`--albedo-window must be positive days, got ${opts.albedoWindow}`);

@@ -91,7 +91,7 @@ function addZonalCommand(program: Command): void {
         'or integer samples without scale/offset.\n' +
         'JSON and CSV round K to 0.0001, albedo and valid_fraction to 6 decimals, values of no unit to 6 significant digits.',
     )
-    .argument('<raster>', 'LST GeoTIFF or COG (any EPSG CRS)')
+    .argument('<raster>', 'LST GeoTIFF or COG (any EPSG CRS); a Level-1 thermal DN scene is refused (exit 2): ingest converts those')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
     .option('--rural <file>', 'rural reference polygon(s), GeoJSON; adds a row whose district is "rural"')
     .option('--id-field <name>', 'feature property holding the district id', 'id')

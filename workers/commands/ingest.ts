@@ -164,7 +164,7 @@ export async function runIngestCommand(inputs: string[], given: IngestCommandOpt
   } else {
     process.stdout.write(summaryLines(summary).join('\n') + '\n');
   }
-  throwIfRunFailed(summary);
+  throwIfRunFailed(summary, opts.json ? 'json' : 'lines');
 }
 
 /**
@@ -175,8 +175,10 @@ export async function runIngestCommand(inputs: string[], given: IngestCommandOpt
  * stored every scene it could but refused some files as bad input (unreadable
  * paths, corrupt GeoTIFFs) ends with an InputError after the summary (exit 2);
  * the refused files stay in the store with their reasons for `heatledger status`.
+ * `printed` says where the summary went (lines, or `--json`), so the message
+ * says where the list of refused files is.
  */
-export function throwIfRunFailed(summary: PipelineSummary): void {
+export function throwIfRunFailed(summary: PipelineSummary, printed: 'lines' | 'json' = 'lines'): void {
   const o = summary.outcome;
   if (o.status === 'succeeded') return;
   if (o.status === 'failed') throw new Error(`run ${summary.runId} failed: ${o.error ?? 'the derive step did not complete'}`);
@@ -187,7 +189,10 @@ export function throwIfRunFailed(summary: PipelineSummary): void {
       unreadable ? `${unreadable} path(s) could not be read` : '',
       failedJobs ? `${failedJobs} scene job(s) failed` : '',
     ].filter(Boolean).join(' and ');
-    throw new InputError(`run ${summary.runId}: ${what} (listed above and in \`heatledger status\`); the other scenes are stored`);
+    // where the list is: the lines printed above, or the keys of the JSON summary on standard output
+    const keys = [unreadable ? '"unreadable"' : '', failedJobs ? '"failures"' : ''].filter(Boolean).join(' and ');
+    const where = printed === 'json' ? `listed under ${keys} in the JSON summary on standard output` : 'listed above';
+    throw new InputError(`run ${summary.runId}: ${what} (${where} and in \`heatledger status\`); the other scenes are stored`);
   }
   const left = [
     o.scenesLeft > 0 ? `${o.scenesLeft} of ${summary.scenes} scene(s) not finished` : '',

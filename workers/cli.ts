@@ -328,7 +328,7 @@ function addDemoCommand(program: Command): void {
         'print the hottest districts, the significant night-SUHI trends and the last summer\'s hot spots, and write the exports ' +
         '(CSV, Parquet, GeoJSON with their .json sidecars) and the yearly report (HTML, and PDF when Chromium is installed) into ./heatledger-output.',
     )
-    .option('--archive <dir>', 'where the demo archive is (generated when missing; default: demo-data/.generated under the working folder)')
+    .option('--archive <dir>', 'where the demo archive is (generated into a new or empty folder, never over files it did not write; default: demo-data/.generated under the working folder)')
     .option('--threads <n>', 'worker threads (default: CPU cores)', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
     .action(async (opts) => {

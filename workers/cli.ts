@@ -91,7 +91,7 @@ function addZonalCommand(program: Command): void {
         'or integer samples without scale/offset.\n' +
         'JSON and CSV round K to 0.0001, albedo and valid_fraction to 6 decimals, values of no unit to 6 significant digits.',
     )
-    .argument('<raster>', 'LST GeoTIFF or COG (any EPSG CRS)')
+    .argument('<raster>', 'LST GeoTIFF or COG (any EPSG CRS); a Level-1 thermal DN scene is refused (exit 2): ingest converts those')
     .requiredOption('--districts <file>', 'district polygons, GeoJSON FeatureCollection (lon/lat WGS 84)')
     .option('--rural <file>', 'rural reference polygon(s), GeoJSON; adds a row whose district is "rural"')
     .option('--id-field <name>', 'feature property holding the district id', 'id')
@@ -137,10 +137,10 @@ function addIngestCommand(program: Command): void {
     .option('--min-valid-fraction <f>', 'a pass whose district valid fraction is below this gives no derived value', parseNumber('--min-valid-fraction'), MIN_VALID_FRACTION)
     .option('--pairing-window <hours>', 'largest day-night separation for a pair', parseNumber('--pairing-window'), PAIRING_WINDOW_HOURS)
     .option('--albedo-window <days>', 'largest distance in time to the albedo scene used', parseNumber('--albedo-window'), ALBEDO_WINDOW_DAYS)
-    .addOption(new Option('--service-retry-budget <seconds>', 'how long PostgreSQL or Redis may stay unreachable before the run gives up on them; unfinished scenes are left for the next ingest (exit 1)')
-      .env(ENV.serviceRetryBudget).argParser(parseNumber('--service-retry-budget')).default(DEFAULT_SERVICE_RETRY_BUDGET_MS / 1000))
-    .addOption(new Option('--stall-timeout <seconds>', 'distributed mode: end the run incomplete (exit 1) when no worker has made progress for this long')
-      .env(ENV.stallTimeout).argParser(parseNumber('--stall-timeout')).default(DEFAULT_STALL_TIMEOUT_MS / 1000))
+    .option('--service-retry-budget <seconds>', 'how long PostgreSQL or Redis may stay unreachable before the run gives up on them; unfinished scenes are left for the next ingest (exit 1) ' +
+      `(default: $${ENV.serviceRetryBudget} in whole seconds, else ${DEFAULT_SERVICE_RETRY_BUDGET_MS / 1000})`, parseNumber('--service-retry-budget'))
+    .option('--stall-timeout <seconds>', 'distributed mode: end the run incomplete (exit 1) when no worker has made progress for this long ' +
+      `(default: $${ENV.stallTimeout} in whole seconds, else ${DEFAULT_STALL_TIMEOUT_MS / 1000})`, parseNumber('--stall-timeout'))
     .option('--threads <n>', 'worker threads in embedded mode (default: CPU cores)', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
     .option('--json', 'print the run summary as JSON (snake_case keys)')
@@ -310,9 +310,9 @@ function addWorkerCommand(program: Command): void {
         `Log: one JSON line per event on standard output at $${ENV.logLevel} (fatal, error, warn, info — the default —, debug, trace, silent): ` +
         'ready and stopped, each job done with its milliseconds (info), a failed try (warn), a file refused as bad input or a lost connection (error), jobs taken (debug).',
     )
-    .option('--concurrency <n>', `jobs at once per queue; $${ENV.concurrency} sets the default`, parseInteger('--concurrency', 1, 1024), Number(process.env[ENV.concurrency] ?? 1))
-    .addOption(new Option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value')
-      .env(ENV.stalledInterval).argParser(parseNumber('--stalled-interval')).default(STALLED_INTERVAL_MS / 1000))
+    .option('--concurrency <n>', `jobs at once per queue (default: $${ENV.concurrency}, else 1)`, parseInteger('--concurrency', 1, 1024))
+    .option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value ' +
+      `(default: $${ENV.stalledInterval} in whole seconds, else ${STALLED_INTERVAL_MS / 1000})`, parseNumber('--stalled-interval'))
     .action(async (opts) => {
       const { runWorkerCommand } = await import('./commands/worker.js');
       await runWorkerCommand(opts);
@@ -328,7 +328,7 @@ function addDemoCommand(program: Command): void {
         'print the hottest districts, the significant night-SUHI trends and the last summer\'s hot spots, and write the exports ' +
         '(CSV, Parquet, GeoJSON with their .json sidecars) and the yearly report (HTML, and PDF when Chromium is installed) into ./heatledger-output.',
     )
-    .option('--archive <dir>', 'where the demo archive is (generated when missing; default: demo-data/.generated under the working folder)')
+    .option('--archive <dir>', 'where the demo archive is (generated into a new or empty folder, never over files it did not write; default: demo-data/.generated under the working folder)')
     .option('--threads <n>', 'worker threads (default: CPU cores)', parseInteger('--threads', 1, 1024))
     .addOption(dataDirOption())
     .action(async (opts) => {
@@ -369,7 +369,12 @@ export function buildProgram(): Command {
     .version(VERSION, '-V, --version')
     .showHelpAfterError('(run with --help for usage)')
     .exitOverride()
-    .configureOutput({ writeErr: (s) => process.stderr.write(s) });
+    .configureOutput({ writeErr: (s) => process.stderr.write(s) })
+    // the store's lock names the subcommand, however the program was started (bin link, npx, node cli.js)
+    .hook('preAction', async (_program, action) => {
+      const { setCurrentCommand } = await import('./store/owner.js');
+      setCurrentCommand(action.name());
+    });
 
   addZonalCommand(program);
   addIngestCommand(program);

@@ -9,6 +9,9 @@
  * one database). Only workers/queue (queue/configured.ts) and workers/store
  * (store/configured.ts) read the two URLs and decide the mode.
  */
+import { InputError } from './core/errors.js';
+import { quoteGiven } from './core/year.js';
+
 export const ENV = {
   databaseUrl: 'DATABASE_URL',
   redisUrl: 'REDIS_URL',
@@ -43,3 +46,35 @@ export const ENV = {
 
 /** Defaults the CLI shows for --data-dir and --port (from the defaults module). */
 export { DATA_DIR_NAME as DEFAULT_DATA_DIR, API_PORT as DEFAULT_API_PORT } from './core/defaults.js';
+
+/**
+ * A whole number from the environment variable `name`: plain decimal digits
+ * only (no sign, blanks, point, exponent or 0x), within [min, max]; undefined
+ * when the variable is unset or empty. The one reader of numeric variables:
+ * a bad value is an InputError naming the variable and what it takes.
+ */
+export function envWholeNumber(name: string, range: { min: number; max: number; unit: string }, env: NodeJS.ProcessEnv = process.env): number | undefined {
+  const text = env[name];
+  if (text === undefined || text === '') return undefined;
+  const n = /^[0-9]{1,15}$/.test(text) ? Number(text) : NaN;
+  if (!(n >= range.min && n <= range.max)) {
+    throw new InputError(`${name} must be a whole number of ${range.unit} from ${range.min} to ${range.max} in decimal digits, got ${quoteGiven(text)}`);
+  }
+  return n;
+}
+
+/** What each numeric variable takes (the unit its message names, and its range). */
+export const ENV_RANGES = {
+  concurrency: { min: 1, max: 1024, unit: 'jobs at once' },
+  apiPort: { min: 0, max: 65535, unit: 'port' },
+  serviceRetryBudget: { min: 0, max: 86_400, unit: 'seconds' },
+  stallTimeout: { min: 1, max: 86_400, unit: 'seconds' },
+  stalledInterval: { min: 1, max: 3600, unit: 'seconds' },
+  readsPerMinute: { min: 1, max: 1e9, unit: 'requests per minute' },
+  writesPerMinute: { min: 1, max: 1e9, unit: 'requests per minute' },
+} as const satisfies Partial<Record<keyof typeof ENV, { min: number; max: number; unit: string }>>;
+
+/** The numeric variable `key` (see ENV_RANGES), or undefined when unset. */
+export function envNumber(key: keyof typeof ENV_RANGES, env: NodeJS.ProcessEnv = process.env): number | undefined {
+  return envWholeNumber(ENV[key], ENV_RANGES[key], env);
+}

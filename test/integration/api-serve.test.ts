@@ -66,7 +66,7 @@ describe('serve settings from the environment', () => {
     const cases: [Record<string, string>, RegExp][] = [
       [{ HEATLEDGER_TOKEN: 'short' }, /HEATLEDGER_TOKEN must be 16 to 512 printable characters without blanks/],
       [{ HEATLEDGER_READ_TOKEN: 'has blanks in it, 0123456789' }, /HEATLEDGER_READ_TOKEN must be 16 to 512 printable characters without blanks/],
-      [{ HEATLEDGER_READS_PER_MINUTE: '1e3' }, /HEATLEDGER_READS_PER_MINUTE must be a whole number of requests per minute from 1 to 1000000000, got "1e3"/],
+      [{ HEATLEDGER_READS_PER_MINUTE: '1e3' }, /HEATLEDGER_READS_PER_MINUTE must be a whole number of requests per minute from 1 to 1000000000 in decimal digits, got "1e3"/],
       [{ HEATLEDGER_WRITES_PER_MINUTE: '0' }, /HEATLEDGER_WRITES_PER_MINUTE must be a whole number/],
     ];
     for (const [extra, message] of cases) {

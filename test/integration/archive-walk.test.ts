@@ -83,7 +83,8 @@ describe.skipIf(!canDrop)('ingest of a folder with bad paths beside good scenes'
     await mkdir(badData);
     const r = await runUnprivileged(['ingest', archiveDir, '--districts', archive.districtsPath, '--json', '--threads', '1', '--data-dir', badData], env);
     expect(r.code).toBe(2);
-    expect(r.stderr).toMatch(/^heatledger: run \d+: 4 path\(s\) could not be read .*the other scenes are stored\n$/);
+    // the list is in the JSON on standard output, and the message says so
+    expect(r.stderr).toMatch(/^heatledger: run \d+: 4 path\(s\) could not be read \(listed under "unreadable" in the JSON summary on standard output and in `heatledger status`\); the other scenes are stored\n$/);
     const summary = JSON.parse(r.stdout);
     expect(summary.scenes).toBe(archive.files.length);
     expect(summary.failures).toEqual([]);

@@ -25,7 +25,7 @@
  * QA raster (a copy of the scene itself, with no mask bits: nothing masked).
  */
 import { spawn, execFileSync, type ChildProcess } from 'node:child_process';
-import { copyFile, mkdtemp, rm, writeFile } from 'node:fs/promises';
+import { chmod, copyFile, mkdir, mkdtemp, rm, symlink, writeFile } from 'node:fs/promises';
 import { existsSync, readFileSync } from 'node:fs';
 import net from 'node:net';
 import os from 'node:os';
@@ -82,8 +82,11 @@ function ingestArgs(dataDir: string): string[] {
 
 interface Child { child: ChildProcess; stdout(): string; stderr(): string; exited: Promise<{ code: number | null; signal: NodeJS.Signals | null }> }
 
-function startCli(args: string[], childEnv: NodeJS.ProcessEnv = env): Child {
-  const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env: childEnv, stdio: ['ignore', 'pipe', 'pipe'] });
+/** The CLI as `node dist/workers/cli.js ...`, or as the executable `program` (a bin link) when given. */
+function startCli(args: string[], childEnv: NodeJS.ProcessEnv = env, program?: string): Child {
+  const child = program
+    ? spawn(program, args, { cwd: repoRoot, env: childEnv, stdio: ['ignore', 'pipe', 'pipe'] })
+    : spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env: childEnv, stdio: ['ignore', 'pipe', 'pipe'] });
   started.add(child);
   let out = '';
   let err = '';
@@ -233,6 +236,45 @@ describe('one owner per embedded store', () => {
 
     const stopped = await stopChild(serve.child, 'SIGTERM', LONG);
     expect(stopped.code).toBe(0); // stopping a server is its normal end
+    expect(await tablesOf(dataDir)).toEqual(reference);
+  }, 900_000);
+});
+
+describe('started through the bin link npm makes', () => {
+  it('a server started as `heatledger serve` is named serve in the lock and hands the store over to an ingest started the same way', async () => {
+    const dataDir = path.join(tmp, 'data-bin');
+    await releaseHold();
+    const firstSummer = archive.files.filter((f) => path.basename(f).includes('_2019'));
+    await cliOk(['ingest', ...firstSummer, '--districts', archive.districtsPath, '--manifest', manifestPath, '--qa-mask', QA_MASK_NONE, '--threads', '1', '--no-progress', '--data-dir', dataDir], env, 300_000);
+
+    // as npm installs a package with a bin: node_modules/<name> is the package, node_modules/.bin/<bin> a relative link to its script, made executable
+    const app = path.join(tmp, 'app');
+    await mkdir(path.join(app, 'node_modules', '.bin'), { recursive: true });
+    await symlink(repoRoot, path.join(app, 'node_modules', 'heatledger'));
+    const bin = path.join(app, 'node_modules', '.bin', 'heatledger');
+    await symlink('../heatledger/dist/workers/cli.js', bin);
+    await chmod(cliPath, 0o755);
+    const binEnv = { ...env, PATH: `${path.dirname(process.execPath)}${path.delimiter}${env.PATH ?? ''}` };
+    const startBin = (args: string[]) => startCli(args, binEnv, bin);
+
+    const port = await freePort();
+    const serve = startBin(['serve', '--port', String(port), '--data-dir', dataDir]);
+    await waitFor(() => (serve.stderr().includes('heatledger API on') ? true : serve.child.exitCode !== null ? Promise.reject(new Error(serve.stderr())) : undefined), 'the server to listen');
+    const lock = JSON.parse(readFileSync(path.join(dataDir, 'heatledger.lock'), 'utf8')) as { pid: number; command: string };
+    expect(lock).toMatchObject({ pid: serve.child.pid, command: 'serve' });
+
+    const ingest = startBin(ingestArgs(dataDir));
+    const end = await ingest.exited;
+    expect(end.code, ingest.stderr()).toBe(0);
+    const expected = JSON.parse(JSON.stringify(roundTableRows(reference.date))) as Row[];
+    const rows = await waitFor(async () => {
+      const res = await fetch(`http://127.0.0.1:${port}/api/table`);
+      expect(res.status).toBe(200);
+      const r = ((await res.json()) as { rows: Row[] }).rows;
+      return r.length === expected.length ? r : undefined;
+    }, 'the server to show the ingest\'s rows');
+    expect(rows).toEqual(expected);
+    expect((await stopChild(serve.child, 'SIGTERM', LONG)).code).toBe(0);
     expect(await tablesOf(dataDir)).toEqual(reference);
   }, 900_000);
 });

@@ -3,7 +3,7 @@
  * the whole pipeline embedded, and print the hottest districts.
  */
 import { existsSync, readdirSync, readFileSync } from 'node:fs';
-import { mkdir, rm, writeFile } from 'node:fs/promises';
+import { mkdir, writeFile } from 'node:fs/promises';
 import { join, relative, resolve } from 'node:path';
 import { MIN_DATES_PER_YEAR } from '../core/defaults.js';
 import { runtimeConfig } from '../run/config.js';
@@ -77,33 +77,31 @@ export async function runDemoCommand(opts: DemoOptions): Promise<void> {
   const archive = resolve(opts.archive ?? defaultArchiveDir());
   const districtsPath = join(archive, `${CITY_SLUG}_districts.geojson`);
   const waterPath = join(archive, `${CITY_SLUG}_water.geojson`);
-  const settingsPath = join(archive, `${CITY_SLUG}_archive.json`);
-  const settings = JSON.stringify(DEMO_ARCHIVE);
-  const sameSettings = existsSync(settingsPath) && readFileSync(settingsPath, 'utf8').trim() === settings;
-  const haveArchive = sameSettings && existsSync(districtsPath) && existsSync(waterPath) && readdirSync(archive).some((f) => f.endsWith('.tif'));
-  if (!haveArchive) {
-    if (existsSync(archive)) {
-      // An archive of other settings: its scenes would mix with the new ones.
-      for (const f of readdirSync(archive)) if (f.startsWith(`${CITY_SLUG}_`) && f.endsWith('.tif')) await rm(join(archive, f));
-      if (existsSync(resolve(runtimeConfig({ dataDir: opts.dataDir }).dataDir))) {
+  const { prepareDemoArchive } = await import('./demo-archive.js');
+  const hadFolder = existsSync(archive);
+  const state = await prepareDemoArchive({
+    dir: archive,
+    settingsFile: `${CITY_SLUG}_archive.json`,
+    settings: DEMO_ARCHIVE,
+    isComplete: () => existsSync(districtsPath) && existsSync(waterPath) && readdirSync(archive).some((f) => f.endsWith('.tif')),
+    generate: async () => {
+      if (hadFolder && existsSync(resolve(runtimeConfig({ dataDir: opts.dataDir }).dataDir))) {
         process.stderr.write(`Note: the demo archive changed; remove ${resolve(runtimeConfig({ dataDir: opts.dataDir }).dataDir)} for a store that holds only the new archive's scenes\n`);
       }
-    }
-    process.stderr.write(`Generating the demo archive of ${CITY_NAME} (an invented city) in ${archive} ...\n`);
-    const progress = startProgress({ label: 'generated scenes', total: 0 });
-    try {
-      await generateArchive(archive, {
-        firstYear: DEMO_ARCHIVE.firstYear, years: DEMO_ARCHIVE.years, pairsPerYear: DEMO_ARCHIVE.pairsPerYear,
-        trendsKelvinPerYear: Object.fromEntries(DISTRICTS.map((d) => [d.id, d.trendKelvinPerYear * DEMO_ARCHIVE.warmingScale])),
-        nightAsThermal: DEMO_ARCHIVE.nightAsThermal,
-      }, (written, total) => progress.update(written, '', total));
-    } finally {
-      progress.stop();
-    }
-    await writeFile(settingsPath, settings + '\n');
-  } else {
-    process.stderr.write(`Using the demo archive in ${archive}\n`);
-  }
+      process.stderr.write(`Generating the demo archive of ${CITY_NAME} (an invented city) in ${archive} ...\n`);
+      const progress = startProgress({ label: 'generated scenes', total: 0 });
+      try {
+        await generateArchive(archive, {
+          firstYear: DEMO_ARCHIVE.firstYear, years: DEMO_ARCHIVE.years, pairsPerYear: DEMO_ARCHIVE.pairsPerYear,
+          trendsKelvinPerYear: Object.fromEntries(DISTRICTS.map((d) => [d.id, d.trendKelvinPerYear * DEMO_ARCHIVE.warmingScale])),
+          nightAsThermal: DEMO_ARCHIVE.nightAsThermal,
+        }, (written, total) => progress.update(written, '', total));
+      } finally {
+        progress.stop();
+      }
+    },
+  });
+  if (state === 'ready') process.stderr.write(`Using the demo archive in ${archive}\n`);
   const config = runtimeConfig({ dataDir: opts.dataDir });
   const { runPipeline } = await import('../run/pipeline.js');
   const { openConfiguredStore } = await import('../store/configured.js');

@@ -18,6 +18,7 @@ import { PRECISION, snakeCaseKeys } from '../format.js';
 import { VERSION } from '../version.js';
 import type { Store } from '../store/interface.js';
 import { checkOutPath, writeCsvFile, writeGeoJsonFile, writeParquetFile, writeSidecarFile, sidecarPath } from './export-files.js';
+import { requireValuesInYears } from '../store/store-summary.js';
 import { withStore } from './common.js';
 
 export const EXPORT_FORMATS = ['csv', 'geojson', 'parquet'] as const;
@@ -177,7 +178,10 @@ export async function writeExport(store: Store, spec: ExportSpec): Promise<Expor
 
 export async function runExportCommand(opts: ExportCommandOptions): Promise<void> {
   const spec = await exportSpec(opts);
-  const result = await withStore(opts, (store) => writeExport(store, spec));
+  const result = await withStore(opts, async (store) => {
+    await requireValuesInYears(store, { from: spec.from ?? undefined, to: spec.to ?? undefined });
+    return writeExport(store, spec);
+  });
   if (result.count === 0) process.stderr.write('heatledger: the store holds no derived rows for this export; the file has a header only. Run `heatledger ingest` first or widen --from/--to\n');
   process.stdout.write(`${result.path} (${result.count} ${spec.format === 'geojson' ? 'districts' : 'rows'})\n${result.sidecar}\n`);
 }

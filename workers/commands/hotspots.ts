@@ -8,6 +8,7 @@ import type { Hemisphere, SeasonName } from '../core/trend/index.js';
 import type { MoranResult, WeightsKind } from '../core/hotspot/index.js';
 import { formatRows, PRECISION, roundNumber, type OutputFormat, type Row } from '../format.js';
 import { SERIES_METRICS, type SeriesMetric } from '../store/series.js';
+import { requireValuesInYears } from '../store/store-summary.js';
 import { CAUTION_SHORT, withStore } from './common.js';
 import { metricUnit } from './trend.js';
 import { districtHotspots, type HotspotRow } from '../store/district-statistics.js';
@@ -73,6 +74,7 @@ export async function runHotspotsCommand(o: HotspotsCommandOptions): Promise<voi
   if (!(o.toleranceMetres >= 0)) throw new InputError(`--tolerance-metres must be ≥ 0, got ${o.toleranceMetres}`);
   const metric = o.metric as SeriesMetric;
   await withStore(o, async (store) => {
+    await requireValuesInYears(store, { from, to });
     const report = await districtHotspots(store, {
       metric, from, to, season: o.season, months: o.months, hemisphere: o.hemisphere, weights: o.weights, k: o.k,
       toleranceMetres: o.toleranceMetres, fdr: o.fdr, minDates: o.minDates,

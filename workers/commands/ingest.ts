@@ -1,4 +1,5 @@
 import { InputError, isServiceError, ServiceError } from '../core/errors.js';
+import { envNumber } from '../config.js';
 import { runtimeConfig } from '../run/config.js';
 import { parsePlausible } from './common.js';
 import { startProgress } from './progress.js';
@@ -106,7 +107,12 @@ export function sceneProgressDisplay(): { onProgress: NonNullable<PipelineOption
   };
 }
 
-export async function runIngestCommand(inputs: string[], opts: IngestCommandOptions): Promise<void> {
+export async function runIngestCommand(inputs: string[], given: IngestCommandOptions): Promise<void> {
+  const opts: IngestCommandOptions = {
+    ...given,
+    serviceRetryBudget: given.serviceRetryBudget ?? envNumber('serviceRetryBudget'),
+    stallTimeout: given.stallTimeout ?? envNumber('stallTimeout'),
+  };
   if (!(opts.minValidFraction >= 0 && opts.minValidFraction <= 1)) throw new InputError(`--min-valid-fraction must be between 0 and 1, got ${opts.minValidFraction}`);
   if (!(opts.pairingWindow > 0)) throw new InputError(`--pairing-window must be positive hours, got ${opts.pairingWindow}`);
   if (!(opts.albedoWindow > 0)) throw new InputError(`--albedo-window must be positive days, got ${opts.albedoWindow}`);
@@ -155,7 +161,7 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
   } else {
     process.stdout.write(summaryLines(summary).join('\n') + '\n');
   }
-  throwIfRunFailed(summary);
+  throwIfRunFailed(summary, opts.json ? 'json' : 'lines');
 }
 
 /**
@@ -166,8 +172,10 @@ export async function runIngestCommand(inputs: string[], opts: IngestCommandOpti
  * stored every scene it could but refused some files as bad input (unreadable
  * paths, corrupt GeoTIFFs) ends with an InputError after the summary (exit 2);
  * the refused files stay in the store with their reasons for `heatledger status`.
+ * `printed` says where the summary went (lines, or `--json`), so the message
+ * says where the list of refused files is.
  */
-export function throwIfRunFailed(summary: PipelineSummary): void {
+export function throwIfRunFailed(summary: PipelineSummary, printed: 'lines' | 'json' = 'lines'): void {
   const o = summary.outcome;
   if (o.status === 'succeeded') return;
   if (o.status === 'failed') throw new Error(`run ${summary.runId} failed: ${o.error ?? 'the derive step did not complete'}`);
@@ -178,7 +186,10 @@ export function throwIfRunFailed(summary: PipelineSummary): void {
       unreadable ? `${unreadable} path(s) could not be read` : '',
       failedJobs ? `${failedJobs} scene job(s) failed` : '',
     ].filter(Boolean).join(' and ');
-    throw new InputError(`run ${summary.runId}: ${what} (listed above and in \`heatledger status\`); the other scenes are stored`);
+    // where the list is: the lines printed above, or the keys of the JSON summary on standard output
+    const keys = [unreadable ? '"unreadable"' : '', failedJobs ? '"failures"' : ''].filter(Boolean).join(' and ');
+    const where = printed === 'json' ? `listed under ${keys} in the JSON summary on standard output` : 'listed above';
+    throw new InputError(`run ${summary.runId}: ${what} (${where} and in \`heatledger status\`); the other scenes are stored`);
   }
   const left = [
     o.scenesLeft > 0 ? `${o.scenesLeft} of ${summary.scenes} scene(s) not finished` : '',

@@ -6,6 +6,7 @@
 import { mkdir, writeFile } from 'node:fs/promises';
 import { dirname, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
+import { yearsWithValuesIn } from '../store/store-summary.js';
 import { quoteGiven, YEAR_MAX, YEAR_MIN } from '../core/year.js';
 import type { SeasonName } from '../core/trend/index.js';
 import { ENV } from '../config.js';
@@ -56,10 +57,9 @@ export async function buildReportHtml(store: Store, o: Pick<ReportCommandOptions
   const { reportFigures } = await import('../../api/report/figures.js');
   const { reportHtml } = await import('../../api/report/document.js');
   const answers = apiAnswers(store);
-  const years = (await answers.health()).years;
-  if (years.length === 0) throw new InputError('the store holds no district values yet: run `heatledger ingest` first');
+  const years = yearsWithValuesIn((await answers.health()).years, {});
   const year = o.year ?? Math.max(...years);
-  if (!years.includes(year)) throw new InputError(`--year ${year}: the store has no district values for it (years with values: ${years.join(', ')})`);
+  yearsWithValuesIn(years, { from: year, to: year });
   const earlier = years.filter((y) => y < year).sort((a, b) => a - b);
   const baseline = o.baseline ?? (earlier.length ? { from: earlier[0], to: earlier[Math.min(DEFAULT_BASELINE_YEARS, earlier.length) - 1] } : { from: year, to: year });
   const data = await gatherReportData(store, { year, season: o.season, baseline, units: o.units, alpha: o.alpha }, answers, VERSION);

@@ -1,16 +1,10 @@
-import { DEFAULT_API_PORT, ENV } from '../config.js';
+import { DEFAULT_API_PORT, ENV, envNumber } from '../config.js';
 import { InputError } from '../core/errors.js';
-import { quoteGiven } from '../core/year.js';
 import { withStore } from './common.js';
 
 /** The port from --port, else the environment, else the default; 0 asks the system for a free port. */
 function resolvePort(option: number | undefined): number {
-  if (option !== undefined) return option;
-  const text = process.env[ENV.apiPort];
-  if (text === undefined || text === '') return DEFAULT_API_PORT;
-  const n = /^[0-9]{1,5}$/.test(text) ? Number(text) : NaN;
-  if (!(n >= 0 && n <= 65535)) throw new InputError(`${ENV.apiPort} must be a port from 0 to 65535 in decimal digits, got ${quoteGiven(text)}`);
-  return n;
+  return option ?? envNumber('apiPort') ?? DEFAULT_API_PORT;
 }
 
 /** A listen failure the user can fix by choosing another port or address (exit 2), in one sentence. */
@@ -20,15 +14,6 @@ function listenError(e: unknown, port: number, host: string): unknown {
   if (code === 'EACCES') return new InputError(`port ${port} on ${host} needs privileges this user does not have; choose a port above 1023`);
   if (code === 'EADDRNOTAVAIL' || code === 'ENOTFOUND' || code === 'EAI_AGAIN') return new InputError(`cannot listen on ${host}: it is not an address of this machine; choose another with --host or ${ENV.apiHost}`);
   return e;
-}
-
-/** A count per minute from the environment (decimal digits, 1 to 1e9), else the default. */
-function perMinute(name: string, fallback: number): number {
-  const text = process.env[name];
-  if (text === undefined || text === '') return fallback;
-  const n = /^[0-9]{1,10}$/.test(text) ? Number(text) : NaN;
-  if (!(n >= 1 && n <= 1e9)) throw new InputError(`${name} must be a whole number of requests per minute from 1 to 1000000000, got ${quoteGiven(text)}`);
-  return n;
 }
 
 /** A token from the environment: unset or empty = none; otherwise printable ASCII without blanks, at least 16 characters. */
@@ -51,8 +36,8 @@ export async function runServeCommand(opts: { port?: number; host?: string; data
   const token = tokenFromEnv(ENV.apiToken);
   const readToken = tokenFromEnv(ENV.apiReadToken);
   const corsOrigin = process.env[ENV.corsOrigin] || undefined;
-  const readsPerMinute = perMinute(ENV.readsPerMinute, DEFAULT_READS_PER_MINUTE);
-  const writesPerMinute = perMinute(ENV.writesPerMinute, DEFAULT_WRITES_PER_MINUTE);
+  const readsPerMinute = envNumber('readsPerMinute') ?? DEFAULT_READS_PER_MINUTE;
+  const writesPerMinute = envNumber('writesPerMinute') ?? DEFAULT_WRITES_PER_MINUTE;
   const { serveIngestJobs } = await import('./serve-jobs.js');
   await withStore(opts, async (store) => {
     const jobs = dataRoot && token ? serveIngestJobs({ dataRoot, dataDir: opts.dataDir, store }) : undefined;

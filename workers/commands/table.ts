@@ -2,6 +2,7 @@ import { InputError } from '../core/errors.js';
 import { YEAR_MAX, YEAR_MIN } from '../core/year.js';
 import { formatRows, type OutputFormat, type Row } from '../format.js';
 import { districtTable, roundTableRows, TABLE_FIELDS, TABLE_LABELS } from '../store/district-table.js';
+import { requireValuesInYears } from '../store/store-summary.js';
 import { withStore } from './common.js';
 
 export interface TableCommandOptions {
@@ -24,6 +25,7 @@ export async function runTableCommand(opts: TableCommandOptions): Promise<void> 
     throw new InputError(`--year must be a year from ${YEAR_MIN} to ${YEAR_MAX}, got ${opts.year}`);
   }
   await withStore(opts, async (store) => {
+    if (opts.year !== undefined) await requireValuesInYears(store, { from: opts.year, to: opts.year });
     const rows = await districtTable(store, opts.level, opts.year);
     if (rows.length === 0 && opts.format === 'table') {
       process.stderr.write('heatledger: the store holds no derived rows yet; run `heatledger ingest` first\n');

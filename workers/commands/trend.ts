@@ -15,6 +15,7 @@ import { districtTrends, metricUnit, roundTrendRow } from '../store/district-sta
 
 /** Where the trend table's units and rounding live (the API rounds the same way). */
 export { metricUnit, roundTrendRow };
+import { requireValuesInYears } from '../store/store-summary.js';
 import { CAUTION_SHORT, withStore } from './common.js';
 
 export interface TrendCommandOptions {
@@ -99,6 +100,7 @@ export async function runTrendCommand(o: TrendCommandOptions): Promise<void> {
   }
   const metric = o.metric as SeriesMetric;
   await withStore(o, async (store) => {
+    await requireValuesInYears(store, { from: o.from, to: o.to });
     const { rows, selection } = await districtTrends(store, {
       metric, season: o.season, months: o.months, hemisphere: o.hemisphere, from: o.from, to: o.to, districts: o.district,
       alpha: o.alpha, serialCorrection: corrected ? 'hamed-rao' : 'none', ciRanks: o.ciRanks, minDates: o.minDates, seasonalKendall: o.seasonalKendall,

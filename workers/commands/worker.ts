@@ -1,5 +1,6 @@
 import { InputError } from '../core/errors.js';
-import { ENV } from '../config.js';
+import { ENV, envNumber } from '../config.js';
+import { STALLED_INTERVAL_MS } from '../queue/configured.js';
 import { createLogger, logLevelFromEnv } from '../log.js';
 import { runtimeConfig } from '../run/config.js';
 
@@ -11,7 +12,11 @@ import { runtimeConfig } from '../run/config.js';
  * failed (warn), a job refused as bad input and connection errors (error),
  * jobs taken and the processors' own lines (debug).
  */
-export async function runWorkerCommand(opts: { concurrency: number; stalledInterval: number }): Promise<void> {
+export async function runWorkerCommand(options: { concurrency?: number; stalledInterval?: number }): Promise<void> {
+  const opts = {
+    concurrency: options.concurrency ?? envNumber('concurrency') ?? 1,
+    stalledInterval: options.stalledInterval ?? envNumber('stalledInterval') ?? STALLED_INTERVAL_MS / 1000,
+  };
   const config = runtimeConfig();
   if (!config.redisUrl) throw new InputError(`heatledger worker needs ${ENV.redisUrl} (the Redis the jobs are queued on)`);
   if (!config.databaseUrl) throw new InputError(`heatledger worker needs ${ENV.databaseUrl} (the PostgreSQL server all workers write to)`);

@@ -86,6 +86,15 @@ export async function zonalTable(options: ZonalTableOptions): Promise<ZonalTable
   const raster = await openRaster(options.rasterPath);
   let qa: RasterFile | null = null;
   try {
+    // a Level-1 thermal DN scene needs its calibration and emissivity to become LST (ingest does that);
+    // its digital numbers read as temperatures would all be implausible
+    if (sceneKind(raster.header, undefined, undefined) === 'thermal') {
+      throw new InputError(
+        'is a Level-1 thermal DN scene, which zonal does not convert to LST; `heatledger ingest` converts thermal DN scenes ' +
+          '(its --write-lst DIR writes their LST as GeoTIFFs that zonal reads)',
+        options.rasterPath,
+      );
+    }
     const crs = rasterCrs(raster.header);
     const all = rural ? [...districts, rural] : districts;
     const targets = all.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) }));

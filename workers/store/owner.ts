@@ -31,10 +31,31 @@ const RETRY_PAUSE_MS = 100;
 
 const pause = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
-/** The command this process runs (`ingest`, `serve`, ...), for the lock file. */
+/** The subcommand the CLI is running, set by the CLI before its action runs. */
+let runningCommand: string | null = null;
+
+/** Record the subcommand this process runs (`ingest`, `serve`, ...); the CLI calls it before each action. */
+export function setCurrentCommand(name: string): void {
+  runningCommand = name;
+}
+
+/**
+ * The command this process runs (`ingest`, `serve`, ...), for the lock file:
+ * the subcommand the CLI recorded, however it was started (`node cli.js`, the
+ * bin link npm makes in node_modules/.bin, `npx`, a global install). Without
+ * one (a library caller), the subcommand when the script is the CLI after
+ * following links, else the script's name.
+ */
 export function currentCommand(): string {
+  if (runningCommand) return runningCommand;
   const script = process.argv[1] ?? '';
-  if (/cli\.(js|ts)$/.test(script) && process.argv[2]) return process.argv[2];
+  let real = script;
+  try {
+    if (script) real = fs.realpathSync(script);
+  } catch {
+    // a script that is gone: its name as given
+  }
+  if (/cli\.(js|ts)$/.test(real) && process.argv[2]) return process.argv[2];
   return path.basename(script || process.argv0);
 }
 

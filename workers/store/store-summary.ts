@@ -3,6 +3,7 @@
  * the schema version, the run that finished last and the years with values.
  * The API's health answer and its response tags (ETag) come from here.
  */
+import { InputError } from '../core/errors.js';
 import type { UtcIso } from '../core/units.js';
 import { namedQuery } from './queries.js';
 import type { Db } from './db.js';
@@ -31,4 +32,40 @@ export async function runMarks(db: Db): Promise<{ last: { id: number; state: str
     last: r.id === null ? null : { id: Number(r.id), state: String(r.status), finished_at: r.finished_at as UtcIso },
     runningId: r.running_id === null ? null : Number(r.running_id),
   };
+}
+
+/** Years as short runs: [2015, 2016, 2017, 2020] → "2015-2017, 2020". */
+export function yearRuns(years: readonly number[]): string {
+  const sorted = [...new Set(years)].sort((a, b) => a - b);
+  const runs: string[] = [];
+  for (let i = 0; i < sorted.length; i++) {
+    let j = i;
+    while (j + 1 < sorted.length && sorted[j + 1] === sorted[j] + 1) j++;
+    runs.push(i === j ? String(sorted[i]) : `${sorted[i]}-${sorted[j]}`);
+    i = j;
+  }
+  return runs.join(', ');
+}
+
+/**
+ * The one check that the years a command asks for hold district values: of
+ * `years` (the store's years with values), those within [from, to] (either end
+ * open). Throws an InputError (exit 2) naming the years asked and the years
+ * the store has when there are none, or saying that the store holds no values.
+ */
+export function yearsWithValuesIn(years: readonly number[], range: { from?: number; to?: number }): number[] {
+  if (years.length === 0) throw new InputError('the store holds no district values yet: run `heatledger ingest` first');
+  const inRange = years.filter((y) => (range.from === undefined || y >= range.from) && (range.to === undefined || y <= range.to));
+  if (inRange.length === 0) {
+    const asked = range.from !== undefined && range.from === range.to ? String(range.from)
+      : range.from !== undefined && range.to !== undefined ? `${range.from}-${range.to}`
+        : range.from !== undefined ? `${range.from} or later` : `${range.to} or earlier`;
+    throw new InputError(`no district values for ${asked}; the store has ${yearRuns(years)}`);
+  }
+  return inRange;
+}
+
+/** yearsWithValuesIn on the store's own years with values. */
+export async function requireValuesInYears(db: Db, range: { from?: number; to?: number }): Promise<number[]> {
+  return yearsWithValuesIn((await storeSummary(db)).years, range);
 }

@@ -42,8 +42,11 @@ const obj = (properties: Record<string, unknown>, required = Object.keys(propert
 const arr = (items: unknown) => ({ type: 'array', items }) as const;
 const cursor = { type: ['string', 'null'], description: 'pass as cursor to get the next page; null on the last page' } as const;
 
-/** An error body: one sentence naming the parameter and what it accepts. */
-export const ERROR_BODY = obj({ error: { type: 'string' } });
+/** An error body: one sentence naming the parameter and what it accepts; a year without values also lists those with values. */
+export const ERROR_BODY = obj({
+  error: { type: 'string' },
+  years: { ...arr({ type: 'integer' }), description: 'on a year that has no values: the years that have values' },
+}, ['error']);
 
 export const UNITS_BODY = obj({ lst_day_k: { type: 'string' }, lst_night_k: { type: 'string' }, suhi_day_k: { type: 'string' }, suhi_night_k: { type: 'string' }, ati_per_k: { type: 'string' } });
 

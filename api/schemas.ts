@@ -152,12 +152,14 @@ export const STATUS_BODY = obj({
   })),
 });
 
+const JOB_ID_FIELD = { type: 'string', description: 'the job id, as POST /api/ingest answered it' } as const;
+
 export const JOB_BODY = obj({
-  id: { type: 'string' }, state: { type: 'string', enum: ['queued', 'running', 'succeeded', 'incomplete', 'failed'] },
+  job_id: JOB_ID_FIELD, id: { type: 'string', description: 'the same as job_id (kept for earlier clients)' }, state: { type: 'string', enum: ['queued', 'running', 'succeeded', 'incomplete', 'failed'] },
   scenes_asked: { type: 'integer' }, scenes_done: { type: 'integer' }, scenes_failed: { type: 'integer' }, run_id: int, errors: arr({ type: 'string' }),
 });
 
-export const INGEST_BODY = obj({ job_id: { type: 'string' } });
+export const INGEST_BODY = obj({ job_id: JOB_ID_FIELD });
 
 export const INGEST_REQUEST = {
   type: 'object', additionalProperties: false, required: ['files'],

@@ -155,9 +155,10 @@ function drawMapAndLegend(): void {
   const title = `${METRICS[m].label}, ${SEASON_WORDS[state.season]} ${view.year}`;
   $('map-heading').textContent = title;
   const fmt = (v: number | null) => (v === null ? 'no data' : `${formatValue(m, v)} ${u}`);
-  $('map').innerHTML = drawMap(features, { width: mapWidth(), classes, formatValue: fmt, title: `Map: ${title}`, selectedId: state.district, spots, idPrefix: 'map', fit: 'districts', margin: 0.02 }).svg;
+  const drawn = drawMap(features, { width: mapWidth(), classes, formatValue: fmt, title: `Map: ${title}`, selectedId: state.district, spots, idPrefix: 'map', fit: 'districts', margin: 0.02 });
+  $('map').innerHTML = drawn.svg;
   const note = METRICS[m].kind === 'difference' ? 'below 0: cooler than the rural reference' : METRICS[m].kind === 'inertia' ? 'higher: the surface holds its heat longer' : undefined;
-  $('legend').innerHTML = drawLegend(classes, { title: `${METRICS[m].short}, ${u}`, note, idPrefix: 'legend', width: 260, rural: features.some((f) => f.role === 'rural') }).svg;
+  $('legend').innerHTML = drawLegend(classes, { title: `${METRICS[m].short}, ${u}`, note, idPrefix: 'legend', width: 260, rural: drawn.ruralInView }).svg;
   drawSpotsKey();
 }
 

@@ -111,6 +111,25 @@ export function forD3(feature: Feature<Geometry>): Feature<Geometry> {
   return feature;
 }
 
+/**
+ * Texts on a white halo: the halo is each text again, through <use> (no second copy of the words
+ * in the document), stroked white under the texts. A text drawn with both a stroke and a fill
+ * (paint-order) becomes two text runs in a PDF printed by Chromium, so text extraction (pdftotext,
+ * copy and paste, screen readers of the PDF) met every word twice; the halo group carries a filter
+ * that changes nothing (an offset of 0), which makes the printer draw it as a picture, not as text.
+ * `texts` are <text> elements with their ids; `style` the text attributes they share.
+ */
+function haloedTexts(prefix: string, kind: string, texts: readonly { id: string; svg: string }[], style: Record<string, string | number>): string[] {
+  const ids = texts.map((t) => t.id);
+  return [
+    `<g${attrs({ class: `hl-halos hl-halos-${kind}`, 'aria-hidden': 'true', ...style, fill: HALO, stroke: HALO, 'stroke-width': 3, 'stroke-linejoin': 'round', filter: `url(#${prefix}-halo)`, 'pointer-events': 'none' })}>` +
+      ids.map((id) => `<use${attrs({ href: `#${id}` })}/>`).join('') + '</g>',
+    `<g${attrs({ class: kind === 'labels' ? 'hl-labels' : `hl-${kind}-labels`, ...style, 'pointer-events': 'none' })}>`,
+    ...texts.map((t) => t.svg),
+    '</g>',
+  ];
+}
+
 /** Vertices of the interior rings (holes) of a polygon geometry, lon/lat. */
 function holeVertices(g: Geometry): number[][] {
   return polygonsOf(g).flatMap((p) => p.slice(1).flat());
@@ -299,7 +318,8 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
     `<svg xmlns="http://www.w3.org/2000/svg"${attrs({ viewBox: `0 0 ${width} ${height}`, width, height, role: 'img', 'aria-labelledby': `${p}-map-title`, class: 'hl-map' })}>`,
     `<title id="${esc(p)}-map-title">${esc(o.title)}</title>`,
     `<defs><pattern id="${esc(hatch)}" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)">` +
-      `<rect width="6" height="6" fill="#ffffff"/><line x1="0" y1="0" x2="0" y2="6" stroke="#6b6b6b" stroke-width="2"/></pattern></defs>`,
+      `<rect width="6" height="6" fill="#ffffff"/><line x1="0" y1="0" x2="0" y2="6" stroke="#6b6b6b" stroke-width="2"/></pattern>` +
+      `<filter id="${esc(p)}-halo"><feOffset dx="0" dy="0"/></filter></defs>`,
   );
 
   const rural = drawable.filter((f) => f.role === 'rural');
@@ -319,12 +339,15 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
   parts.push('</g>');
 
   // "no data" written on the districts that have no value (with labels on, under the name instead)
+  const noDataTexts: { id: string; svg: string }[] = [];
   for (const f of o.labels ? [] : districts.filter((x) => classOf(o.classes, x.value) === null)) {
     const at = labelPoint(f.geometry as Geometry, projection);
     const [cx, cy] = at ? [at.x, at.y] : path.centroid(asD3.get(f.id) as Feature<Geometry>);
     if (!Number.isFinite(cx) || !Number.isFinite(cy)) continue;
-    parts.push(`<text${attrs({ class: 'hl-nodata-label', x: px(cx), y: px(cy), 'text-anchor': 'middle', 'dominant-baseline': 'middle', 'font-size': 10, fill: '#1a1a1a', stroke: '#ffffff', 'stroke-width': 3, 'paint-order': 'stroke', 'pointer-events': 'none' })}>no data</text>`);
+    const id = `${p}-nodata-${noDataTexts.length}`;
+    noDataTexts.push({ id, svg: `<text${attrs({ class: 'hl-nodata-label', id, x: px(cx), y: px(cy), 'dominant-baseline': 'middle' })}>no data</text>` });
   }
+  if (noDataTexts.length) parts.push(...haloedTexts(p, 'nodata', noDataTexts, { 'font-size': 10, 'text-anchor': 'middle', fill: '#1a1a1a' }));
 
   if (o.spots) {
     parts.push('<g class="hl-spots" pointer-events="none">');
@@ -380,15 +403,15 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
       l.lines = classOf(o.classes, l.f.value) === null ? [n, 'no data'] : [n];
       key.push({ id: l.f.id, name: l.f.name, label: n });
     });
-    parts.push(`<g${attrs({ class: 'hl-labels', 'font-size': size, 'font-weight': 600, 'text-anchor': 'middle', fill: '#111111', stroke: HALO, 'stroke-width': 3, 'stroke-linejoin': 'round', 'paint-order': 'stroke', 'pointer-events': 'none' })}>`);
-    for (const { f, at, lines, numbered: isNumber } of labelled.sort((a, b) => districts.indexOf(a.f) - districts.indexOf(b.f))) {
+    const texts = labelled.sort((a, b) => districts.indexOf(a.f) - districts.indexOf(b.f)).map(({ f, at, lines, numbered: isNumber }, i) => {
       // lines centred on the label point; a baseline sits about 0.35 em below the middle of its line
       const first = at.y - ((lines.length - 1) * lineHeight) / 2 + size * 0.35;
-      parts.push(`<text${attrs({ class: isNumber ? 'hl-label hl-label-number' : 'hl-label', 'data-id': f.id, 'data-x': px(at.x), 'data-y': px(at.y), x: px(at.x), y: px(first) })}>` +
-        lines.map((line, i) => (i === 0 ? esc(line) : `<tspan${attrs({ x: px(at.x), dy: px(lineHeight) })}>${esc(line)}</tspan>`)).join('') +
-        `<title>${esc(f.name)}</title></text>`);
-    }
-    parts.push('</g>');
+      const id = `${p}-label-${i}`;
+      return { id, svg: `<text${attrs({ class: isNumber ? 'hl-label hl-label-number' : 'hl-label', 'data-id': f.id, id, 'data-x': px(at.x), 'data-y': px(at.y), x: px(at.x), y: px(first) })}>` +
+        lines.map((line, k) => (k === 0 ? esc(line) : `<tspan${attrs({ x: px(at.x), dy: px(lineHeight) })}>${esc(line)}</tspan>`)).join('') +
+        `<title>${esc(f.name)}</title></text>` };
+    });
+    parts.push(...haloedTexts(p, 'labels', texts, { 'font-size': size, 'font-weight': 600, 'text-anchor': 'middle', fill: '#111111' }));
   }
 
   if (o.selectedId) {

@@ -243,6 +243,19 @@ describe.skipIf(!hasChromium)('the web page', () => {
     expect(caution).toMatch(/skin/);
   });
 
+  it('an address naming a year without values (the API answers 404) shows the latest year that has them, and says so', async () => {
+    const refused = await fetch(`${origin}/api/districts?year=2031&season=summer&metric=suhi_night`);
+    expect(refused.status).toBe(404);
+    const p = await openPage('/?metric=suhi_night&year=2031', 1280);
+    try {
+      expect(await p.locator('#year').inputValue()).toBe(String(latest));
+      expect(await p.locator('#status').innerText()).toBe('2031 has no values for the summer; showing the latest year that has.');
+      expectFillsMatchLegend(await drawnMap(p), await districtsOf(latest, 'suhi_night'));
+    } finally {
+      await p.context().close();
+    }
+  });
+
   it('clicking a district shows its years (one point per year) and the sentence of the API trend', async () => {
     const name = (await districtsOf(latest, 'suhi_night')).features.find((f) => f.id === WARMING)!.properties.name;
     const at = await pointInDistrict(page, WARMING);

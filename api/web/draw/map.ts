@@ -174,7 +174,11 @@ function outlineMeetsBox(g: Geometry, projection: GeoProjection, w: number, h: n
   return false;
 }
 
-/** How much farther than the nearest vertex a vertex of the inner edge may lie from the districts (a share; common practice, no source). */
+/**
+ * How much farther than the nearest vertex a vertex of the inner edge may lie from the districts, as a
+ * share: a buffered ring keeps one distance from the city up to the simplification of the outlines;
+ * a quarter is our choice of room for that (it leaves out the far reaches of cuts across the ring).
+ */
 const INNER_EDGE_SLACK = 0.25;
 /** A rural reference farther from the districts than this many times their extent is left out of view. */
 const RURAL_REACH = 1.5;

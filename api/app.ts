@@ -21,7 +21,7 @@ import { InputError, isInputError } from '../workers/core/errors.js';
 import { quoteGiven } from '../workers/core/year.js';
 import { CAUTION_TEXT } from '../workers/core/defaults.js';
 import { VERSION } from '../workers/version.js';
-import { noMemo, UNITS } from './answers/common.js';
+import { noMemo, UNITS, YearWithoutValuesError } from './answers/common.js';
 import { freshRead, RunCache } from './cache.js';
 import { checkBearer } from './tokens.js';
 import { registerReadRoutes } from './routes.js';
@@ -172,6 +172,7 @@ export function buildApp(store: Store, options: AppOptions = {}): FastifyInstanc
   app.setErrorHandler((err: FastifyError, req, reply) => {
     if (err.validation) return reply.status(400).send({ error: err.message });
     if (err.code === 'FST_ERR_CTP_BODY_TOO_LARGE') return reply.status(400).send({ error: `request body is larger than the ${BODY_LIMIT_BYTES} bytes this server accepts` });
+    if (err instanceof YearWithoutValuesError) return reply.status(404).send({ error: err.message, years: err.years });
     if (isInputError(err)) return reply.status(err.statusCode === 404 ? 404 : 400).send({ error: err.message });
     if (err.name === 'ServiceError') {
       req.log.error({ err }, 'the store did not answer');

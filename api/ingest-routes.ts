@@ -78,6 +78,7 @@ export function registerIngestRoutes(
   }, async (req, reply) => {
     const job = o.jobs ? await o.jobs.get(req.params.id) : null;
     if (!job) return reply.status(404).send({ error: `no job with id ${JSON.stringify(req.params.id)} on this server` });
-    return job;
+    // job_id as POST /api/ingest names it; id kept for clients written against the earlier answer
+    return { job_id: job.id, ...job };
   });
 }

@@ -42,8 +42,11 @@ const obj = (properties: Record<string, unknown>, required = Object.keys(propert
 const arr = (items: unknown) => ({ type: 'array', items }) as const;
 const cursor = { type: ['string', 'null'], description: 'pass as cursor to get the next page; null on the last page' } as const;
 
-/** An error body: one sentence naming the parameter and what it accepts. */
-export const ERROR_BODY = obj({ error: { type: 'string' } });
+/** An error body: one sentence naming the parameter and what it accepts; a year without values also lists those with values. */
+export const ERROR_BODY = obj({
+  error: { type: 'string' },
+  years: { ...arr({ type: 'integer' }), description: 'on a year that has no values: the years that have values' },
+}, ['error']);
 
 export const UNITS_BODY = obj({ lst_day_k: { type: 'string' }, lst_night_k: { type: 'string' }, suhi_day_k: { type: 'string' }, suhi_night_k: { type: 'string' }, ati_per_k: { type: 'string' } });
 
@@ -149,12 +152,14 @@ export const STATUS_BODY = obj({
   })),
 });
 
+const JOB_ID_FIELD = { type: 'string', description: 'the job id, as POST /api/ingest answered it' } as const;
+
 export const JOB_BODY = obj({
-  id: { type: 'string' }, state: { type: 'string', enum: ['queued', 'running', 'succeeded', 'incomplete', 'failed'] },
+  job_id: JOB_ID_FIELD, id: { type: 'string', description: 'the same as job_id (kept for earlier clients)' }, state: { type: 'string', enum: ['queued', 'running', 'succeeded', 'incomplete', 'failed'] },
   scenes_asked: { type: 'integer' }, scenes_done: { type: 'integer' }, scenes_failed: { type: 'integer' }, run_id: int, errors: arr({ type: 'string' }),
 });
 
-export const INGEST_BODY = obj({ job_id: { type: 'string' } });
+export const INGEST_BODY = obj({ job_id: JOB_ID_FIELD });
 
 export const INGEST_REQUEST = {
   type: 'object', additionalProperties: false, required: ['files'],

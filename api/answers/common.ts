@@ -54,6 +54,26 @@ export async function seasonSelection(store: Store, season: SeasonName, memo: Me
   return seasonMonths(season, await districtsHemisphere(store, memo));
 }
 
+/**
+ * A year asked for that has no values (for the season asked, when there is one): a 404 naming
+ * the years that have values, which the error body also carries as `years`.
+ */
+export class YearWithoutValuesError extends InputError {
+  readonly statusCode = 404;
+  readonly years: number[];
+  constructor(year: number, years: readonly number[], season?: SeasonName) {
+    const which = season === undefined || season === 'all' ? '' : ` for season ${season}`;
+    const known = years.length ? `years with values${which}: ${years.join(', ')}` : which ? `no year has values${which}` : 'the store has no values yet';
+    super(`query parameter year: ${year} has no values${which} in the store; ${known}`);
+    this.years = [...years];
+  }
+}
+
+/** Refuses (404) a year asked for that is not among `years`, the years with values; no year asked passes. */
+export function requireYearWithValues(year: number | undefined, years: readonly number[], season?: SeasonName): void {
+  if (year !== undefined && !years.includes(year)) throw new YearWithoutValuesError(year, years, season);
+}
+
 const CURSOR_RE = /^[A-Za-z0-9_-]{1,400}$/;
 
 /** An opaque cursor (base64url of a small JSON value). */

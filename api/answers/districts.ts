@@ -9,7 +9,7 @@ import { PRECISION, roundNumber } from '../../workers/format.js';
 import { listDistricts, type DistrictRow, type GeoJsonGeometry, type Store } from '../../workers/store/index.js';
 import { districtSeasonMeans, type DistrictSeasonMeans } from '../../workers/store/district-means.js';
 import {
-  LIMIT_DEFAULT, METRIC_PROPERTY, noMemo, pageByKey, seasonSelection, UNITS,
+  LIMIT_DEFAULT, METRIC_PROPERTY, noMemo, pageByKey, requireYearWithValues, seasonSelection, UNITS,
   type AnswerContext, type Memo, type Metric, type Season,
 } from './common.js';
 
@@ -95,6 +95,7 @@ export async function seasonMeans(store: Store, season: Season, memo: Memo): Pro
 export async function answerDistricts(store: Store, q: DistrictsQuery, ctx: AnswerContext = {}): Promise<DistrictsAnswer> {
   const memo = ctx.memo ?? noMemo;
   const [districts, means] = await Promise.all([storedDistrictRows(store, memo), seasonMeans(store, q.season, memo)]);
+  requireYearWithValues(q.year, means.years, q.season);
   const year = q.year ?? means.years[means.years.length - 1] ?? null;
   const ofYear = year === null ? undefined : means.byYear.get(year);
   const property = METRIC_PROPERTY[q.metric];

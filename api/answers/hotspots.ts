@@ -7,7 +7,7 @@ import { benjaminiHochberg } from '../../workers/core/trend/index.js';
 import { PRECISION, roundNumber } from '../../workers/format.js';
 import { districtHotspots } from '../../workers/store/district-statistics.js';
 import type { Store } from '../../workers/store/index.js';
-import { districtsHemisphere, noMemo, unitOf, type AnswerContext, type Metric, type Season } from './common.js';
+import { districtsHemisphere, noMemo, requireYearWithValues, unitOf, type AnswerContext, type Metric, type Season } from './common.js';
 import { seasonMeans } from './districts.js';
 
 export interface HotspotsQuery {
@@ -38,6 +38,7 @@ export interface HotspotsAnswer {
 export async function answerHotspots(store: Store, q: HotspotsQuery, ctx: AnswerContext = {}): Promise<HotspotsAnswer> {
   const memo = ctx.memo ?? noMemo;
   const means = await seasonMeans(store, q.season, memo);
+  requireYearWithValues(q.year, means.years, q.season);
   const year = q.year ?? means.years[means.years.length - 1] ?? null;
   const fdr = q.fdr ?? false;
   const base = { year, metric: q.metric, season: q.season, unit: unitOf(q.metric), weights: 'queen' as const, fdr, min_dates_per_year: MIN_DATES_PER_YEAR };

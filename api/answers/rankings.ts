@@ -5,7 +5,7 @@
 import { rankChange, rankValues, type RankOrder } from '../../workers/core/ranking.js';
 import { PRECISION, roundNumber } from '../../workers/format.js';
 import type { Store } from '../../workers/store/index.js';
-import { decodeCursor, encodeCursor, LIMIT_DEFAULT, METRIC_PROPERTY, noMemo, unitOf, byteOrder, type AnswerContext, type Metric, type Season } from './common.js';
+import { decodeCursor, encodeCursor, LIMIT_DEFAULT, METRIC_PROPERTY, noMemo, requireYearWithValues, unitOf, byteOrder, type AnswerContext, type Metric, type Season } from './common.js';
 import { seasonMeans, storedDistrictRows } from './districts.js';
 
 export interface RankingsQuery {
@@ -46,6 +46,7 @@ export async function answerRankings(store: Store, q: RankingsQuery, ctx: Answer
   const memo = ctx.memo ?? noMemo;
   const order = q.order ?? 'desc';
   const [districts, means] = await Promise.all([storedDistrictRows(store, memo), seasonMeans(store, q.season, memo)]);
+  requireYearWithValues(q.year, means.years, q.season);
   const year = q.year ?? means.years[means.years.length - 1] ?? null;
   const previousYear = year === null ? null : [...means.years].reverse().find((y) => y < year) ?? null;
   const property = METRIC_PROPERTY[q.metric];

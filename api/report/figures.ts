@@ -29,7 +29,7 @@ export function reportFigures(d: ReportData): ReportFigures {
     d.districts.features.map((f) => ({ id: f.id, name: f.properties.name, role: f.properties.role, geometry: (f.geometry ?? null) as Geometry | null, value: show(f.properties.suhi_night_k) })),
     { width: MAP_WIDTH, maxHeight: 430, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, spots, idPrefix: 'report-map', fit: 'districts', labels: { fontSize: 10 } },
   );
-  const legend = drawLegend(classes, { title: `Night heat island, ${unit}`, note: 'below 0: cooler than the countryside', idPrefix: 'report-legend', width: 250 });
+  const legend = drawLegend(classes, { title: `Night heat island, ${unit}`, note: 'below 0: cooler than the countryside', idPrefix: 'report-legend', width: 250, rural: map.ruralInView });
   const bars = drawRankedBars(
     d.rankingNight.rows.map((r) => ({ id: r.district, name: r.name, value: show(r.value) })),
     { width: FULL_WIDTH, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, unit },

@@ -9,6 +9,7 @@ import { isInputError } from '../../workers/core/errors.js';
 import { seasonMonths } from '../../workers/core/trend/index.js';
 import type { Store } from '../../workers/store/index.js';
 import { getRun, listScenes, thermalPasses } from '../../workers/store/index.js';
+import { YearWithoutValuesError } from '../answers/common.js';
 import { handedOnParameters, relativeInText } from '../../workers/core/relative-paths.js';
 import { storedHemisphere } from '../../workers/store/district-statistics.js';
 import { MIN_DATES_PER_YEAR } from '../../workers/core/defaults.js';
@@ -40,12 +41,21 @@ export async function gatherReportData(store: Store, request: ReportRequest, ans
   const health = await answers.health();
   const districts = await answers.districts({ year, season, metric: 'suhi_night' });
   const prevYear = year - 1;
-  const previous = health.years.includes(prevYear) ? await answers.districts({ year: prevYear, season, metric: 'suhi_night' }) : null;
+  // a calendar year with values may still have none in the season asked: then it is left out
+  const seasonYear = async (y: number): Promise<DistrictsAnswer | null> => {
+    if (!health.years.includes(y)) return null;
+    try {
+      return await answers.districts({ year: y, season, metric: 'suhi_night' });
+    } catch (e) {
+      if (e instanceof YearWithoutValuesError) return null;
+      throw e;
+    }
+  };
+  const previous = await seasonYear(prevYear);
   const baselineYears: DistrictsAnswer[] = [];
   for (let y = request.baseline.from; y <= request.baseline.to; y++) {
-    if (!health.years.includes(y)) continue;
-    const a = await answers.districts({ year: y, season, metric: 'suhi_night' });
-    if (hasValues(a)) baselineYears.push(a);
+    const a = await seasonYear(y);
+    if (a && hasValues(a)) baselineYears.push(a);
   }
   const rankingNight = await answers.rankings({ year, metric: 'suhi_night', season });
   const rankingDay = await answers.rankings({ year, metric: 'suhi_day', season });

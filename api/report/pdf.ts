@@ -15,12 +15,18 @@ export const CHROMIUM_ARGS = [
   '--disable-background-networking', '--disable-component-update', '--disable-sync',
 ] as const;
 
-/** Throws the InputError that tells how to get Chromium when `executable` is missing. */
-export function requireChromium(executable: string, what: string): void {
+/**
+ * Throws the InputError that tells how to get Chromium when `executable` is missing: the Debian
+ * package, or `variable` (the environment variable naming another browser), when the caller reads one.
+ */
+export function requireChromium(executable: string, what: string, variable?: string): void {
   if (existsSync(executable)) return;
-  throw new InputError(
-    `${what} needs the headless browser Chromium, and ${executable} does not exist: install the Debian package "chromium" (apt-get install chromium)${executable === CHROMIUM_PATH ? '' : ' or point the setting at it'}`,
-  );
+  throw new InputError(`${what} needs the headless browser Chromium, and ${executable} does not exist: ${howToGetChromium(variable)}`);
+}
+
+/** What to do when there is no Chromium: install the Debian package, or name another browser in `variable`. */
+export function howToGetChromium(variable?: string): string {
+  return `install the Debian package "chromium" (apt-get install chromium)${variable ? `, or set ${variable} to the path of a Chromium you have` : ''}`;
 }
 
 export interface PrintOptions {

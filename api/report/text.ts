@@ -4,6 +4,7 @@
  * (its `value` holds the number as the API gave it, so a reader's tool, or a
  * test, can check the sentence against the API).
  */
+import { PRECISION, roundNumber, type Precision } from '../../workers/format.js';
 
 export type TemperatureUnit = 'K' | 'C';
 
@@ -45,12 +46,16 @@ export function temperature(kelvin: number | null | undefined, units: Temperatur
 
 /**
  * A stated figure: the shown text inside `<data>`, its value the number the
- * API returned and `data-figure` its name (e.g. "city_suhi_night_k").
+ * API returned (or computed from its answers, as the city's area-weighted mean)
+ * rounded as the API rounds (workers/format.ts: 0.0001 K, also for differences
+ * and slopes per decade; counts and ranks are whole numbers anyway) and
+ * `data-figure` its name (e.g. "city_suhi_night_k").
  */
-export function figure(name: string, value: number | null, shown: string): string {
-  return value === null || !Number.isFinite(value)
+export function figure(name: string, value: number | null, shown: string, precision: Precision = PRECISION.kelvin): string {
+  const rounded = roundNumber(value, precision);
+  return rounded === null
     ? `<data data-figure="${esc(name)}" value="">${esc(shown)}</data>`
-    : `<data data-figure="${esc(name)}" value="${value}">${esc(shown)}</data>`;
+    : `<data data-figure="${esc(name)}" value="${rounded}">${esc(shown)}</data>`;
 }
 
 /** "A", "A and B", "A, B and C". */

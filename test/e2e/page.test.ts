@@ -221,10 +221,39 @@ describe.skipIf(!hasChromium)('the web page', () => {
     // the rural reference is an outline, not a filled district
     expect(await page.locator('#map path.hl-rural').count()).toBe(1);
     expect(await page.locator('#map path.hl-rural').getAttribute('fill')).toBe('none');
+    // its dashed outline, which the legend and the notes name, shows inside the map's view: points along
+    // the drawn path (SVGGeometryElement.getPointAtLength) that fall within the viewBox
+    const inView = await page.evaluate(() => {
+      const svg = document.querySelector('#map svg') as SVGSVGElement;
+      const rural = svg.querySelector('path.hl-rural') as SVGPathElement;
+      const { width, height } = svg.viewBox.baseVal;
+      const total = rural.getTotalLength();
+      let n = 0;
+      for (let i = 0; i <= 2000; i++) {
+        const q = rural.getPointAtLength((total * i) / 2000);
+        if (q.x >= 0 && q.x <= width && q.y >= 0 && q.y <= height) n++;
+      }
+      return n;
+    });
+    expect(inView).toBeGreaterThan(100);
+    expect(await page.locator('#legend g.hl-legend-row[data-class="rural"]').count()).toBe(1);
     // the cautions are the API's, shown above the map
     const caution = await page.locator('#caution-list').innerText();
     for (const sentence of api.caution.split(/(?<=\.)\s+/)) expect(caution).toContain(sentence);
     expect(caution).toMatch(/skin/);
+  });
+
+  it('an address naming a year without values (the API answers 404) shows the latest year that has them, and says so', async () => {
+    const refused = await fetch(`${origin}/api/districts?year=2031&season=summer&metric=suhi_night`);
+    expect(refused.status).toBe(404);
+    const p = await openPage('/?metric=suhi_night&year=2031', 1280);
+    try {
+      expect(await p.locator('#year').inputValue()).toBe(String(latest));
+      expect(await p.locator('#status').innerText()).toBe('2031 has no values for the summer; showing the latest year that has.');
+      expectFillsMatchLegend(await drawnMap(p), await districtsOf(latest, 'suhi_night'));
+    } finally {
+      await p.context().close();
+    }
   });
 
   it('clicking a district shows its years (one point per year) and the sentence of the API trend', async () => {

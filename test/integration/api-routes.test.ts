@@ -308,6 +308,26 @@ describe('paging, scenes and parameters', () => {
     expect((await get('/api/scenes?state=failed')).json().rows).toHaveLength(1);
     expect((await get('/api/scenes/999999')).statusCode).toBe(404);
   });
+  it('refuses a year without values with 404 on every route that takes one, naming the years that have values', async () => {
+    const years = Array.from({ length: LAST_YEAR - FIRST_YEAR + 1 }, (_, i) => FIRST_YEAR + i);
+    for (const url of ['/api/table?year=2031', '/api/table?level=year&year=2031', '/api/table?year=2031&format=csv', '/api/rankings?year=2031',
+      '/api/districts?year=2031', '/api/districts?year=2031&format=csv', '/api/hotspots?year=2031']) {
+      const r = await get(url);
+      expect(r.statusCode, url).toBe(404);
+      expect(r.headers['content-type'], url).toMatch(/^application\/json/);
+      expect(r.json(), url).toEqual({ error: `query parameter year: 2031 has no values in the store; years with values: ${years.join(', ')}`, years });
+    }
+    // the seeded dates are in January and July only: no autumn (September-November in the northern hemisphere) in any year
+    const autumn = await get(`/api/rankings?year=${LAST_YEAR}&season=autumn`);
+    expect(autumn.statusCode).toBe(404);
+    expect(autumn.json()).toEqual({ error: `query parameter year: ${LAST_YEAR} has no values for season autumn in the store; no year has values for season autumn`, years: [] });
+    // a year with values still answers, and no year asked means the latest
+    expect((await get(`/api/table?level=year&year=${FIRST_YEAR}`)).json().rows).toHaveLength(GRID_IDS.length);
+    expect((await get(`/api/rankings?year=${LAST_YEAR}`)).json().previous_year).toBe(LAST_YEAR - 1);
+    // the OpenAPI document declares the years of the error body
+    const doc = (await get('/api/openapi.json')).json();
+    expect(doc.paths['/api/rankings'].get.responses['404'].content['application/json'].schema.properties.years.type).toBe('array');
+  });
   it('answers a district by id with its outline, properties and years; an unknown id is a 404', async () => {
     const body = (await get('/api/districts/b3')).json();
     expect(body).toMatchObject({ id: 'b3', name: 'Ward B3', role: 'district', area_m2: 895000, properties: { albedo: 0.15 } });

@@ -115,6 +115,11 @@ describe('OpenAPI document', () => {
       const p = url.replace(/:([A-Za-z_]+)/g, '{$1}');
       expect(doc.paths[p]?.[method.toLowerCase()], `${method} ${p}`).toBeDefined();
     }
+    // the ingest answer and the job answer declare the job's id under one name
+    const jobSchema = (p: string, method: string, status: string) => doc.paths[p][method].responses[status].content['application/json'].schema;
+    expect(jobSchema('/api/ingest', 'post', '202').required).toContain('job_id');
+    expect(jobSchema('/api/jobs/{id}', 'get', '200').required).toEqual(expect.arrayContaining(['job_id', 'id']));
+    expect(jobSchema('/api/jobs/{id}', 'get', '200').properties.job_id).toEqual(jobSchema('/api/ingest', 'post', '202').properties.job_id);
     // the write routes declare the bearer scheme
     expect(doc.paths['/api/ingest'].post.security).toEqual([{ bearer: [] }]);
     expect(doc.components.securitySchemes.bearer).toMatchObject({ type: 'http', scheme: 'bearer' });
@@ -149,7 +154,8 @@ describe('tokens', () => {
     expect(ok.json()).toEqual({ job_id: 'job-1' });
     expect(jobs.started[0]).toEqual({ files: [path.join(root, 'scenes', 'a.tif')], districts: path.join(root, 'districts.geojson') });
     const job = await a.inject({ method: 'GET', url: '/api/jobs/job-1', headers: { authorization: `Bearer ${TOKEN}` } });
-    expect(job.json()).toMatchObject({ id: 'job-1', state: 'queued', scenes_asked: 1 });
+    // the job answer names the id as the ingest answer did (job_id), and keeps id
+    expect(job.json()).toMatchObject({ job_id: 'job-1', id: 'job-1', state: 'queued', scenes_asked: 1 });
     expect((await a.inject({ method: 'GET', url: '/api/jobs/job-1' })).statusCode).toBe(401);
     expect((await a.inject({ method: 'GET', url: '/api/jobs/job-9', headers: { authorization: `Bearer ${TOKEN}` } })).statusCode).toBe(404);
     // reads stay open without a read token

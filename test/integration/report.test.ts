@@ -25,6 +25,8 @@ import { CHROMIUM_PATH, toolAvailable } from '../support/services.js';
 import { openStore, type Store } from '../../workers/store/index.js';
 import { writeWaterGeoJson } from '../../demo-data/city.js';
 import { answerDistricts, answerRankings, answerTrends, type DistrictsAnswer, type DistrictsQuery, type RankingsQuery, type TrendQuery } from '../../api/answers/index.js';
+import { printPdf } from '../../api/report/pdf.js';
+import { PRECISION, roundNumber } from '../../workers/format.js';
 
 await ensurePipelineBuild();
 const tools = (['chromium', 'pdftotext', 'pdfinfo'] as const).every((t) => toolAvailable(t, 'report.test.ts (HTML in Chromium, PDF pages and text)'));
@@ -78,9 +80,9 @@ function weighted(a: DistrictsAnswer, field: 'suhi_night_k' | 'suhi_day_k'): num
 }
 
 /** The <data> figures of one section: name → { value, shown text }. */
-function figuresOf(section: string): Map<string, { value: number; shown: string }> {
-  const out = new Map<string, { value: number; shown: string }>();
-  for (const m of section.matchAll(/<data data-figure="([^"]+)" value="([^"]*)">([^<]*)<\/data>/g)) out.set(m[1], { value: Number(m[2]), shown: m[3] });
+function figuresOf(section: string): Map<string, { value: number; raw: string; shown: string }> {
+  const out = new Map<string, { value: number; raw: string; shown: string }>();
+  for (const m of section.matchAll(/<data data-figure="([^"]+)" value="([^"]*)">([^<]*)<\/data>/g)) out.set(m[1], { value: Number(m[2]), raw: m[2], shown: m[3] });
   return out;
 }
 
@@ -136,7 +138,9 @@ describe('report: summary figures equal the API answers', () => {
     expect([...figures.keys()].filter((k) => k.startsWith('top_day_'))).toHaveLength(3);
     for (const [name, f] of figures) {
       expect(expected.e.has(name), `figure ${name} is one the API gives`).toBe(true);
-      expect(f.value, name).toBeCloseTo(expected.e.get(name) as number, 9);
+      // rounded as the API rounds (workers/format.ts: 0.0001 K), so no float noise reaches the value attribute
+      expect(f.value, name).toBe(roundNumber(expected.e.get(name) as number, PRECISION.kelvin));
+      expect(f.raw, name).toMatch(/^-?[0-9]+(\.[0-9]{1,4})?$/);
       // the shown text says the same number, to the digits shown (a count, or 1-2 decimals); a rank may be a word
       const m = /([−+-]?)([0-9]+(?:\.([0-9]+))?)/.exec(f.shown);
       if (m === null) continue;
@@ -191,6 +195,21 @@ describe.skipIf(!tools)('report in Chromium and as PDF', () => {
     } finally {
       await browser.close();
     }
+  }, 120_000);
+
+  it('the map printed to PDF gives each label\'s words once to text extraction (pdftotext), halo and all', async () => {
+    const svg = /<div class="map-drawing">(<svg[\s\S]*?<\/svg>)<\/div>/.exec(html)?.[1];
+    expect(svg).toBeDefined();
+    // the words the map writes: each label's lines (its text and tspans; the <title> is not drawn)
+    const labelWords = [...svg!.matchAll(/<text class="hl-label[^"]*"[^>]*>([\s\S]*?)<\/text>/g)]
+      .flatMap((m) => m[1].replace(/<title>[\s\S]*?<\/title>/g, '').replace(/<[^>]+>/g, ' ').split(/\s+/))
+      .filter(Boolean).map((w) => w.replace(/&#39;/g, "'").replace(/&#38;/g, '&'));
+    expect(labelWords.length).toBeGreaterThanOrEqual(17);
+    const mapPdf = path.join(tmp, 'out', 'map-only.pdf');
+    await printPdf(`<!doctype html><html><body>${svg}</body></html>`, mapPdf, { executablePath: CHROMIUM_PATH });
+    const extracted = execFileSync('pdftotext', [mapPdf, '-'], { encoding: 'utf8' })
+      .split('\n').filter((l) => !/^page [0-9]+ of [0-9]+$/.test(l.trim())).join(' ').split(/\s+/).filter(Boolean);
+    expect([...extracted].sort()).toEqual([...labelWords].sort());
   }, 120_000);
 
   it('the PDF has the report\'s pages and its text names the hottest district and the version', async () => {
@@ -252,6 +271,8 @@ describe('report: refusals', () => {
     const r = await runCli(['report', '--out', out, '--pdf', path.join(tmp, 'none', 'r.pdf'), '--data-dir', dataDir], cleanEnv({ HEATLEDGER_CHROMIUM: path.join(tmp, 'no-such-chromium') }));
     expect(r.code).toBe(2);
     expect(r.stderr).toMatch(/Debian package "chromium"/);
+    // and the variable that names another browser (workers/config.ts)
+    expect(r.stderr).toContain('HEATLEDGER_CHROMIUM');
     expect(existsSync(out)).toBe(false);
   });
 

@@ -13,6 +13,8 @@ import {
   toDisplay, trendSentence, unitLabel, type ChartSeries, type MapFeature,
 } from '../../api/web/draw/index.js';
 import { SERIES_METRICS } from '../../workers/store/series.js';
+import proj4 from 'proj4';
+import { ruralRing, subtractPolygons } from '../../workers/core/districts/index.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../..');
 
@@ -174,6 +176,65 @@ describe('map', () => {
     expect(rings).toHaveLength(2);
     const inView = (ring: number[][]) => ring.every(([x, y]) => x >= -0.5 && x <= 320.5 && y >= -0.5 && y <= m.height + 0.5);
     expect(rings.filter(inView)).toHaveLength(1);
+  });
+});
+
+describe('the rural reference on a map fitted to the districts', () => {
+  // an invented square city of about 4 km, its rural ring 2-10 km out (ruralRing's defaults), and a strip
+  // of water running east from the city across the whole ring: the ring is cut open, so its inner edge is
+  // part of its one outer ring and it has no hole
+  const CITY = box(-35.625, 44.18, -35.575, 44.216);
+  const city: MapFeature = { id: 'C1', name: 'Cinder Lane', role: 'district', geometry: CITY, value: 1 };
+  const ring = ruralRing([{ id: 'C1', name: 'Cinder Lane', geometry: [CITY.coordinates], properties: {}, areaSquareMetres: 1 }]);
+  const cut = subtractPolygons(ring, [box(-35.6, 44.196, -35.3, 44.2).coordinates]);
+  const rural: MapFeature = { id: 'rural', name: 'rural reference', role: 'rural', geometry: { type: 'MultiPolygon', coordinates: cut.geometry }, value: null };
+  const classes = colourClasses('diverging', [1], 'K');
+  const WIDTH = 600;
+  // ground coordinates: a transverse Mercator on the city's meridian (proj4, WGS 84), metres
+  const tm = proj4('WGS84', '+proj=tmerc +lat_0=0 +lon_0=-35.6 +k=1 +x_0=0 +y_0=0 +ellps=WGS84 +units=m +no_defs');
+  const ground = (c: number[]) => tm.forward(c as [number, number]) as [number, number];
+  const [sw, se, , nw] = CITY.coordinates[0].map(ground);
+  /** Distance (m) from a ground point to the city square's outline. */
+  const toCity = ([x, y]: [number, number]) => {
+    const dx = Math.max(sw[0] - x, 0, x - se[0]), dy = Math.max(sw[1] - y, 0, y - nw[1]);
+    return Math.hypot(dx, dy);
+  };
+  const pathPoints = (d: string) => [...d.matchAll(/(-?[\d.]+),(-?[\d.]+)/g)].map((m) => [Number(m[1]), Number(m[2])]);
+
+  it('shows the inner edge of a ring that water cut open, and says the outline is in view', () => {
+    expect(cut.geometry.every((polygon) => polygon.length === 1)).toBe(true); // no hole left: the situation checked
+    const m = drawMap([city, rural], { width: WIDTH, classes, formatValue: String, title: 't', fit: 'districts', margin: 0.02 });
+    expect(m.ruralInView).toBe(true);
+    // where the drawing puts a ground point: the city's drawn corners give the scale (a conformal projection
+    // keeps ground proportions at city scale; Snyder 1987, USGS PP 1395, from memory)
+    const [drawn] = elements(m.svg, 'path', 'hl-district');
+    const px = pathPoints(drawn.d);
+    const left = Math.min(...px.map((q) => q[0])), right = Math.max(...px.map((q) => q[0])), bottom = Math.max(...px.map((q) => q[1]));
+    const scale = (right - left) / (se[0] - sw[0]);
+    const toPx = ([x, y]: [number, number]) => [left + scale * (x - sw[0]), bottom - scale * (y - sw[1])];
+    // the inner edge: the ring's vertices within 2.1 km of the city (its inner distance is 2 km)
+    const inner = cut.geometry.flat(2).map(ground).filter((g) => toCity(g) <= 2100);
+    expect(inner.length).toBeGreaterThan(20);
+    for (const g of inner) {
+      const [x, y] = toPx(g);
+      // 2 px: the sphere of d3-geo against the ellipsoid of proj4 over a few kilometres
+      expect(x, `${g}`).toBeGreaterThanOrEqual(-2);
+      expect(x, `${g}`).toBeLessThanOrEqual(WIDTH + 2);
+      expect(y, `${g}`).toBeGreaterThanOrEqual(-2);
+      expect(y, `${g}`).toBeLessThanOrEqual(m.height + 2);
+    }
+    // and the view is no wider than that edge needs: the city (about 4 km) fills about 4 / (4 + 2 × 2) of it
+    const cityWidth = se[0] - sw[0];
+    expect((right - left) / WIDTH).toBeGreaterThan(0.9 * cityWidth / (cityWidth + 2 * 2000 + 0.04 * (cityWidth + 4000)));
+    expect((right - left) / WIDTH).toBeLessThan(1.1 * cityWidth / (cityWidth + 2 * 2000));
+  });
+
+  it('leaves a reference far from the districts out of the view, and says so', () => {
+    const far: MapFeature = { id: 'rural', name: 'rural reference', role: 'rural', geometry: box(-33.6, 44.18, -33.5, 44.26), value: null }; // about 160 km east
+    const m = drawMap([city, far], { width: WIDTH, classes, formatValue: String, title: 't', fit: 'districts' });
+    expect(m.ruralInView).toBe(false);
+    const xs = pathPoints(elements(m.svg, 'path', 'hl-district')[0].d).map((q) => q[0]);
+    expect(Math.max(...xs) - Math.min(...xs)).toBeGreaterThan(WIDTH - 2 * 6 - 1); // the city fills the width (6 px padding)
   });
 });
 

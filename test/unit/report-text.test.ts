@@ -29,8 +29,10 @@ describe('temperatures in the unit asked for', () => {
     expect(fixed(Number.NaN, 2)).toBe('–');
   });
 
-  it('a figure keeps the value it states and escapes its text', () => {
-    expect(figure('x', 1.23456, '<1.23>')).toBe('<data data-figure="x" value="1.23456">&#60;1.23&#62;</data>');
+  it('a figure keeps the value it states, rounded as the API rounds (0.0001 K), and escapes its text', () => {
+    expect(figure('x', 1.23456, '<1.23>')).toBe('<data data-figure="x" value="1.2346">&#60;1.23&#62;</data>');
+    // binary floating point noise of a mean (0.1 + 0.2 = 0.30000000000000004, IEEE 754 double) does not reach the value
+    expect(figure('x', 0.1 + 0.2, '0.30')).toBe('<data data-figure="x" value="0.3">0.30</data>');
     expect(figure('x', null, 'n/a')).toBe('<data data-figure="x" value="">n/a</data>');
   });
 });

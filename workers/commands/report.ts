@@ -78,7 +78,7 @@ export async function runReportCommand(o: ReportCommandOptions): Promise<void> {
   const { printPdf, requireChromium } = await import('../../api/report/pdf.js');
   const chromium = await chromiumPath();
   // before any work: a PDF that cannot be printed is known at once
-  if (o.pdf) requireChromium(chromium, '--pdf');
+  if (o.pdf) requireChromium(chromium, '--pdf', ENV.chromium);
   if (o.pdf && resolve(o.pdf) === resolve(o.out)) throw new InputError(`--pdf and --out name the same file (${o.out})`);
   await writeOutput(o.out, null, '--out');
   if (o.pdf) await writeOutput(o.pdf, null, '--pdf');
@@ -108,7 +108,8 @@ export async function writeDemoReport(store: Store, outDir: string, o: { place: 
     await printPdf(html, `${base}.pdf`, { executablePath: chromium, footer: `heatledger ${VERSION} · surface heat report` });
     written.push({ path: `${base}.pdf`, what: 'the same report as an A4 PDF' });
   } else {
-    process.stderr.write(`No PDF of the report: ${chromium} is missing; install the Debian package "chromium" for one.\n`);
+    const { howToGetChromium } = await import('../../api/report/pdf.js');
+    process.stderr.write(`No PDF of the report: ${chromium} is missing; for one, ${howToGetChromium(ENV.chromium)}.\n`);
   }
   return written;
 }

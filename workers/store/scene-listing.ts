@@ -1,9 +1,12 @@
 /**
  * Scenes as the API lists them (sql/queries/scene_listing.sql, scene_districts.sql):
  * a page in acquisition order after a cursor, with each district's valid
- * fraction and the stored reason of a missing value, and for a thermal scene
- * the stored facts of how its LST was made.
+ * fraction and why that scene gives the district no value (from the scene's own
+ * zonal row, never from the other pass of a derived pair), and for a thermal
+ * scene the stored facts of how its LST was made.
  */
+import { MIN_VALID_FRACTION } from '../core/defaults.js';
+import { passMissingReason } from '../core/derive/pass-reason.js';
 import type { UtcIso } from '../core/units.js';
 import { namedQuery } from './queries.js';
 import type { Db } from './db.js';
@@ -28,7 +31,22 @@ export interface SceneListingFilter {
 export interface SceneDistrictRow {
   district_id: string;
   valid_fraction: number | null;
+  /** Why this scene gives the district no value (outside the scene, no valid pixel, too few), or null. */
   missing_reason: string | null;
+}
+
+/** A row of sql/queries/scene_districts.sql. */
+interface SceneDistrictQueryRow {
+  scene_id: number;
+  district_id: string;
+  valid_fraction: number | null;
+  pixels: number;
+  has_mean: boolean;
+  nodata_count: number;
+  masked_count: number;
+  implausible_count: number;
+  /** The minimum the scene was judged by; null = the documented default. */
+  min_valid_fraction: number | null;
 }
 
 export interface SceneListingRow {
@@ -60,11 +78,16 @@ export async function sceneListing(db: Db, f: SceneListingFilter): Promise<Scene
   ]);
   if (rows.length === 0) return [];
   const ids = rows.map((r) => Number(r.id));
-  const parts = await db.query<SceneDistrictRow & { scene_id: number }>(namedQuery('scene_districts'), [ids]);
+  const parts = await db.query<SceneDistrictQueryRow>(namedQuery('scene_districts'), [ids]);
   const byScene = new Map<number, SceneDistrictRow[]>();
   for (const p of parts) {
     const list = byScene.get(Number(p.scene_id)) ?? [];
-    list.push({ district_id: p.district_id, valid_fraction: p.valid_fraction === null ? null : Number(p.valid_fraction), missing_reason: p.missing_reason });
+    const validFraction = p.valid_fraction === null ? null : Number(p.valid_fraction);
+    const missingReason = passMissingReason({
+      pixels: Number(p.pixels), validFraction, hasMean: p.has_mean === true,
+      nodataCount: Number(p.nodata_count), maskedCount: Number(p.masked_count), implausibleCount: Number(p.implausible_count),
+    }, p.min_valid_fraction === null ? MIN_VALID_FRACTION : Number(p.min_valid_fraction));
+    list.push({ district_id: p.district_id, valid_fraction: validFraction, missing_reason: missingReason });
     byScene.set(Number(p.scene_id), list);
   }
   return rows.map((r) => ({ ...r, id: Number(r.id), warnings: Array.isArray(r.warnings) ? r.warnings.map(String) : [], districts: byScene.get(Number(r.id)) ?? [] }));

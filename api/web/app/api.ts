@@ -94,8 +94,12 @@ export interface SceneRow {
   districts: { district: string; valid_fraction: number | null; missing_reason: string | null }[];
 }
 
-/** An answer the page could not use, in one sentence for the reader. */
-export class ApiProblem extends Error {}
+/** An answer the page could not use, in one sentence for the reader; the HTTP status when the server answered. */
+export class ApiProblem extends Error {
+  constructor(message: string, readonly status: number | null = null) {
+    super(message);
+  }
+}
 
 const cache = new Map<string, Promise<unknown>>();
 
@@ -113,7 +117,7 @@ async function getJson<T>(url: string): Promise<T> {
     } catch {
       /* not JSON */
     }
-    throw new ApiProblem(`The server answered ${res.status} for ${url.split('?')[0]}${detail ? `: ${detail}` : ''}.`);
+    throw new ApiProblem(`The server answered ${res.status} for ${url.split('?')[0]}${detail ? `: ${detail}` : ''}.`, res.status);
   }
   return (await res.json()) as T;
 }

@@ -69,7 +69,16 @@ async function load(): Promise<void> {
   document.body.dataset.ready = 'false';
   setStatus('Loading…');
   try {
-    const districts = await api.districts({ year: state.year, season: state.season, metric: state.metric });
+    let districts: DistrictsAnswer;
+    let note = '';
+    try {
+      districts = await api.districts({ year: state.year, season: state.season, metric: state.metric });
+    } catch (e) {
+      // a year the address names may have no values in the season chosen (the API answers 404): show the latest that has
+      if (!(e instanceof ApiProblem) || e.status !== 404 || state.year === null) throw e;
+      note = `${state.year} has no values for the ${SEASON_WORDS[state.season]}; showing the latest year that has.`;
+      districts = await api.districts({ year: null, season: state.season, metric: state.metric });
+    }
     if (token !== loadToken) return;
     showCaution(districts.caution);
     const year = districts.year;
@@ -105,7 +114,7 @@ async function load(): Promise<void> {
     view = { districts, rows, hotspots: typeof hotspots === 'string' ? null : hotspots, hotspotsProblem: typeof hotspots === 'string' ? hotspots : null, year };
     fillControls(districts.years);
     drawAll();
-    setStatus('');
+    setStatus(note);
     await drawPanel();
     if (token === loadToken) document.body.dataset.ready = 'true';
   } catch (e) {
@@ -146,9 +155,10 @@ function drawMapAndLegend(): void {
   const title = `${METRICS[m].label}, ${SEASON_WORDS[state.season]} ${view.year}`;
   $('map-heading').textContent = title;
   const fmt = (v: number | null) => (v === null ? 'no data' : `${formatValue(m, v)} ${u}`);
-  $('map').innerHTML = drawMap(features, { width: mapWidth(), classes, formatValue: fmt, title: `Map: ${title}`, selectedId: state.district, spots, idPrefix: 'map', fit: 'districts', margin: 0.02 }).svg;
+  const drawn = drawMap(features, { width: mapWidth(), classes, formatValue: fmt, title: `Map: ${title}`, selectedId: state.district, spots, idPrefix: 'map', fit: 'districts', margin: 0.02 });
+  $('map').innerHTML = drawn.svg;
   const note = METRICS[m].kind === 'difference' ? 'below 0: cooler than the rural reference' : METRICS[m].kind === 'inertia' ? 'higher: the surface holds its heat longer' : undefined;
-  $('legend').innerHTML = drawLegend(classes, { title: `${METRICS[m].short}, ${u}`, note, idPrefix: 'legend', width: 260, rural: features.some((f) => f.role === 'rural') }).svg;
+  $('legend').innerHTML = drawLegend(classes, { title: `${METRICS[m].short}, ${u}`, note, idPrefix: 'legend', width: 260, rural: drawn.ruralInView }).svg;
   drawSpotsKey();
 }
 

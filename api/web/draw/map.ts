@@ -41,8 +41,9 @@ export interface MapOptions {
   /** Prefix of ids inside the SVG (pattern), unique per document. Default "hl". */
   idPrefix?: string;
   /**
-   * Fit the view to the districts and the inner edge of the rural reference ('districts'; the
-   * rest of the reference is drawn where it falls inside the view) or to all of it ('all', default).
+   * Fit the view to the districts and the inner edge of the rural reference ('districts': the part
+   * of its outline nearest the districts, see {@link ruralInnerEdge}; the rest of the reference is
+   * drawn where it falls inside the view) or to all of it ('all', default).
    */
   fit?: 'districts' | 'all';
   /** Space around the fitted area as a fraction of the width (default 0; at least 6 px). */
@@ -74,6 +75,8 @@ export interface DrawnMap {
   height: number;
   /** With labels: the districts labelled by a number (their name did not fit), for a key beside the map. */
   key: LabelKeyEntry[];
+  /** Whether part of the rural reference's outline lies in the view (a legend names it only then). */
+  ruralInView: boolean;
 }
 
 /** A district labelled on the map by a number instead of its name. */
@@ -108,11 +111,113 @@ export function forD3(feature: Feature<Geometry>): Feature<Geometry> {
   return feature;
 }
 
+/**
+ * Texts on a white halo: the halo is each text again, through <use> (no second copy of the words
+ * in the document), stroked white under the texts. A text drawn with both a stroke and a fill
+ * (paint-order) becomes two text runs in a PDF printed by Chromium, so text extraction (pdftotext,
+ * copy and paste, screen readers of the PDF) met every word twice; the halo group carries a filter
+ * that changes nothing (an offset of 0), which makes the printer draw it as a picture, not as text.
+ * `texts` are <text> elements with their ids; `style` the text attributes they share.
+ */
+function haloedTexts(prefix: string, kind: string, texts: readonly { id: string; svg: string }[], style: Record<string, string | number>): string[] {
+  const ids = texts.map((t) => t.id);
+  return [
+    `<g${attrs({ class: `hl-halos hl-halos-${kind}`, 'aria-hidden': 'true', ...style, fill: HALO, stroke: HALO, 'stroke-width': 3, 'stroke-linejoin': 'round', filter: `url(#${prefix}-halo)`, 'pointer-events': 'none' })}>` +
+      ids.map((id) => `<use${attrs({ href: `#${id}` })}/>`).join('') + '</g>',
+    `<g${attrs({ class: kind === 'labels' ? 'hl-labels' : `hl-${kind}-labels`, ...style, 'pointer-events': 'none' })}>`,
+    ...texts.map((t) => t.svg),
+    '</g>',
+  ];
+}
+
 /** Vertices of the interior rings (holes) of a polygon geometry, lon/lat. */
-function innerRingVertices(g: Geometry): number[][] {
-  if (g.type === 'Polygon') return g.coordinates.slice(1).flat();
-  if (g.type === 'MultiPolygon') return g.coordinates.flatMap((p) => p.slice(1).flat());
+function holeVertices(g: Geometry): number[][] {
+  return polygonsOf(g).flatMap((p) => p.slice(1).flat());
+}
+
+/** Every vertex of a polygon geometry (all rings), lon/lat. */
+function verticesOf(g: Geometry): number[][] {
+  if (g.type === 'Polygon') return g.coordinates.flat();
+  if (g.type === 'MultiPolygon') return g.coordinates.flat(2);
   return [];
+}
+
+/** Distance from point p to the segment a-b (plane). */
+function segmentDistance(p: [number, number], a: [number, number], b: [number, number]): number {
+  const dx = b[0] - a[0], dy = b[1] - a[1];
+  const len2 = dx * dx + dy * dy;
+  const t = len2 === 0 ? 0 : Math.max(0, Math.min(1, ((p[0] - a[0]) * dx + (p[1] - a[1]) * dy) / len2));
+  return Math.hypot(p[0] - (a[0] + t * dx), p[1] - (a[1] + t * dy));
+}
+
+/** Whether the segment a-b meets the box [0, w] × [0, h] (Liang & Barsky 1984 clipping). */
+function segmentMeetsBox(a: [number, number], b: [number, number], w: number, h: number): boolean {
+  const dx = b[0] - a[0], dy = b[1] - a[1];
+  let t0 = 0, t1 = 1;
+  for (const [p, q] of [[-dx, a[0]], [dx, w - a[0]], [-dy, a[1]], [dy, h - a[1]]]) {
+    if (p === 0) { if (q < 0) return false; continue; }
+    const r = q / p;
+    if (p < 0) t0 = Math.max(t0, r); else t1 = Math.min(t1, r);
+    if (t0 > t1) return false;
+  }
+  return true;
+}
+
+/** Whether any edge of a polygon geometry, projected, meets the box [0, w] × [0, h]. */
+function outlineMeetsBox(g: Geometry, projection: GeoProjection, w: number, h: number): boolean {
+  for (const polygon of polygonsOf(g)) {
+    for (const ring of polygon) {
+      const pts = ring.map((c) => projection(c as [number, number])).filter((xy): xy is [number, number] => xy !== null);
+      for (let i = 1; i < pts.length; i++) if (segmentMeetsBox(pts[i - 1], pts[i], w, h)) return true;
+    }
+  }
+  return false;
+}
+
+/**
+ * How much farther than the nearest vertex a vertex of the inner edge may lie from the districts, as a
+ * share: a buffered ring keeps one distance from the city up to the simplification of the outlines;
+ * a quarter is our choice of room for that (it leaves out the far reaches of cuts across the ring).
+ */
+const INNER_EDGE_SLACK = 0.25;
+/** A rural reference farther from the districts than this many times their extent is left out of view. */
+const RURAL_REACH = 1.5;
+
+/**
+ * The vertices (lon/lat) of the rural reference's inner edge: those whose distance to the
+ * districts' outlines is within {@link INNER_EDGE_SLACK} of the smallest such distance, measured
+ * in the plane of `projection` (conformal, so in proportion to ground distance at city scale).
+ * A ring built as a buffer of the city keeps its inner edge at one distance from it; this holds
+ * whether that edge is a hole of the ring or, once water cut the ring open, part of an outer
+ * ring; the vertices of its holes come too. Empty when the reference lies more than
+ * {@link RURAL_REACH} times the districts' extent away.
+ */
+export function ruralInnerEdge(rural: readonly Geometry[], districts: readonly Geometry[], projection: GeoProjection): number[][] {
+  const at = (c: number[]) => projection(c as [number, number]);
+  const segments: [[number, number], [number, number]][] = [];
+  let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
+  for (const g of districts) {
+    for (const polygon of polygonsOf(g)) {
+      for (const ring of polygon) {
+        const pts = ring.map(at).filter((xy): xy is [number, number] => xy !== null);
+        for (let i = 0; i < pts.length; i++) {
+          const [x, y] = pts[i];
+          x0 = Math.min(x0, x); y0 = Math.min(y0, y); x1 = Math.max(x1, x); y1 = Math.max(y1, y);
+          if (i > 0) segments.push([pts[i - 1], pts[i]]);
+        }
+      }
+    }
+  }
+  if (segments.length === 0) return [];
+  const vertices = rural.flatMap(verticesOf)
+    .map((c) => ({ c, xy: at(c) }))
+    .filter((v): v is { c: number[]; xy: [number, number] } => v.xy !== null)
+    .map((v) => ({ c: v.c, d: segments.reduce((m, [a, b]) => Math.min(m, segmentDistance(v.xy, a, b)), Infinity) }));
+  if (vertices.length === 0) return [];
+  const nearest = Math.min(...vertices.map((v) => v.d));
+  if (nearest > RURAL_REACH * Math.max(x1 - x0, y1 - y0)) return [];
+  // the holes of the reference (the city inside them) are inner edge whatever their distance
+  return [...vertices.filter((v) => v.d <= nearest * (1 + INNER_EDGE_SLACK)).map((v) => v.c), ...rural.flatMap(holeVertices)];
 }
 
 /** Polygons of a geometry (a MultiPolygon's parts), lon/lat. */
@@ -178,20 +283,24 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
   const asD3 = new Map(drawable.map((f) => [f.id, forD3({ type: 'Feature', properties: {}, geometry: f.geometry as Geometry })]));
   const districts = drawable.filter((f) => f.role !== 'rural');
   const fitTo = (o.fit === 'districts' && districts.length > 0 ? districts : drawable).map((f) => asD3.get(f.id) as Feature<Geometry>);
+  const projection = geoTransverseMercator();
+  // rotate so the central meridian runs through the middle of the area
+  const centre = (c: FeatureCollection) => {
+    const [[west], [east]] = geoPath().bounds(c);
+    projection.rotate([-(west + east) / 2, 0]);
+  };
   if (o.fit === 'districts' && districts.length > 0) {
-    // keep the inner edge of the rural reference in view: the vertices of its holes
-    const holes = drawable.filter((f) => f.role === 'rural').flatMap((f) => innerRingVertices(f.geometry as Geometry));
-    if (holes.length > 0) fitTo.push({ type: 'Feature', properties: {}, geometry: { type: 'MultiPoint', coordinates: holes } });
+    // keep the inner edge of the rural reference in view (measured in the districts' own plane)
+    centre({ type: 'FeatureCollection', features: [...fitTo] });
+    const edge = ruralInnerEdge(drawable.filter((f) => f.role === 'rural').map((f) => f.geometry as Geometry), districts.map((f) => f.geometry as Geometry), projection);
+    if (edge.length > 0) fitTo.push({ type: 'Feature', properties: {}, geometry: { type: 'MultiPoint', coordinates: edge } });
   }
   const collection: FeatureCollection = { type: 'FeatureCollection', features: fitTo };
 
   const width = Math.max(50, o.width);
   const pad = Math.max(6, Math.min(0.3, o.margin ?? 0) * width);
   const maxHeight = o.maxHeight ?? width * 1.2;
-  const projection = geoTransverseMercator();
-  // rotate so the central meridian runs through the middle of the area
-  const [[west], [east]] = geoPath().bounds(collection);
-  projection.rotate([-(west + east) / 2, 0]);
+  centre(collection);
   projection.fitWidth(width - 2 * pad, collection);
   let path = geoPath(projection).digits(1);
   let [[x0, y0], [x1, y1]] = path.bounds(collection);
@@ -213,7 +322,8 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
     `<svg xmlns="http://www.w3.org/2000/svg"${attrs({ viewBox: `0 0 ${width} ${height}`, width, height, role: 'img', 'aria-labelledby': `${p}-map-title`, class: 'hl-map' })}>`,
     `<title id="${esc(p)}-map-title">${esc(o.title)}</title>`,
     `<defs><pattern id="${esc(hatch)}" width="6" height="6" patternUnits="userSpaceOnUse" patternTransform="rotate(45)">` +
-      `<rect width="6" height="6" fill="#ffffff"/><line x1="0" y1="0" x2="0" y2="6" stroke="#6b6b6b" stroke-width="2"/></pattern></defs>`,
+      `<rect width="6" height="6" fill="#ffffff"/><line x1="0" y1="0" x2="0" y2="6" stroke="#6b6b6b" stroke-width="2"/></pattern>` +
+      `<filter id="${esc(p)}-halo"><feOffset dx="0" dy="0"/></filter></defs>`,
   );
 
   const rural = drawable.filter((f) => f.role === 'rural');
@@ -233,12 +343,15 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
   parts.push('</g>');
 
   // "no data" written on the districts that have no value (with labels on, under the name instead)
+  const noDataTexts: { id: string; svg: string }[] = [];
   for (const f of o.labels ? [] : districts.filter((x) => classOf(o.classes, x.value) === null)) {
     const at = labelPoint(f.geometry as Geometry, projection);
     const [cx, cy] = at ? [at.x, at.y] : path.centroid(asD3.get(f.id) as Feature<Geometry>);
     if (!Number.isFinite(cx) || !Number.isFinite(cy)) continue;
-    parts.push(`<text${attrs({ class: 'hl-nodata-label', x: px(cx), y: px(cy), 'text-anchor': 'middle', 'dominant-baseline': 'middle', 'font-size': 10, fill: '#1a1a1a', stroke: '#ffffff', 'stroke-width': 3, 'paint-order': 'stroke', 'pointer-events': 'none' })}>no data</text>`);
+    const id = `${p}-nodata-${noDataTexts.length}`;
+    noDataTexts.push({ id, svg: `<text${attrs({ class: 'hl-nodata-label', id, x: px(cx), y: px(cy), 'dominant-baseline': 'middle' })}>no data</text>` });
   }
+  if (noDataTexts.length) parts.push(...haloedTexts(p, 'nodata', noDataTexts, { 'font-size': 10, 'text-anchor': 'middle', fill: '#1a1a1a' }));
 
   if (o.spots) {
     parts.push('<g class="hl-spots" pointer-events="none">');
@@ -294,15 +407,15 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
       l.lines = classOf(o.classes, l.f.value) === null ? [n, 'no data'] : [n];
       key.push({ id: l.f.id, name: l.f.name, label: n });
     });
-    parts.push(`<g${attrs({ class: 'hl-labels', 'font-size': size, 'font-weight': 600, 'text-anchor': 'middle', fill: '#111111', stroke: HALO, 'stroke-width': 3, 'stroke-linejoin': 'round', 'paint-order': 'stroke', 'pointer-events': 'none' })}>`);
-    for (const { f, at, lines, numbered: isNumber } of labelled.sort((a, b) => districts.indexOf(a.f) - districts.indexOf(b.f))) {
+    const texts = labelled.sort((a, b) => districts.indexOf(a.f) - districts.indexOf(b.f)).map(({ f, at, lines, numbered: isNumber }, i) => {
       // lines centred on the label point; a baseline sits about 0.35 em below the middle of its line
       const first = at.y - ((lines.length - 1) * lineHeight) / 2 + size * 0.35;
-      parts.push(`<text${attrs({ class: isNumber ? 'hl-label hl-label-number' : 'hl-label', 'data-id': f.id, 'data-x': px(at.x), 'data-y': px(at.y), x: px(at.x), y: px(first) })}>` +
-        lines.map((line, i) => (i === 0 ? esc(line) : `<tspan${attrs({ x: px(at.x), dy: px(lineHeight) })}>${esc(line)}</tspan>`)).join('') +
-        `<title>${esc(f.name)}</title></text>`);
-    }
-    parts.push('</g>');
+      const id = `${p}-label-${i}`;
+      return { id, svg: `<text${attrs({ class: isNumber ? 'hl-label hl-label-number' : 'hl-label', 'data-id': f.id, id, 'data-x': px(at.x), 'data-y': px(at.y), x: px(at.x), y: px(first) })}>` +
+        lines.map((line, k) => (k === 0 ? esc(line) : `<tspan${attrs({ x: px(at.x), dy: px(lineHeight) })}>${esc(line)}</tspan>`)).join('') +
+        `<title>${esc(f.name)}</title></text>` };
+    });
+    parts.push(...haloedTexts(p, 'labels', texts, { 'font-size': size, 'font-weight': 600, 'text-anchor': 'middle', fill: '#111111' }));
   }
 
   if (o.selectedId) {
@@ -314,5 +427,6 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
     }
   }
   parts.push('</svg>');
-  return { svg: parts.join('\n'), width, height, key };
+  const ruralInView = rural.some((f) => outlineMeetsBox(f.geometry as Geometry, projection, width, height));
+  return { svg: parts.join('\n'), width, height, key, ruralInView };
 }

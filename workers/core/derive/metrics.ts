@@ -13,6 +13,7 @@
  */
 import { nearestAlbedo, pairDayNight, utcDate, type TimedScene } from './pairing.js';
 import { atiWithReason } from '../thermal/index.js';
+import { lowValidFractionReason } from './pass-reason.js';
 import type { Kelvin } from '../units.js';
 import { ALBEDO_WINDOW_DAYS, ATI_MIN_DIFFERENCE_KELVIN, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS } from '../defaults.js';
 
@@ -98,7 +99,7 @@ export function deriveMetrics(input: DeriveInput): DerivedRow[] {
   const passValue = (sceneId: number, districtId: string): { value: number | null; reason?: string } => {
     const s = lookup(sceneId, districtId);
     if (!s || s.mean === null || s.validFraction === null) return { value: null, reason: 'no valid pixels' };
-    if (s.validFraction < o.minValidFraction) return { value: null, reason: `valid fraction ${s.validFraction.toFixed(2)} below ${o.minValidFraction}` };
+    if (s.validFraction < o.minValidFraction) return { value: null, reason: lowValidFractionReason(s.validFraction, o.minValidFraction) };
     return { value: s.mean };
   };
 

@@ -27,7 +27,7 @@ export function reportFigures(d: ReportData): ReportFigures {
   const spots: Record<string, SpotKind> = Object.fromEntries((d.hotspots?.rows ?? []).map((r) => [r.district, r.spot]));
   const map = drawMap(
     d.districts.features.map((f) => ({ id: f.id, name: f.properties.name, role: f.properties.role, geometry: (f.geometry ?? null) as Geometry | null, value: show(f.properties.suhi_night_k) })),
-    { width: MAP_WIDTH, maxHeight: 430, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, spots, idPrefix: 'report-map', fit: 'districts', labels: { fontSize: 10 } },
+    { width: MAP_WIDTH, maxHeight: 430, classes, formatValue: fmt, title: `Night heat island by district, ${periodText(d)}`, spots, idPrefix: 'report-map', fit: 'districts-only', labels: { fontSize: 10 } },
   );
   const legend = drawLegend(classes, { title: `Night heat island, ${unit}`, note: 'below 0: cooler than the countryside', idPrefix: 'report-legend', width: 250, rural: map.ruralInView });
   const bars = drawRankedBars(

@@ -229,6 +229,18 @@ describe('the rural reference on a map fitted to the districts', () => {
     expect((right - left) / WIDTH).toBeLessThan(1.1 * cityWidth / (cityWidth + 2 * 2000));
   });
 
+  it('fits the districts alone on request (the printed report), leaving the ring where it falls', () => {
+    const m = drawMap([city, rural], { width: WIDTH, classes, formatValue: String, title: 't', fit: 'districts-only' });
+    // the city fills the width (6 px padding each side), so the ring 2 km outside it is out of view
+    const xs = pathPoints(elements(m.svg, 'path', 'hl-district')[0].d).map((q) => q[0]);
+    expect(Math.max(...xs) - Math.min(...xs)).toBeGreaterThan(WIDTH - 2 * 6 - 1);
+    expect(m.ruralInView).toBe(false);
+    // the same features fitted with the ring's inner edge draw the city smaller
+    const withEdge = drawMap([city, rural], { width: WIDTH, classes, formatValue: String, title: 't', fit: 'districts' });
+    const xe = pathPoints(elements(withEdge.svg, 'path', 'hl-district')[0].d).map((q) => q[0]);
+    expect(Math.max(...xe) - Math.min(...xe)).toBeLessThan(0.8 * (Math.max(...xs) - Math.min(...xs)));
+  });
+
   it('leaves a reference far from the districts out of the view, and says so', () => {
     const far: MapFeature = { id: 'rural', name: 'rural reference', role: 'rural', geometry: box(-33.6, 44.18, -33.5, 44.26), value: null }; // about 160 km east
     const m = drawMap([city, far], { width: WIDTH, classes, formatValue: String, title: 't', fit: 'districts' });

@@ -43,9 +43,11 @@ export interface MapOptions {
   /**
    * Fit the view to the districts and the inner edge of the rural reference ('districts': the part
    * of its outline nearest the districts, see {@link ruralInnerEdge}; the rest of the reference is
-   * drawn where it falls inside the view) or to all of it ('all', default).
+   * drawn where it falls inside the view), to the districts alone ('districts-only': the largest
+   * districts a page allows, as a printed report wants; the reference shows only where it falls
+   * inside that view) or to all of it ('all', default).
    */
-  fit?: 'districts' | 'all';
+  fit?: 'districts' | 'districts-only' | 'all';
   /** Space around the fitted area as a fraction of the width (default 0; at least 6 px). */
   margin?: number;
   /**
@@ -282,13 +284,14 @@ export function drawMap(features: readonly MapFeature[], o: MapOptions): DrawnMa
   const drawable = features.filter((f) => f.geometry !== null);
   const asD3 = new Map(drawable.map((f) => [f.id, forD3({ type: 'Feature', properties: {}, geometry: f.geometry as Geometry })]));
   const districts = drawable.filter((f) => f.role !== 'rural');
-  const fitTo = (o.fit === 'districts' && districts.length > 0 ? districts : drawable).map((f) => asD3.get(f.id) as Feature<Geometry>);
+  const fitTo = ((o.fit === 'districts' || o.fit === 'districts-only') && districts.length > 0 ? districts : drawable).map((f) => asD3.get(f.id) as Feature<Geometry>);
   const projection = geoTransverseMercator();
   // rotate so the central meridian runs through the middle of the area
   const centre = (c: FeatureCollection) => {
     const [[west], [east]] = geoPath().bounds(c);
     projection.rotate([-(west + east) / 2, 0]);
   };
+  if (o.fit === 'districts-only' && districts.length > 0) centre({ type: 'FeatureCollection', features: [...fitTo] });
   if (o.fit === 'districts' && districts.length > 0) {
     // keep the inner edge of the rural reference in view (measured in the districts' own plane)
     centre({ type: 'FeatureCollection', features: [...fitTo] });

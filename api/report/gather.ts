@@ -41,15 +41,21 @@ export async function gatherReportData(store: Store, request: ReportRequest, ans
   const health = await answers.health();
   const districts = await answers.districts({ year, season, metric: 'suhi_night' });
   const prevYear = year - 1;
+  // each year's answer asked once: the report year and the year before may lie in the baseline too
+  const byYear = new Map<number, DistrictsAnswer | null>([[year, districts]]);
   // a calendar year with values may still have none in the season asked: then it is left out
   const seasonYear = async (y: number): Promise<DistrictsAnswer | null> => {
     if (!health.years.includes(y)) return null;
+    if (byYear.has(y)) return byYear.get(y) ?? null;
+    let answer: DistrictsAnswer | null;
     try {
-      return await answers.districts({ year: y, season, metric: 'suhi_night' });
+      answer = await answers.districts({ year: y, season, metric: 'suhi_night' });
     } catch (e) {
-      if (e instanceof YearWithoutValuesError) return null;
-      throw e;
+      if (!(e instanceof YearWithoutValuesError)) throw e;
+      answer = null;
     }
+    byYear.set(y, answer);
+    return answer;
   };
   const previous = await seasonYear(prevYear);
   const baselineYears: DistrictsAnswer[] = [];

@@ -17,7 +17,7 @@ import { describeLstMethod } from '../../workers/core/thermal/describe.js';
 
 const district = 'D07';
 
-function scene(id: number, at: string, pass: 'day' | 'night' | null, kind: string, extra: Partial<SceneRow> = {}): SceneRow {
+function scene(id: number, at: string, pass: 'day' | 'night' | null, kind: SceneRow['kind'], extra: Partial<SceneRow> = {}): SceneRow {
   return {
     id, file: `2024/s${id}.tif`, acquired_at: at, pass, kind, sensor: 'invented-tir', timing_rating: pass === 'night' ? 'predawn' : 'midday', state: 'processed',
     reason: null, warnings: [], lst_method: null, atmospheric_correction: null, thermal_constants_source: null, emissivity_source: null,

@@ -5,28 +5,11 @@
  */
 import type { Geometry } from 'geojson';
 
-export interface TrendFields {
-  n: number;
-  s: number | null;
-  z: number | null;
-  p: number | null;
-  q: number | null;
-  tau: number | null;
-  slope_per_year: number | null;
-  slope_per_decade: number | null;
-  slope_ci_lower: number | null;
-  slope_ci_upper: number | null;
-  slope_ci_lower_per_decade: number | null;
-  slope_ci_upper_per_decade: number | null;
-  pivot_year: number | null;
-  pivot_value: number | null;
-  direction: 'increasing' | 'decreasing' | 'none' | null;
-  direction_raw: 'increasing' | 'decreasing' | 'none' | null;
-  alpha: number;
-  districts_tested: number;
-  years_used: string | null;
-  note: string | null;
-}
+// the answers' own types, as the server declares them (type-only: nothing of the server is bundled)
+export type { TrendFields } from '../../answers/trends.js';
+export type { SceneAnswerRow as SceneRow } from '../../answers/scenes.js';
+import type { TrendFields } from '../../answers/trends.js';
+import type { SceneAnswerRow as SceneRow } from '../../answers/scenes.js';
 
 export interface DistrictProperties {
   id: string;
@@ -72,27 +55,6 @@ export interface SeriesAnswer {
   trend: TrendFields;
 }
 
-export interface SceneRow {
-  id: string | number;
-  file: string;
-  acquired_at: string | null;
-  pass: 'day' | 'night' | null;
-  kind: string;
-  sensor: string | null;
-  timing_rating: string | null;
-  state: string;
-  reason: string | null;
-  warnings: string[];
-  /** Thermal passes: how the LST was made (null for other kinds). */
-  lst_method: 'rte' | 'emissivity_only' | null;
-  atmospheric_correction: boolean | null;
-  thermal_constants_source: string | null;
-  emissivity_source: string | null;
-  how_lst_was_made: string | null;
-  /** A thermal pass without atmospheric correction: the typical size of the error; else null. */
-  atmospheric_correction_note: string | null;
-  districts: { district: string; valid_fraction: number | null; missing_reason: string | null }[];
-}
 
 /** An answer the page could not use, in one sentence for the reader; the HTTP status when the server answered. */
 export class ApiProblem extends Error {

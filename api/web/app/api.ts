@@ -5,56 +5,22 @@
  */
 import type { Geometry } from 'geojson';
 
-// the answers' own types, as the server declares them (type-only: nothing of the server is bundled)
-export type { TrendFields } from '../../answers/trends.js';
+// The answers' own types as the server declares them, type-only (nothing of the server is bundled); the
+// districts answer differs only in its geometry, typed as GeoJSON for the map.
+import type { DistrictProperties, DistrictsAnswer as StoredDistrictsAnswer } from '../../answers/districts.js';
+import type { HotspotsAnswer } from '../../answers/hotspots.js';
+import type { RankingsAnswer } from '../../answers/rankings.js';
+import type { ScenesAnswer } from '../../answers/scenes.js';
+import type { SeriesAnswer, TrendsAnswer } from '../../answers/trends.js';
+
+export type { DistrictProperties, HotspotsAnswer, RankingsAnswer, SeriesAnswer, TrendsAnswer };
+export type { RankingRow } from '../../answers/rankings.js';
 export type { SceneAnswerRow as SceneRow } from '../../answers/scenes.js';
-import type { TrendFields } from '../../answers/trends.js';
-import type { SceneAnswerRow as SceneRow } from '../../answers/scenes.js';
+export type { TrendFields, TrendRow } from '../../answers/trends.js';
 
-export interface DistrictProperties {
-  id: string;
-  name: string;
-  role: 'district' | 'rural';
-  area_m2: number | null;
-  lst_day_k: number | null;
-  lst_night_k: number | null;
-  suhi_day_k: number | null;
-  suhi_night_k: number | null;
-  ati_per_k: number | null;
-  dates_day: number | null;
-  dates_night: number | null;
-  value: number | null;
-}
-
-export interface DistrictsAnswer {
-  type: 'FeatureCollection';
-  year: number | null;
-  season: string;
-  metric: string;
-  years: number[];
-  caution: string;
-  next_cursor: string | null;
+export interface DistrictsAnswer extends Omit<StoredDistrictsAnswer, 'features'> {
   features: { type: 'Feature'; id: string; geometry: Geometry | null; properties: DistrictProperties }[];
 }
-
-export interface RankingRow { rank: number; district: string; name: string; value: number | null; previous_rank: number | null; rank_change: number | null }
-export interface RankingsAnswer { year: number; previous_year: number | null; metric: string; season: string; unit: string; order: string; next_cursor: string | null; rows: RankingRow[] }
-
-export interface TrendRow extends TrendFields { district: string; name: string }
-export interface TrendsAnswer { metric: string; season: string; alpha: number; districts_tested: number; next_cursor: string | null; rows: TrendRow[] }
-
-export interface HotspotRow { district: string; name: string; value: number | null; gi_z: number | null; gi_p: number | null; gi_q: number | null; spot: 'hot' | 'cold' | 'none'; confidence: 99 | 95 | 90 | null }
-export interface HotspotsAnswer { year: number; metric: string; season: string; unit: string; weights: string; left_out: string[]; moran: { i: number; expected: number; z: number; p: number } | null; rows: HotspotRow[] }
-
-export interface SeriesAnswer {
-  district: { id: string; name: string };
-  metric: string;
-  season: string;
-  unit: string;
-  points: { year: number; value: number | null; dates: number | null; in_trend?: boolean; dates_list?: string[] }[];
-  trend: TrendFields;
-}
-
 
 /** An answer the page could not use, in one sentence for the reader; the HTTP status when the server answered. */
 export class ApiProblem extends Error {
@@ -131,5 +97,5 @@ export const api = {
   trends: (p: Parameters<typeof urls.trends>[0]) => cached(urls.trends(p), (u) => allPages<TrendsAnswer>(u, 'rows')),
   hotspots: (p: Parameters<typeof urls.hotspots>[0]) => cached(urls.hotspots(p), (u) => getJson<HotspotsAnswer>(u)),
   series: (id: string, p: Parameters<typeof urls.series>[1]) => cached(urls.series(id, p), (u) => getJson<SeriesAnswer>(u)),
-  scenes: (p: Parameters<typeof urls.scenes>[0]) => cached(urls.scenes(p), (u) => allPages<{ next_cursor: string | null; rows: SceneRow[] }>(u, 'rows')),
+  scenes: (p: Parameters<typeof urls.scenes>[0]) => cached(urls.scenes(p), (u) => allPages<ScenesAnswer>(u, 'rows')),
 };

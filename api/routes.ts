@@ -64,7 +64,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     schema: {
       summary: 'The districts as a GeoJSON FeatureCollection with one season-year\'s means as properties',
       description: 'RFC 7946, lon/lat. The rural reference is the feature with role "rural". format=csv (or Accept: text/csv) gives the same rows without geometry.',
-      querystring: querySchema({ year: Q.year, season: { ...Q.season, default: 'all' }, metric: { ...Q.metric, default: 'suhi_night' }, format: Q.format, limit: Q.limit, cursor: Q.cursor }),
+      querystring: querySchema({ year: Q.year, season: Q.season, metric: Q.metric, format: Q.format, limit: Q.limit, cursor: Q.cursor }),
       response: { 200: { description: 'GeoJSON, or CSV on request', content: { 'application/geo+json': { schema: DISTRICTS_BODY }, 'text/csv': { schema: CSV_BODY } } }, ...ERRORS },
     },
   }, async (req, reply) => {
@@ -95,7 +95,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
       summary: 'One district\'s yearly series of a metric and its trend (the district\'s row of /api/trends)',
       params: { type: 'object', properties: { id: { type: 'string', minLength: 1, maxLength: 200 } }, required: ['id'] },
       querystring: querySchema({
-        metric: { ...Q.metric, default: 'suhi_night' }, season: { ...Q.season, default: 'all' }, from: Q.from, to: Q.to, alpha: Q.alpha,
+        metric: Q.metric, season: Q.season, from: Q.from, to: Q.to, alpha: Q.alpha,
         serial_correction: Q.serial_correction, dates: Q.boolean('true: list the dates behind each year'),
       }),
       response: { 200: SERIES_BODY, ...ERRORS },
@@ -113,7 +113,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     schema: {
       summary: 'Every district\'s trend: Mann–Kendall, Sen slope with interval and pivot, raw p, Benjamini–Hochberg q, direction',
       querystring: querySchema({
-        metric: { ...Q.metric, default: 'suhi_night' }, season: { ...Q.season, default: 'all' }, from: Q.from, to: Q.to, alpha: Q.alpha,
+        metric: Q.metric, season: Q.season, from: Q.from, to: Q.to, alpha: Q.alpha,
         serial_correction: Q.serial_correction, limit: Q.limit, cursor: Q.cursor,
       }),
       response: { 200: TRENDS_BODY, ...ERRORS },
@@ -131,7 +131,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     schema: {
       summary: 'Districts ranked by a metric in one season-year, with the rank change against the previous year with values',
       querystring: querySchema({
-        year: Q.year, metric: { ...Q.metric, default: 'suhi_night' }, season: { ...Q.season, default: 'all' },
+        year: Q.year, metric: Q.metric, season: Q.season,
         order: { type: 'string', enum: ['desc', 'asc'], default: 'desc', description: 'desc: rank 1 is the highest value' }, limit: Q.limit, cursor: Q.cursor,
       }),
       response: { 200: RANKINGS_BODY, ...ERRORS },
@@ -148,7 +148,7 @@ export function registerReadRoutes(app: FastifyInstance, store: Store, options: 
     schema: {
       summary: 'Getis–Ord Gi* per district and the global Moran\'s I of one season-year (queen contiguity)',
       querystring: querySchema({
-        year: Q.year, metric: { ...Q.metric, default: 'suhi_night' }, season: { ...Q.season, default: 'all' },
+        year: Q.year, metric: Q.metric, season: Q.season,
         fdr: Q.boolean('true: hot and cold spots from Benjamini–Hochberg q instead of p'),
       }),
       response: { 200: HOTSPOTS_BODY, ...ERRORS },

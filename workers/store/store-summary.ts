@@ -4,6 +4,7 @@
  * The API's health answer and its response tags (ETag) come from here.
  */
 import { InputError } from '../core/errors.js';
+import { yearRanges } from '../core/trend/index.js';
 import type { UtcIso } from '../core/units.js';
 import { namedQuery } from './queries.js';
 import type { Db } from './db.js';
@@ -34,17 +35,9 @@ export async function runMarks(db: Db): Promise<{ last: { id: number; state: str
   };
 }
 
-/** Years as short runs: [2015, 2016, 2017, 2020] → "2015-2017, 2020". */
+/** Years in any order as short runs: [2020, 2015, 2016, 2017] → "2015-2017, 2020". */
 export function yearRuns(years: readonly number[]): string {
-  const sorted = [...new Set(years)].sort((a, b) => a - b);
-  const runs: string[] = [];
-  for (let i = 0; i < sorted.length; i++) {
-    let j = i;
-    while (j + 1 < sorted.length && sorted[j + 1] === sorted[j] + 1) j++;
-    runs.push(i === j ? String(sorted[i]) : `${sorted[i]}-${sorted[j]}`);
-    i = j;
-  }
-  return runs.join(', ');
+  return yearRanges([...new Set(years)].sort((a, b) => a - b), ', ');
 }
 
 /**

@@ -51,8 +51,8 @@ export interface TrendResult {
   note: string | null;
 }
 
-/** "2019-2021,2023" from sorted years. */
-export function yearRanges(years: readonly number[]): string {
+/** "2019-2021,2023" from sorted years (`separator` between the runs). */
+export function yearRanges(years: readonly number[], separator = ','): string {
   const parts: string[] = [];
   let i = 0;
   while (i < years.length) {
@@ -61,7 +61,7 @@ export function yearRanges(years: readonly number[]): string {
     parts.push(j === i ? String(years[i]) : `${years[i]}-${years[j]}`);
     i = j + 1;
   }
-  return parts.join(',');
+  return parts.join(separator);
 }
 
 /** Verdict from a p-value and S at level alpha. */

@@ -5,11 +5,9 @@
  * test, can check the sentence against the API).
  */
 import { PRECISION, roundNumber, type Precision } from '../../workers/format.js';
+import { KELVIN_AT_ZERO_CELSIUS, type TemperatureUnit } from '../web/draw/metrics.js';
 
-export type TemperatureUnit = 'K' | 'C';
-
-/** Kelvin to degrees Celsius: T(°C) = T(K) − 273.15 (BIPM, SI Brochure, 9th ed. 2019, §2.3.1). */
-export const KELVIN_AT_ZERO_CELSIUS = 273.15;
+export type { TemperatureUnit };
 
 /** Text safe inside HTML elements and attribute values. */
 export function esc(s: unknown): string {

@@ -36,6 +36,7 @@ export const METRICS: Record<MetricName, MetricInfo> = {
   ati: { name: 'ati', field: 'ati_per_k', label: 'Heat-holding (apparent thermal inertia)', short: 'ATI', kind: 'inertia', palette: 'sequential-inertia' },
 };
 
+/** Kelvin to degrees Celsius: T(°C) = T(K) − 273.15 (BIPM, SI Brochure, 9th ed. 2019, §2.3.1). */
 export const KELVIN_AT_ZERO_CELSIUS = 273.15;
 
 export function isMetricName(v: unknown): v is MetricName {

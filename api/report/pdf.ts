@@ -5,6 +5,7 @@
  */
 import { existsSync } from 'node:fs';
 import { InputError } from '../../workers/core/errors.js';
+import { esc } from './text.js';
 
 /** Where Debian's `chromium` package puts the browser. */
 export const CHROMIUM_PATH = '/usr/bin/chromium';
@@ -36,8 +37,6 @@ export interface PrintOptions {
   footer?: string;
 }
 
-const escapeHtml = (s: string) => s.replace(/[&<>"']/g, (c) => `&#${c.charCodeAt(0)};`);
-
 /**
  * Print `html` to an A4 PDF at `pdfPath`. Every request the page would make
  * is refused, so the PDF shows exactly what the self-contained file holds.
@@ -58,7 +57,7 @@ export async function printPdf(html: string, pdfPath: string, options: PrintOpti
       preferCSSPageSize: true,
       displayHeaderFooter: true,
       headerTemplate: '<span></span>',
-      footerTemplate: `<div style="font-size:7pt;color:#666;width:100%;padding:0 15mm;display:flex;justify-content:space-between"><span>${escapeHtml(options.footer ?? '')}</span><span>page <span class="pageNumber"></span> of <span class="totalPages"></span></span></div>`,
+      footerTemplate: `<div style="font-size:7pt;color:#666;width:100%;padding:0 15mm;display:flex;justify-content:space-between"><span>${esc(options.footer ?? '')}</span><span>page <span class="pageNumber"></span> of <span class="totalPages"></span></span></div>`,
     });
   } finally {
     await browser.close();

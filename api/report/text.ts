@@ -6,13 +6,11 @@
  */
 import { PRECISION, roundNumber, type Precision } from '../../workers/format.js';
 import { KELVIN_AT_ZERO_CELSIUS, type TemperatureUnit } from '../web/draw/metrics.js';
+import { esc } from '../web/draw/svg.js';
 
+// the one escape of text for HTML and SVG, shared with the page's drawing code
+export { esc };
 export type { TemperatureUnit };
-
-/** Text safe inside HTML elements and attribute values. */
-export function esc(s: unknown): string {
-  return String(s ?? '').replace(/[&<>"']/g, (c) => `&#${c.charCodeAt(0)};`);
-}
 
 /** The unit's symbol: "K" or "°C". */
 export function unitSymbol(units: TemperatureUnit): string {

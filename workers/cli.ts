@@ -12,7 +12,7 @@ import {
   ALBEDO_WINDOW_DAYS, CAUTION_TEXT, EMISSIVITY_WINDOW_DAYS, THERMAL_EMISSIVITY_DEFAULT, MIN_DATES_PER_YEAR, MIN_VALID_FRACTION, PAIRING_WINDOW_HOURS, PLAUSIBLE_RANGE_KELVIN,
   RURAL_RING_INNER_METRES, RURAL_RING_OUTER_METRES,
 } from './core/defaults.js';
-import { parseYear, quoteGiven } from './core/year.js';
+import { decimalWhole, parseYear, quoteGiven } from './core/year.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
 import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
@@ -30,7 +30,7 @@ function badOption(message: string): CommanderError {
 /** A count or port: decimal digits only, within [min, max]. */
 function parseInteger(name: string, min: number, max: number) {
   return (v: string): number => {
-    const n = /^[0-9]{1,9}$/.test(v) ? Number(v) : NaN;
+    const n = decimalWhole(v, 9);
     if (!(Number.isInteger(n) && n >= min && n <= max)) throw badOption(`${name} must be a whole number from ${min} to ${max} in decimal digits, got ${quoteGiven(v)}`);
     return n;
   };
@@ -39,7 +39,7 @@ function parseInteger(name: string, min: number, max: number) {
 /** A QA bit mask: decimal, 0x hex or 0b binary (the usual ways of writing bits), 0 to 2^32 - 1. */
 function parseBitMask(name: string) {
   return (v: string): number => {
-    const n = /^0x[0-9a-f]{1,8}$/i.test(v) ? parseInt(v.slice(2), 16) : /^0b[01]{1,32}$/i.test(v) ? parseInt(v.slice(2), 2) : /^[0-9]{1,10}$/.test(v) ? Number(v) : NaN;
+    const n = /^0x[0-9a-f]{1,8}$/i.test(v) ? parseInt(v.slice(2), 16) : /^0b[01]{1,32}$/i.test(v) ? parseInt(v.slice(2), 2) : decimalWhole(v, 10);
     if (!(Number.isInteger(n) && n >= 0 && n <= 0xffffffff)) throw badOption(`${name} must be a bit mask from 0 to 4294967295 (decimal, 0x hex or 0b binary), got ${quoteGiven(v)}`);
     return n;
   };

@@ -10,7 +10,7 @@
  * (store/configured.ts) read the two URLs and decide the mode.
  */
 import { InputError } from './core/errors.js';
-import { quoteGiven } from './core/year.js';
+import { decimalWhole, quoteGiven } from './core/year.js';
 
 export const ENV = {
   databaseUrl: 'DATABASE_URL',
@@ -56,7 +56,7 @@ export { DATA_DIR_NAME as DEFAULT_DATA_DIR, API_PORT as DEFAULT_API_PORT } from 
 export function envWholeNumber(name: string, range: { min: number; max: number; unit: string }, env: NodeJS.ProcessEnv = process.env): number | undefined {
   const text = env[name];
   if (text === undefined || text === '') return undefined;
-  const n = /^[0-9]{1,15}$/.test(text) ? Number(text) : NaN;
+  const n = decimalWhole(text, 15);
   if (!(n >= range.min && n <= range.max)) {
     throw new InputError(`${name} must be a whole number of ${range.unit} from ${range.min} to ${range.max} in decimal digits, got ${quoteGiven(text)}`);
   }

@@ -16,25 +16,20 @@ interface DemoArchiveRecord {
   files: string[];
 }
 
-function readRecord(settingsPath: string): DemoArchiveRecord | null {
-  if (!existsSync(settingsPath)) return null;
+/** The settings file parsed as JSON, or undefined when it is missing or not JSON. */
+function readSettingsFile(settingsPath: string): unknown {
+  if (!existsSync(settingsPath)) return undefined;
   try {
-    const r = JSON.parse(readFileSync(settingsPath, 'utf8')) as Partial<DemoArchiveRecord>;
-    if (r && typeof r === 'object' && 'settings' in r && Array.isArray(r.files) && r.files.every((f) => typeof f === 'string')) return r as DemoArchiveRecord;
+    return JSON.parse(readFileSync(settingsPath, 'utf8')) as unknown;
   } catch {
-    // not a record of ours
+    return undefined; // not a file of ours
   }
-  return null;
 }
 
-/** The settings file of a version that wrote only the settings (no file list), as JSON text; null when it is not one. */
-function legacySettings(settingsPath: string): string | null {
-  if (!existsSync(settingsPath)) return null;
-  try {
-    return JSON.stringify(JSON.parse(readFileSync(settingsPath, 'utf8')));
-  } catch {
-    return null;
-  }
+/** The parsed settings file as a record of ours, or null. */
+function asRecord(parsed: unknown): DemoArchiveRecord | null {
+  const r = parsed as Partial<DemoArchiveRecord> | null | undefined;
+  return r && typeof r === 'object' && 'settings' in r && Array.isArray(r.files) && r.files.every((f) => typeof f === 'string') ? (r as DemoArchiveRecord) : null;
 }
 
 /** A file name the record may name: one entry of the folder itself, nothing above or below it. */
@@ -57,11 +52,12 @@ export async function prepareDemoArchive(opts: {
 }): Promise<ArchiveState> {
   const dir = resolve(opts.dir);
   const settingsPath = join(dir, opts.settingsFile);
-  const record = readRecord(settingsPath);
+  const parsed = readSettingsFile(settingsPath);
+  const record = asRecord(parsed);
   const want = JSON.stringify(opts.settings);
   if (record && JSON.stringify(record.settings) === want && record.files.length > 0 && opts.isComplete()) return 'ready';
   // an archive of the same settings from a version that recorded no file list: used as it is, never deleted
-  if (!record && legacySettings(settingsPath) === want && opts.isComplete()) return 'ready';
+  if (!record && parsed !== undefined && JSON.stringify(parsed) === want && opts.isComplete()) return 'ready';
   if (existsSync(dir)) {
     const ours = new Set(record ? [...record.files.filter(plainName), opts.settingsFile] : []);
     const left = readdirSync(dir).filter((f) => !ours.has(f));

@@ -66,6 +66,9 @@ export async function buildReportHtml(store: Store, o: Pick<ReportCommandOptions
   return reportHtml(data, reportFigures(data), { place: o.place ?? null });
 }
 
+/** The footer of every page of the report's PDF (the command's and the demo's). */
+const PDF_FOOTER = `heatledger ${VERSION} · surface heat report`;
+
 /** The browser that prints PDFs: $HEATLEDGER_CHROMIUM, else the Debian package's. */
 async function chromiumPath(): Promise<string> {
   const { CHROMIUM_PATH } = await import('../../api/report/pdf.js');
@@ -86,7 +89,7 @@ export async function runReportCommand(o: ReportCommandOptions): Promise<void> {
   await writeOutput(o.out, html, '--out');
   process.stdout.write(`Report (HTML): ${resolve(o.out)}\n`);
   if (o.pdf) {
-    await printPdf(html, o.pdf, { executablePath: chromium, footer: `heatledger ${VERSION} · surface heat report` });
+    await printPdf(html, o.pdf, { executablePath: chromium, footer: PDF_FOOTER });
     process.stdout.write(`Report (PDF):  ${resolve(o.pdf)}\n`);
   }
 }
@@ -105,7 +108,7 @@ export async function writeDemoReport(store: Store, outDir: string, o: { place: 
   const { existsSync } = await import('node:fs');
   if (existsSync(chromium)) {
     const { printPdf } = await import('../../api/report/pdf.js');
-    await printPdf(html, `${base}.pdf`, { executablePath: chromium, footer: `heatledger ${VERSION} · surface heat report` });
+    await printPdf(html, `${base}.pdf`, { executablePath: chromium, footer: PDF_FOOTER });
     written.push({ path: `${base}.pdf`, what: 'the same report as an A4 PDF' });
   } else {
     const { howToGetChromium } = await import('../../api/report/pdf.js');

@@ -11,7 +11,7 @@ import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
 import { mkdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import { zonalScene, zonalThermalScene, openAtmosphere, openEmissivityField, type ThermalZonalResult, type ZonalSceneOptions, type ZonalTarget } from '../core/zonal/index.js';
-import { chooseSceneEmissivity, writeThermalLst, type NdviSource, type OwnEmissivityInputs } from '../core/thermal/index.js';
+import { chooseSceneEmissivity, writeThermalLst, type NdviSource, type OwnEmissivityInputs, type SceneEmissivityInput } from '../core/thermal/index.js';
 import type { JobContext } from '../queue/types.js';
 import type { PipelineRepo } from '../store/pipeline-repo.js';
 import type { IngestResult } from './ingest.js';
@@ -46,21 +46,26 @@ export interface ThermalZonalData {
   writeLstDir?: string;
 }
 
+/** A thermal scene's emissivity input, chosen once per scene (null: the district properties, then the fallback). */
+function sceneEmissivityOf(ingested: IngestResult, data: ZonalData): SceneEmissivityInput | null {
+  const d = data.thermal;
+  return d ? chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays) : null;
+}
+
 /** Fingerprint of what a thermal scene's statistics are computed from. */
-function thermalInputsKey(ingested: IngestResult, data: ZonalData): string {
+function thermalInputsKey(ingested: IngestResult, data: ZonalData, sceneEmissivity: SceneEmissivityInput | null): string {
   const t = ingested.thermal, d = data.thermal;
   if (!t || !d) return fingerprint('incomplete thermal inputs');
-  const sceneEmissivity = chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays);
   const districtEmissivity = Object.fromEntries(data.targetIds.filter((id) => id in d.districtEmissivity).map((id) => [id, d.districtEmissivity[id]]));
   return fingerprint(t.constants, t.atmosphere, sceneEmissivity, districtEmissivity, d.fallback.value);
 }
 
 /** Statistics of a thermal scene from its DN (and, with --write-lst, its LST as a COG). */
-async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options: ZonalSceneOptions, ingested: IngestResult, data: ZonalData): Promise<ThermalZonalResult> {
+async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options: ZonalSceneOptions, ingested: IngestResult, data: ZonalData,
+  sceneEmissivity: SceneEmissivityInput | null): Promise<ThermalZonalResult> {
   const t = ingested.thermal;
   const d = data.thermal;
   if (!t || !d) throw new Error(`thermal scene ${data.path} reached the zonal step without its constants or emissivity inputs`);
-  const sceneEmissivity = chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays);
   const result = await zonalThermalScene(raster, targets, options, {
     constants: t.constants, atmosphere: t.atmosphere, sceneEmissivity, districtEmissivity: d.districtEmissivity, fallback: d.fallback,
   });
@@ -142,7 +147,8 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
   if (!ingested) return { sceneId: null, rows: 0, skipped: 'ingest failed' };
   if (ingested.kind === 'qa') return { sceneId: ingested.sceneId, kind: 'qa', rows: 0, skipped: 'QA raster' };
   // a thermal scene's statistics also depend on its constants, atmosphere and emissivity inputs
-  const thermalKey = ingested.kind === 'thermal' ? thermalInputsKey(ingested, data) : null;
+  const sceneEmissivity = ingested.kind === 'thermal' ? sceneEmissivityOf(ingested, data) : null;
+  const thermalKey = ingested.kind === 'thermal' ? thermalInputsKey(ingested, data, sceneEmissivity) : null;
   if (ingested.alreadyStored && !(ingested.kind === 'thermal' && data.thermal?.writeLstDir)) {
     const have = new Set(await repo.zonalDistrictsOfScene(ingested.sceneId, data.coverage));
     const same = thermalKey === null || (await repo.lstInputsFingerprint(ingested.sceneId)) === thermalKey;
@@ -163,7 +169,7 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
       plausibleKelvin: ingested.kind === 'lst' || ingested.kind === 'thermal' ? data.plausibleKelvin : [0, 1],
       qa: qa ? { raster: qa, maskBits: data.qa?.maskBits, maskValues: data.qa?.maskValues } : undefined,
     };
-    const thermal = ingested.kind === 'thermal' ? await thermalZonal(raster, targets, options, ingested, data) : null;
+    const thermal = ingested.kind === 'thermal' ? await thermalZonal(raster, targets, options, ingested, data, sceneEmissivity) : null;
     const results = thermal ? thermal.results : await zonalScene(raster, targets, options);
     const rows = results.map((r) => ({
       districtId: r.id,

@@ -38,6 +38,13 @@ export function num(value: number | null | undefined, field: string): number | n
   return value;
 }
 
+/** A year headed for an integer parameter: a whole number, or null (no bound). */
+export function yearOrNull(value: number | null | undefined): number | null {
+  if (value === null || value === undefined) return null;
+  if (!Number.isInteger(value)) throw new Error(`store: year must be an integer, got ${String(value)}`);
+  return value;
+}
+
 export function json(value: unknown): string {
   return JSON.stringify(value ?? {});
 }

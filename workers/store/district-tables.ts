@@ -1,7 +1,7 @@
 /** The district tables: per district and date, and per district and year (named queries sql/queries/district_table_*.sql). */
 import type { Kelvin } from '../core/units.js';
 import { namedQuery } from './queries.js';
-import { type Db, num } from './db.js';
+import { type Db, num, yearOrNull } from './db.js';
 
 export interface DistrictTableOptions {
   /** Only this calendar year (UTC). */
@@ -32,9 +32,7 @@ export interface DistrictYearRow extends Omit<DistrictDateRow, 'obs_date'> {
 }
 
 function tableParams(options: DistrictTableOptions): unknown[] {
-  const year = options.year ?? null;
-  if (year !== null && !Number.isInteger(year)) throw new Error(`store: year must be an integer, got ${String(year)}`);
-  return [year, num(options.minValidFraction, 'minValidFraction')];
+  return [yearOrNull(options.year), num(options.minValidFraction, 'minValidFraction')];
 }
 
 /** Per district and date: mean day/night LST, SUHI, ATI and scene counts (sql/queries/district_table_date.sql). */

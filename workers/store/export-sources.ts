@@ -6,7 +6,7 @@
  * The date and year tables come from ./district-table.ts; the yearly trends
  * from ./district-statistics.ts.
  */
-import type { Db } from './db.js';
+import { type Db, yearOrNull } from './db.js';
 import { namedQuery } from './queries.js';
 import { fileForReader, handedOnParameters } from '../core/relative-paths.js';
 
@@ -25,10 +25,7 @@ export interface YearRange {
 }
 
 function yearParams(range: YearRange): [number | null, number | null] {
-  for (const y of [range.from, range.to]) {
-    if (y !== null && !Number.isInteger(y)) throw new Error(`store: year must be an integer, got ${String(y)}`);
-  }
-  return [range.from, range.to];
+  return [yearOrNull(range.from), yearOrNull(range.to)];
 }
 
 /** One row per district and LST pass, at full precision (round at the output edge). */

@@ -3,6 +3,7 @@
  * thermal columns and zonal_stats.emissivity_source.
  */
 import { describeLstMethod, type LstMethodDescription } from '../core/thermal/describe.js';
+import { isAtmosphereRasters, type SceneAtmosphere } from '../core/thermal/rte.js';
 import type { UtcIso } from '../core/units.js';
 import { type Db, inTransaction } from './db.js';
 
@@ -10,8 +11,7 @@ import { type Db, inTransaction } from './db.js';
 export interface ThermalSceneInput {
   lstMethod: 'rte' | 'emissivity_only';
   /** Transmittance (0-1) and path radiances (W m-2 sr-1 um-1), or rasters of them, or null without atmospheric correction. */
-  atmosphere: { transmittance: number; upwellingRadiance: number; downwellingRadiance: number }
-    | { transmittanceRaster: string; upwellingRaster: string; downwellingRaster: string } | null;
+  atmosphere: SceneAtmosphere | null;
   /** 'metadata file <path>', 'manifest' or 'built-in table (...)'. */
   constantsSource: string;
 }
@@ -19,7 +19,7 @@ export interface ThermalSceneInput {
 /** Record how a thermal scene's LST is made (its emissivity source comes with its statistics). */
 export async function setSceneThermal(db: Db, sceneId: number, t: ThermalSceneInput): Promise<void> {
   const a = t.atmosphere;
-  const atm = a === null ? null : JSON.stringify('transmittanceRaster' in a
+  const atm = a === null ? null : JSON.stringify(isAtmosphereRasters(a)
     ? { transmittance_raster: a.transmittanceRaster, upwelling_raster: a.upwellingRaster, downwelling_raster: a.downwellingRaster }
     : { transmittance: a.transmittance, upwelling_w_m2_sr_um: a.upwellingRadiance, downwelling_w_m2_sr_um: a.downwellingRadiance });
   await db.query(

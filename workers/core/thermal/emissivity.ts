@@ -86,10 +86,22 @@ export interface NdviThresholdOptions {
  * emissivityNdviThreshold(0.35, 0.1, { form: 'cavity' }) // 0.98725
  */
 export function emissivityNdviThreshold(ndviValue: number, redReflectance: number, options: NdviThresholdOptions = {}): number {
+  requireBetween(ndviValue, 'ndvi', -1, 1, 'emissivityNdviThreshold');
+  return ndviThresholdEmissivity(options)(ndviValue, redReflectance);
+}
+
+/**
+ * {@link emissivityNdviThreshold} with `options` checked once: the returned function
+ * maps (NDVI, red reflectance) to emissivity, so a raster checks its options once per
+ * scene, not once per pixel. The NDVI must already lie in [-1, 1]; the red reflectance
+ * is checked (-0.5..1.5) where the soil line uses it.
+ * @throws InputError for an option out of range (named in the message)
+ */
+export function ndviThresholdEmissivity(options: NdviThresholdOptions = {}): (ndviValue: number, redReflectance: number) => number {
   const source = 'emissivityNdviThreshold';
-  const v = requireBetween(ndviValue, 'ndvi', -1, 1, source);
-  const ndviSoil = options.ndviSoil ?? 0.2;
-  const ndviVeg = options.ndviVeg ?? 0.5;
+  const ndviSoil = requireBetween(options.ndviSoil ?? 0.2, 'ndviSoil', -1, 1, 'vegetationFraction');
+  const ndviVeg = requireBetween(options.ndviVeg ?? 0.5, 'ndviVeg', -1, 1, 'vegetationFraction');
+  if (!(ndviVeg > ndviSoil)) throw new InputError(`ndviVeg (${ndviVeg}) must be greater than ndviSoil (${ndviSoil}).`, 'vegetationFraction');
   const epsV = requireBetween(options.emissivityVeg ?? 0.99, 'emissivityVeg', 0, 1, source);
   const epsS = requireBetween(options.emissivitySoil ?? 0.97, 'emissivitySoil', 0, 1, source);
   const f = requireBetween(options.shapeFactor ?? 0.55, 'shapeFactor', 0, 1, source);
@@ -97,19 +109,23 @@ export function emissivityNdviThreshold(ndviValue: number, redReflectance: numbe
   if (form !== 'simplified' && form !== 'cavity') {
     throw new InputError(`form must be 'simplified' or 'cavity', got ${JSON.stringify(form)}.`, source);
   }
-
-  if (options.waterNdviBelow !== undefined && v < requireBetween(options.waterNdviBelow, 'waterNdviBelow', -1, 1, source)) {
-    return requireBetween(options.waterEmissivity ?? 0.99, 'waterEmissivity', 0, 1, source);
-  }
-  const pv = vegetationFraction(v, ndviSoil, ndviVeg); // also checks the thresholds
-  if (v < ndviSoil) {
-    const red = requireBetween(redReflectance, 'redReflectance', -0.5, 1.5, source);
-    const line = options.soilLine ?? { intercept: 0.979, slope: -0.035 };
-    const eps = requireFinite(line.intercept, 'soilLine.intercept', source) + requireFinite(line.slope, 'soilLine.slope', source) * red;
-    return Math.min(1, Math.max(0, eps));
-  }
-  if (v > ndviVeg) return epsV;
-  if (form === 'simplified') return 0.004 * pv + 0.986;
-  const cavity = (1 - epsS) * (1 - pv) * f * epsV;
-  return epsV * pv + epsS * (1 - pv) + cavity;
+  const waterBelow = options.waterNdviBelow === undefined ? -Infinity : requireBetween(options.waterNdviBelow, 'waterNdviBelow', -1, 1, source);
+  const waterEps = options.waterNdviBelow === undefined ? NaN : requireBetween(options.waterEmissivity ?? 0.99, 'waterEmissivity', 0, 1, source);
+  const line = options.soilLine ?? { intercept: 0.979, slope: -0.035 };
+  const intercept = requireFinite(line.intercept, 'soilLine.intercept', source);
+  const slope = requireFinite(line.slope, 'soilLine.slope', source);
+  return (v: number, redReflectance: number): number => {
+    if (v < waterBelow) return waterEps;
+    if (v < ndviSoil) {
+      const red = requireBetween(redReflectance, 'redReflectance', -0.5, 1.5, source);
+      return Math.min(1, Math.max(0, intercept + slope * red));
+    }
+    if (v > ndviVeg) return epsV;
+    // Pv as in vegetationFraction (here ndviSoil <= v <= ndviVeg, so the ratio needs no clamp)
+    const ratio = (v - ndviSoil) / (ndviVeg - ndviSoil);
+    const pv = ratio * ratio;
+    if (form === 'simplified') return 0.004 * pv + 0.986;
+    const cavity = (1 - epsS) * (1 - pv) * f * epsV;
+    return epsV * pv + epsS * (1 - pv) + cavity;
+  };
 }

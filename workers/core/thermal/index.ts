@@ -17,7 +17,7 @@ export {
   type TirsBandConstants,
   type ModisDnStatus,
 } from './sensors.js';
-export { ndvi, vegetationFraction, emissivityNdviThreshold, type NdviThresholdOptions } from './emissivity.js';
+export { ndvi, vegetationFraction, emissivityNdviThreshold, ndviThresholdEmissivity, type NdviThresholdOptions } from './emissivity.js';
 export {
   lstFromBrightnessTemperature,
   PLANCK_J_S,

@@ -9,7 +9,7 @@
 import { InputError } from '../errors.js';
 import { sameGrid, type Window } from '../raster/affine.js';
 import { clampWindow, type RasterBlock, type RasterFile, type RasterHeader, type TypedArray } from '../raster/index.js';
-import { emissivityNdviThreshold, ndvi as ndviOf } from './emissivity.js';
+import { ndviThresholdEmissivity, ndvi as ndviOf } from './emissivity.js';
 import { NO_ATMOSPHERE, surfaceBlackbodyRadiance, type AtmosphereParameters } from './rte.js';
 import type { TirsBandConstants } from './sensors.js';
 
@@ -56,6 +56,8 @@ export interface ThermalLstPlan {
 
 /** NDVI-threshold options of the thermal path: the published defaults, and water below NDVI 0 (common practice, no source). */
 const NDVI_OPTIONS = { waterNdviBelow: 0 } as const;
+/** The NDVI-threshold emissivity of NDVI_OPTIONS, its options checked once here rather than per pixel. */
+const emissivityNdviRed = ndviThresholdEmissivity(NDVI_OPTIONS);
 /** Soil emissivity below the soil NDVI threshold when no red reflectance is at hand: eps_s of Sobrino et al. 2004 (RSE 90:434-440, from memory). */
 const SOIL_EMISSIVITY_NDVI_ONLY = 0.97;
 const NDVI_SOIL = 0.2;
@@ -67,7 +69,7 @@ const NDVI_SOIL = 0.2;
  * @example emissivityFromNdviOnly(0.35) // 0.987
  */
 export function emissivityFromNdviOnly(ndviValue: number): number {
-  if (ndviValue < NDVI_OPTIONS.waterNdviBelow || ndviValue >= NDVI_SOIL) return emissivityNdviThreshold(ndviValue, 0, NDVI_OPTIONS);
+  if (ndviValue < NDVI_OPTIONS.waterNdviBelow || ndviValue >= NDVI_SOIL) return emissivityNdviRed(ndviValue, 0);
   return SOIL_EMISSIVITY_NDVI_ONLY;
 }
 
@@ -91,63 +93,57 @@ function physical(h: RasterHeader, v: number): number {
   return h.nodata !== null && (v === h.nodata || (Number.isNaN(h.nodata) && v !== v)) ? NaN : v * h.scale + h.offset;
 }
 
+/** Where pixel `i` of `window` lies, for messages. */
+function pixelPlace(window: Window, i: number): string {
+  return `row ${window.rowOff + Math.floor(i / window.width)}, column ${window.colOff + (i % window.width)}`;
+}
+
+/**
+ * The physical values of `raster` over `window` (NaN where nodata), each mapped by `map`;
+ * a value `ok` refuses is an InputError naming the raster, the pixel and `what ... is not range`.
+ */
+async function mapWindow(raster: RasterFile, window: Window, n: number, what: string, ok: (x: number) => boolean, range: string,
+  map: (x: number) => number = (x) => x): Promise<Float64Array> {
+  const h = raster.header;
+  const v = await raster.readWindow(window);
+  const out = new Float64Array(n);
+  for (let i = 0; i < n; i++) {
+    const x = physical(h, v[i]);
+    if (x !== x) { out[i] = NaN; continue; }
+    if (!ok(x)) throw new InputError(`${what} ${x} at ${pixelPlace(window, i)} is ${range}`, h.path);
+    out[i] = map(x);
+  }
+  return out;
+}
+
 /** Emissivity of every pixel of `window` (NaN where an input is nodata). */
 async function emissivityWindow(field: EmissivityField, window: Window, n: number): Promise<Float64Array | number> {
   if (field.kind === 'constant') return field.value;
-  const out = new Float64Array(n);
-  const where = (i: number) => `row ${window.rowOff + Math.floor(i / window.width)}, column ${window.colOff + (i % window.width)}`;
   if (field.kind === 'raster') {
-    const h = field.raster.header;
-    const v = await field.raster.readWindow(window);
-    for (let i = 0; i < n; i++) {
-      const e = physical(h, v[i]);
-      if (e !== e) { out[i] = NaN; continue; }
-      if (!emissivityInRange(e)) throw new InputError(`emissivity ${e} at ${where(i)} is outside (${EMISSIVITY_MIN_EXCLUSIVE}, 1]`, h.path);
-      out[i] = e;
-    }
-    return out;
+    return mapWindow(field.raster, window, n, 'emissivity', emissivityInRange, `outside (${EMISSIVITY_MIN_EXCLUSIVE}, 1]`);
   }
   if (field.kind === 'ndvi') {
-    const h = field.ndvi.header;
-    const v = await field.ndvi.readWindow(window);
-    for (let i = 0; i < n; i++) {
-      const x = physical(h, v[i]);
-      if (x !== x) { out[i] = NaN; continue; }
-      if (!(x >= -1 && x <= 1)) throw new InputError(`NDVI ${x} at ${where(i)} is outside [-1, 1] (unscaled values? set the raster's scale)`, h.path);
-      out[i] = emissivityFromNdviOnly(x);
-    }
-    return out;
+    return mapWindow(field.ndvi, window, n, 'NDVI', (x) => x >= -1 && x <= 1, 'outside [-1, 1] (unscaled values? set the raster\'s scale)', emissivityFromNdviOnly);
   }
+  const out = new Float64Array(n);
   const hr = field.red.header, hn = field.nir.header;
   const [red, nir] = await Promise.all([field.red.readWindow(window), field.nir.readWindow(window)]);
   for (let i = 0; i < n; i++) {
     const r = physical(hr, red[i]), q = physical(hn, nir[i]);
     const x = r === r && q === q ? ndviOf(q, r) : null;
     if (x === null) { out[i] = NaN; continue; }
-    if (!(r >= -0.5 && r <= 1.5)) throw new InputError(`red reflectance ${r} at ${where(i)} is not a reflectance (unscaled values? set the raster's scale)`, hr.path);
-    out[i] = emissivityNdviThreshold(x, r, NDVI_OPTIONS);
+    if (!(r >= -0.5 && r <= 1.5)) throw new InputError(`red reflectance ${r} at ${pixelPlace(window, i)} is not a reflectance (unscaled values? set the raster's scale)`, hr.path);
+    out[i] = emissivityNdviRed(x, r);
   }
   return out;
 }
 
 /** Per-pixel transmittance and path radiances of `window` (NaN where an input is nodata), checked. */
 async function atmosphereWindow(a: AtmosphereRasters, window: Window, n: number): Promise<[Float64Array, Float64Array, Float64Array]> {
-  const where = (i: number) => `row ${window.rowOff + Math.floor(i / window.width)}, column ${window.colOff + (i % window.width)}`;
-  const read = async (r: RasterFile, what: string, ok: (v: number) => boolean, range: string): Promise<Float64Array> => {
-    const h = r.header;
-    const v = await r.readWindow(window);
-    const out = new Float64Array(n);
-    for (let i = 0; i < n; i++) {
-      const x = physical(h, v[i]);
-      if (x === x && !ok(x)) throw new InputError(`${what} ${x} at ${where(i)} is not ${range}`, h.path);
-      out[i] = x;
-    }
-    return out;
-  };
   return Promise.all([
-    read(a.transmittance, 'atmospheric transmittance', (x) => x > 0 && x <= 1, 'in (0, 1]'),
-    read(a.upwelling, 'upwelling radiance', (x) => x >= 0 && Number.isFinite(x), 'a finite number >= 0'),
-    read(a.downwelling, 'downwelling radiance', (x) => x >= 0 && Number.isFinite(x), 'a finite number >= 0'),
+    mapWindow(a.transmittance, window, n, 'atmospheric transmittance', (x) => x > 0 && x <= 1, 'not in (0, 1]'),
+    mapWindow(a.upwelling, window, n, 'upwelling radiance', (x) => x >= 0 && Number.isFinite(x), 'not a finite number >= 0'),
+    mapWindow(a.downwelling, window, n, 'downwelling radiance', (x) => x >= 0 && Number.isFinite(x), 'not a finite number >= 0'),
   ]);
 }
 

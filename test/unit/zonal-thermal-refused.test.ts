@@ -15,7 +15,6 @@ import { runCliInProcess } from '../support/cli-in-process.js';
 const DIR = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../fixtures/thermal');
 const DISTRICTS = path.join(DIR, 'districts.geojson');
 
-
 describe('zonal on a thermal DN scene', () => {
   afterEach(() => vi.restoreAllMocks());
 

@@ -89,3 +89,18 @@ export async function pythonModulesAvailable(modules: readonly string[], suite: 
   console.log(`SKIPPED ${suite}: /usr/bin/python3 with ${modules.join(', ')} not found (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
   return false;
 }
+
+/**
+ * Whether `Rscript` loads these R packages (a reference tool). Like
+ * {@link pythonModulesAvailable}: throws when services are required (CI) and
+ * they are missing; logs a plain "SKIPPED" line otherwise.
+ */
+export async function rPackagesAvailable(packages: readonly string[], suite: string): Promise<boolean> {
+  const { spawnSync } = await import('node:child_process');
+  const load = packages.map((p) => `library(${p})`).join('; ');
+  const ok = spawnSync('Rscript', ['-e', `suppressMessages({${load}})`], { stdio: 'ignore' }).status === 0;
+  if (ok) return true;
+  if (requireServices) throw new Error(`${suite}: Rscript with ${packages.join(', ')} is missing and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: Rscript with ${packages.join(', ')} not found (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+  return false;
+}

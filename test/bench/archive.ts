@@ -42,7 +42,7 @@ import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import { ensurePipelineData, ruralRingCollection } from './pipeline-data.js';
 import {
-  REGISTER, RUN_TIMEOUT_MS, cleanEnv, describeExit, runChild, startWorker, stopProcess, unionLength, type SummaryJson,
+  REGISTER, RUN_TIMEOUT_MS, cleanEnv, configsFlag, describeExit, repetitionsFlag, runChild, startWorker, stopProcess, unionLength, type SummaryJson,
 } from './pipeline.js';
 import { benchQueuePrefix, benchTempDir, createBenchDatabase, onCleanup } from './pipeline-services.js';
 import type { RepoTiming } from './pipeline-timing-repo.js';
@@ -132,17 +132,9 @@ export function archiveFlags(argv: readonly string[]): { argv: string[]; archive
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     if (a === '--archive') archive = true;
-    else if (a === '--archive-reps') {
-      const n = Number(argv[++i]);
-      if (!Number.isInteger(n) || n < 1 || n > 9) throw new Error(`--archive-reps needs a whole number from 1 to 9, got "${argv[i]}"`);
-      options.repetitions = n;
-    } else if (a === '--archive-configs') {
-      const list = (argv[++i] ?? '').split(',').map((x) => x.trim()).filter(Boolean);
-      if (!list.length || !list.every((x) => (ARCHIVE_CONFIGS as string[]).includes(x))) {
-        throw new Error(`--archive-configs needs a comma-separated list of ${ARCHIVE_CONFIGS.join(', ')}, got "${argv[i]}"`);
-      }
-      options.configs = [...new Set(list)] as ArchiveConfig[];
-    } else rest.push(a);
+    else if (a === '--archive-reps') options.repetitions = repetitionsFlag(a, argv[++i]);
+    else if (a === '--archive-configs') options.configs = configsFlag(a, argv[++i], ARCHIVE_CONFIGS);
+    else rest.push(a);
   }
   return { argv: rest, archive, options };
 }

@@ -9,6 +9,7 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
 import { CITY_COLS, CITY_ROWS, SEGMENTS_PER_SIDE, wardCollection, wardRingsUtm } from './districts.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'bench-wards-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
@@ -20,7 +21,7 @@ function signedArea(ring: number[][]): number {
   return s / 2;
 }
 
-const HAVE_RASTERIO = spawnSync('/usr/bin/python3', ['-c', 'import rasterio, numpy'], { stdio: 'ignore' }).status === 0;
+const HAVE_RASTERIO = await pythonModulesAvailable(['rasterio', 'numpy'], 'bench districts against rasterio');
 if (!HAVE_RASTERIO) console.log('bench wards: GDAL rasterization check not run: /usr/bin/python3 with rasterio (python3-rasterio) is missing');
 
 describe('bench wards', () => {

@@ -12,11 +12,12 @@ import * as turf from '@turf/turf';
 import { afterAll, describe, expect, it } from 'vitest';
 import { DISTRICT_CELL_METRES, districtCollection, sceneFields, writePipelineScene } from './pipeline-data.js';
 import { pipelineFlags, unionLength } from './pipeline.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const dir = mkdtempSync(join(tmpdir(), 'bench-pipeline-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));
 
-const HAVE_RASTERIO = spawnSync('/usr/bin/python3', ['-c', 'import rasterio, numpy'], { stdio: 'ignore' }).status === 0;
+const HAVE_RASTERIO = await pythonModulesAvailable(['rasterio', 'numpy'], 'pipeline bench scene read with GDAL');
 if (!HAVE_RASTERIO) console.log('pipeline bench: GDAL read-back not run: /usr/bin/python3 with rasterio (python3-rasterio) is missing');
 
 describe('unionLength', () => {

@@ -87,9 +87,28 @@ function districtCell(easting: number, northing: number): [number, number] | nul
   return col >= 0 && row >= 0 && col < DISTRICT_COLS && row < DISTRICT_ROWS ? [col, row] : null;
 }
 
+/**
+ * A closed lon/lat ring through the four UTM `corners` in the order given,
+ * `VERTICES_PER_SIDE` vertices per side, degrees rounded to 1e-7.
+ */
+function lonLatRing(corners: [number, number][]): number[][] {
+  const toLonLat = proj4(BENCH_UTM_PROJ4, 'EPSG:4326');
+  const ring: number[][] = [];
+  for (let k = 0; k < 4; k++) {
+    const [ax, ay] = corners[k];
+    const [bx, by] = corners[(k + 1) % 4];
+    for (let s = 0; s < VERTICES_PER_SIDE; s++) {
+      const t = s / VERTICES_PER_SIDE;
+      const [lon, lat] = toLonLat.forward([ax + (bx - ax) * t, ay + (by - ay) * t]);
+      ring.push([Math.round(lon * 1e7) / 1e7, Math.round(lat * 1e7) / 1e7]);
+    }
+  }
+  ring.push(ring[0]);
+  return ring;
+}
+
 /** The districts as a lon/lat GeoJSON FeatureCollection. */
 export function districtCollection(): object {
-  const toLonLat = proj4(BENCH_UTM_PROJ4, 'EPSG:4326');
   const west = CENTRE_EASTING - (DISTRICT_COLS * DISTRICT_CELL_METRES) / 2;
   const south = CENTRE_NORTHING - (DISTRICT_ROWS * DISTRICT_CELL_METRES) / 2;
   const features = [];
@@ -98,18 +117,7 @@ export function districtCollection(): object {
       const x0 = west + col * DISTRICT_CELL_METRES, y0 = south + row * DISTRICT_CELL_METRES;
       const x1 = x0 + DISTRICT_CELL_METRES, y1 = y0 + DISTRICT_CELL_METRES;
       // counter-clockwise exterior (RFC 7946 section 3.1.6): SW -> SE -> NE -> NW -> SW
-      const corners: [number, number][] = [[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
-      const ring: number[][] = [];
-      for (let k = 0; k < 4; k++) {
-        const [ax, ay] = corners[k];
-        const [bx, by] = corners[(k + 1) % 4];
-        for (let s = 0; s < VERTICES_PER_SIDE; s++) {
-          const t = s / VERTICES_PER_SIDE;
-          const [lon, lat] = toLonLat.forward([ax + (bx - ax) * t, ay + (by - ay) * t]);
-          ring.push([Math.round(lon * 1e7) / 1e7, Math.round(lat * 1e7) / 1e7]);
-        }
-      }
-      ring.push(ring[0]);
+      const ring = lonLatRing([[x0, y0], [x1, y0], [x1, y1], [x0, y1]]);
       const n = row * DISTRICT_COLS + col + 1;
       // broadband albedo 0.12-0.20 (the district-property fallback of derive), so ATI rows are complete
       const albedo = Math.round((0.12 + 0.08 * (((n * 7) % 20) / 19)) * 1000) / 1000;
@@ -130,25 +138,12 @@ export function districtCollection(): object {
  * `VERTICES_PER_SIDE` vertices per side.
  */
 export function ruralRingCollection(innerMetres = 2000, outerMetres = 6000): object {
-  const toLonLat = proj4(BENCH_UTM_PROJ4, 'EPSG:4326');
   const halfW = (DISTRICT_COLS * DISTRICT_CELL_METRES) / 2, halfH = (DISTRICT_ROWS * DISTRICT_CELL_METRES) / 2;
   const square = (margin: number, clockwise: boolean): number[][] => {
     const x0 = CENTRE_EASTING - halfW - margin, x1 = CENTRE_EASTING + halfW + margin;
     const y0 = CENTRE_NORTHING - halfH - margin, y1 = CENTRE_NORTHING + halfH + margin;
     const ccw: [number, number][] = [[x0, y0], [x1, y0], [x1, y1], [x0, y1]];
-    const corners = clockwise ? [...ccw].reverse() : ccw;
-    const ring: number[][] = [];
-    for (let k = 0; k < 4; k++) {
-      const [ax, ay] = corners[k];
-      const [bx, by] = corners[(k + 1) % 4];
-      for (let s = 0; s < VERTICES_PER_SIDE; s++) {
-        const t = s / VERTICES_PER_SIDE;
-        const [lon, lat] = toLonLat.forward([ax + (bx - ax) * t, ay + (by - ay) * t]);
-        ring.push([Math.round(lon * 1e7) / 1e7, Math.round(lat * 1e7) / 1e7]);
-      }
-    }
-    ring.push(ring[0]);
-    return ring;
+    return lonLatRing(clockwise ? [...ccw].reverse() : ccw);
   };
   return {
     type: 'FeatureCollection',

@@ -146,19 +146,27 @@ export function pipelineFlags(argv: readonly string[]): { argv: string[]; pipeli
     const a = argv[i];
     if (a === '--pipeline' || a === '--all') pipeline = true;
     else if (a === '--pipeline-profile') options.profile = true;
-    else if (a === '--pipeline-reps') {
-      const n = Number(argv[++i]);
-      if (!Number.isInteger(n) || n < 1 || n > 9) throw new Error(`--pipeline-reps needs a whole number from 1 to 9, got "${argv[i]}"`);
-      options.repetitions = n;
-    } else if (a === '--pipeline-configs') {
-      const list = (argv[++i] ?? '').split(',').map((x) => x.trim()).filter(Boolean);
-      if (!list.length || !list.every((x) => (CONFIGS as string[]).includes(x))) {
-        throw new Error(`--pipeline-configs needs a comma-separated list of ${CONFIGS.join(', ')}, got "${argv[i]}"`);
-      }
-      options.configs = [...new Set(list)] as PipelineConfig[];
-    } else rest.push(a);
+    else if (a === '--pipeline-reps') options.repetitions = repetitionsFlag(a, argv[++i]);
+    else if (a === '--pipeline-configs') options.configs = configsFlag(a, argv[++i], CONFIGS);
+    else rest.push(a);
   }
   return { argv: rest, pipeline, options };
+}
+
+/** The value of a bench `--…-reps` flag: a whole number from 1 to 9. */
+export function repetitionsFlag(flag: string, value: string | undefined): number {
+  const n = Number(value);
+  if (!Number.isInteger(n) || n < 1 || n > 9) throw new Error(`${flag} needs a whole number from 1 to 9, got "${value}"`);
+  return n;
+}
+
+/** The value of a bench `--…-configs` flag: a comma-separated list drawn from `allowed`, without repeats. */
+export function configsFlag<T extends string>(flag: string, value: string | undefined, allowed: readonly T[]): T[] {
+  const list = (value ?? '').split(',').map((x) => x.trim()).filter(Boolean);
+  if (!list.length || !list.every((x) => (allowed as readonly string[]).includes(x))) {
+    throw new Error(`${flag} needs a comma-separated list of ${allowed.join(', ')}, got "${value}"`);
+  }
+  return [...new Set(list)] as T[];
 }
 
 /** Total length of the union of intervals [start, end], same units. */

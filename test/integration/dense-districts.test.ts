@@ -11,19 +11,18 @@
  * ring area < 0.05 %, see test/unit/districts-dense.test.ts). No timing asserted.
  */
 import { mkdtemp, readFile, rm, writeFile } from 'node:fs/promises';
-import { spawnSync } from 'node:child_process';
 import os from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import type { ArchiveResult } from '../../demo-data/generate.js';
 import { openStore } from '../../workers/store/index.js';
 import { cleanEnv, cliOk, ensurePipelineBuild, makeArchive, rasterioDistrictMeans } from '../support/pipeline-harness.js';
-import { denseCircle, denseStar, featureCollection, shapelyAvailable, shapelyRingArea } from '../support/dense-districts.js';
+import { denseCircle, denseStar, featureCollection, shapelyRingArea } from '../support/dense-districts.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 await ensurePipelineBuild();
 const N = 100_000;
-const hasReference = shapelyAvailable() && spawnSync('/usr/bin/python3', ['-c', 'import rasterio, numpy'], { stdio: 'ignore' }).status === 0;
-if (!hasReference) console.log('SKIPPED dense districts ingest: /usr/bin/python3 with shapely, GDAL, rasterio and NumPy not found');
+const hasReference = await pythonModulesAvailable(['shapely', 'osgeo.osr', 'rasterio', 'numpy'], 'dense-districts ingest');
 
 /** Every [x, y] of GeoJSON coordinates of any nesting. */
 const points = (c: unknown): number[][] => (typeof (c as number[])[0] === 'number' ? [c as number[]] : (c as unknown[]).flatMap(points));

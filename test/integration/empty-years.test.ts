@@ -10,10 +10,10 @@ import { existsSync, mkdtempSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, afterEach, beforeAll, describe, expect, it, vi } from 'vitest';
-import { main } from '../../workers/cli.js';
 import { openStore } from '../../workers/store/store.js';
 import { yearRuns, yearsWithValuesIn } from '../../workers/store/store-summary.js';
 import { seedHeatStore } from '../support/heat-store.js';
+import { runCliInProcess, type InProcessRun } from '../support/cli-in-process.js';
 
 let tmp: string;
 let dataDir: string;
@@ -31,16 +31,8 @@ beforeAll(async () => {
 afterAll(() => { if (tmp) rmSync(tmp, { recursive: true, force: true }); });
 afterEach(() => vi.restoreAllMocks());
 
-async function run(argv: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
-  let stdout = '';
-  let stderr = '';
-  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { stdout += String(s); return true; });
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => { stderr += String(s); return true; });
-  try {
-    return { code: await main(['node', 'heatledger', ...argv, '--data-dir', dataDir]), stdout, stderr };
-  } finally {
-    vi.restoreAllMocks();
-  }
+function run(argv: string[]): Promise<InProcessRun> {
+  return runCliInProcess([...argv, '--data-dir', dataDir]);
 }
 
 describe('the years a store has, as one line', () => {

@@ -34,7 +34,7 @@ import pg from 'pg';
 import { afterAll, beforeAll, describe, it } from 'vitest';
 import { DISTRICTS } from '../../demo-data/city.js';
 import type { ArchiveOptions, ArchiveResult } from '../../demo-data/generate.js';
-import { serviceAvailable, testDatabaseUrl, testRedisUrl } from '../support/services.js';
+import { missingTool, serviceAvailable, testDatabaseUrl, testRedisUrl } from '../support/services.js';
 import {
   cleanEnv, cleanRedisPrefix, cliOk, createTempDatabase, ensurePipelineBuild, killAllChildren,
   makeArchive, runCli, serverCounts, startCliWorker, startTcpProxy, stopChild, uniquePrefix, waitFor, type TempDatabase,
@@ -43,8 +43,7 @@ import { freeFaultPort, postgresBinDir, startPrivatePostgres, type PrivatePostgr
 
 await ensurePipelineBuild();
 const up = (await serviceAvailable('redis', 'outage faults')) && (await serviceAvailable('postgres', 'outage faults'));
-const canRunPrivate = postgresBinDir() !== null;
-if (up && !canRunPrivate) console.log('SKIPPED outage faults with a private PostgreSQL: initdb/pg_ctl not installed');
+const canRunPrivate = postgresBinDir() !== null || (up && missingTool('outage faults with a private PostgreSQL', 'initdb and pg_ctl (Debian package postgresql)'));
 
 const TARGETS = DISTRICTS.length + 1;
 const filesOf = (o: ArchiveOptions) => o.years! * (2 * o.pairsPerYear! + 1);

@@ -11,7 +11,7 @@
  * The field names and precisions themselves are the documented contract
  * (README.md, `table` and `zonal`).
  */
-import { execFile, execFileSync, spawnSync } from 'node:child_process';
+import { execFile, execFileSync } from 'node:child_process';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
@@ -21,10 +21,11 @@ import { openStore } from '../../workers/store/store.js';
 import { replaceDerived, upsertDistricts } from '../../workers/store/index.js';
 import { seedHeatStore } from '../support/heat-store.js';
 import { cleanEnv, cliPath, ensurePipelineBuild, repoRoot, runCli } from '../support/pipeline-harness.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const PYTHON = '/usr/bin/python3';
 const FIX = path.join(repoRoot, 'test/fixtures/reference');
-const hasGdal = spawnSync(PYTHON, ['-c', 'from osgeo import gdal; import numpy'], { encoding: 'utf8' }).status === 0;
+const hasGdal = await pythonModulesAvailable(['osgeo.gdal', 'numpy'], 'output-units zonal unit check');
 
 /** Field names of the district table with their units (README.md, `table`). */
 const DATE_FIELDS = ['district', 'name', 'date', 'lst_day_k', 'lst_night_k', 'suhi_day_k', 'suhi_night_k', 'ati_per_k', 'day_scenes', 'night_scenes'];

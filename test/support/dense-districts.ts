@@ -76,11 +76,6 @@ export function featureCollection(rings: Record<string, Ring>): string {
   });
 }
 
-/** True when /usr/bin/python3 has shapely and GDAL's osr. */
-export function shapelyAvailable(): boolean {
-  return spawnSync('/usr/bin/python3', ['-c', 'import shapely, osgeo.osr'], { stdio: 'ignore' }).status === 0;
-}
-
 /**
  * Area, m², of (union ⊕ outer) − (union ⊕ inner) by shapely in an azimuthal
  * equidistant projection (WGS 84) centred on (lon0, lat0), 16 segments per

@@ -28,12 +28,13 @@ export const SMALL_ARCHIVE: ArchiveOptions = { years: 2, pairsPerYear: 3, pixelS
 
 const SOURCE_DIRS = ['workers', 'api', 'demo-data', 'test/support'];
 
-function newestSourceMs(dir: string): number {
+/** Newest modification time (ms) of the files under `dir` whose names pass `keep`. */
+export function newestMtimeMs(dir: string, keep: (name: string) => boolean = () => true): number {
   let newest = 0;
   for (const e of readdirSync(dir, { withFileTypes: true })) {
     const p = path.join(dir, e.name);
-    if (e.isDirectory()) newest = Math.max(newest, newestSourceMs(p));
-    else if (e.name.endsWith('.ts')) newest = Math.max(newest, statSync(p).mtimeMs);
+    if (e.isDirectory()) newest = Math.max(newest, newestMtimeMs(p, keep));
+    else if (keep(e.name)) newest = Math.max(newest, statSync(p).mtimeMs);
   }
   return newest;
 }
@@ -41,16 +42,15 @@ function newestSourceMs(dir: string): number {
 function distStale(): boolean {
   if (!existsSync(cliPath) || !existsSync(path.join(repoRoot, 'dist/workers/run/registry.js'))) return true;
   const built = statSync(path.join(repoRoot, 'dist/workers/run/registry.js')).mtimeMs;
-  return SOURCE_DIRS.some((d) => newestSourceMs(path.join(repoRoot, d)) > built);
+  return SOURCE_DIRS.some((d) => newestMtimeMs(path.join(repoRoot, d), (name) => name.endsWith('.ts')) > built);
 }
 
 /**
- * Compile the tree with `npx tsc -p tsconfig.json` when dist/ is missing or
- * older than a source. A lock folder keeps test files that start together from
- * compiling over each other. Type errors elsewhere in the tree still emit.
+ * Run `build` while holding the lock folder dist/.<name>.lock, so test files
+ * that start together do not build over each other.
  */
-export async function ensurePipelineBuild(): Promise<void> {
-  const lock = path.join(repoRoot, 'dist', '.pipeline-test-build.lock');
+export async function withBuildLock(name: string, build: () => void): Promise<void> {
+  const lock = path.join(repoRoot, 'dist', `.${name}.lock`);
   mkdirSync(path.dirname(lock), { recursive: true });
   const deadline = Date.now() + 900_000;
   for (;;) {
@@ -65,6 +65,18 @@ export async function ensurePipelineBuild(): Promise<void> {
     }
   }
   try {
+    build();
+  } finally {
+    rmdirSync(lock);
+  }
+}
+
+/**
+ * Compile the tree with `npx tsc -p tsconfig.json` when dist/ is missing or
+ * older than a source. Type errors elsewhere in the tree still emit.
+ */
+export async function ensurePipelineBuild(): Promise<void> {
+  await withBuildLock('pipeline-test-build', () => {
     if (distStale()) {
       try {
         execFileSync('npx', ['tsc', '-p', 'tsconfig.json'], { cwd: repoRoot, stdio: 'pipe', timeout: 840_000 });
@@ -77,9 +89,7 @@ export async function ensurePipelineBuild(): Promise<void> {
     if (!usableTemplate()) {
       execFileSync(process.execPath, [path.join(repoRoot, 'dist/workers/store/template-build.js')], { cwd: repoRoot, stdio: 'pipe', timeout: 840_000 });
     }
-  } finally {
-    rmdirSync(lock);
-  }
+  });
 }
 
 /** Generate the seeded demo archive (small options) into `dir`. */

@@ -40,6 +40,17 @@ export async function serviceAvailable(name: 'postgres' | 'redis', suite: string
   return false;
 }
 
+/**
+ * A suite's reference tool is missing: with HEATLEDGER_REQUIRE_SERVICES=1
+ * this throws; otherwise it logs a plain "SKIPPED <suite>: <what> not found"
+ * line and returns false, so the suite is skipped.
+ */
+export function missingTool(suite: string, what: string): false {
+  if (requireServices) throw new Error(`${suite}: ${what} is missing and HEATLEDGER_REQUIRE_SERVICES=1`);
+  console.log(`SKIPPED ${suite}: ${what} not found (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
+  return false;
+}
+
 /** Where the browser tests find Chromium (Debian's `chromium` package; `.ci/run` installs it when missing). */
 export const CHROMIUM_PATH = process.env.HEATLEDGER_CHROMIUM || '/usr/bin/chromium';
 
@@ -69,11 +80,7 @@ export function toolPath(name: ToolName): string | null {
  * is skipped with a plain "SKIPPED" line naming the Debian package to install.
  */
 export function toolAvailable(name: ToolName, suite: string): boolean {
-  if (toolPath(name) !== null) return true;
-  const what = `${name} (Debian package ${TOOLS[name].debianPackage})`;
-  if (requireServices) throw new Error(`${suite}: ${what} is not installed and HEATLEDGER_REQUIRE_SERVICES=1`);
-  console.log(`SKIPPED ${suite}: ${what} is not installed (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
-  return false;
+  return toolPath(name) !== null || missingTool(suite, `${name} (Debian package ${TOOLS[name].debianPackage})`);
 }
 
 /**
@@ -84,8 +91,17 @@ export function toolAvailable(name: ToolName, suite: string): boolean {
 export async function pythonModulesAvailable(modules: readonly string[], suite: string): Promise<boolean> {
   const { spawnSync } = await import('node:child_process');
   const ok = spawnSync('/usr/bin/python3', ['-c', `import ${modules.join(', ')}`], { stdio: 'ignore' }).status === 0;
-  if (ok) return true;
-  if (requireServices) throw new Error(`${suite}: /usr/bin/python3 with ${modules.join(', ')} is missing and HEATLEDGER_REQUIRE_SERVICES=1`);
-  console.log(`SKIPPED ${suite}: /usr/bin/python3 with ${modules.join(', ')} not found (set HEATLEDGER_REQUIRE_SERVICES=1 to make this a failure)`);
-  return false;
+  return ok || missingTool(suite, `/usr/bin/python3 with ${modules.join(', ')}`);
+}
+
+/**
+ * Whether `Rscript` loads these R packages (a reference tool). Like
+ * {@link pythonModulesAvailable}: throws when services are required (CI) and
+ * they are missing; logs a plain "SKIPPED" line otherwise.
+ */
+export async function rPackagesAvailable(packages: readonly string[], suite: string): Promise<boolean> {
+  const { spawnSync } = await import('node:child_process');
+  const load = packages.map((p) => `library(${p})`).join('; ');
+  const ok = spawnSync('Rscript', ['-e', `suppressMessages({${load}})`], { stdio: 'ignore' }).status === 0;
+  return ok || missingTool(suite, `Rscript with ${packages.join(', ')}`);
 }

@@ -30,6 +30,7 @@ import {
   type Window,
 } from '../../workers/core/raster/affine.js';
 import { InputError } from '../../workers/core/errors.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 type Gt = [number, number, number, number, number, number];
 
@@ -50,7 +51,7 @@ const PIXELS: [number, number][] = [[0, 0], [0.5, 0.5], [1, 0], [0, 1], [123.25,
 const SINGULAR: Gt[] = [[0, 0, 0, 0, 0, 0], [0, 1, 2, 0, 2, 4], [0, 1, 0, 0, 0, 0]];
 
 const PYTHON = '/usr/bin/python3';
-const HAVE_GDAL = spawnSync(PYTHON, ['-c', 'from osgeo import gdal'], { stdio: 'ignore' }).status === 0;
+const HAVE_GDAL = await pythonModulesAvailable(['osgeo.gdal'], 'affine against GDAL');
 
 interface GdalAnswers {
   /** Per transform: ApplyGeoTransform of each PIXELS point, InvGeoTransform, and the inverse applied to the forward results. */

@@ -20,12 +20,12 @@ import { kinks, multiPolygon } from '@turf/turf';
 import { parseDistricts, ruralRing, SIMPLIFY_TOLERANCE_METRES, type District } from '../../workers/core/districts/index.js';
 import { subtractWater } from '../../workers/run/pipeline.js';
 import { InputError } from '../../workers/core/errors.js';
-import { denseCircle, denseHalfDiscs, denseStar, featureCollection, shapelyAvailable, shapelyRingArea } from '../support/dense-districts.js';
+import { pythonModulesAvailable } from '../support/services.js';
+import { denseCircle, denseHalfDiscs, denseStar, featureCollection, shapelyRingArea } from '../support/dense-districts.js';
 
 const LON0 = 20.3, LAT0 = 10.2; // an invented place
 const N = 100_000;
-const hasShapely = shapelyAvailable();
-if (!hasShapely) console.log('SKIPPED shapely comparisons: /usr/bin/python3 with shapely and GDAL not found');
+const hasShapely = await pythonModulesAvailable(['shapely', 'osgeo.osr'], 'dense districts against shapely');
 
 let dir: string;
 beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'heatledger-dense-')); });

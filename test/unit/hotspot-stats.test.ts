@@ -16,8 +16,9 @@ import { parseDistricts } from '../../workers/core/districts/index.js';
 import type { District } from '../../workers/core/districts/types.js';
 import { districtCollection } from '../../demo-data/city.js';
 import { mulberry32 } from '../../workers/core/prng.js';
+import { rPackagesAvailable } from '../support/services.js';
 
-const HAVE_SPDEP = spawnSync('Rscript', ['-e', 'suppressMessages({library(spdep); library(jsonlite); library(sf)})'], { stdio: 'ignore' }).status === 0;
+const HAVE_SPDEP = await rPackagesAvailable(['spdep', 'jsonlite', 'sf'], 'hotspot-stats against R spdep');
 
 const dir = mkdtempSync(join(tmpdir(), 'heatledger-hotspot-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

@@ -6,10 +6,10 @@ import { spawnSync } from 'node:child_process';
 import { describe, expect, it } from 'vitest';
 import { rankChange, rankValues } from '../../workers/core/ranking.js';
 import { mulberry32 } from '../../workers/core/prng.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const PYTHON = '/usr/bin/python3';
-const HAVE_SCIPY = spawnSync(PYTHON, ['-c', 'import scipy.stats'], { stdio: 'ignore' }).status === 0;
-if (!HAVE_SCIPY) console.log('SKIPPED ranking SciPy comparison: /usr/bin/python3 with scipy (python3-scipy) is missing');
+const HAVE_SCIPY = await pythonModulesAvailable(['scipy.stats'], 'ranking against SciPy');
 
 describe('rankValues', () => {
   it.skipIf(!HAVE_SCIPY)('equals scipy.stats.rankdata(method="min") of -x (desc) and x (asc), ties included', () => {

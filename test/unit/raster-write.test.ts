@@ -13,9 +13,10 @@ import { fromArrayBuffer } from 'geotiff';
 import { encodeGeoTiff, writeGeoTiff, type WritableRaster, type WriteGeoTiffOptions, type WriteLayout } from '../../workers/core/raster/write.js';
 import type { Affine } from '../../workers/core/raster/affine.js';
 import { isInputError } from '../../workers/core/errors.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const PYTHON = '/usr/bin/python3';
-const HAVE_GDAL = spawnSync(PYTHON, ['-c', 'from osgeo import gdal, osr; import numpy'], { stdio: 'ignore' }).status === 0;
+const HAVE_GDAL = await pythonModulesAvailable(['osgeo.gdal', 'osgeo.osr', 'numpy'], 'raster-write read-back through GDAL');
 
 const dir = mkdtempSync(join(tmpdir(), 'heatledger-write-'));
 afterAll(() => rmSync(dir, { recursive: true, force: true }));

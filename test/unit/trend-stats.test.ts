@@ -16,10 +16,11 @@ import {
 } from '../../workers/core/trend/index.js';
 import { isInputError } from '../../workers/core/errors.js';
 import { mulberry32 } from '../../workers/core/prng.js';
+import { pythonModulesAvailable } from '../support/services.js';
 
 const PYTHON = '/usr/bin/python3';
-const HAVE_SCIPY = spawnSync(PYTHON, ['-c', 'import scipy.stats, numpy'], { stdio: 'ignore' }).status === 0;
-const HAVE_STATSMODELS = spawnSync(PYTHON, ['-c', 'import statsmodels.stats.multitest, statsmodels.tsa.stattools'], { stdio: 'ignore' }).status === 0;
+const HAVE_SCIPY = await pythonModulesAvailable(['scipy.stats', 'numpy'], 'trend-stats against SciPy');
+const HAVE_STATSMODELS = await pythonModulesAvailable(['statsmodels.stats.multitest', 'statsmodels.tsa.stattools'], 'trend-stats against statsmodels');
 
 const years = (n: number, first = 2001): number[] => Array.from({ length: n }, (_, i) => first + i);
 

@@ -10,7 +10,9 @@ import { crsDefinitionForEpsg, makeTransformer } from '../../workers/core/crs/in
 import { loadProj4 } from '../../workers/core/crs/proj4.js';
 import { utmForward, utmZoneOf } from '../../workers/core/crs/utm.js';
 import { mulberry32 } from '../../workers/core/prng.js';
-import { requireServices } from '../support/services.js';
+import { pythonModulesAvailable } from '../support/services.js';
+
+const haveRasterio = await pythonModulesAvailable(['rasterio.warp'], 'UTM against PROJ');
 
 const WGS84 = crsDefinitionForEpsg(4326);
 
@@ -65,11 +67,6 @@ describe('UTM without proj4', () => {
     expect(utmForward(33, false)(60, 10, [0, 0])).toBe(false);
   });
 
-  const haveRasterio = spawnSync('/usr/bin/python3', ['-c', 'import rasterio.warp'], { stdio: 'ignore' }).status === 0;
-  if (!haveRasterio) {
-    if (requireServices) throw new Error('UTM against PROJ: /usr/bin/python3 with rasterio (python3-rasterio) is missing and HEATLEDGER_REQUIRE_SERVICES=1');
-    console.log('SKIPPED UTM against PROJ: /usr/bin/python3 with rasterio (python3-rasterio) not found');
-  }
   it.skipIf(!haveRasterio)('agrees with PROJ (through GDAL, rasterio.warp.transform) within a micrometre', () => {
     const ps = points();
     const script = `

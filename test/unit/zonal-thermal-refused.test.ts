@@ -10,36 +10,24 @@
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { afterEach, describe, expect, it, vi } from 'vitest';
-import { main } from '../../workers/cli.js';
+import { runCliInProcess } from '../support/cli-in-process.js';
 
 const DIR = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../fixtures/thermal');
 const DISTRICTS = path.join(DIR, 'districts.geojson');
-
-async function run(argv: string[]): Promise<{ code: number; stdout: string; stderr: string }> {
-  let stdout = '';
-  let stderr = '';
-  vi.spyOn(process.stdout, 'write').mockImplementation((s: string | Uint8Array) => { stdout += String(s); return true; });
-  vi.spyOn(process.stderr, 'write').mockImplementation((s: string | Uint8Array) => { stderr += String(s); return true; });
-  try {
-    return { code: await main(['node', 'heatledger', ...argv]), stdout, stderr };
-  } finally {
-    vi.restoreAllMocks();
-  }
-}
 
 describe('zonal on a thermal DN scene', () => {
   afterEach(() => vi.restoreAllMocks());
 
   it.each(['table', 'json', 'csv'])('is refused with exit 2 and a line naming the file and ingest (--format %s)', async (format) => {
     const scene = path.join(DIR, 'thermal_B10.tif');
-    const r = await run(['zonal', scene, '--districts', DISTRICTS, '--format', format]);
+    const r = await runCliInProcess(['zonal', scene, '--districts', DISTRICTS, '--format', format]);
     expect(r.code).toBe(2);
     expect(r.stdout).toBe('');
     expect(r.stderr).toBe(`heatledger: ${scene}: is a Level-1 thermal DN scene, which zonal does not convert to LST; \`heatledger ingest\` converts thermal DN scenes (its --write-lst DIR writes their LST as GeoTIFFs that zonal reads)\n`);
   });
 
   it('an LST scene of the same grid is read (exit 0, values in K)', async () => {
-    const r = await run(['zonal', path.join(DIR, 'day_lst.tif'), '--districts', DISTRICTS, '--format', 'json']);
+    const r = await runCliInProcess(['zonal', path.join(DIR, 'day_lst.tif'), '--districts', DISTRICTS, '--format', 'json']);
     expect(r.code, r.stderr).toBe(0);
     const out = JSON.parse(r.stdout) as { unit: string | null; kind: string; rows: { valid: number }[] };
     expect(out.kind).toBe('lst');

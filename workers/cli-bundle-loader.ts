@@ -128,7 +128,8 @@ export function loadBundle(bundlePath: string, importModule: (specifier: string)
   if (key === null) return null;
   let source: string;
   try {
-    source = readFileSync(bundlePath, 'utf8');
+    // the build writes ASCII only (checked there; the manifest pins this very file): latin1 gives V8 a one-byte string
+    source = readFileSync(bundlePath, 'latin1');
   } catch {
     return null;
   }

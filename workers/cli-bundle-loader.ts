@@ -40,16 +40,27 @@ export interface BundleManifest {
   inputs: [string, number, number][];
 }
 
-export type CacheState = 'accepted' | 'rejected' | 'missing';
+/**
+ * The code cache as found: accepted (made after a full run), partial (accepted,
+ * but made after a run that compiled only part of the bundle), rejected by V8,
+ * or missing (none, or one made for another bundle).
+ */
+export type CacheState = 'accepted' | 'partial' | 'rejected' | 'missing';
 
 export interface LoadedBundle {
   exports: Record<string, unknown>;
   cacheState: CacheState;
-  /** Write the code cache (functions compiled so far included) unless the one read was accepted. Never throws. */
-  saveCache(): void;
+  /**
+   * Write the code cache (the functions compiled so far included) when there
+   * was none or V8 refused it, or when it was partial and this run was a full
+   * one (`fullRun`: a run of the command the bundle is mostly for). Never throws.
+   */
+  saveCache(fullRun: boolean): void;
 }
 
+/** The cache file: the bundle's SHA-256 (32 bytes), one byte 1 = made after a full run / 0 = partial, V8's data. */
 const KEY_BYTES = 32;
+const HEADER_BYTES = KEY_BYTES + 1;
 
 /**
  * Built-in modules the bundle requires at its top level but the light paths
@@ -135,26 +146,30 @@ export function loadBundle(bundlePath: string, importModule: (specifier: string)
   }
   const cachePath = cachePathOf(bundlePath);
   let cachedData: Buffer | undefined;
+  let madeAfterFullRun = false;
   try {
     const file = readFileSync(cachePath);
-    if (file.length > KEY_BYTES && file.subarray(0, KEY_BYTES).equals(key)) cachedData = file.subarray(KEY_BYTES);
+    if (file.length > HEADER_BYTES && file.subarray(0, KEY_BYTES).equals(key)) {
+      cachedData = file.subarray(HEADER_BYTES);
+      madeAfterFullRun = file[KEY_BYTES] === 1;
+    }
   } catch {
     // no cache yet
   }
   const wrapper = `(function (exports, require, module, __filename, __dirname, ${BUNDLE_IMPORT_NAME}) {${source}\n})`;
   const script = new Script(wrapper, { filename: bundlePath, cachedData });
-  const cacheState: CacheState = cachedData === undefined ? 'missing' : script.cachedDataRejected ? 'rejected' : 'accepted';
+  const cacheState: CacheState = cachedData === undefined ? 'missing' : script.cachedDataRejected ? 'rejected' : madeAfterFullRun ? 'accepted' : 'partial';
   const module = { exports: {} as Record<string, unknown> };
   const fn = script.runInThisContext() as (...args: unknown[]) => void;
   fn.call(module.exports, module.exports, bundleRequire(bundlePath), module, bundlePath, dirname(bundlePath), importModule);
   return {
     exports: module.exports,
     cacheState,
-    saveCache() {
-      if (cacheState === 'accepted') return;
+    saveCache(fullRun) {
+      if (cacheState === 'accepted' || (cacheState === 'partial' && !fullRun)) return;
       const temporary = `${cachePath}.${process.pid}.tmp`;
       try {
-        writeFileSync(temporary, Buffer.concat([key, script.createCachedData()]));
+        writeFileSync(temporary, Buffer.concat([key, Buffer.of(fullRun ? 1 : 0), script.createCachedData()]));
         renameSync(temporary, cachePath);
       } catch {
         // a read-only install: the next run compiles plainly again

@@ -21,7 +21,8 @@ try {
 }
 if (bundle) {
   await (bundle.exports.runCli as RunCli)(process.argv);
-  bundle.saveCache();
+  // a cache written after a `zonal` run holds what that command compiles (the bulk of the bundle)
+  bundle.saveCache(process.argv[2] === 'zonal');
 } else {
   const { runCli } = await import('./cli-program.js');
   await runCli(process.argv);

@@ -28,12 +28,12 @@ afterEach(() => { rmSync(dir, { recursive: true, force: true }); });
 const LOADER_JS = fileURLToPath(new URL('../../dist/workers/cli-bundle-loader.js', import.meta.url));
 
 /** Load `bundle` in a fresh node process, call its sumOfSquares(10), save the cache: [cache state, value]. */
-function loadInChild(bundle: string): [string, number] {
+function loadInChild(bundle: string, fullRun = true): [string, number] {
   if (!existsSync(LOADER_JS)) throw new Error(`${LOADER_JS} is missing: run \`npm run build\` first`);
   const script = `import { loadBundle } from ${JSON.stringify(LOADER_JS)};
 const run = loadBundle(${JSON.stringify(bundle)}, () => Promise.reject(new Error('no import')));
 const value = run.exports.sumOfSquares(10);
-run.saveCache();
+run.saveCache(${fullRun});
 process.stdout.write(JSON.stringify([run.cacheState, value]));`;
   const r = spawnSync(process.execPath, ['--input-type=module', '-e', script], { encoding: 'utf8', timeout: 60_000 });
   if (r.status !== 0) throw new Error(`the child exited with ${r.status}: ${r.stderr}`);
@@ -86,12 +86,23 @@ describe('start-up bundle loader', () => {
     const bundle = writeBundle(SOURCE);
     loadInChild(bundle);
     const cache = readFileSync(cachePathOf(bundle));
-    // after our 32-byte key, V8's header: magic number, then the hash of the V8 version that wrote it
+    // after our 32-byte key and 1-byte mark, V8's header: magic number, then the hash of the V8 version that wrote it
     // (V8 source, src/snapshot/code-serializer.h, SerializedCodeData layout; from memory)
-    for (let i = 36; i < 40; i++) cache[i] ^= 0xff;
+    for (let i = 37; i < 41; i++) cache[i] ^= 0xff;
     writeFileSync(cachePathOf(bundle), cache);
     expect(loadInChild(bundle)).toEqual(['rejected', 385]);
     expect(loadInChild(bundle)).toEqual(['accepted', 385]);
+  });
+
+  it('keeps a cache made after a partial run until a full run replaces it', () => {
+    const bundle = writeBundle(SOURCE);
+    expect(loadInChild(bundle, false)).toEqual(['missing', 385]);
+    const written = statSync(cachePathOf(bundle)).mtimeMs;
+    expect(loadInChild(bundle, false)).toEqual(['partial', 385]);
+    // another partial run leaves it as it is
+    expect(statSync(cachePathOf(bundle)).mtimeMs).toBe(written);
+    expect(loadInChild(bundle, true)).toEqual(['partial', 385]);
+    expect(loadInChild(bundle, false)).toEqual(['accepted', 385]);
   });
 
   it('does not use a bundle whose inputs or own file changed since the build', () => {
@@ -113,7 +124,7 @@ describe('start-up bundle loader', () => {
     // a folder (not empty) where the cache file would go: the rename into place fails whoever runs the test
     mkdirSync(join(cachePathOf(bundle), 'occupied'), { recursive: true });
     const run = loadBundle(bundle, noImport)!;
-    expect(() => run.saveCache()).not.toThrow();
+    expect(() => run.saveCache(true)).not.toThrow();
     expect(readdirSync(dir).filter((f) => f.endsWith('.tmp'))).toEqual([]);
     expect((run.exports.sumOfSquares as (n: number) => number)(3)).toBe(14); // 1 + 4 + 9
   });

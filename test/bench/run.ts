@@ -302,7 +302,7 @@ async function main(): Promise<void> {
     const peer = withPeer ? peerPhases(rasterOf(size), files.districts) : null;
     const cpu = await cpuProfileCli(rasterOf(size), files.districts, size);
     profiles[size] = { ours, peer, cpu };
-    say(`\n[profile ${size}] ours, fresh processes (median of 3): boot ${ms(ours.bootMs)}, module import ${ms(ours.importMs)}`);
+    say(`\n[profile ${size}] ours, fresh processes (median of 3): boot ${ms(ours.bootMs)}, module import ${ms(ours.importMs)} (of the compiled modules, which the bin's start-up bundle replaces)`);
     say(`  cold run: ${phaseLine(ours.cold)}`);
     say(`  warm run: ${phaseLine(ours.warm)}`);
     const wall = median(results[size]!.oursSeconds) * 1000;

@@ -11,9 +11,12 @@
  *
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
- * 2. Per size, times whole processes: `heatledger zonal ... --format json` and
+ * 2. Per size, times whole processes: `heatledger zonal ... --format json` (the
+ *    bin's file, dist/workers/cli.js, run as the bin link runs it) and
  *    test/bench/peer_zonal.py, alternating which goes first each round; medians
- *    and the ratio peer / ours; checks that both tables agree.
+ *    of wall and of CPU seconds (user + system of every thread, from the
+ *    kernel's accounting of waited-for children) and the ratios peer / ours;
+ *    checks that both tables agree.
  * 3. Start-up cost, a phase profile of our run (cold and warm) and the peer's
  *    own phase timings, per size.
  * 4. In-process throughput: decode, coverage (centre masks), statistics.
@@ -81,6 +84,7 @@ function fail(message: string): never {
 
 const say = (line = ''): void => { process.stdout.write(line + '\n'); };
 const s3 = (x: number): string => x.toFixed(3);
+const s2 = (x: number): string => x.toFixed(2);
 const ms = (x: number): string => `${x.toFixed(0)} ms`;
 
 function peerAvailable(): boolean {
@@ -103,6 +107,9 @@ function parseRows(text: string, who: string): StatsRow[] {
 interface SizeResult {
   oursSeconds: number[];
   peerSeconds: number[];
+  /** Whole-process CPU seconds (user + system, all threads) per round; empty where /proc is not there. */
+  oursCpuSeconds: number[];
+  peerCpuSeconds: number[];
   agreement: Agreement | null;
 }
 
@@ -119,16 +126,26 @@ function timeSize(raster: string, districts: string, rounds: number, withPeer: b
     return r;
   };
   const oursSeconds: number[] = [], peerSeconds: number[] = [];
+  const oursCpuSeconds: number[] = [], peerCpuSeconds: number[] = [];
   let oursText = '', peerText = '';
   for (let round = 1; round <= rounds; round++) {
     const order = round % 2 === 1 ? ['ours', 'peer'] : ['peer', 'ours'];
     for (const who of order) {
-      if (who === 'ours') { const r = ours(); oursSeconds.push(r.seconds); oursText ||= r.stdout; }
-      else if (withPeer) { const r = peer(); peerSeconds.push(r.seconds); peerText ||= r.stdout; }
+      if (who === 'ours') {
+        const r = ours();
+        oursSeconds.push(r.seconds);
+        if (r.cpuSeconds !== null) oursCpuSeconds.push(r.cpuSeconds);
+        oursText ||= r.stdout;
+      } else if (withPeer) {
+        const r = peer();
+        peerSeconds.push(r.seconds);
+        if (r.cpuSeconds !== null) peerCpuSeconds.push(r.cpuSeconds);
+        peerText ||= r.stdout;
+      }
     }
   }
   const agreement = withPeer ? compareTables(parseRows(oursText, 'heatledger zonal'), parseRows(peerText, 'peer_zonal.py')) : null;
-  return { oursSeconds, peerSeconds, agreement };
+  return { oursSeconds, peerSeconds, oursCpuSeconds, peerCpuSeconds, agreement };
 }
 
 interface ChildProfile {
@@ -173,14 +190,16 @@ function peerPhases(raster: string, districts: string): Record<string, number> |
   }
 }
 
-function medianWall(command: string, args: string[], n: number): number {
-  const xs: number[] = [];
+/** Median wall seconds of `n` runs, and median CPU seconds (null where /proc is not there). */
+function medianRun(command: string, args: string[], n: number): { wall: number; cpu: number | null } {
+  const xs: number[] = [], cpu: number[] = [];
   for (let i = 0; i < n; i++) {
     const r = timeProcess(command, args);
     if (r.status !== 0) throw new Error(`${command} ${args.join(' ')} exited with ${r.status}: ${r.stderr.trim()}`);
     xs.push(r.seconds);
+    if (r.cpuSeconds !== null) cpu.push(r.cpuSeconds);
   }
-  return median(xs);
+  return { wall: median(xs), cpu: cpu.length ? median(cpu) : null };
 }
 
 function phaseLine(p: PhaseProfile): string {
@@ -248,11 +267,14 @@ async function main(): Promise<void> {
     say(`\n[${size}] ${args.rounds} rounds, alternating order ...`);
     const r = timeSize(rasterOf(size), files.districts, args.rounds, withPeer);
     results[size] = r;
-    say(`  heatledger zonal: median ${s3(median(r.oursSeconds))} s  (rounds: ${r.oursSeconds.map(s3).join(', ')})`);
+    say(`  heatledger zonal: median ${s3(median(r.oursSeconds))} s wall  (rounds: ${r.oursSeconds.map(s3).join(', ')})`);
+    if (r.oursCpuSeconds.length) say(`                    median ${s2(median(r.oursCpuSeconds))} s CPU   (rounds: ${r.oursCpuSeconds.map(s2).join(', ')})`);
     if (withPeer) {
       const ratio = median(r.peerSeconds) / median(r.oursSeconds);
-      say(`  peer (rasterio):  median ${s3(median(r.peerSeconds))} s  (rounds: ${r.peerSeconds.map(s3).join(', ')})`);
-      say(`  peer / ours = ${ratio.toFixed(2)}`);
+      say(`  peer (rasterio):  median ${s3(median(r.peerSeconds))} s wall  (rounds: ${r.peerSeconds.map(s3).join(', ')})`);
+      if (r.peerCpuSeconds.length) say(`                    median ${s2(median(r.peerCpuSeconds))} s CPU   (rounds: ${r.peerCpuSeconds.map(s2).join(', ')})`);
+      say(`  peer / ours = ${ratio.toFixed(2)} wall` +
+        (r.oursCpuSeconds.length && r.peerCpuSeconds.length ? `, ${(median(r.peerCpuSeconds) / median(r.oursCpuSeconds)).toFixed(2)} CPU` : ''));
       const a = r.agreement!;
       if (a.agree) {
         say(`  agree: yes, ${a.rows} districts: pixels and valid equal, worst |mean difference| ${a.worst.mean.difference.toExponential(2)} K (tolerance 1e-6 K)`);
@@ -263,13 +285,16 @@ async function main(): Promise<void> {
     }
   }
 
-  say('\n[start-up] whole-process medians of 5');
-  const nodeBare = medianWall(NODE, ['-e', ''], 5);
-  const importZonal = medianWall(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/commands/zonal-table.js'))})`], 5);
-  const cliVersion = medianWall(NODE, [CLI, '--version'], 5);
-  const pythonImport = withPeer ? medianWall(PYTHON, ['-c', 'import numpy, rasterio, rasterio.features, rasterio.warp'], 5) : null;
-  say(`  node -e "" ${s3(nodeBare)} s; node -e "import('zonal-table.js')" ${s3(importZonal)} s; heatledger --version ${s3(cliVersion)} s` +
-    (pythonImport !== null ? `; python3 -c "import numpy, rasterio..." ${s3(pythonImport)} s` : ''));
+  say('\n[start-up] whole-process medians of 9, wall / CPU seconds');
+  const startRuns = 9;
+  const bareRun = medianRun(NODE, ['-e', ''], startRuns);
+  const importRun = medianRun(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/commands/zonal-table.js'))})`], startRuns);
+  const versionRun = medianRun(NODE, [CLI, '--version'], startRuns);
+  const pythonRun = withPeer ? medianRun(PYTHON, ['-c', 'import numpy, rasterio, rasterio.features, rasterio.warp'], startRuns) : null;
+  const both = (r: { wall: number; cpu: number | null }) => `${s3(r.wall)} / ${r.cpu === null ? 'n/a' : s2(r.cpu)} s`;
+  say(`  node -e "" ${both(bareRun)}; node -e "import('zonal-table.js')" ${both(importRun)}; heatledger --version ${both(versionRun)}` +
+    (pythonRun !== null ? `; python3 -c "import numpy, rasterio..." ${both(pythonRun)}` : ''));
+  const nodeBare = bareRun.wall, importZonal = importRun.wall, cliVersion = versionRun.wall, pythonImport = pythonRun?.wall ?? null;
 
   const profiles: Partial<Record<Size, { ours: ChildProfile; peer: Record<string, number> | null; cpu: ProfileSummary }>> = {};
   for (const size of args.sizes) {
@@ -277,7 +302,7 @@ async function main(): Promise<void> {
     const peer = withPeer ? peerPhases(rasterOf(size), files.districts) : null;
     const cpu = await cpuProfileCli(rasterOf(size), files.districts, size);
     profiles[size] = { ours, peer, cpu };
-    say(`\n[profile ${size}] ours, fresh processes (median of 3): boot ${ms(ours.bootMs)}, module import ${ms(ours.importMs)}`);
+    say(`\n[profile ${size}] ours, fresh processes (median of 3): boot ${ms(ours.bootMs)}, module import ${ms(ours.importMs)} (of the compiled modules, which the bin's start-up bundle replaces)`);
     say(`  cold run: ${phaseLine(ours.cold)}`);
     say(`  warm run: ${phaseLine(ours.warm)}`);
     const wall = median(results[size]!.oursSeconds) * 1000;
@@ -306,11 +331,17 @@ async function main(): Promise<void> {
   const trends = all ? runTrendsBench(say) : null;
   const archive = all ? await runArchiveBench({ ...archiveArgs.options, say }) : null;
 
-  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
+  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds' | 'oursCpuSeconds' | 'peerCpuSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
   const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
   const agreements = args.sizes.map((s) => results[s]!.agreement).filter((a): a is Agreement => a !== null);
   const summary = {
     heatledger_seconds: { full: med('full', 'oursSeconds'), clip: med('clip', 'oursSeconds') },
+    heatledger_cpu_seconds: { full: med('full', 'oursCpuSeconds'), clip: med('clip', 'oursCpuSeconds') },
+    peer_cpu_seconds: { full: withPeer ? med('full', 'peerCpuSeconds') : null, clip: withPeer ? med('clip', 'peerCpuSeconds') : null },
+    cpu_ratio_peer_over_ours: {
+      full: withPeer && med('full', 'oursCpuSeconds') ? med('full', 'peerCpuSeconds')! / med('full', 'oursCpuSeconds')! : null,
+      clip: withPeer && med('clip', 'oursCpuSeconds') ? med('clip', 'peerCpuSeconds')! / med('clip', 'oursCpuSeconds')! : null,
+    },
     peer_seconds: { full: withPeer ? med('full', 'peerSeconds') : null, clip: withPeer ? med('clip', 'peerSeconds') : null },
     ratio_peer_over_ours: {
       full: withPeer && results.full ? med('full', 'peerSeconds')! / med('full', 'oursSeconds')! : null,
@@ -327,6 +358,7 @@ async function main(): Promise<void> {
     coverage_mpixel_per_s: coverage.mpixelPerSecond,
     stats_mpixel_per_s: stats.mpixelPerSecond,
     startup_seconds: { node_bare: nodeBare, import_zonal_table: importZonal, cli_version: cliVersion, python_imports: pythonImport },
+    startup_cpu_seconds: { node_bare: bareRun.cpu, import_zonal_table: importRun.cpu, cli_version: versionRun.cpu, python_imports: pythonRun?.cpu ?? null },
     profile_ms: Object.fromEntries(args.sizes.map((s) => [s, profiles[s]])),
     compression_ratio: files.compressionRatio,
     machine: { cpus: cpus().length, loadavg_at_end: loadavg() },
@@ -335,7 +367,9 @@ async function main(): Promise<void> {
     archive,
     bench_seconds: (performance.now() - started) / 1000,
   };
-  say(`\nbench took ${summary.bench_seconds.toFixed(0)} s; speedup vs peer (smaller of the sizes' ratios): ${summary.speedup_vs_peer === null ? 'n/a (no peer)' : summary.speedup_vs_peer.toFixed(2)}; agree: ${summary.agree === null ? 'n/a' : summary.agree ? 'yes' : 'NO'}`);
+  const cpuRatios = Object.values(summary.cpu_ratio_peer_over_ours).filter((x): x is number => x !== null);
+  say(`\nbench took ${summary.bench_seconds.toFixed(0)} s; speedup vs peer (smaller of the sizes' ratios): ${summary.speedup_vs_peer === null ? 'n/a (no peer)' : summary.speedup_vs_peer.toFixed(2)} wall` +
+    `${cpuRatios.length ? `, ${Math.min(...cpuRatios).toFixed(2)} CPU` : ''}; agree: ${summary.agree === null ? 'n/a' : summary.agree ? 'yes' : 'NO'}`);
   if (args.json) process.stdout.write(JSON.stringify(summary) + '\n');
 }
 

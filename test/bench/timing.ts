@@ -2,10 +2,17 @@
  * Wall-clock timing of whole processes and small statistics of timings.
  */
 import { spawnSync } from 'node:child_process';
+import { reapedChildrenCpuSeconds } from './proc-cpu.js';
 
 export interface ProcessRun {
   /** Wall seconds from spawn to exit. */
   seconds: number;
+  /**
+   * CPU seconds (user + system, all threads) of the process and of the
+   * processes it waited for, from this process's cutime + cstime before and
+   * after (/proc/self/stat, in clock ticks of 10 ms); null off Linux.
+   */
+  cpuSeconds: number | null;
   stdout: string;
   stderr: string;
   /** Exit code; null when the process was killed (e.g. by the timeout). */
@@ -20,13 +27,25 @@ export interface ProcessRun {
  * @example timeProcess('node', ['-e', '']).seconds // ~0.05
  */
 export function timeProcess(command: string, args: readonly string[], timeoutSeconds = 180): ProcessRun {
+  const cpu0 = childrenCpuSeconds();
   const t0 = performance.now();
   const r = spawnSync(command, args, { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024, timeout: timeoutSeconds * 1000 });
   const seconds = (performance.now() - t0) / 1000;
+  const cpu1 = childrenCpuSeconds();
+  const cpuSeconds = cpu0 === null || cpu1 === null ? null : cpu1 - cpu0;
   if (r.error && (r.error as NodeJS.ErrnoException).code === 'ENOENT') {
-    return { seconds, stdout: '', stderr: `${command}: not found`, status: 127 };
+    return { seconds, cpuSeconds, stdout: '', stderr: `${command}: not found`, status: 127 };
   }
-  return { seconds, stdout: r.stdout ?? '', stderr: r.stderr ?? '', status: r.status };
+  return { seconds, cpuSeconds, stdout: r.stdout ?? '', stderr: r.stderr ?? '', status: r.status };
+}
+
+/** CPU seconds of the children this process has waited for, or null where /proc is not there. */
+function childrenCpuSeconds(): number | null {
+  try {
+    return reapedChildrenCpuSeconds();
+  } catch {
+    return null;
+  }
 }
 
 /**

@@ -9,7 +9,7 @@ import net from 'node:net';
 import { tmpdir } from 'node:os';
 import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
-import { buildProgram } from '../../workers/cli.js';
+import { buildProgram } from '../../workers/cli-program.js';
 import { openStore } from '../../workers/store/store.js';
 import { FORMULA_NAME, seedHeatStore, type SeededStore } from '../support/heat-store.js';
 import { cleanEnv, cliPath, ensurePipelineBuild, killAllChildren, repoRoot, runCli, startCliUntil, stopChild, waitFor } from '../support/pipeline-harness.js';

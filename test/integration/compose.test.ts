@@ -15,7 +15,7 @@ import { fileURLToPath } from 'node:url';
 import { parse } from 'yaml';
 import { describe, expect, it } from 'vitest';
 import { DEFAULT_API_PORT, ENV } from '../../workers/config.js';
-import { buildProgram } from '../../workers/cli.js';
+import { buildProgram } from '../../workers/cli-program.js';
 
 const repoRoot = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
 

@@ -3,7 +3,7 @@
  * as text, for tests that need no child process (no dist/ build, no spawn).
  */
 import { vi } from 'vitest';
-import { main } from '../../workers/cli.js';
+import { main } from '../../workers/cli-program.js';
 
 export interface InProcessRun { code: number; stdout: string; stderr: string }
 

@@ -72,8 +72,9 @@ export async function withBuildLock(name: string, build: () => void): Promise<vo
 }
 
 /**
- * Compile the tree with `npx tsc -p tsconfig.json` when dist/ is missing or
- * older than a source. Type errors elsewhere in the tree still emit.
+ * Compile the tree with `npx tsc -p tsconfig.json` (and the CLI's start-up
+ * bundle) when dist/ is missing or older than a source. Type errors elsewhere
+ * in the tree still emit.
  */
 export async function ensurePipelineBuild(): Promise<void> {
   await withBuildLock('pipeline-test-build', () => {
@@ -84,6 +85,9 @@ export async function ensurePipelineBuild(): Promise<void> {
         // tsc exits non-zero on type errors in files being edited by others; it still emits
       }
       if (!existsSync(cliPath)) throw new Error('dist/workers/cli.js is missing after `npx tsc -p tsconfig.json`');
+      // the command line's start-up bundle and code cache, as `npm run build` makes them (the bin
+      // would otherwise see a bundle older than the modules compiled now and load those instead)
+      execFileSync(process.execPath, [path.join(repoRoot, 'dist/workers/cli-bundle-build.js')], { cwd: repoRoot, stdio: 'pipe', timeout: 840_000 });
     }
     // the embedded store's template, as `npm run build` makes it (a new store of a CLI child starts from it)
     if (!usableTemplate()) {

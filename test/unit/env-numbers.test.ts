@@ -8,7 +8,7 @@
  */
 import { afterEach, describe, expect, it, vi } from 'vitest';
 import { ENV, ENV_RANGES, envNumber, envWholeNumber } from '../../workers/config.js';
-import { buildProgram, main } from '../../workers/cli.js';
+import { buildProgram, main } from '../../workers/cli-program.js';
 import { InputError } from '../../workers/core/errors.js';
 
 const PORT = { min: 0, max: 65535, unit: 'port' };

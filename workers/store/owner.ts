@@ -18,6 +18,7 @@ import path from 'node:path';
 import { InputError, ServiceError } from '../core/errors.js';
 import { sha256Hex } from '../core/hash.js';
 import { onInterrupt } from './interrupt.js';
+import { recordedCommand } from './command-name.js';
 import {
   READ_COMMANDS, describeOwner, lockPath, ownerAlive, ownerRecord, readLock, releaseLock, removeStaleLock, transferLock, tryCreateLock,
   type LockOwner,
@@ -31,13 +32,7 @@ const RETRY_PAUSE_MS = 100;
 
 const pause = (ms: number) => new Promise((r) => setTimeout(r, ms));
 
-/** The subcommand the CLI is running, set by the CLI before its action runs. */
-let runningCommand: string | null = null;
-
-/** Record the subcommand this process runs (`ingest`, `serve`, ...); the CLI calls it before each action. */
-export function setCurrentCommand(name: string): void {
-  runningCommand = name;
-}
+export { setCurrentCommand } from './command-name.js';
 
 /**
  * The command this process runs (`ingest`, `serve`, ...), for the lock file:
@@ -47,6 +42,7 @@ export function setCurrentCommand(name: string): void {
  * following links, else the script's name.
  */
 export function currentCommand(): string {
+  const runningCommand = recordedCommand();
   if (runningCommand) return runningCommand;
   const script = process.argv[1] ?? '';
   let real = script;

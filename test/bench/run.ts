@@ -2,6 +2,7 @@
  * `npm run bench`: the zonal job against a rasterio + NumPy peer.
  *
  *     node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]
+ *     node dist/test/bench/run.js --instructions [--sizes full,clip]   (also: where ours goes, in instructions under valgrind)
  *     node dist/test/bench/run.js --trends [--json]   (trend and hot-spot statistics only)
  *     node dist/test/bench/run.js --archive [--json] [--archive-reps N] [--archive-configs list]
  *                                        (a 200-scene archive against a Python peer; archive.ts)
@@ -39,6 +40,7 @@ import { archiveFlags, runArchiveBench } from './archive.js';
 import { runApiBench } from './api.js';
 import { runStoreOpenBench } from './store-open.js';
 import { runBigStoreBench } from './big-store.js';
+import { countInstructions, countTotalInstructions, describeSplit, valgrindAvailable, type InstructionSplit } from './instructions.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
 const WORK_DIR = join(ROOT, 'test/bench/.work');
@@ -52,15 +54,18 @@ type Size = 'full' | 'clip';
 
 interface Args {
   json: boolean;
+  /** Also count instructions under valgrind (slow: about a minute a run). */
+  instructions: boolean;
   rounds: number;
   sizes: Size[];
 }
 
 function parseArgs(argv: string[]): Args {
-  const args: Args = { json: false, rounds: 5, sizes: ['full', 'clip'] };
+  const args: Args = { json: false, rounds: 5, sizes: ['full', 'clip'], instructions: false };
   for (let i = 0; i < argv.length; i++) {
     const a = argv[i];
     if (a === '--json') args.json = true;
+    else if (a === '--instructions') args.instructions = true;
     else if (a === '--rounds') {
       const n = Number(argv[++i]);
       if (!Number.isInteger(n) || n < 1 || n > 50) fail(`--rounds needs a whole number from 1 to 50, got "${argv[i]}"`);
@@ -70,7 +75,7 @@ function parseArgs(argv: string[]): Args {
       if (list.length === 0 || !list.every((s) => s === 'full' || s === 'clip')) fail(`--sizes needs a comma-separated list of full and clip, got "${argv[i]}"`);
       args.sizes = [...new Set(list)] as Size[];
     } else if (a === '--help' || a === '-h') {
-      process.stdout.write('usage: node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip]\n');
+      process.stdout.write('usage: node dist/test/bench/run.js [--json] [--rounds N] [--sizes full,clip] [--instructions]\n');
       process.exit(0);
     } else fail(`unknown option "${a}" (try --help)`);
   }
@@ -210,6 +215,37 @@ function phaseLine(p: PhaseProfile): string {
   ].join(', ');
 }
 
+/**
+ * Where our run goes, in instructions (instructions.ts): each size split into
+ * Node/V8 parts, Node's own start with and without the CA bundle that
+ * NODE_EXTRA_CA_CERTS names (when it is set), and the peer's total.
+ */
+function instructionSection(sizes: Size[], rasterOf: (s: Size) => string, districts: string, withPeer: boolean): Record<string, unknown> | null {
+  say('\n[instructions] counted by valgrind --tool=callgrind (repeatable within a few per cent on a loaded machine; shares, not a ratio to the peer)');
+  if (!valgrindAvailable()) {
+    say('  valgrind / callgrind_annotate not found (Debian package valgrind); skipped');
+    return null;
+  }
+  const out = join(WORK_DIR, 'callgrind.out');
+  const bySize: Partial<Record<Size, { ours: InstructionSplit; peer_total: number | null }>> = {};
+  for (const size of sizes) {
+    const ours = countInstructions(NODE, [CLI, 'zonal', rasterOf(size), '--districts', districts, '--format', 'json'], out);
+    const peer = withPeer ? countTotalInstructions(PYTHON, [PEER, rasterOf(size), districts], out) : null;
+    bySize[size] = { ours, peer_total: peer };
+    say(`  [${size}] heatledger zonal: ${describeSplit(ours).join('\n    ')}`);
+    if (peer !== null) say(`    (the peer: total ${(peer / 1e6).toFixed(0)} M instructions)`);
+  }
+  const bare = countInstructions(NODE, ['-e', ''], out);
+  const caFile = process.env.NODE_EXTRA_CA_CERTS;
+  const clean = { ...process.env };
+  delete clean.NODE_EXTRA_CA_CERTS;
+  const bareClean = caFile ? countInstructions(NODE, ['-e', ''], out, clean) : null;
+  say(`  node -e "": ${(bare.total / 1e6).toFixed(0)} M` + (bareClean
+    ? `; without NODE_EXTRA_CA_CERTS (set here to ${caFile}) ${(bareClean.total / 1e6).toFixed(0)} M: the bundle costs every Node process ${((bare.total - bareClean.total) / 1e6).toFixed(0)} M before our code runs`
+    : ' (NODE_EXTRA_CA_CERTS not set)'));
+  return { by_size: bySize, node_bare: bare.total, node_bare_without_extra_ca_certs: bareClean?.total ?? null, node_extra_ca_certs: caFile ?? null };
+}
+
 async function main(): Promise<void> {
   const all = process.argv.includes('--all');
   const archiveArgs = archiveFlags(process.argv.slice(2));
@@ -313,6 +349,8 @@ async function main(): Promise<void> {
     say(`    by function: ${cpu.byFunction.map((m) => `${m.name} ${ms(m.ms)}`).join('; ')}`);
   }
 
+  const instructions = args.instructions ? instructionSection(args.sizes, rasterOf, files.districts, withPeer) : null;
+
   say('\n[throughput] in-process, one thread');
   const decode = await measureDecode(files.full);
   say(`  decode (openRaster().blocks(), whole 7000 x 7000): ${decode.mpixelPerSecond.toFixed(1)} Mpixel/s (${decode.megabytesPerSecond.toFixed(0)} MB/s decoded, ${decode.seconds.toFixed(2)} s per core for the whole scene); native inflate alone ${decode.inflateOnlyMpixelPerSecond.toFixed(1)} Mpixel/s; reading the compressed bytes ${decode.readOnlySeconds.toFixed(2)} s`);
@@ -360,6 +398,7 @@ async function main(): Promise<void> {
     startup_seconds: { node_bare: nodeBare, import_zonal_table: importZonal, cli_version: cliVersion, python_imports: pythonImport },
     startup_cpu_seconds: { node_bare: bareRun.cpu, import_zonal_table: importRun.cpu, cli_version: versionRun.cpu, python_imports: pythonRun?.cpu ?? null },
     profile_ms: Object.fromEntries(args.sizes.map((s) => [s, profiles[s]])),
+    instructions,
     compression_ratio: files.compressionRatio,
     machine: { cpus: cpus().length, loadavg_at_end: loadavg() },
     pipeline,

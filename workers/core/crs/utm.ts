@@ -65,14 +65,34 @@ export function utmForward(zone: number, south: boolean): (lon: number, lat: num
     const sigma = Math.sinh(E * Math.atanh((E * tau) / Math.sqrt(1 + tau * tau)));
     const tauP = tau * Math.sqrt(1 + sigma * sigma) - sigma * Math.sqrt(1 + tau * tau);
     const cosLam = Math.cos(lam);
+    const sinLam = Math.sin(lam);
+    // Gauss-Schreiber coordinates (Karney 2011, eq. 10): xi' = atan2(tau', cos lam),
+    // eta' = asinh(sin lam / hypot(tau', cos lam)); their sines and hyperbolic sines
+    // come from the same ratios, so the doubled angles below need no further
+    // transcendental calls
+    const r = Math.sqrt(tauP * tauP + cosLam * cosLam);
     const xiP = Math.atan2(tauP, cosLam);
-    const etaP = Math.asinh(Math.sin(lam) / Math.sqrt(tauP * tauP + cosLam * cosLam));
-    let xi = xiP, eta = etaP;
-    for (let j = 1; j <= 6; j++) {
-      const a = ALPHA[j - 1];
-      xi += a * Math.sin(2 * j * xiP) * Math.cosh(2 * j * etaP);
-      eta += a * Math.cos(2 * j * xiP) * Math.sinh(2 * j * etaP);
+    const shEta = sinLam / r;
+    const etaP = Math.asinh(shEta);
+    const sXi = tauP / r, cXi = cosLam / r;
+    const chEta = Math.sqrt(1 + shEta * shEta);
+    const s0 = 2 * sXi * cXi, c0 = cXi * cXi - sXi * sXi; // sin 2xi', cos 2xi'
+    const sh0 = 2 * shEta * chEta, ch0 = chEta * chEta + shEta * shEta; // sinh 2eta', cosh 2eta'
+    // zeta = zeta' + sum_j alpha_j sin(2j zeta'), zeta = xi + i eta (Karney 2011, eq. 11),
+    // by Clenshaw summation in complex arithmetic with a = 2 cos 2zeta'
+    // (Clenshaw 1955; the summation Karney 2011 sec. 4 uses)
+    const ar = 2 * c0 * ch0, ai = -2 * s0 * sh0;
+    let y0r = 0, y0i = 0, y1r = 0, y1i = 0;
+    for (let j = ALPHA.length; j > 0; j--) {
+      const tr = ar * y0r - ai * y0i - y1r + ALPHA[j - 1];
+      const ti = ar * y0i + ai * y0r - y1i;
+      y1r = y0r; y1i = y0i;
+      y0r = tr; y0i = ti;
     }
+    // sin 2zeta' = sin 2xi' cosh 2eta' + i cos 2xi' sinh 2eta'
+    const sr = s0 * ch0, si = c0 * sh0;
+    const xi = xiP + sr * y0r - si * y0i;
+    const eta = etaP + sr * y0i + si * y0r;
     out[0] = FALSE_EASTING + K0A * eta;
     out[1] = fn + K0A * xi;
     return true;

@@ -171,7 +171,7 @@ export class OwnedStore implements Store {
       // a store that vanished while we waited (a reader does not create one)
       if (!opts.create && !isStoreDir(dir)) throw noStoreError(dir);
       const { openPgliteStore } = await import('./pglite.js');
-      const inner = await openPgliteStore({ dataDir: dir, memory: false });
+      const inner = await openPgliteStore({ dataDir: dir, memory: false, longRunning: opts.command === 'serve' });
       owned = new OwnedStore(inner, dir, me, opts.handsOver);
       process.on('exit', owned.exitCleanup);
       owned.unregisterInterrupt = onInterrupt(async () => { await owned!.close(); });

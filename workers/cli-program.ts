@@ -16,7 +16,7 @@ import { decimalWhole, parseYear, quoteGiven } from './core/year.js';
 import { OUTPUT_FORMATS } from './format.js';
 import { VERSION } from './version.js';
 import { DEFAULT_API_PORT, DEFAULT_DATA_DIR, ENV } from './config.js';
-import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS, STALLED_INTERVAL_MS } from './queue/settings.js';
+import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS, DEFAULT_WORKER_CONCURRENCY, STALLED_INTERVAL_MS } from './queue/settings.js';
 
 const CAUTION = CAUTION_TEXT;
 
@@ -310,7 +310,7 @@ function addWorkerCommand(program: Command): void {
         `Log: one JSON line per event on standard output at $${ENV.logLevel} (fatal, error, warn, info — the default —, debug, trace, silent): ` +
         'ready and stopped, each job done with its milliseconds (info), a failed try (warn), a file refused as bad input or a lost connection (error), jobs taken (debug).',
     )
-    .option('--concurrency <n>', `jobs at once per queue (default: $${ENV.concurrency}, else 1)`, parseInteger('--concurrency', 1, 1024))
+    .option('--concurrency <n>', `jobs at once per queue (default: $${ENV.concurrency}, else ${DEFAULT_WORKER_CONCURRENCY})`, parseInteger('--concurrency', 1, 1024))
     .option('--stalled-interval <seconds>', 'how often to look for jobs left by a dead worker (a killed worker\'s job comes back within this plus 15 s); every worker on the same Redis must use the same value ' +
       `(default: $${ENV.stalledInterval} in whole seconds, else ${STALLED_INTERVAL_MS / 1000})`, parseNumber('--stalled-interval'))
     .action(async (opts) => {

@@ -77,7 +77,7 @@ describe('the commands', () => {
     for (const c of ['worker', 'ingest', 'serve']) {
       expect(help(c)).not.toMatch(/null|NaN|abc/);
     }
-    expect(help('worker')).toContain('(default: $HEATLEDGER_CONCURRENCY, else 1)');
+    expect(help('worker')).toContain('(default: $HEATLEDGER_CONCURRENCY, else 2)');
     expect(help('worker')).toContain('(default: $HEATLEDGER_STALLED_INTERVAL in whole seconds, else 10)');
     expect(help('ingest')).toContain('(default: $HEATLEDGER_SERVICE_RETRY_BUDGET in whole seconds, else 300)');
     expect(help('ingest')).toContain('(default: $HEATLEDGER_STALL_TIMEOUT in whole seconds, else 180)');

@@ -1,6 +1,6 @@
 import { InputError } from '../core/errors.js';
 import { ENV, envNumber } from '../config.js';
-import { STALLED_INTERVAL_MS } from '../queue/configured.js';
+import { DEFAULT_WORKER_CONCURRENCY, STALLED_INTERVAL_MS } from '../queue/configured.js';
 import { createLogger, logLevelFromEnv } from '../log.js';
 import { runtimeConfig } from '../run/config.js';
 
@@ -14,7 +14,7 @@ import { runtimeConfig } from '../run/config.js';
  */
 export async function runWorkerCommand(options: { concurrency?: number; stalledInterval?: number }): Promise<void> {
   const opts = {
-    concurrency: options.concurrency ?? envNumber('concurrency') ?? 1,
+    concurrency: options.concurrency ?? envNumber('concurrency') ?? DEFAULT_WORKER_CONCURRENCY,
     stalledInterval: options.stalledInterval ?? envNumber('stalledInterval') ?? STALLED_INTERVAL_MS / 1000,
   };
   const config = runtimeConfig();

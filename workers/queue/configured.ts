@@ -9,7 +9,7 @@ import { DEFAULT_SERVICE_RETRY_BUDGET_MS, DEFAULT_STALL_TIMEOUT_MS } from './set
 import type { Runner } from './types.js';
 
 /** The worker's default check for stalled jobs (the commands take it from here). */
-export { STALLED_INTERVAL_MS } from './settings.js';
+export { DEFAULT_WORKER_CONCURRENCY, STALLED_INTERVAL_MS } from './settings.js';
 import type { WorkerHandle, WorkerLogger } from './bull.js';
 
 export type RunMode = 'embedded' | 'distributed';

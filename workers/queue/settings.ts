@@ -24,6 +24,14 @@ export const DEFAULT_SERVICE_RETRY_BUDGET_MS = 300_000;
 export const DEFAULT_STALL_TIMEOUT_MS = 180_000;
 /** Redis key prefix of heatledger's queues. */
 export const DEFAULT_PREFIX = 'bull';
+/**
+ * Jobs a `heatledger worker` runs at once per queue unless told otherwise. Two,
+ * so that one job's waits (Redis, the result's commit and its WAL flush) overlap
+ * the other's raster work: a worker pinned to one core gave 33.8-38.9 scenes/s
+ * with one at a time and 43.5-45.2 with two on the archive bench (4 with four:
+ * no further gain; 2-core machine, 2026-12).
+ */
+export const DEFAULT_WORKER_CONCURRENCY = 2;
 
 /** Queue that runs processor `name`, e.g. 'zonal' → 'heatledger-zonal'. */
 export function queueNameFor(name: string): string {

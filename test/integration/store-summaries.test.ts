@@ -1,6 +1,7 @@
 /**
- * Migration 006 (sql/migrations/006_district_summaries.sql) changes how the
- * district tables and the trend series are computed, never what they say: on a
+ * Migrations 006 (sql/migrations/006_district_summaries.sql) and 008
+ * (008_district_reads.sql: district by district) change how the district tables
+ * and the trend series are computed, never what they say: on a
  * small generated store (test/bench/big-store-data.ts, the generator of the big
  * store bench), the named queries give the same rows as the queries as they read
  * before 006 — straight from district_daily() of migration 003, kept below as the
@@ -12,7 +13,8 @@
  * values month by month instead of in one pass changes only the last digits;
  * the stated precision of the outputs is 0.0001 K). The scene listing's keyset
  * paging by (acquired_at, id) gives the same rows as one ordered read, with and
- * without the index 006 adds. Means and orderings follow SQL's avg() and ORDER BY
+ * without the index 006 adds; the named queries give the same rows with and without
+ * the index 008 adds (districts in the tables' order). Means and orderings follow SQL's avg() and ORDER BY
  * (PostgreSQL manual, "Aggregate Functions" and "Row Constructor Comparison").
  */
 import { afterAll, describe, expect, it } from 'vitest';
@@ -103,6 +105,21 @@ function suite(name: string, fill: 'before-006' | 'after-006', open: () => Promi
         const after = await store.query<Record<string, unknown>>(namedQuery(qn), params);
         expectSameRows(after, reference[`${qn}${JSON.stringify(params)}`] as Record<string, unknown>[], `${fill}: ${qn}`);
       }
+    });
+
+    it('gives the same rows without the districts_table_order index of 008 (the order comes from ORDER BY, not from the index)', async () => {
+      const withIndex: Record<string, unknown>[][] = [];
+      for (const [qn, params] of CASES) withIndex.push(await store.query(namedQuery(qn), params));
+      await store.transaction(async (tx) => {
+        await tx.exec('DROP INDEX districts_table_order');
+        for (const [i, [qn, params]] of CASES.entries()) {
+          // the same data read in another plan: equal to the last digit, in the same order
+          expect(withIndex[i].length, `${qn}: the store has rows to compare`).toBeGreaterThan(0);
+          expect(await tx.query(namedQuery(qn), params), `without the index: ${qn}(${params.map(String).join(', ')})`).toEqual(withIndex[i]);
+        }
+        throw new RollBack();
+      }).catch((e: unknown) => { if (!(e instanceof RollBack)) throw e; });
+      expect(await store.query(`SELECT indexname FROM pg_indexes WHERE indexname = 'districts_table_order'`)).toHaveLength(1);
     });
 
     it('the kept summaries follow updates, deleted scenes and re-derived districts', async () => {

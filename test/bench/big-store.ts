@@ -20,7 +20,8 @@
  * Each query: median client wall time of 3 runs after one warm-up (one run for the
  * slow ones: before 006 and the computed readings), the median on a bare client that
  * parses no value ("unparsed": the server and the transfer; the rest of the wall time
- * is the store's parsing of the rows), and the
+ * is the store's parsing of the rows), the CPU time of the bench process in the store's
+ * runs (decoding and parsing, a figure the machine's load does not stretch), and the
  * server's own EXPLAIN (ANALYZE, BUFFERS) execution time and buffers; the full
  * plans go to test/bench/.work/big-store-plans.txt. Figures, not assertions.
  * --keep leaves the working copy (its name is printed); --big-store-shape DxY (e.g. 20x2)
@@ -34,6 +35,7 @@ import { fileURLToPath } from 'node:url';
 import pg from 'pg';
 import { listMigrations, migrate } from '../../workers/store/migrate.js';
 import { PG_SESSION_OPTIONS, openPgStore } from '../../workers/store/pg.js';
+import { districtTableByDate } from '../../workers/store/district-tables.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import type { Queryable, Store } from '../../workers/store/interface.js';
 import { BIG_STORE, QUERIES_BEFORE_006, QUERIES_BEFORE_008, SCENE_PAGE, bigStoreStatements, type BigStoreShape } from './big-store-data.js';
@@ -51,6 +53,8 @@ export interface QueryFigure {
   wall_ms: number;
   /** Median wall time on a bare `pg` client that keeps every value as its text and each row as an array, ms: server and transfer, no value parsing. */
   raw_ms: number;
+  /** Median CPU time of this process (user + system) in those runs, ms: decoding and parsing the rows, whatever the load. */
+  client_cpu_ms: number;
   /** Server execution time of EXPLAIN (ANALYZE, BUFFERS), ms. */
   server_ms: number;
   /** Shared buffers hit + read by the plan. */
@@ -132,6 +136,8 @@ interface Measured {
   name: string;
   sql: string;
   params: unknown[];
+  /** How the store reads it, when not as the query's rows (the table by date unfolds each district's JSON days). */
+  read?: (db: Queryable) => Promise<unknown[]>;
 }
 
 /**
@@ -165,12 +171,17 @@ async function rawClient(url: string): Promise<pg.Client> {
  */
 async function measure(store: Queryable, raw: pg.Client, q: Measured, plans: string[], runs = 3, jitOn = false): Promise<QueryFigure> {
   let rows = 0;
-  if (runs > 1) await store.query(q.sql, q.params); // warm-up
+  const read = q.read ?? ((db: Queryable) => db.query(q.sql, q.params));
+  if (runs > 1) await read(store); // warm-up
   const walls: number[] = [];
+  const cpu: number[] = [];
   for (let i = 0; i < runs; i++) {
     const t = performance.now();
-    rows = (await store.query(q.sql, q.params)).length;
+    const c = process.cpuUsage();
+    rows = (await read(store)).length;
     walls.push(performance.now() - t);
+    const used = process.cpuUsage(c);
+    cpu.push((used.user + used.system) / 1000);
   }
   // (the slow single-run readings skip the bare client: their time is the server's)
   const raws: number[] = [];
@@ -185,11 +196,11 @@ async function measure(store: Queryable, raw: pg.Client, q: Measured, plans: str
   plans.push(`== ${q.name} ${JSON.stringify(q.params)}\n${plan.join('\n')}\n`);
   const exec = plan.find((l) => l.startsWith('Execution Time'))?.match(/([\d.]+) ms/);
   const buffers = plan.find((l) => l.trim().startsWith('Buffers:'))?.trim().replace(/^Buffers:\s*/, '') ?? '';
-  return { name: q.name, rows, wall_ms: median(walls), raw_ms: raws.length > 0 ? median(raws) : NaN, server_ms: exec ? Number(exec[1]) : NaN, buffers };
+  return { name: q.name, rows, wall_ms: median(walls), client_cpu_ms: median(cpu), raw_ms: raws.length > 0 ? median(raws) : NaN, server_ms: exec ? Number(exec[1]) : NaN, buffers };
 }
 
 function line(f: QueryFigure): string {
-  return `  ${f.name.padEnd(34)} ${String(f.rows).padStart(7)} rows  wall ${f.wall_ms.toFixed(0).padStart(6)} ms  unparsed ${Number.isNaN(f.raw_ms) ? '     -' : f.raw_ms.toFixed(0).padStart(6)} ms  server ${f.server_ms.toFixed(0).padStart(6)} ms  buffers ${f.buffers}`;
+  return `  ${f.name.padEnd(34)} ${String(f.rows).padStart(7)} rows  wall ${f.wall_ms.toFixed(0).padStart(6)} ms  client cpu ${f.client_cpu_ms.toFixed(0).padStart(5)} ms  unparsed ${Number.isNaN(f.raw_ms) ? '     -' : f.raw_ms.toFixed(0).padStart(6)} ms  server ${f.server_ms.toFixed(0).padStart(6)} ms  buffers ${f.buffers}`;
 }
 
 export async function runBigStoreBench(say: (l?: string) => void, options: { keep?: boolean; shape?: BigStoreShape } = {}): Promise<BigStoreResult> {
@@ -226,8 +237,11 @@ export async function runBigStoreBench(say: (l?: string) => void, options: { kee
       { name: 'scene listing, first page', sql: SCENE_PAGE, params: ['processed', 'lst', 'day', null, null, 100] },
       { name: 'scene listing, a middle page', sql: SCENE_PAGE, params: ['processed', 'lst', 'night', midScene[0].acquired_at, midScene[0].id, 100] },
     ];
-    const queries = (text: (n: keyof typeof QUERIES_BEFORE_006) => string, minValid: number | null): Measured[] => [
-      { name: `district table by date, ${lastYear}`, sql: text('district_table_date'), params: [lastYear, minValid] },
+    const queries = (text: (n: keyof typeof QUERIES_BEFORE_006) => string, minValid: number | null, viaReader = false): Measured[] => [
+      {
+        name: `district table by date, ${lastYear}`, sql: text('district_table_date'), params: [lastYear, minValid],
+        ...(viaReader ? { read: (db: Queryable) => districtTableByDate(db, { year: lastYear, minValidFraction: minValid }) } : {}),
+      },
       { name: 'district table by year, all years', sql: text('district_table_year'), params: [null, minValid] },
       { name: `district table by year, ${lastYear}`, sql: text('district_table_year'), params: [lastYear, minValid] },
       { name: 'series, yearly, all districts', sql: text('district_series'), params: ['suhi_night', null, null, false, minValid] },
@@ -261,21 +275,21 @@ export async function runBigStoreBench(say: (l?: string) => void, options: { kee
     say(`  migration ${applied008.applied.join(', ')}`);
     say('  after 008 (the named queries, district by district; the store\'s sessions, JIT off):');
     const after: QueryFigure[] = [];
-    for (const q of [...queries((n) => namedQuery(n), null), ...listing]) {
+    for (const q of [...queries((n) => namedQuery(n), null, true), ...listing]) {
       const f = await measure(store, raw, q, plans);
       after.push(f);
       say(line(f));
     }
     say('  after 008 with JIT on (what JIT compilation alone would add):');
     const afterJit: QueryFigure[] = [];
-    for (const q of queries((n) => namedQuery(n), null)) {
+    for (const q of queries((n) => namedQuery(n), null, true)) {
       const f = await measure(withJit(store), raw, { ...q, name: `${q.name} (JIT)` }, plans, 3, true);
       afterJit.push(f);
       say(line(f));
     }
     say('  after 008 with a minimum valid fraction of 0.5 (computed from the derived and zonal rows, as before 006; one query of each kind):');
     const afterComputed: QueryFigure[] = [];
-    for (const q of queries((n) => namedQuery(n), 0.5).filter((q) => q.name.includes(String(lastYear)) || q.name.includes('series, yearly'))) {
+    for (const q of queries((n) => namedQuery(n), 0.5, true).filter((q) => q.name.includes(String(lastYear)) || q.name.includes('series, yearly'))) {
       const f = await measure(store, raw, q, plans, 1);
       afterComputed.push(f);
       say(line(f));

@@ -46,7 +46,7 @@ function jsonNumber<T extends number | null>(v: T | string): T {
 /**
  * Per district and date: mean day/night LST, SUHI, ATI and scene counts (sql/queries/district_table_date.sql),
  * in the query's order. The query sends each district's dates as one JSON array: decoding
- * 365,000 rows of 11 text fields took the client ~3x the CPU of decoding them as 1,000 JSON
+ * 365,000 rows of 11 text fields took the client 2-3x the CPU of decoding them as 1,000 JSON
  * texts (big-store bench), with the same values.
  */
 export async function districtTableByDate(db: Db, options: DistrictTableOptions = {}): Promise<DistrictDateRow[]> {

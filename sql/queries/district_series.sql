@@ -12,35 +12,42 @@
 -- of the daily values over the number of dates with one, summed in month order
 -- (the same digits whatever order the months are stored in). Years without a
 -- date with a value have no row: nothing is filled in.
--- The months come from district_months() (sql/migrations/006_district_summaries.sql),
--- kept or computed from district_daily() (sql/migrations/003_district_daily.sql).
-WITH picked AS (
-  SELECT m.district_id, m.obs_month, m.obs_year,
-         CASE $1::text
-           WHEN 'lst_day' THEN m.lst_day_sum
-           WHEN 'lst_night' THEN m.lst_night_sum
-           WHEN 'suhi_day' THEN m.suhi_day_sum
-           WHEN 'suhi_night' THEN m.suhi_night_sum
-           WHEN 'ati' THEN m.ati_sum
-         END AS value_sum,
-         CASE $1::text
-           WHEN 'lst_day' THEN m.lst_day_dates
-           WHEN 'lst_night' THEN m.lst_night_dates
-           WHEN 'suhi_day' THEN m.suhi_day_dates
-           WHEN 'suhi_night' THEN m.suhi_night_dates
-           WHEN 'ati' THEN m.ati_dates
-         END AS value_dates
-  FROM district_months($5::double precision) m
-)
+-- Each district's months come from district_months() (sql/migrations/008_district_reads.sql),
+-- kept or computed from district_daily() (sql/migrations/003_district_daily.sql), read district
+-- by district.
 SELECT d.id AS district_id,
        d.name AS district_name,
-       p.obs_year + CASE WHEN $3::integer IS NOT NULL AND p.obs_month >= $3::integer THEN 1 ELSE 0 END AS season_year,
-       CASE WHEN $4::boolean THEN p.obs_month ELSE 0 END AS month,
-       sum(p.value_dates)::integer AS dates,
-       sum(p.value_sum ORDER BY p.obs_year, p.obs_month) / sum(p.value_dates) AS value
-FROM picked p
-JOIN districts d ON d.id = p.district_id AND d.role = 'district'
-WHERE $2::text IS NULL OR p.obs_month = ANY (string_to_array($2::text, ',')::integer[])
-GROUP BY 1, 2, 3, 4
-HAVING sum(p.value_dates) > 0
-ORDER BY d.id COLLATE "C", 3, 4
+       s.season_year,
+       s.month,
+       s.dates,
+       s.value
+FROM districts d
+CROSS JOIN LATERAL (
+  SELECT p.obs_year + CASE WHEN $3::integer IS NOT NULL AND p.obs_month >= $3::integer THEN 1 ELSE 0 END AS season_year,
+         CASE WHEN $4::boolean THEN p.obs_month ELSE 0 END AS month,
+         sum(p.value_dates)::integer AS dates,
+         sum(p.value_sum ORDER BY p.obs_year, p.obs_month) / sum(p.value_dates) AS value
+  FROM (
+    SELECT m.obs_year, m.obs_month,
+           CASE $1::text
+             WHEN 'lst_day' THEN m.lst_day_sum
+             WHEN 'lst_night' THEN m.lst_night_sum
+             WHEN 'suhi_day' THEN m.suhi_day_sum
+             WHEN 'suhi_night' THEN m.suhi_night_sum
+             WHEN 'ati' THEN m.ati_sum
+           END AS value_sum,
+           CASE $1::text
+             WHEN 'lst_day' THEN m.lst_day_dates
+             WHEN 'lst_night' THEN m.lst_night_dates
+             WHEN 'suhi_day' THEN m.suhi_day_dates
+             WHEN 'suhi_night' THEN m.suhi_night_dates
+             WHEN 'ati' THEN m.ati_dates
+           END AS value_dates
+    FROM district_months(d.id, $5::double precision, NULL::integer) m
+    WHERE $2::text IS NULL OR m.obs_month = ANY (string_to_array($2::text, ',')::integer[])
+  ) p
+  GROUP BY 1, 2
+  HAVING sum(p.value_dates) > 0
+) s
+WHERE d.role = 'district'
+ORDER BY d.id COLLATE "C", s.season_year, s.month

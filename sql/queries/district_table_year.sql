@@ -5,28 +5,25 @@
 -- weighs the same, whatever its number of scenes): the sum of the daily values
 -- over the number of dates with one, summed in month order (the same digits
 -- whatever order the months are stored in); the counts are totals.
--- The months come from district_months() (sql/migrations/006_district_summaries.sql),
--- kept or computed from district_daily() (sql/migrations/003_district_daily.sql).
-WITH yearly AS (
-  SELECT district_id,
-         obs_year AS year,
-         -- dates with any value (a date whose passes all fell below $2 has none)
-         sum(dates) AS dates,
-         sum(lst_day_sum ORDER BY obs_month) / nullif(sum(lst_day_dates), 0)       AS lst_day_k,
-         sum(lst_night_sum ORDER BY obs_month) / nullif(sum(lst_night_dates), 0)   AS lst_night_k,
-         sum(suhi_day_sum ORDER BY obs_month) / nullif(sum(suhi_day_dates), 0)     AS suhi_day_k,
-         sum(suhi_night_sum ORDER BY obs_month) / nullif(sum(suhi_night_dates), 0) AS suhi_night_k,
-         sum(ati_sum ORDER BY obs_month) / nullif(sum(ati_dates), 0)               AS ati_per_k,
-         sum(day_scenes)   AS day_scenes,
-         sum(night_scenes) AS night_scenes
-  FROM district_months($2::double precision)
-  WHERE $1::integer IS NULL OR obs_year = $1::integer
-  GROUP BY district_id, obs_year
-)
+-- Each district's months come from district_months() (sql/migrations/008_district_reads.sql),
+-- kept or computed from district_daily() (sql/migrations/003_district_daily.sql), read district
+-- by district in the order printed (districts_table_order).
 SELECT d.id AS district_id, d.name AS district_name, d.role,
        y.year, y.dates, y.lst_day_k, y.lst_night_k, y.suhi_day_k, y.suhi_night_k, y.ati_per_k,
        y.day_scenes, y.night_scenes
-FROM yearly y
-JOIN districts d ON d.id = y.district_id
-WHERE $1::integer IS NULL OR y.year = $1::integer
+FROM districts d
+CROSS JOIN LATERAL (
+  SELECT m.obs_year AS year,
+         -- dates with any value (a date whose passes all fell below $2 has none)
+         sum(m.dates) AS dates,
+         sum(m.lst_day_sum ORDER BY m.obs_month) / nullif(sum(m.lst_day_dates), 0)       AS lst_day_k,
+         sum(m.lst_night_sum ORDER BY m.obs_month) / nullif(sum(m.lst_night_dates), 0)   AS lst_night_k,
+         sum(m.suhi_day_sum ORDER BY m.obs_month) / nullif(sum(m.suhi_day_dates), 0)     AS suhi_day_k,
+         sum(m.suhi_night_sum ORDER BY m.obs_month) / nullif(sum(m.suhi_night_dates), 0) AS suhi_night_k,
+         sum(m.ati_sum ORDER BY m.obs_month) / nullif(sum(m.ati_dates), 0)               AS ati_per_k,
+         sum(m.day_scenes)   AS day_scenes,
+         sum(m.night_scenes) AS night_scenes
+  FROM district_months(d.id, $2::double precision, $1::integer) m
+  GROUP BY m.obs_year
+) y
 ORDER BY d.role COLLATE "C", d.id COLLATE "C", y.year

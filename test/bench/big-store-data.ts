@@ -149,3 +149,51 @@ export const SCENE_PAGE = `
   WHERE ($1::text IS NULL OR status = $1::text) AND ($2::text IS NULL OR kind = $2::text) AND ($3::text IS NULL OR pass = $3::text)
     AND ($4::timestamptz IS NULL OR (acquired_at, id) > ($4::timestamptz, $5::bigint))
   ORDER BY acquired_at, id LIMIT $6`;
+
+/** The named queries as they read before migration 008 (006 and 007): every district's kept rows joined, then sorted as one. */
+export const QUERIES_BEFORE_008 = {
+  district_table_date: `
+    SELECT d.id AS district_id, d.name AS district_name, d.role,
+           x.obs_date, x.lst_day_k, x.lst_night_k, x.suhi_day_k, x.suhi_night_k, x.ati_per_k,
+           x.day_scenes, x.night_scenes
+    FROM district_days($2::double precision, $1::integer) x
+    JOIN districts d ON d.id = x.district_id
+    ORDER BY d.role COLLATE "C", d.id COLLATE "C", x.obs_date`,
+  district_table_year: `
+    WITH yearly AS (
+      SELECT district_id, obs_year AS year, sum(dates) AS dates,
+             sum(lst_day_sum ORDER BY obs_month) / nullif(sum(lst_day_dates), 0)       AS lst_day_k,
+             sum(lst_night_sum ORDER BY obs_month) / nullif(sum(lst_night_dates), 0)   AS lst_night_k,
+             sum(suhi_day_sum ORDER BY obs_month) / nullif(sum(suhi_day_dates), 0)     AS suhi_day_k,
+             sum(suhi_night_sum ORDER BY obs_month) / nullif(sum(suhi_night_dates), 0) AS suhi_night_k,
+             sum(ati_sum ORDER BY obs_month) / nullif(sum(ati_dates), 0)               AS ati_per_k,
+             sum(day_scenes) AS day_scenes, sum(night_scenes) AS night_scenes
+      FROM district_months($2::double precision)
+      WHERE $1::integer IS NULL OR obs_year = $1::integer
+      GROUP BY district_id, obs_year
+    )
+    SELECT d.id AS district_id, d.name AS district_name, d.role,
+           y.year, y.dates, y.lst_day_k, y.lst_night_k, y.suhi_day_k, y.suhi_night_k, y.ati_per_k,
+           y.day_scenes, y.night_scenes
+    FROM yearly y JOIN districts d ON d.id = y.district_id
+    WHERE $1::integer IS NULL OR y.year = $1::integer
+    ORDER BY d.role COLLATE "C", d.id COLLATE "C", y.year`,
+  district_series: `
+    WITH picked AS (
+      SELECT m.district_id, m.obs_month, m.obs_year,
+             CASE $1::text WHEN 'lst_day' THEN m.lst_day_sum WHEN 'lst_night' THEN m.lst_night_sum WHEN 'suhi_day' THEN m.suhi_day_sum
+                           WHEN 'suhi_night' THEN m.suhi_night_sum WHEN 'ati' THEN m.ati_sum END AS value_sum,
+             CASE $1::text WHEN 'lst_day' THEN m.lst_day_dates WHEN 'lst_night' THEN m.lst_night_dates WHEN 'suhi_day' THEN m.suhi_day_dates
+                           WHEN 'suhi_night' THEN m.suhi_night_dates WHEN 'ati' THEN m.ati_dates END AS value_dates
+      FROM district_months($5::double precision) m
+    )
+    SELECT d.id AS district_id, d.name AS district_name,
+           p.obs_year + CASE WHEN $3::integer IS NOT NULL AND p.obs_month >= $3::integer THEN 1 ELSE 0 END AS season_year,
+           CASE WHEN $4::boolean THEN p.obs_month ELSE 0 END AS month,
+           sum(p.value_dates)::integer AS dates,
+           sum(p.value_sum ORDER BY p.obs_year, p.obs_month) / sum(p.value_dates) AS value
+    FROM picked p JOIN districts d ON d.id = p.district_id AND d.role = 'district'
+    WHERE $2::text IS NULL OR p.obs_month = ANY (string_to_array($2::text, ',')::integer[])
+    GROUP BY 1, 2, 3, 4 HAVING sum(p.value_dates) > 0
+    ORDER BY d.id COLLATE "C", 3, 4`,
+} as const;

@@ -50,7 +50,7 @@ function suite(name: string, open: () => Promise<Store>): void {
         ($2, '/srv/c.tif', 'failed', 'InputError: /srv/c.tif: not a TIFF file')`, [hash('b'), hash('c')]);
       const before = await store.query<{ n: number }>(`SELECT (SELECT count(*) FROM runs) + (SELECT count(*) FROM scenes) AS n`);
 
-      expect(await migrate(store, all)).toEqual({ applied: ['007_failure_kinds'] });
+      expect(await migrate(store, all.filter((m) => m.version <= 7))).toEqual({ applied: ['007_failure_kinds'] });
       const runs = await store.query<{ error: string | null; error_kind: string | null }>('SELECT error, error_kind FROM runs ORDER BY id');
       expect(runs).toEqual(RUN_ERRORS.map(([, error, kind]) => ({ error, error_kind: kind })));
       const scenes = await store.query<{ path: string; error: string; error_kind: string }>('SELECT path, error, error_kind FROM scenes ORDER BY path');

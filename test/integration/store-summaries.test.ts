@@ -1,6 +1,7 @@
 /**
- * Migration 006 (sql/migrations/006_district_summaries.sql) changes how the
- * district tables and the trend series are computed, never what they say: on a
+ * Migrations 006 (sql/migrations/006_district_summaries.sql) and 008
+ * (008_district_reads.sql: district by district) change how the district tables
+ * and the trend series are computed, never what they say: on a
  * small generated store (test/bench/big-store-data.ts, the generator of the big
  * store bench), the named queries give the same rows as the queries as they read
  * before 006 — straight from district_daily() of migration 003, kept below as the
@@ -12,11 +13,14 @@
  * values month by month instead of in one pass changes only the last digits;
  * the stated precision of the outputs is 0.0001 K). The scene listing's keyset
  * paging by (acquired_at, id) gives the same rows as one ordered read, with and
- * without the index 006 adds. Means and orderings follow SQL's avg() and ORDER BY
+ * without the index 006 adds; the named queries give the same rows with and without
+ * the index 008 adds (districts in the tables' order). Means and orderings follow SQL's avg() and ORDER BY
  * (PostgreSQL manual, "Aggregate Functions" and "Row Constructor Comparison").
  */
 import { afterAll, describe, expect, it } from 'vitest';
 import { listMigrations, migrate } from '../../workers/store/migrate.js';
+import { districtTableByDate } from '../../workers/store/district-tables.js';
+import type { Queryable } from '../../workers/store/interface.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import { openStore, type Store } from '../../workers/store/store.js';
 import { QUERIES_BEFORE_006, SCENE_PAGE, bigStoreStatements } from '../bench/big-store-data.js';
@@ -44,6 +48,17 @@ const CASES: [QueryName, unknown[]][] = [
   ['district_series', ['suhi_day', null, null, true, 0.6]],
 ];
 
+/**
+ * The rows of a named query as the store reads them: the table by date through its reader
+ * (the query sends each district's dates as one JSON array, the reader unfolds them).
+ */
+function readNamed(db: Queryable, name: QueryName, params: unknown[]): Promise<Record<string, unknown>[]> {
+  if (name === 'district_table_date') {
+    return districtTableByDate(db, { year: params[0] as number | null, minValidFraction: params[1] as number | null }) as unknown as Promise<Record<string, unknown>[]>;
+  }
+  return db.query<Record<string, unknown>>(namedQuery(name), params);
+}
+
 /** Equal rows: same keys, texts and counts; numbers equal to 1e-9 relative. */
 function expectSameRows(after: Record<string, unknown>[], before: Record<string, unknown>[], label: string): void {
   expect(after.length, `${label}: row count`).toBe(before.length);
@@ -65,7 +80,7 @@ function expectSameRows(after: Record<string, unknown>[], before: Record<string,
 async function compareKept(store: Store, stage: string): Promise<void> {
   for (const [name, params] of CASES.filter(([, p]) => p.at(-1) === null)) {
     const before = await store.query<Record<string, unknown>>(BEFORE[name], params);
-    const after = await store.query<Record<string, unknown>>(namedQuery(name), params);
+    const after = await readNamed(store, name, params);
     expectSameRows(after, before, `${stage}: ${name}(${params.map(String).join(', ')})`);
   }
 }
@@ -100,9 +115,24 @@ function suite(name: string, fill: 'before-006' | 'after-006', open: () => Promi
       for (const [qn, params] of CASES) reference[`${qn}${JSON.stringify(params)}`] = await store.query(BEFORE[qn], params);
       if (fill === 'before-006') expect(await migrate(store, all)).toEqual({ applied: all.filter((m) => m.version >= 6).map((m) => m.id) });
       for (const [qn, params] of CASES) {
-        const after = await store.query<Record<string, unknown>>(namedQuery(qn), params);
+        const after = await readNamed(store, qn, params);
         expectSameRows(after, reference[`${qn}${JSON.stringify(params)}`] as Record<string, unknown>[], `${fill}: ${qn}`);
       }
+    });
+
+    it('gives the same rows without the districts_table_order index of 008 (the order comes from ORDER BY, not from the index)', async () => {
+      const withIndex: Record<string, unknown>[][] = [];
+      for (const [qn, params] of CASES) withIndex.push(await readNamed(store, qn, params));
+      await store.transaction(async (tx) => {
+        await tx.exec('DROP INDEX districts_table_order');
+        for (const [i, [qn, params]] of CASES.entries()) {
+          // the same data read in another plan: equal to the last digit, in the same order
+          expect(withIndex[i].length, `${qn}: the store has rows to compare`).toBeGreaterThan(0);
+          expect(await readNamed(tx, qn, params), `without the index: ${qn}(${params.map(String).join(', ')})`).toEqual(withIndex[i]);
+        }
+        throw new RollBack();
+      }).catch((e: unknown) => { if (!(e instanceof RollBack)) throw e; });
+      expect(await store.query(`SELECT indexname FROM pg_indexes WHERE indexname = 'districts_table_order'`)).toHaveLength(1);
     });
 
     it('the kept summaries follow updates, deleted scenes and re-derived districts', async () => {

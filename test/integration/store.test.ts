@@ -161,7 +161,7 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     await store?.close();
   });
 
-  it('applies migrations 001 to 006 once and records them', async () => {
+  it('applies every migration once and records it', async () => {
     const rows = await store.query<{ version: number; name: string }>('SELECT version, name FROM schema_migrations ORDER BY version');
     expect(rows).toEqual([
       { version: 1, name: 'init' },
@@ -171,6 +171,7 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
       { version: 5, name: 'thermal_scenes' },
       { version: 6, name: 'district_summaries' },
       { version: 7, name: 'failure_kinds' },
+      { version: 8, name: 'district_reads' },
     ]);
     expect(await migrate(store)).toEqual({ applied: [] });
     const again = await reopen();
@@ -784,9 +785,10 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
 
   it('reads named queries from sql/queries and rejects unknown names', () => {
     // Both tables read the one per-date definition (district_daily() of migration 003), through
-    // its kept summaries by day and by month (migration 006), never the tables underneath.
-    expect(namedQuery('district_table_date')).toMatch(/FROM district_days\(\$2::double precision, \$1::integer\)/);
-    expect(namedQuery('district_table_year')).toMatch(/FROM district_months\(\$2::double precision\)/);
+    // its kept summaries by day and by month (migration 006), district by district (migration 008),
+    // never the tables underneath.
+    expect(namedQuery('district_table_date')).toMatch(/FROM district_days\(d\.id, \$2::double precision, \$1::integer\)/);
+    expect(namedQuery('district_table_year')).toMatch(/FROM district_months\(d\.id, \$2::double precision, \$1::integer\)/);
     for (const name of ['district_table_date', 'district_table_year', 'district_series']) {
       expect(namedQuery(name)).not.toMatch(/FROM zonal_stats|FROM derived_metrics|_summary/);
     }
@@ -843,7 +845,7 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
     try {
       const results = await Promise.all([migrate(a), migrate(b)]);
       // One process applies both migrations under the advisory lock; the other finds none left.
-      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes', '006_district_summaries', '007_failure_kinds']]);
+      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes', '006_district_summaries', '007_failure_kinds', '008_district_reads']]);
     } finally {
       await Promise.all([a.close(), b.close()]);
     }

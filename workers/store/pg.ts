@@ -1,7 +1,12 @@
 /**
  * Store on a PostgreSQL server through a `pg` Pool.
  * Every session runs with TimeZone UTC and DateStyle ISO, so `::date` casts and
- * the text the value parsers read are the same as on the embedded engine.
+ * the text the value parsers read are the same as on the embedded engine, and
+ * with JIT compilation off: the district table and series read district by
+ * district (sql/migrations/008_district_reads.sql), plans whose estimated cost
+ * passes the server's JIT thresholds although they run in a few hundred
+ * milliseconds; compiling them cost 60-280 ms a query on the big-store bench
+ * (`npm run bench -- --big-store`, which prints both).
  */
 import pg from 'pg';
 import { ServiceError } from '../core/errors.js';
@@ -58,6 +63,9 @@ export function pgServiceError(e: unknown, where: string, sql?: string): Service
   return new ServiceError(`PostgreSQL query failed at ${where}: ${message}${state}${stmt}`, { cause: e, service: 'PostgreSQL' });
 }
 
+/** The settings of every session of the store (see the head of this file). */
+export const PG_SESSION_OPTIONS = '-c TimeZone=UTC -c DateStyle=ISO -c jit=off';
+
 // pg-types' arrayParser is an object with create(); its .d.ts declares a function.
 const arrayParser = pg.types.arrayParser as unknown as {
   create(source: string, transform: (entry: string) => unknown): { parse(): unknown[] };
@@ -90,7 +98,7 @@ export async function openPgStore(databaseUrl: string): Promise<Store> {
     // A dead server must fail, never hang: pg's default connect timeout is none.
     connectionTimeoutMillis: 10_000,
     idleTimeoutMillis: 30_000,
-    options: '-c TimeZone=UTC -c DateStyle=ISO',
+    options: PG_SESSION_OPTIONS,
     types: typeParsers as pg.CustomTypesConfig,
   });
   // An idle client losing its server emits 'error' on the pool; without a

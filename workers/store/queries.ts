@@ -15,7 +15,7 @@ const NAME_RE = /^[a-z0-9_]+$/;
  * [a-z0-9_]+ or has no file (a programming fault, not user input).
  *
  * @example
- *   const rows = await store.query(namedQuery('district_table_date'), [2024, null]);
+ *   const rows = await store.query(namedQuery('district_table_year'), [2024, null]);
  */
 export function namedQuery(name: string): string {
   const hit = cache.get(name);

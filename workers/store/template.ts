@@ -25,7 +25,7 @@ import { listMigrations, type Migration } from './migrate.js';
 export const PG_VERSION_FILE = 'PG_VERSION';
 
 export interface TemplateRecord {
-  /** SHA-256 over the migrations and the PGlite version (see templateSchema). */
+  /** SHA-256 over the migrations, the PGlite version and how the template is made (TEMPLATE_MAKING). */
   schema: string;
   /** The migrations the template holds, e.g. ['001_init', ...]. */
   migrations: string[];
@@ -48,9 +48,16 @@ export function pgliteVersion(): string {
 }
 
 /** The record a template made now from `migrations` would carry. */
+/**
+ * How the template is made (writePgliteTemplate in ./pglite.ts), part of its
+ * record: raise it when that changes what a template holds, so that the build
+ * makes the template again. 2: without the databases template0 and template1.
+ */
+const TEMPLATE_MAKING = 2;
+
 export function templateRecord(migrations: Migration[] = listMigrations(), pglite: string = pgliteVersion()): TemplateRecord {
   const lines = migrations.map((m) => `${m.version}:${m.name}:${sha256Hex(m.sql)}`);
-  return { schema: sha256Hex([`pglite ${pglite}`, ...lines].join('\n')), migrations: migrations.map((m) => m.id), pglite };
+  return { schema: sha256Hex([`pglite ${pglite}`, `making ${TEMPLATE_MAKING}`, ...lines].join('\n')), migrations: migrations.map((m) => m.id), pglite };
 }
 
 /** The record of the template in `dir`, or null when there is none (or it cannot be read). */

@@ -115,16 +115,32 @@ interface SizeResult {
   /** Whole-process CPU seconds (user + system, all threads) per round; empty where /proc is not there. */
   oursCpuSeconds: number[];
   peerCpuSeconds: number[];
+  /**
+   * Ours again in each round without NODE_EXTRA_CA_CERTS, when this machine sets it
+   * (Node 20 parses that CA bundle at every start, before any of our code runs); else empty.
+   */
+  oursCleanSeconds: number[];
+  oursCleanCpuSeconds: number[];
   agreement: Agreement | null;
+}
+
+/** This environment without NODE_EXTRA_CA_CERTS, or null when it is not set. */
+function withoutExtraCaCerts(): NodeJS.ProcessEnv | null {
+  if (process.env.NODE_EXTRA_CA_CERTS === undefined) return null;
+  const env = { ...process.env };
+  delete env.NODE_EXTRA_CA_CERTS;
+  return env;
 }
 
 /** Alternating rounds for one size: ours first in odd rounds (1, 3, ...), the peer first in even ones. */
 function timeSize(raster: string, districts: string, rounds: number, withPeer: boolean): SizeResult {
-  const ours = () => {
-    const r = timeProcess(NODE, [CLI, 'zonal', raster, '--districts', districts, '--format', 'json']);
+  const ours = (env: NodeJS.ProcessEnv = process.env) => {
+    const r = timeProcess(NODE, [CLI, 'zonal', raster, '--districts', districts, '--format', 'json'], 180, env);
     if (r.status !== 0) throw new Error(`heatledger zonal exited with ${r.status}: ${r.stderr.trim()}`);
     return r;
   };
+  const clean = withoutExtraCaCerts();
+  const oursCleanSeconds: number[] = [], oursCleanCpuSeconds: number[] = [];
   const peer = () => {
     const r = timeProcess(PYTHON, [PEER, raster, districts]);
     if (r.status !== 0) throw new Error(`peer_zonal.py exited with ${r.status}: ${r.stderr.trim()}`);
@@ -141,6 +157,11 @@ function timeSize(raster: string, districts: string, rounds: number, withPeer: b
         oursSeconds.push(r.seconds);
         if (r.cpuSeconds !== null) oursCpuSeconds.push(r.cpuSeconds);
         oursText ||= r.stdout;
+        if (clean) {
+          const c = ours(clean);
+          oursCleanSeconds.push(c.seconds);
+          if (c.cpuSeconds !== null) oursCleanCpuSeconds.push(c.cpuSeconds);
+        }
       } else if (withPeer) {
         const r = peer();
         peerSeconds.push(r.seconds);
@@ -150,7 +171,7 @@ function timeSize(raster: string, districts: string, rounds: number, withPeer: b
     }
   }
   const agreement = withPeer ? compareTables(parseRows(oursText, 'heatledger zonal'), parseRows(peerText, 'peer_zonal.py')) : null;
-  return { oursSeconds, peerSeconds, oursCpuSeconds, peerCpuSeconds, agreement };
+  return { oursSeconds, peerSeconds, oursCpuSeconds, peerCpuSeconds, oursCleanSeconds, oursCleanCpuSeconds, agreement };
 }
 
 interface ChildProfile {
@@ -311,6 +332,12 @@ async function main(): Promise<void> {
       if (r.peerCpuSeconds.length) say(`                    median ${s2(median(r.peerCpuSeconds))} s CPU   (rounds: ${r.peerCpuSeconds.map(s2).join(', ')})`);
       say(`  peer / ours = ${ratio.toFixed(2)} wall` +
         (r.oursCpuSeconds.length && r.peerCpuSeconds.length ? `, ${(median(r.peerCpuSeconds) / median(r.oursCpuSeconds)).toFixed(2)} CPU` : ''));
+      if (r.oursCleanSeconds.length) {
+        const cpu = r.oursCleanCpuSeconds.length ? median(r.oursCleanCpuSeconds) : null;
+        say(`  ours without NODE_EXTRA_CA_CERTS (set here; Node parses that CA bundle at every start): median ${s3(median(r.oursCleanSeconds))} s wall` +
+          (cpu !== null ? ` / ${s2(cpu)} s CPU` : '') + `; peer / that = ${(median(r.peerSeconds) / median(r.oursCleanSeconds)).toFixed(2)} wall` +
+          (cpu !== null && r.peerCpuSeconds.length ? `, ${(median(r.peerCpuSeconds) / cpu).toFixed(2)} CPU` : ''));
+      }
       const a = r.agreement!;
       if (a.agree) {
         say(`  agree: yes, ${a.rows} districts: pixels and valid equal, worst |mean difference| ${a.worst.mean.difference.toExponential(2)} K (tolerance 1e-6 K)`);
@@ -369,12 +396,16 @@ async function main(): Promise<void> {
   const trends = all ? runTrendsBench(say) : null;
   const archive = all ? await runArchiveBench({ ...archiveArgs.options, say }) : null;
 
-  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds' | 'oursCpuSeconds' | 'peerCpuSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
+  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds' | 'oursCpuSeconds' | 'peerCpuSeconds' | 'oursCleanSeconds' | 'oursCleanCpuSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
   const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
   const agreements = args.sizes.map((s) => results[s]!.agreement).filter((a): a is Agreement => a !== null);
   const summary = {
     heatledger_seconds: { full: med('full', 'oursSeconds'), clip: med('clip', 'oursSeconds') },
     heatledger_cpu_seconds: { full: med('full', 'oursCpuSeconds'), clip: med('clip', 'oursCpuSeconds') },
+    heatledger_without_extra_ca_certs: {
+      seconds: { full: med('full', 'oursCleanSeconds'), clip: med('clip', 'oursCleanSeconds') },
+      cpu_seconds: { full: med('full', 'oursCleanCpuSeconds'), clip: med('clip', 'oursCleanCpuSeconds') },
+    },
     peer_cpu_seconds: { full: withPeer ? med('full', 'peerCpuSeconds') : null, clip: withPeer ? med('clip', 'peerCpuSeconds') : null },
     cpu_ratio_peer_over_ours: {
       full: withPeer && med('full', 'oursCpuSeconds') ? med('full', 'peerCpuSeconds')! / med('full', 'oursCpuSeconds')! : null,

@@ -24,12 +24,13 @@ export interface ProcessRun {
  * @param command executable
  * @param args arguments
  * @param timeoutSeconds kill after this long (a bench must never hang)
+ * @param env the child's environment (default: this process's)
  * @example timeProcess('node', ['-e', '']).seconds // ~0.05
  */
-export function timeProcess(command: string, args: readonly string[], timeoutSeconds = 180): ProcessRun {
+export function timeProcess(command: string, args: readonly string[], timeoutSeconds = 180, env: NodeJS.ProcessEnv = process.env): ProcessRun {
   const cpu0 = childrenCpuSeconds();
   const t0 = performance.now();
-  const r = spawnSync(command, args, { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024, timeout: timeoutSeconds * 1000 });
+  const r = spawnSync(command, args, { encoding: 'utf8', maxBuffer: 64 * 1024 * 1024, timeout: timeoutSeconds * 1000, env });
   const seconds = (performance.now() - t0) / 1000;
   const cpu1 = childrenCpuSeconds();
   const cpuSeconds = cpu0 === null || cpu1 === null ? null : cpu1 - cpu0;

@@ -66,7 +66,7 @@ export function utmForward(zone: number, south: boolean): (lon: number, lat: num
     const tauP = tau * Math.sqrt(1 + sigma * sigma) - sigma * Math.sqrt(1 + tau * tau);
     const cosLam = Math.cos(lam);
     const sinLam = Math.sin(lam);
-    // Gauss-Schreiber coordinates (Karney 2011, eq. 10): xi' = atan2(tau', cos lam),
+    // Gauss-Schreiber coordinates (Karney 2011, eq. 10; equation numbers here from memory): xi' = atan2(tau', cos lam),
     // eta' = asinh(sin lam / hypot(tau', cos lam)); their sines and hyperbolic sines
     // come from the same ratios, so the doubled angles below need no further
     // transcendental calls
@@ -80,7 +80,8 @@ export function utmForward(zone: number, south: boolean): (lon: number, lat: num
     const sh0 = 2 * shEta * chEta, ch0 = chEta * chEta + shEta * shEta; // sinh 2eta', cosh 2eta'
     // zeta = zeta' + sum_j alpha_j sin(2j zeta'), zeta = xi + i eta (Karney 2011, eq. 11),
     // by Clenshaw summation in complex arithmetic with a = 2 cos 2zeta'
-    // (Clenshaw 1955; the summation Karney 2011 sec. 4 uses)
+    // (Clenshaw 1955, "A note on the summation of Chebyshev series", Math. Tables
+    // Aids Comput. 9:118-120, the summation Karney 2011 uses; citations from memory)
     const ar = 2 * c0 * ch0, ai = -2 * s0 * sh0;
     let y0r = 0, y0i = 0, y1r = 0, y1i = 0;
     for (let j = ALPHA.length; j > 0; j--) {

@@ -140,16 +140,6 @@ export const QUERIES_BEFORE_006 = {
     ORDER BY d.id COLLATE "C", 3, 4`,
 } as const;
 
-/**
- * One page of the scene listing, keyset-paged by (acquired_at, id):
- *   $1 status, $2 kind, $3 pass (NULL = any), $4 $5 the last row of the previous page (NULL = first page), $6 page size.
- */
-export const SCENE_PAGE = `
-  SELECT id, acquired_at, pass, status FROM scenes
-  WHERE ($1::text IS NULL OR status = $1::text) AND ($2::text IS NULL OR kind = $2::text) AND ($3::text IS NULL OR pass = $3::text)
-    AND ($4::timestamptz IS NULL OR (acquired_at, id) > ($4::timestamptz, $5::bigint))
-  ORDER BY acquired_at, id LIMIT $6`;
-
 /** The named queries as they read before migration 008 (006 and 007): every district's kept rows joined, then sorted as one. */
 export const QUERIES_BEFORE_008 = {
   district_table_date: `

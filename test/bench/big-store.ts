@@ -10,7 +10,7 @@
  *    (hlbigstore_<fingerprint of the generator and the migrations before 006>),
  *    kept for the next run; each run works on a copy (CREATE DATABASE ... TEMPLATE).
  * 2. Before 006: the queries as they read before 006 (QUERIES_BEFORE_006), the
- *    scene listing without the (acquired_at, id) index.
+ *    scene listing (the scenes route's own query) without its index.
  * 3. Migrations 006 and 007 are applied to the copy (the time is printed: 006 fills the summaries).
  * 4. After 006: the queries as they read before 008 (QUERIES_BEFORE_008), in sessions
  *    with JIT on (the server's default, as the store ran them then).
@@ -38,7 +38,7 @@ import { PG_SESSION_OPTIONS, openPgStore } from '../../workers/store/pg.js';
 import { districtTableByDate } from '../../workers/store/district-tables.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import type { Queryable, Store } from '../../workers/store/interface.js';
-import { BIG_STORE, QUERIES_BEFORE_006, QUERIES_BEFORE_008, SCENE_PAGE, bigStoreStatements, type BigStoreShape } from './big-store-data.js';
+import { BIG_STORE, QUERIES_BEFORE_006, QUERIES_BEFORE_008, bigStoreStatements, type BigStoreShape } from './big-store-data.js';
 import { median } from './timing.js';
 
 const ROOT = resolve(dirname(fileURLToPath(import.meta.url)), '../../..');
@@ -233,9 +233,10 @@ export async function runBigStoreBench(say: (l?: string) => void, options: { kee
     const lastYear = shape.firstYear + shape.years - 1;
     const midScene = await store.query<{ acquired_at: string; id: number }>(
       `SELECT acquired_at, id FROM scenes ORDER BY acquired_at, id OFFSET (SELECT count(*) / 2 FROM scenes) LIMIT 1`);
+    // the scenes route's own query (sql/queries/scene_listing.sql), as it pages: 100 rows after a cursor
     const listing: Measured[] = [
-      { name: 'scene listing, first page', sql: SCENE_PAGE, params: ['processed', 'lst', 'day', null, null, 100] },
-      { name: 'scene listing, a middle page', sql: SCENE_PAGE, params: ['processed', 'lst', 'night', midScene[0].acquired_at, midScene[0].id, 100] },
+      { name: 'scene listing, first page', sql: namedQuery('scene_listing'), params: ['processed', 'lst', 'day', null, null, null, null, 101, null] },
+      { name: 'scene listing, a middle page', sql: namedQuery('scene_listing'), params: ['processed', 'lst', 'night', null, null, midScene[0].acquired_at, midScene[0].id, 101, null] },
     ];
     const queries = (text: (n: keyof typeof QUERIES_BEFORE_006) => string, minValid: number | null, viaReader = false): Measured[] => [
       {

@@ -131,7 +131,7 @@ describe('embedded store on disk', () => {
     store = await openStore({ dataDir });
     expect(await migrate(store)).toEqual({ applied: [] });
     expect(await store.query('SELECT id, area_m2 FROM districts')).toEqual([{ id: 'quay', area_m2: 5 }]);
-    expect(await store.query('SELECT version FROM schema_migrations ORDER BY version')).toEqual([{ version: 1 }, { version: 2 }, { version: 3 }, { version: 4 }, { version: 5 }, { version: 6 }, { version: 7 }, { version: 8 }]);
+    expect(await store.query('SELECT version FROM schema_migrations ORDER BY version')).toEqual([{ version: 1 }, { version: 2 }, { version: 3 }, { version: 4 }, { version: 5 }, { version: 6 }, { version: 7 }, { version: 8 }, { version: 9 }]);
     // The schema-1 row survived, and replaceDerived's key (day scene, else night scene)
     // finds it: writing it again updates it in place; a night-only row is now accepted, once.
     const row = (values: Partial<DerivedInput>): DerivedInput => ({

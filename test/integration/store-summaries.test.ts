@@ -12,8 +12,9 @@
  * Keys and counts must be equal; means equal to 1e-9 relative (summing daily
  * values month by month instead of in one pass changes only the last digits;
  * the stated precision of the outputs is 0.0001 K). The scene listing's keyset
- * paging by (acquired_at, id) gives the same rows as one ordered read, with and
- * without the index 006 adds; the named queries give the same rows with and without
+ * paging (sql/queries/scene_listing.sql: by acquisition time, scenes without one
+ * last, then id) gives the same ids as one ordered read, with and without the
+ * index 009 adds; the named queries give the same rows with and without
  * the index 008 adds (districts in the tables' order). Means and orderings follow SQL's avg() and ORDER BY
  * (PostgreSQL manual, "Aggregate Functions" and "Row Constructor Comparison").
  */
@@ -23,7 +24,7 @@ import { districtTableByDate } from '../../workers/store/district-tables.js';
 import type { Queryable } from '../../workers/store/interface.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import { openStore, type Store } from '../../workers/store/store.js';
-import { QUERIES_BEFORE_006, SCENE_PAGE, bigStoreStatements } from '../bench/big-store-data.js';
+import { QUERIES_BEFORE_006, bigStoreStatements } from '../bench/big-store-data.js';
 import { createTempDatabase, type TempDatabase } from '../support/pipeline-harness.js';
 import { serviceAvailable } from '../support/services.js';
 
@@ -85,14 +86,19 @@ async function compareKept(store: Store, stage: string): Promise<void> {
   }
 }
 
-/** Every page of the keyset listing, joined. */
-async function pages(db: { query<T>(sql: string, p?: unknown[]): Promise<T[]> }, pass: string | null, size: number): Promise<unknown[]> {
-  const out: { id: number; acquired_at: string }[] = [];
+/**
+ * Every page of the scene listing (sql/queries/scene_listing.sql, as the scenes route
+ * pages it: the cursor is the last row's acquisition time, 'infinity' for a scene
+ * without one, and its id), joined: the ids in listing order.
+ */
+async function pages(db: Queryable, pass: string | null, size: number): Promise<number[]> {
+  const out: { id: number; acquired_at: unknown }[] = [];
   for (;;) {
     const last = out.at(-1);
-    const page = await db.query<{ id: number; acquired_at: string }>(SCENE_PAGE, ['processed', 'lst', pass, last?.acquired_at ?? null, last?.id ?? null, size]);
+    const cursor = last === undefined ? [null, null] : [last.acquired_at ?? 'infinity', last.id];
+    const page = await db.query<{ id: number; acquired_at: unknown }>(namedQuery('scene_listing'), ['processed', 'lst', pass, null, null, ...cursor, size, null]);
     out.push(...page);
-    if (page.length < size) return out;
+    if (page.length < size) return out.map((r) => Number(r.id));
   }
 }
 
@@ -156,20 +162,25 @@ function suite(name: string, fill: 'before-006' | 'after-006', open: () => Promi
         .toEqual(await store.query(`SELECT count(DISTINCT obs_date)::int AS n FROM derived_metrics WHERE district_id = 'd00002'`));
     });
 
-    it('keyset pages of the scene listing join into the ordered listing, with and without the (acquired_at, id) index', async () => {
-      // two scenes at the same instant: the id breaks the tie
+    it('keyset pages of the scene listing join into the ordered listing, with and without its index (scenes_listing_order, migration 009)', async () => {
+      // two scenes at the same instant: the id breaks the tie; a scene without a time comes last
       await store.query(`UPDATE scenes SET acquired_at = (SELECT acquired_at FROM scenes WHERE id = 3) WHERE id = 5`);
-      const whole = await store.query(`SELECT id, acquired_at, pass, status FROM scenes WHERE status = 'processed' AND kind = 'lst' ORDER BY acquired_at, id`);
-      const nights = await store.query(`SELECT id, acquired_at, pass, status FROM scenes WHERE status = 'processed' AND kind = 'lst' AND pass = 'night' ORDER BY acquired_at, id`);
+      await store.query(`UPDATE scenes SET acquired_at = NULL WHERE id = 7`);
+      const ids = async (pass: string | null) => (await store.query<{ id: number }>(
+        `SELECT id FROM scenes WHERE status = 'processed' AND kind = 'lst' AND ($1::text IS NULL OR pass = $1::text)
+         ORDER BY acquired_at IS NULL, acquired_at, id`, [pass])).map((r) => Number(r.id));
+      const whole = await ids(null);
+      const nights = await ids('night');
+      expect(whole.at(-1)).toBe(7);
       expect(await pages(store, null, 97)).toEqual(whole);
       expect(await pages(store, 'night', 50)).toEqual(nights);
       await store.transaction(async (tx) => {
-        await tx.exec('DROP INDEX scenes_acquired_id');
+        await tx.exec('DROP INDEX scenes_listing_order');
         expect(await pages(tx, null, 97)).toEqual(whole);
         expect(await pages(tx, 'night', 50)).toEqual(nights);
         throw new RollBack();
       }).catch((e: unknown) => { if (!(e instanceof RollBack)) throw e; });
-      expect(await store.query(`SELECT indexname FROM pg_indexes WHERE indexname = 'scenes_acquired_id'`)).toHaveLength(1);
+      expect(await store.query(`SELECT indexname FROM pg_indexes WHERE indexname = 'scenes_listing_order'`)).toHaveLength(1);
     });
   });
 }

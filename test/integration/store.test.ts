@@ -172,6 +172,7 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
       { version: 6, name: 'district_summaries' },
       { version: 7, name: 'failure_kinds' },
       { version: 8, name: 'district_reads' },
+      { version: 9, name: 'scene_listing_order' },
     ]);
     expect(await migrate(store)).toEqual({ applied: [] });
     const again = await reopen();
@@ -845,7 +846,7 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
     try {
       const results = await Promise.all([migrate(a), migrate(b)]);
       // One process applies both migrations under the advisory lock; the other finds none left.
-      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes', '006_district_summaries', '007_failure_kinds', '008_district_reads']]);
+      expect(results.map((r) => r.applied).sort((x, y) => x.length - y.length)).toEqual([[], ['001_init', '002_night_only_rows', '003_district_daily', '004_run_states', '005_thermal_scenes', '006_district_summaries', '007_failure_kinds', '008_district_reads', '009_scene_listing_order']]);
     } finally {
       await Promise.all([a.close(), b.close()]);
     }

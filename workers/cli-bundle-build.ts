@@ -14,13 +14,13 @@
  * import, so a module whose exports the light paths do not use is left out.
  */
 import { spawnSync } from 'node:child_process';
-import { createHash } from 'node:crypto';
 import { mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join, relative, sep } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
 import { rolldown } from 'rolldown';
 import { BUNDLE_IMPORT_NAME, cachePathOf, manifestPathOf, type BundleManifest } from './cli-bundle-loader.js';
+import { sha256Hex } from './core/hash.js';
 import { writeGeoTiff } from './core/raster/write.js';
 import type { Epsg } from './core/units.js';
 
@@ -91,10 +91,10 @@ export async function buildCliBundle(): Promise<{ bytes: number; modules: number
   }
   if (/[^\x00-\x7f]/.test(readFileSync(BUNDLE_PATH, 'latin1'))) throw new Error(`${BUNDLE_PATH} holds characters outside ASCII`);
   const written = statSync(BUNDLE_PATH);
-  const sha256 = createHash('sha256').update(readFileSync(BUNDLE_PATH)).digest('hex');
+  const sha256 = sha256Hex(readFileSync(BUNDLE_PATH));
   const manifest: BundleManifest = { bundle: { size: written.size, mtimeMs: written.mtimeMs, sha256 }, inputs };
   writeFileSync(manifestPathOf(BUNDLE_PATH), JSON.stringify(manifest));
-  return { bytes: statSync(BUNDLE_PATH).size, modules: inputs.length };
+  return { bytes: written.size, modules: inputs.length };
 }
 
 /**

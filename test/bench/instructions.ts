@@ -75,18 +75,28 @@ function inclusiveCounts(outFile: string): Map<string, number> {
 }
 
 /**
- * Count the instructions of one run of `command args` under callgrind and
- * split them into the named parts. About 50-100 times slower than the run.
+ * Run `command args` under callgrind, writing its profile to `outFile`; returns
+ * the instruction total of every thread. `jit`: the program writes machine code
+ * as it runs (Node's V8), which valgrind must be told to watch.
+ */
+function runCallgrind(command: string, args: readonly string[], outFile: string, env: NodeJS.ProcessEnv, jit: boolean): number {
+  const r = spawnSync('valgrind', ['--tool=callgrind', `--callgrind-out-file=${outFile}`, ...(jit ? ['--smc-check=all-non-file'] : []), command, ...args], {
+    encoding: 'utf8', env, maxBuffer: 64 * 1024 * 1024, timeout: 20 * 60 * 1000,
+  });
+  if (r.status !== 0) throw new Error(`${command} under valgrind exited with ${r.status}: ${(r.stderr ?? '').trim().split('\n').slice(-3).join(' ')}`);
+  const total = Number(/Collected : (\d+)/.exec(r.stderr)?.[1] ?? NaN);
+  if (!Number.isFinite(total)) throw new Error('callgrind printed no instruction total');
+  return total;
+}
+
+/**
+ * Count the instructions of one run of `command args` (a Node process) under
+ * callgrind and split them into the named parts. About 50-100 times slower than the run.
  * @param outFile where callgrind writes its profile (removed afterwards)
  */
 export function countInstructions(command: string, args: readonly string[], outFile: string, env: NodeJS.ProcessEnv = process.env): InstructionSplit {
-  const r = spawnSync('valgrind', ['--tool=callgrind', `--callgrind-out-file=${outFile}`, '--smc-check=all-non-file', command, ...args], {
-    encoding: 'utf8', env, maxBuffer: 64 * 1024 * 1024, timeout: 20 * 60 * 1000,
-  });
   try {
-    if (r.status !== 0) throw new Error(`${command} under valgrind exited with ${r.status}: ${(r.stderr ?? '').trim().split('\n').slice(-3).join(' ')}`);
-    const total = Number(/Collected : (\d+)/.exec(r.stderr)?.[1] ?? NaN);
-    if (!Number.isFinite(total)) throw new Error('callgrind printed no instruction total');
+    const total = runCallgrind(command, args, outFile, env, true);
     const counts = inclusiveCounts(outFile);
     const parts = PARTS.map((p) => ({
       name: p.name,
@@ -100,14 +110,11 @@ export function countInstructions(command: string, args: readonly string[], outF
 
 /** Total instructions only (for a peer whose symbols mean nothing to the split). */
 export function countTotalInstructions(command: string, args: readonly string[], outFile: string): number {
-  const r = spawnSync('valgrind', ['--tool=callgrind', `--callgrind-out-file=${outFile}`, command, ...args], {
-    encoding: 'utf8', maxBuffer: 64 * 1024 * 1024, timeout: 20 * 60 * 1000,
-  });
-  rmSync(outFile, { force: true });
-  if (r.status !== 0) throw new Error(`${command} under valgrind exited with ${r.status}`);
-  const total = Number(/Collected : (\d+)/.exec(r.stderr)?.[1] ?? NaN);
-  if (!Number.isFinite(total)) throw new Error('callgrind printed no instruction total');
-  return total;
+  try {
+    return runCallgrind(command, args, outFile, process.env, false);
+  } finally {
+    rmSync(outFile, { force: true });
+  }
 }
 
 /** `1,234 M (12.3 %)` lines of a split, for the bench's output. */

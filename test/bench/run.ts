@@ -258,9 +258,8 @@ function instructionSection(sizes: Size[], rasterOf: (s: Size) => string, distri
   }
   const bare = countInstructions(NODE, ['-e', ''], out);
   const caFile = process.env.NODE_EXTRA_CA_CERTS;
-  const clean = { ...process.env };
-  delete clean.NODE_EXTRA_CA_CERTS;
-  const bareClean = caFile ? countInstructions(NODE, ['-e', ''], out, clean) : null;
+  const clean = withoutExtraCaCerts();
+  const bareClean = clean ? countInstructions(NODE, ['-e', ''], out, clean) : null;
   say(`  node -e "": ${(bare.total / 1e6).toFixed(0)} M` + (bareClean
     ? `; without NODE_EXTRA_CA_CERTS (set here to ${caFile}) ${(bareClean.total / 1e6).toFixed(0)} M: the bundle costs every Node process ${((bare.total - bareClean.total) / 1e6).toFixed(0)} M before our code runs`
     : ' (NODE_EXTRA_CA_CERTS not set)'));

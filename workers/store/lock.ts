@@ -21,6 +21,9 @@ export const LOCK_FILE = 'heatledger.lock';
 /** Commands that only read the store: their ownership may be handed to a writer. */
 export const READ_COMMANDS = new Set(['status', 'table', 'serve']);
 
+/** Commands that keep the store open for long (a server): the engine may optimise as it runs (./pglite.ts). */
+export const LONG_RUNNING_COMMANDS = new Set(['serve']);
+
 export interface LockOwner {
   pid: number;
   host: string;

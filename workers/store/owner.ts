@@ -20,7 +20,7 @@ import { sha256Hex } from '../core/hash.js';
 import { onInterrupt } from './interrupt.js';
 import { recordedCommand } from './command-name.js';
 import {
-  READ_COMMANDS, describeOwner, lockPath, ownerAlive, ownerRecord, readLock, releaseLock, removeStaleLock, transferLock, tryCreateLock,
+  LONG_RUNNING_COMMANDS, READ_COMMANDS, describeOwner, lockPath, ownerAlive, ownerRecord, readLock, releaseLock, removeStaleLock, transferLock, tryCreateLock,
   type LockOwner,
 } from './lock.js';
 import { OwnerGoneError, RemoteConnection, startReadServer, type ReadServer } from './remote.js';
@@ -31,8 +31,6 @@ const OWNER_PATIENCE_MS = 120_000;
 const RETRY_PAUSE_MS = 100;
 
 const pause = (ms: number) => new Promise((r) => setTimeout(r, ms));
-
-export { setCurrentCommand } from './command-name.js';
 
 /**
  * The command this process runs (`ingest`, `serve`, ...), for the lock file:
@@ -171,7 +169,7 @@ export class OwnedStore implements Store {
       // a store that vanished while we waited (a reader does not create one)
       if (!opts.create && !isStoreDir(dir)) throw noStoreError(dir);
       const { openPgliteStore } = await import('./pglite.js');
-      const inner = await openPgliteStore({ dataDir: dir, memory: false, longRunning: opts.command === 'serve' });
+      const inner = await openPgliteStore({ dataDir: dir, memory: false, longRunning: LONG_RUNNING_COMMANDS.has(opts.command) });
       owned = new OwnedStore(inner, dir, me, opts.handsOver);
       process.on('exit', owned.exitCleanup);
       owned.unregisterInterrupt = onInterrupt(async () => { await owned!.close(); });

@@ -27,7 +27,7 @@ export interface PgliteStoreOptions {
   /**
    * The process serves for long (`serve`): let V8 optimise PGlite's WebAssembly
    * as it runs. Default false: a command that opens the store, works and ends
-   * (see baselineOnly below).
+   * (see withWasmTier below).
    */
   longRunning?: boolean;
 }
@@ -78,12 +78,9 @@ export async function openPgliteStore(options: PgliteStoreOptions): Promise<Stor
     // a new store starts from the prepared template when one matches this program's migrations
     const isNew = options.memory || !fs.existsSync(path.join(where, PG_VERSION_FILE));
     const template = isNew && !options.fromScratch ? usableTemplate() : null;
-    if (options.memory) {
-      db = await withWasmTier(options.longRunning ?? false, () => PGlite.create(template ? { loadDataDir: templateTar(template), parsers } : { parsers }));
-    } else {
-      if (template) copyTemplateInto(template, where);
-      db = await withWasmTier(options.longRunning ?? false, () => PGlite.create({ dataDir: where, parsers }));
-    }
+    if (!options.memory && template) copyTemplateInto(template, where);
+    const engine = options.memory ? (template ? { loadDataDir: templateTar(template), parsers } : { parsers }) : { dataDir: where, parsers };
+    db = await withWasmTier(options.longRunning ?? false, () => PGlite.create(engine));
     await db.exec("SET TimeZone = 'UTC'; SET DateStyle = 'ISO, YMD';");
   } catch (e) {
     throw new ServiceError(`cannot open the embedded database at ${where}: ${(e as Error)?.message ?? String(e)}`, { cause: e });

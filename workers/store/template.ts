@@ -47,7 +47,6 @@ export function pgliteVersion(): string {
   return pkg.version;
 }
 
-/** The record a template made now from `migrations` would carry. */
 /**
  * How the template is made (writePgliteTemplate in ./pglite.ts), part of its
  * record: raise it when that changes what a template holds, so that the build
@@ -55,6 +54,7 @@ export function pgliteVersion(): string {
  */
 const TEMPLATE_MAKING = 2;
 
+/** The record a template made now from `migrations` would carry. */
 export function templateRecord(migrations: Migration[] = listMigrations(), pglite: string = pgliteVersion()): TemplateRecord {
   const lines = migrations.map((m) => `${m.version}:${m.name}:${sha256Hex(m.sql)}`);
   return { schema: sha256Hex([`pglite ${pglite}`, `making ${TEMPLATE_MAKING}`, ...lines].join('\n')), migrations: migrations.map((m) => m.id), pglite };

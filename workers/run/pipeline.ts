@@ -213,14 +213,26 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   const started = performance.now();
   const districts = await runDistricts(options);
   const { rural, description: ruralDescription } = await ruralReference(options, districts);
-  const { files, duplicates, unreadable } = await runScenes(options);
-  const { params, deriveOptions, coverage, plausibleKelvin } = runParameters(options, districts, ruralDescription);
-  const thermal = await thermalInputs(options, districts, files);
-
   const budgetMs = options.serviceRetryBudgetSeconds !== undefined ? options.serviceRetryBudgetSeconds * 1000 : DEFAULT_SERVICE_RETRY_BUDGET_MS;
   // A database server that is away is waited for (within the budget); an embedded store is not a service.
   const onServer = <T>(fn: () => Promise<T>): Promise<T> => (config.databaseUrl ? withServiceRetry(fn, budgetMs) : fn());
-  const store = await onServer(() => openConfiguredStore(config));
+  // An embedded store takes about a second to open (PGlite's start): it opens while the
+  // scene files are read and hashed. A server connection is quick, and is made only once the
+  // inputs are known good, so that a server that is away is never waited for before an input error.
+  const earlyStore = config.databaseUrl ? null : openConfiguredStore(config);
+  earlyStore?.catch(() => undefined); // its error is met below, or the input error comes first
+  let inputs;
+  try {
+    const { files, duplicates, unreadable } = await runScenes(options);
+    const { params, deriveOptions, coverage, plausibleKelvin } = runParameters(options, districts, ruralDescription);
+    const thermal = await thermalInputs(options, districts, files);
+    inputs = { files, duplicates, unreadable, params, deriveOptions, coverage, plausibleKelvin, thermal };
+  } catch (e) {
+    await earlyStore?.then((s) => s.close(), () => undefined);
+    throw e;
+  }
+  const { files, duplicates, unreadable, params, deriveOptions, coverage, plausibleKelvin, thermal } = inputs;
+  const store = await (earlyStore ?? onServer(() => openConfiguredStore(config)));
   let runner: Runner | null = null;
   let unregisterInterrupt = () => {};
   let interrupted = false;

@@ -10,7 +10,7 @@ import { execFileSync } from 'node:child_process';
 import { randomUUID } from 'node:crypto';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { Redis } from 'ioredis';
-import { createInProcessRunner } from '../../workers/queue/in-process.js';
+import { createInProcessRunner, prestartThreads } from '../../workers/queue/in-process.js';
 import { createBullRunner, startWorker, type WorkerHandle } from '../../workers/queue/bull.js';
 import { backoffDelayMs } from '../../workers/queue/settings.js';
 import type { FlowResult, JobSpec, Runner } from '../../workers/queue/types.js';
@@ -130,6 +130,29 @@ describe('in-process runner', () => {
     const b = await runner.runFlow(t);
     expect(testProcs.runCounts.get('dup-ip-a')).toBe(1);
     expect([...b.results]).toEqual([...a.results]);
+  });
+
+  it('takes threads started ahead of it, which load their processors before the repository is known', async () => {
+    const early = prestartThreads(processorsModule, 2);
+    expect(early).toHaveLength(2);
+    const r = createInProcessRunner({ processorsModule, repo, threads: 2, threadedJobs: ['whichThread', 'repoEcho'] });
+    try {
+      const out = await r.runFlow({
+        name: 'sum', id: 'early-root', data: null,
+        children: [
+          ...Array.from({ length: 6 }, (_, i) => ({ name: 'whichThread', id: `early-${i}`, data: null })),
+          { name: 'repoEcho', id: 'early-repo', data: { key: 'd-7' } },
+        ],
+      });
+      expect(out.failures).toEqual([]);
+      const used = new Set(Array.from({ length: 6 }, (_, i) => (out.results.get(`early-${i}`) as { threadId: number }).threadId));
+      // every job ran on one of the threads started ahead (none on the main thread, no third thread)
+      expect([...used].every((id) => early.includes(id))).toBe(true);
+      // the repository port reached the thread after it had loaded: a call through it answers
+      expect(out.results.get('early-repo')).toEqual({ value: 0, found: { key: 'd-7', at: '2021-07-01T10:30:00.000Z' } });
+      // taken: a second call starts new ones
+      expect(prestartThreads(processorsModule, 1).some((id) => early.includes(id))).toBe(false);
+    } finally { await r.close(); }
   });
 
   it('rejects a malformed tree with an InputError', async () => {

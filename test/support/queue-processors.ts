@@ -1,9 +1,11 @@
 /**
  * Test processors for the queue runners: a CPU-bound hash job, a parent that
  * sums its children, jobs that fail permanently or transiently, a counted job,
- * one that calls the repository, and PostgreSQL writers for the fault tests.
+ * one that calls the repository, one that says which thread ran it, and
+ * PostgreSQL writers for the fault tests.
  */
 import { createHash } from 'node:crypto';
+import { threadId } from 'node:worker_threads';
 import pg from 'pg';
 import { InputError, ServiceError } from '../../workers/core/errors.js';
 import type { Processor } from '../../workers/queue/types.js';
@@ -48,6 +50,10 @@ export const processors: Record<string, Processor<any, any, TestRepo>> = {
   async buggy(_data, ctx) {
     runCounts.set(ctx.jobId, (runCounts.get(ctx.jobId) ?? 0) + 1);
     throw new TypeError(`cannot read properties of undefined (attempt ${ctx.attempt})`);
+  },
+  /** Which thread ran the job (0: the main thread). */
+  async whichThread() {
+    return { value: 0, threadId };
   },
   async counted(data: { value: number }, ctx) {
     runCounts.set(ctx.jobId, (runCounts.get(ctx.jobId) ?? 0) + 1);

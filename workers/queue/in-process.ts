@@ -14,7 +14,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
-import { MessageChannel, Worker } from 'node:worker_threads';
+import { MessageChannel, Worker, type MessagePort } from 'node:worker_threads';
 import { ServiceError } from '../core/errors.js';
 import { loadProcessors, runAttempt, sortedRecord, type JobAttempt } from './execute.js';
 import { reviveError, serveRepo, type SerializedError } from './repo-proxy.js';
@@ -60,6 +60,52 @@ function threadEntryPath(): string {
 
 type Outcome = { ok: true; value: unknown } | { ok: false; error: Error };
 
+/**
+ * Threads started ahead of their runner (see {@link prestartThreads}), each
+ * loading the processors module; the first pool of that module takes them.
+ * Until taken, a thread is unreferenced and an error of it only drops it.
+ */
+const prestarted: { href: string; worker: Worker; dropOnError: () => void }[] = [];
+
+/**
+ * Start `count` worker threads for the processors module now, so that they load
+ * their modules while the caller does other work (opening the store, hashing
+ * files): a thread takes ~0.3-0.5 s to load the processors. A runner created
+ * later for the same module takes them instead of starting its own; threads
+ * never taken do not keep the process alive.
+ * @returns the thread ids of the threads waiting for this module (new and earlier ones)
+ */
+export function prestartThreads(processorsModule: string | URL, count: number): number[] {
+  const href = moduleHref(processorsModule);
+  for (let i = prestarted.filter((p) => p.href === href).length; i < count; i++) {
+    const worker = new Worker(threadEntryPath(), { workerData: { processorsModule: href } });
+    worker.unref();
+    const entry = {
+      href, worker,
+      dropOnError: () => {
+        const k = prestarted.indexOf(entry);
+        if (k >= 0) prestarted.splice(k, 1);
+        void worker.terminate();
+      },
+    };
+    worker.once('error', entry.dropOnError);
+    worker.once('exit', entry.dropOnError);
+    prestarted.push(entry);
+  }
+  return prestarted.filter((p) => p.href === href).map((p) => p.worker.threadId);
+}
+
+/** A prestarted thread for this module, handed the repository port; null when none is left. */
+function takePrestarted(href: string, repoPort: MessagePort): Worker | null {
+  const k = prestarted.findIndex((p) => p.href === href);
+  if (k < 0) return null;
+  const [entry] = prestarted.splice(k, 1);
+  entry.worker.off('error', entry.dropOnError);
+  entry.worker.off('exit', entry.dropOnError);
+  entry.worker.postMessage({ kind: 'attach', repoPort }, [repoPort]);
+  return entry.worker;
+}
+
 interface Slot {
   worker: Worker;
   ready: Promise<void>;
@@ -84,7 +130,7 @@ class ThreadPool {
 
   private spawn(): Slot {
     const { port1, port2 } = new MessageChannel();
-    const worker = new Worker(threadEntryPath(), {
+    const worker = takePrestarted(this.moduleHref, port2) ?? new Worker(threadEntryPath(), {
       workerData: { processorsModule: this.moduleHref, repoPort: port2 },
       transferList: [port2],
     });

@@ -7,12 +7,23 @@ import { parentPort, workerData, type MessagePort } from 'node:worker_threads';
 import { loadProcessors, runAttempt, type JobAttempt } from './execute.js';
 import { createRepoProxy, serializeError } from './repo-proxy.js';
 
-interface ThreadInit { processorsModule: string; repoPort: MessagePort }
+/** repoPort is absent for a thread started ahead of its runner: the port then comes in an 'attach' message. */
+interface ThreadInit { processorsModule: string; repoPort?: MessagePort }
 
 const init = workerData as ThreadInit;
 const port = parentPort!;
+// Listening before the processors load, so that an early 'attach' is not missed.
+const repoPort: Promise<MessagePort> = init.repoPort ? Promise.resolve(init.repoPort)
+  : new Promise((resolve) => {
+    const onAttach = (msg: { kind?: string; repoPort?: MessagePort }) => {
+      if (msg?.kind !== 'attach' || !msg.repoPort) return;
+      port.off('message', onAttach);
+      resolve(msg.repoPort);
+    };
+    port.on('message', onAttach);
+  });
 const mod = await loadProcessors(init.processorsModule);
-const repo = createRepoProxy(init.repoPort);
+const repo = createRepoProxy(await repoPort);
 
 port.on('message', async (msg: { kind: 'run'; attempt: JobAttempt }) => {
   if (msg?.kind !== 'run') return;

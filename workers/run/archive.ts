@@ -296,14 +296,20 @@ export async function hashSceneFiles(paths: readonly string[]): Promise<{
  * Paths that could not be read are returned with their reasons, not thrown.
  * @throws InputError when a command-line path does not exist, or when nothing readable was found
  */
-export async function listScenes(inputs: readonly string[], albedoInputs: readonly string[], fs: WalkFs = NODE_FS): Promise<{
+export async function listScenes(inputs: readonly string[], albedoInputs: readonly string[], options: {
+  fs?: WalkFs;
+  /** Called once the walk has found files and before they are hashed (the slow part), e.g. to start other work. */
+  beforeHashing?: () => void;
+} = {}): Promise<{
   files: (HashedScene & { kind?: SceneKind; manifest?: ManifestEntry })[];
   duplicates: { path: string; sameAs: string }[];
   unreadable: UnreadablePath[];
 }> {
+  const fs = options.fs ?? NODE_FS;
   const lst = await listSceneFiles(inputs, fs);
   const albedo = albedoInputs.length ? await listSceneFiles(albedoInputs, fs) : { files: [], unreadable: [] };
   const albedoSet = new Set(albedo.files);
+  if (lst.files.length + albedo.files.length > 0) options.beforeHashing?.();
   const hashed = await hashSceneFiles([...new Set([...lst.files, ...albedo.files])]);
   const unreadable = [...new Map([...lst.unreadable, ...albedo.unreadable, ...hashed.unreadable].map((u) => [u.path, u])).values()]
     .sort((a, b) => (a.path < b.path ? -1 : a.path > b.path ? 1 : 0));

@@ -25,7 +25,7 @@ import type { IngestResult } from '../jobs/ingest.js';
 import type { FlowProgress, FlowResult, JobFailure, Runner } from '../queue/types.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS } from '../queue/settings.js';
 import { withServiceRetry } from '../queue/retry.js';
-import { createConfiguredRunner } from '../queue/configured.js';
+import { createConfiguredRunner, prepareConfiguredRunner } from '../queue/configured.js';
 import type { Store } from '../store/index.js';
 import { openConfiguredStore } from '../store/configured.js';
 import { upsertDistricts } from '../store/districts.js';
@@ -102,12 +102,17 @@ function asNumber(v: unknown): number | null {
   return typeof n === 'number' && Number.isFinite(n) && n >= 0 && n <= 1 ? n : null;
 }
 
+/** What the embedded runner runs: the registry's processors, on this many threads. */
+function runnerParts(threads: number | undefined) {
+  return { processorsModule: registryModuleUrl(), threads, threadedJobs: THREADED_JOBS };
+}
+
 /** The runner for a configuration; embedded mode runs the registry's processors on this store. */
 function createRunner(
   config: RuntimeConfig, store: Store, threads: number | undefined,
   limits: { serviceRetryBudgetMs?: number; stallTimeoutMs?: number },
 ): Promise<Runner> {
-  return createConfiguredRunner(config, { processorsModule: registryModuleUrl(), repo: createPipelineRepo(store), threads, threadedJobs: THREADED_JOBS }, limits);
+  return createConfiguredRunner(config, { ...runnerParts(threads), repo: createPipelineRepo(store) }, limits);
 }
 
 /** The districts of a run; none may take the rural reference's id. */
@@ -133,9 +138,9 @@ async function ruralReference(options: PipelineOptions, districts: District[]): 
 }
 
 /** The scene files of a run (hashed, duplicates and unreadable paths apart), each with its manifest entry. */
-async function runScenes(options: PipelineOptions) {
+async function runScenes(options: PipelineOptions, beforeHashing?: () => void) {
   const manifest = options.manifestPath ? await readManifest(options.manifestPath) : new Map<string, ManifestEntry>();
-  const listing = await listScenes(options.inputs, options.albedoInputs ?? []);
+  const listing = await listScenes(options.inputs, options.albedoInputs ?? [], { beforeHashing });
   for (const f of listing.files) f.manifest = manifest.get(f.path);
   if (options.qaMaskBits === undefined && [...manifest.values()].some((m) => m.qa)) {
     throw new InputError('the manifest gives QA rasters; say which QA bits mask a pixel with --qa-mask', options.manifestPath);
@@ -200,6 +205,14 @@ function runParameters(options: PipelineOptions, districts: District[], ruralDes
   return { params, deriveOptions, coverage, plausibleKelvin };
 }
 
+/** Scenes (hashed), parameters and thermal inputs of a run; `beforeHashing` as for {@link listScenes}. */
+async function runInputs(options: PipelineOptions, districts: District[], ruralDescription: string, beforeHashing: () => void) {
+  const { files, duplicates, unreadable } = await runScenes(options, beforeHashing);
+  const { params, deriveOptions, coverage, plausibleKelvin } = runParameters(options, districts, ruralDescription);
+  const thermal = await thermalInputs(options, districts, files);
+  return { files, duplicates, unreadable, params, deriveOptions, coverage, plausibleKelvin, thermal };
+}
+
 /** The districts and the rural reference as stored rows. */
 function districtRows(districts: District[], rural: District, ruralDescription: string) {
   return [
@@ -216,23 +229,23 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   const budgetMs = options.serviceRetryBudgetSeconds !== undefined ? options.serviceRetryBudgetSeconds * 1000 : DEFAULT_SERVICE_RETRY_BUDGET_MS;
   // A database server that is away is waited for (within the budget); an embedded store is not a service.
   const onServer = <T>(fn: () => Promise<T>): Promise<T> => (config.databaseUrl ? withServiceRetry(fn, budgetMs) : fn());
-  // An embedded store takes about a second to open (PGlite's start): it opens while the
-  // scene files are read and hashed. A server connection is quick, and is made only once the
-  // inputs are known good, so that a server that is away is never waited for before an input error.
-  const earlyStore = config.databaseUrl ? null : openConfiguredStore(config);
-  earlyStore?.catch(() => undefined); // its error is met below, or the input error comes first
-  let inputs;
-  try {
-    const { files, duplicates, unreadable } = await runScenes(options);
-    const { params, deriveOptions, coverage, plausibleKelvin } = runParameters(options, districts, ruralDescription);
-    const thermal = await thermalInputs(options, districts, files);
-    inputs = { files, duplicates, unreadable, params, deriveOptions, coverage, plausibleKelvin, thermal };
-  } catch (e) {
-    await earlyStore?.then((s) => s.close(), () => undefined);
+  // An embedded store takes about a second to open (PGlite's start): once the walk has found
+  // scene files, it opens while they are hashed, and the worker threads load their modules
+  // meanwhile (errors are the runner's to report). A server connection is quick, and is made
+  // only once the inputs are known good, so that a server that is away never delays an input error.
+  const early: { store: Promise<Store> | null } = { store: null };
+  const startEarly = () => {
+    if (config.databaseUrl) return;
+    early.store = openConfiguredStore(config);
+    early.store.catch(() => undefined); // its error is met below, or the input error comes first
+    void prepareConfiguredRunner(config, runnerParts(options.threads)).catch(() => undefined);
+  };
+  const inputs = await runInputs(options, districts, ruralDescription, startEarly).catch(async (e: unknown) => {
+    await early.store?.then((s) => s.close(), () => undefined);
     throw e;
-  }
+  });
   const { files, duplicates, unreadable, params, deriveOptions, coverage, plausibleKelvin, thermal } = inputs;
-  const store = await (earlyStore ?? onServer(() => openConfiguredStore(config)));
+  const store = await (early.store ?? onServer(() => openConfiguredStore(config)));
   let runner: Runner | null = null;
   let unregisterInterrupt = () => {};
   let interrupted = false;

@@ -866,6 +866,22 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
     defineSuite('pg', () => openStore({ databaseUrl: url }), () => openStore({ databaseUrl: url }));
   });
 
+  it('opens a store whose schema is up to date on one connection (the migrations check takes no second one)', async () => {
+    const store = await openStore({ databaseUrl: url });
+    try {
+      // Backends of the test database other than the one asking (pg_stat_activity, PostgreSQL manual):
+      // the pool keeps the connection the open used, idle, and has opened no other.
+      const sessions = await store.query<{ n: number }>(
+        'SELECT count(*)::int AS n FROM pg_stat_activity WHERE datname = current_database() AND pid <> pg_backend_pid()',
+      );
+      expect(sessions[0].n).toBe(0);
+      const [{ n }] = await store.query<{ n: number }>('SELECT count(*)::int AS n FROM schema_migrations');
+      expect(n).toBe(9);
+    } finally {
+      await store.close();
+    }
+  });
+
   it('keeps the per-scene writes prepared on a connection, also across a write that failed', async () => {
     const store = await openStore({ databaseUrl: url });
     try {

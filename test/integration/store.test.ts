@@ -865,6 +865,49 @@ describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {
   describe('suite', () => {
     defineSuite('pg', () => openStore({ databaseUrl: url }), () => openStore({ databaseUrl: url }));
   });
+
+  it('opens a store whose schema is up to date on one connection (the migrations check takes no second one)', async () => {
+    const store = await openStore({ databaseUrl: url });
+    try {
+      // Backends of the test database other than the one asking (pg_stat_activity, PostgreSQL manual):
+      // the pool keeps the connection the open used, idle, and has opened no other.
+      const sessions = await store.query<{ n: number }>(
+        'SELECT count(*)::int AS n FROM pg_stat_activity WHERE datname = current_database() AND pid <> pg_backend_pid()',
+      );
+      expect(sessions[0].n).toBe(0);
+      const [{ n }] = await store.query<{ n: number }>('SELECT count(*)::int AS n FROM schema_migrations');
+      expect(n).toBe(9);
+    } finally {
+      await store.close();
+    }
+  });
+
+  it('keeps the per-scene writes prepared on a connection, also across a write that failed', async () => {
+    const store = await openStore({ databaseUrl: url });
+    try {
+      // One transaction: one connection, whose prepared statements the
+      // pg_prepared_statements view lists (PostgreSQL manual, "pg_prepared_statements").
+      const stored = await store.transaction(async (tx) => {
+        await upsertDistricts(tx, [DISTRICTS[0]]);
+        const { id } = await registerSceneReporting(tx, lstScene('prepared-1', '2024-08-01T10:30:00Z', 'day'));
+        expect((await registerSceneReporting(tx, lstScene('prepared-1', '2024-08-01T10:30:00Z', 'day'))).id).toBe(id);
+        expect(await replaceZonalStats(tx, id, [zonal('harbour', 311.5, 0.9)])).toBe(1);
+        // An unknown district: the foreign key refuses the prepared statement's execution.
+        await tx.exec('SAVEPOINT before_unknown');
+        await expect(replaceZonalStats(tx, id, [zonal('nowhere', 1, 1)])).rejects.toThrow(/zonal_stats_district_id_fkey/);
+        await tx.exec('ROLLBACK TO SAVEPOINT before_unknown');
+        expect(await replaceZonalStats(tx, id, [zonal('harbour', 312.25, 0.9)])).toBe(1);
+        const prepared = await tx.query<{ head: string }>(
+          `SELECT left(regexp_replace(statement, '\\s+', ' ', 'g'), 20) AS head FROM pg_prepared_statements ORDER BY 1`,
+        );
+        expect(prepared.map((p) => p.head)).toEqual(['WITH prev AS (SELECT', 'WITH up AS ( INSERT ']);
+        return zonalStatsForScenes(tx, [id]);
+      });
+      expect(stored.map((z) => [z.districtId, z.meanKelvin])).toEqual([['harbour', 312.25]]);
+    } finally {
+      await store.close();
+    }
+  });
 });
 
 describe.skipIf(!pgAvailable)('both stores return the same values', () => {

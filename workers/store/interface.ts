@@ -3,9 +3,22 @@
  * (./store.ts): both drivers (./pg.ts, ./pglite.ts) and every module that runs
  * SQL import these types from here, so no driver imports the module that opens it.
  */
+/** How a statement is run; a store may ignore what does not apply to it. */
+export interface QueryOptions {
+  /**
+   * The statement is run again and again, on every scene, with parameters that
+   * never call for another plan (a keyed write): the PostgreSQL server keeps it
+   * parsed and planned per connection (a named prepared statement) instead of
+   * parsing, analysing and planning its text at every call. Never for a query
+   * whose best plan depends on its parameters (a generic plan would serve them
+   * all). The embedded engine runs it as any other statement.
+   */
+  prepared?: boolean;
+}
+
 /** Anything that runs one parameterised SQL statement ($1, $2, ...) and returns its rows. */
 export interface Queryable {
-  query<T = Record<string, unknown>>(sql: string, params?: unknown[]): Promise<T[]>;
+  query<T = Record<string, unknown>>(sql: string, params?: unknown[], options?: QueryOptions): Promise<T[]>;
 }
 
 /** The handle inside `Store.transaction`: one connection, one open transaction. */

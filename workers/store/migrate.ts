@@ -46,18 +46,29 @@ export function listMigrations(dir: string = path.join(sqlDir(), 'migrations')):
  * holds a newer schema than this program knows.
  */
 export async function migrate(store: Store, migrations: Migration[] = listMigrations()): Promise<{ applied: string[] }> {
-  const body = async (): Promise<{ applied: string[] }> => {
-    await store.exec(`CREATE TABLE IF NOT EXISTS schema_migrations (
-      version integer PRIMARY KEY, name text NOT NULL, applied_at timestamptz NOT NULL DEFAULT now())`);
-    const rows = await store.query<{ version: number }>('SELECT version FROM schema_migrations ORDER BY version');
-    const done = new Set(rows.map((r) => r.version));
-    const known = new Set(migrations.map((m) => m.version));
+  const known = new Set(migrations.map((m) => m.version));
+  const checkKnown = (rows: { version: number }[]): Set<number> => {
     const unknown = rows.filter((r) => !known.has(r.version)).map((r) => r.version);
     if (unknown.length > 0) {
       throw new ServiceError(
         `the ${store.kind} database has schema migration ${unknown.join(', ')} that this heatledger does not know; upgrade heatledger`,
       );
     }
+    return new Set(rows.map((r) => r.version));
+  };
+  // A schema already up to date (every open but a store's first) is read without the lock:
+  // migrations only ever add rows, so nothing is left to apply, and on the server the
+  // lock's session would be a second connection (a backend started for nothing).
+  const [{ present }] = await store.query<{ present: boolean }>(`SELECT to_regclass('schema_migrations') IS NOT NULL AS present`);
+  if (present) {
+    const done = checkKnown(await store.query<{ version: number }>('SELECT version FROM schema_migrations ORDER BY version'));
+    if (migrations.every((m) => done.has(m.version))) return { applied: [] };
+  }
+  const body = async (): Promise<{ applied: string[] }> => {
+    await store.exec(`CREATE TABLE IF NOT EXISTS schema_migrations (
+      version integer PRIMARY KEY, name text NOT NULL, applied_at timestamptz NOT NULL DEFAULT now())`);
+    const rows = await store.query<{ version: number }>('SELECT version FROM schema_migrations ORDER BY version');
+    const done = checkKnown(rows);
     const applied: string[] = [];
     for (const m of migrations) {
       if (done.has(m.version)) continue;

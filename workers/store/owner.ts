@@ -24,7 +24,7 @@ import {
   type LockOwner,
 } from './lock.js';
 import { OwnerGoneError, RemoteConnection, startReadServer, type ReadServer } from './remote.js';
-import type { Store, Transaction } from './interface.js';
+import type { QueryOptions, Store, Transaction } from './interface.js';
 
 /** How long to keep asking an owner that is alive but not (yet) answering before giving up. A safety bound, not a timing assumption. */
 const OWNER_PATIENCE_MS = 120_000;
@@ -232,8 +232,8 @@ export class OwnedStore implements Store {
     this.onHandedOver?.();
   }
 
-  query<T = Record<string, unknown>>(sql: string, params?: unknown[]): Promise<T[]> {
-    return this.track(() => this.inner.query<T>(sql, params));
+  query<T = Record<string, unknown>>(sql: string, params?: unknown[], options?: QueryOptions): Promise<T[]> {
+    return this.track(() => this.inner.query<T>(sql, params, options));
   }
   exec(sql: string): Promise<void> {
     return this.track(() => this.inner.exec(sql));

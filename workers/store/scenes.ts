@@ -153,6 +153,8 @@ export async function registerSceneReporting(db: Db, scene: SceneInput): Promise
       num(scene.nodata, 'nodata'),
       scene.runId ?? null,
     ],
+    // once a scene, keyed by content hash (and path): kept planned on the server (QueryOptions)
+    { prepared: true },
   );
   return { id: rows[0].id, previousStatus: rows[0].previousStatus ?? null };
 }

@@ -86,7 +86,7 @@ export async function replaceZonalStats(
       rows.map((r) => r.coverageRule),
       rows.map((r) => r.runId ?? options.runId ?? null),
       options.runId ?? null,
-    ]);
+    ], { prepared: true }); // once a scene, keyed by scene id: kept planned on the server (QueryOptions)
     return out[0].n;
   }
   return inTransaction(db, async (q) => {

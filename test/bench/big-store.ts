@@ -136,7 +136,7 @@ interface Measured {
   name: string;
   sql: string;
   params: unknown[];
-  /** How the store reads it, when not as the query's rows (the table by date unfolds each district's JSON days). */
+  /** How the store reads it, when not as the query's rows (the table by date unfolds each district's packed days). */
   read?: (db: Queryable) => Promise<unknown[]>;
 }
 

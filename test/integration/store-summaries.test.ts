@@ -51,7 +51,7 @@ const CASES: [QueryName, unknown[]][] = [
 
 /**
  * The rows of a named query as the store reads them: the table by date through its reader
- * (the query sends each district's dates as one JSON array, the reader unfolds them).
+ * (the query sends each district's dates packed as one binary value, the reader unfolds them).
  */
 function readNamed(db: Queryable, name: QueryName, params: unknown[]): Promise<Record<string, unknown>[]> {
   if (name === 'district_table_date') {

@@ -226,6 +226,24 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     });
   });
 
+  it('reads bytea as its bytes in both of PostgreSQL\'s output formats (hex and escape)', async () => {
+    // Reference: the bytes 0..255 as PostgreSQL's own decode() of their hex text makes them
+    // (PostgreSQL manual, "Binary String Functions"), printed with bytea_output hex and escape.
+    const allBytes = `SELECT decode(string_agg(lpad(to_hex(i), 2, '0'), '' ORDER BY i), 'hex') AS b, ''::bytea AS empty
+                      FROM generate_series(0, 255) AS i`;
+    for (const output of ['hex', 'escape']) {
+      const [row] = await store.transaction(async (tx) => {
+        await tx.exec(`SET LOCAL bytea_output = ${output}`);
+        const [shown] = await tx.query<{ shown: string }>(`SELECT setting AS shown FROM pg_settings WHERE name = 'bytea_output'`);
+        expect(shown.shown).toBe(output);
+        return tx.query<{ b: Uint8Array; empty: Uint8Array }>(allBytes);
+      });
+      expect(row.b).toBeInstanceOf(Uint8Array);
+      expect(Array.from(row.b)).toEqual(Array.from({ length: 256 }, (_, i) => i));
+      expect(row.empty).toEqual(new Uint8Array(0));
+    }
+  });
+
   it('reads timestamptz text in any session time zone as the instant PostgreSQL means', async () => {
     // Reference: PostgreSQL's own extract(epoch ...) of the same value, floored to
     // milliseconds, through ECMAScript Date.prototype.toISOString. Zones with odd

@@ -8,11 +8,13 @@
  *   (microseconds are truncated to milliseconds);
  * - date                      → 'YYYY-MM-DD' string (never a local-midnight Date);
  * - jsonb / json              → parsed object (both drivers' default);
+ * - bytea                     → Uint8Array (hex or escape output);
  * - arrays of these           → arrays of the same element values.
  */
 
 /** PostgreSQL type OIDs (pg_type.oid) this module handles. */
 export const PG_OID = {
+  BYTEA: 17,
   INT8: 20,
   NUMERIC: 1700,
   DATE: 1082,
@@ -64,8 +66,42 @@ export function parseDateText(text: string): string {
   return text;
 }
 
+/**
+ * bytea text → its bytes. PostgreSQL prints bytea as hex (a backslash, 'x', then two hex digits a
+ * byte; the default bytea_output) or, with bytea_output = escape, as text where a backslash is
+ * doubled and other bytes may be a backslash and three octal digits
+ * (PostgreSQL manual, "Binary Data Types"). Hex is decoded by Buffer's native decoder:
+ * PGlite's own bytea parser takes ~120 ns a byte, 0.6 s for 5 MB against 26 ms here, and the
+ * district table by date of a year on 1,000 districts is 20 MB of bytea.
+ */
+export function parseByteaText(text: string): Uint8Array {
+  if (text.startsWith('\\x')) {
+    const hex = text.slice(2);
+    const bytes = Buffer.from(hex, 'hex');
+    if (bytes.length * 2 !== hex.length) throw new Error(`bytea text is not whole hex digits: ${JSON.stringify(text.slice(0, 40))}`);
+    return new Uint8Array(bytes.buffer, bytes.byteOffset, bytes.length);
+  }
+  const out = new Uint8Array(text.length);
+  let n = 0;
+  for (let i = 0; i < text.length;) {
+    if (text.charCodeAt(i) !== 92) {
+      out[n++] = text.charCodeAt(i++);
+    } else if (text.charCodeAt(i + 1) === 92) {
+      out[n++] = 92;
+      i += 2;
+    } else {
+      const octal = text.slice(i + 1, i + 4);
+      if (!/^[0-3][0-7]{2}$/.test(octal)) throw new Error(`bytea text has a bad escape at ${i}: ${JSON.stringify(text.slice(i, i + 4))}`);
+      out[n++] = parseInt(octal, 8);
+      i += 4;
+    }
+  }
+  return out.slice(0, n);
+}
+
 /** Element parsers by scalar OID, used directly (PGlite) and per element (pg arrays). */
 export const SCALAR_PARSERS: Readonly<Record<number, (text: string) => unknown>> = {
+  [PG_OID.BYTEA]: parseByteaText,
   [PG_OID.INT8]: parseNumberText,
   [PG_OID.NUMERIC]: parseNumberText,
   [PG_OID.DATE]: parseDateText,

@@ -11,12 +11,11 @@
  * Number() (ECMAScript 2024, 7.1.4.1.1 StringToNumber: the nearest double, so the
  * round trip is exact), and each date as PostgreSQL's ISO text.
  */
-import crypto from 'node:crypto';
-import pg from 'pg';
 import { describe, expect, it } from 'vitest';
 import { districtTableByDate } from '../../workers/store/district-tables.js';
 import { openStore, type Store } from '../../workers/store/store.js';
-import { serviceAvailable, testDatabaseUrl } from '../support/services.js';
+import { createTempDatabase } from '../support/pipeline-harness.js';
+import { serviceAvailable } from '../support/services.js';
 
 const pgAvailable = await serviceAvailable('postgres', 'district table values');
 
@@ -96,30 +95,16 @@ describe('district table by date: each stored double and date exactly', () => {
   });
 
   it.skipIf(!pgAvailable)('on the PostgreSQL server', async () => {
-    const dbName = `heatledger_test_${crypto.randomBytes(6).toString('hex')}`;
-    const admin = new URL(testDatabaseUrl);
-    admin.pathname = '/postgres';
-    const url = new URL(testDatabaseUrl);
-    url.pathname = `/${dbName}`;
-    const run = async (sql: string) => {
-      const c = new pg.Client({ connectionString: admin.toString() });
-      await c.connect();
-      try {
-        await c.query(sql);
-      } finally {
-        await c.end();
-      }
-    };
-    await run(`CREATE DATABASE ${dbName}`);
+    const database = await createTempDatabase('tablevalues');
     try {
-      const store = await openStore({ databaseUrl: url.toString() });
+      const store = await openStore({ databaseUrl: database.url });
       try {
         await checkStore(store);
       } finally {
         await store.close();
       }
     } finally {
-      await run(`DROP DATABASE IF EXISTS ${dbName} WITH (FORCE)`);
+      await database.drop();
     }
   });
 });

@@ -14,7 +14,7 @@
  * import, so a module whose exports the light paths do not use is left out.
  */
 import { spawnSync } from 'node:child_process';
-import { mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
+import { chmodSync, mkdtempSync, readFileSync, rmSync, statSync, writeFileSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { dirname, join, relative, sep } from 'node:path';
 import { fileURLToPath, pathToFileURL } from 'node:url';
@@ -136,6 +136,8 @@ export async function warmUpCodeCache(): Promise<boolean> {
 
 if (process.argv[1] && import.meta.url === pathToFileURL(process.argv[1]).href) {
   try {
+    // the bin runs by its first line (cli.ts), as npm's link to it would: executable, as npm makes it
+    chmodSync(join(WORKERS_DIR, 'cli.js'), 0o755);
     const { bytes, modules } = await buildCliBundle();
     const cached = await warmUpCodeCache();
     const cacheBytes = cached ? readFileSync(cachePathOf(BUNDLE_PATH)).length : 0;

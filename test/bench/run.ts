@@ -13,8 +13,9 @@
  * 1. Generates (once) a 7000 x 7000 Landsat-like scene, its 1200 x 1200 centre
  *    clip and 60 wards (test/bench/.work/, reused while the generator version matches).
  * 2. Per size, times whole processes: `heatledger zonal ... --format json` (the
- *    bin's file, dist/workers/cli.js, run as the bin link runs it) and
- *    test/bench/peer_zonal.py, alternating which goes first each round; medians
+ *    bin's file, dist/workers/cli.js, run as the bin link runs it: by its first
+ *    line) and test/bench/peer_zonal.py, alternating which goes first each
+ *    round, and ours once more as `node dist/workers/cli.js`; medians
  *    of wall and of CPU seconds (user + system of every thread, from the
  *    kernel's accounting of waited-for children) and the ratios peer / ours;
  *    checks that both tables agree.
@@ -116,11 +117,12 @@ interface SizeResult {
   oursCpuSeconds: number[];
   peerCpuSeconds: number[];
   /**
-   * Ours again in each round without NODE_EXTRA_CA_CERTS, when this machine sets it
-   * (Node 20 parses that CA bundle at every start, before any of our code runs); else empty.
+   * Ours again in each round started as `node dist/workers/cli.js` (without the bin's
+   * first line: NODE_EXTRA_CA_CERTS, when this machine sets it, is read at start and
+   * V8 compiles on its background thread; see workers/cli.ts).
    */
-  oursCleanSeconds: number[];
-  oursCleanCpuSeconds: number[];
+  oursPlainSeconds: number[];
+  oursPlainCpuSeconds: number[];
   agreement: Agreement | null;
 }
 
@@ -134,13 +136,14 @@ function withoutExtraCaCerts(): NodeJS.ProcessEnv | null {
 
 /** Alternating rounds for one size: ours first in odd rounds (1, 3, ...), the peer first in even ones. */
 function timeSize(raster: string, districts: string, rounds: number, withPeer: boolean): SizeResult {
-  const ours = (env: NodeJS.ProcessEnv = process.env) => {
-    const r = timeProcess(NODE, [CLI, 'zonal', raster, '--districts', districts, '--format', 'json'], 180, env);
+  // the bin's file run as the bin link runs it (by its first line), then as `node dist/workers/cli.js`
+  const ours = (plain = false) => {
+    const args = ['zonal', raster, '--districts', districts, '--format', 'json'];
+    const r = plain ? timeProcess(NODE, [CLI, ...args]) : timeProcess(CLI, args);
     if (r.status !== 0) throw new Error(`heatledger zonal exited with ${r.status}: ${r.stderr.trim()}`);
     return r;
   };
-  const clean = withoutExtraCaCerts();
-  const oursCleanSeconds: number[] = [], oursCleanCpuSeconds: number[] = [];
+  const oursPlainSeconds: number[] = [], oursPlainCpuSeconds: number[] = [];
   const peer = () => {
     const r = timeProcess(PYTHON, [PEER, raster, districts]);
     if (r.status !== 0) throw new Error(`peer_zonal.py exited with ${r.status}: ${r.stderr.trim()}`);
@@ -157,11 +160,9 @@ function timeSize(raster: string, districts: string, rounds: number, withPeer: b
         oursSeconds.push(r.seconds);
         if (r.cpuSeconds !== null) oursCpuSeconds.push(r.cpuSeconds);
         oursText ||= r.stdout;
-        if (clean) {
-          const c = ours(clean);
-          oursCleanSeconds.push(c.seconds);
-          if (c.cpuSeconds !== null) oursCleanCpuSeconds.push(c.cpuSeconds);
-        }
+        const c = ours(true);
+        oursPlainSeconds.push(c.seconds);
+        if (c.cpuSeconds !== null) oursPlainCpuSeconds.push(c.cpuSeconds);
       } else if (withPeer) {
         const r = peer();
         peerSeconds.push(r.seconds);
@@ -171,7 +172,7 @@ function timeSize(raster: string, districts: string, rounds: number, withPeer: b
     }
   }
   const agreement = withPeer ? compareTables(parseRows(oursText, 'heatledger zonal'), parseRows(peerText, 'peer_zonal.py')) : null;
-  return { oursSeconds, peerSeconds, oursCpuSeconds, peerCpuSeconds, oursCleanSeconds, oursCleanCpuSeconds, agreement };
+  return { oursSeconds, peerSeconds, oursCpuSeconds, peerCpuSeconds, oursPlainSeconds, oursPlainCpuSeconds, agreement };
 }
 
 interface ChildProfile {
@@ -331,10 +332,10 @@ async function main(): Promise<void> {
       if (r.peerCpuSeconds.length) say(`                    median ${s2(median(r.peerCpuSeconds))} s CPU   (rounds: ${r.peerCpuSeconds.map(s2).join(', ')})`);
       say(`  peer / ours = ${ratio.toFixed(2)} wall` +
         (r.oursCpuSeconds.length && r.peerCpuSeconds.length ? `, ${(median(r.peerCpuSeconds) / median(r.oursCpuSeconds)).toFixed(2)} CPU` : ''));
-      if (r.oursCleanSeconds.length) {
-        const cpu = r.oursCleanCpuSeconds.length ? median(r.oursCleanCpuSeconds) : null;
-        say(`  ours without NODE_EXTRA_CA_CERTS (set here; Node parses that CA bundle at every start): median ${s3(median(r.oursCleanSeconds))} s wall` +
-          (cpu !== null ? ` / ${s2(cpu)} s CPU` : '') + `; peer / that = ${(median(r.peerSeconds) / median(r.oursCleanSeconds)).toFixed(2)} wall` +
+      if (r.oursPlainSeconds.length) {
+        const cpu = r.oursPlainCpuSeconds.length ? median(r.oursPlainCpuSeconds) : null;
+        say(`  ours as \`node dist/workers/cli.js\` (no bin line${process.env.NODE_EXTRA_CA_CERTS ? '; NODE_EXTRA_CA_CERTS, set here, read at start' : ''}): median ${s3(median(r.oursPlainSeconds))} s wall` +
+          (cpu !== null ? ` / ${s2(cpu)} s CPU` : '') + `; peer / that = ${(median(r.peerSeconds) / median(r.oursPlainSeconds)).toFixed(2)} wall` +
           (cpu !== null && r.peerCpuSeconds.length ? `, ${(median(r.peerCpuSeconds) / cpu).toFixed(2)} CPU` : ''));
       }
       const a = r.agreement!;
@@ -395,15 +396,15 @@ async function main(): Promise<void> {
   const trends = all ? runTrendsBench(say) : null;
   const archive = all ? await runArchiveBench({ ...archiveArgs.options, say }) : null;
 
-  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds' | 'oursCpuSeconds' | 'peerCpuSeconds' | 'oursCleanSeconds' | 'oursCleanCpuSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
+  const med = (s: Size, k: 'oursSeconds' | 'peerSeconds' | 'oursCpuSeconds' | 'peerCpuSeconds' | 'oursPlainSeconds' | 'oursPlainCpuSeconds') => (results[s] && results[s]![k].length ? median(results[s]![k]) : null);
   const ratios = args.sizes.map((s) => (withPeer ? med(s, 'peerSeconds')! / med(s, 'oursSeconds')! : null)).filter((x): x is number => x !== null);
   const agreements = args.sizes.map((s) => results[s]!.agreement).filter((a): a is Agreement => a !== null);
   const summary = {
     heatledger_seconds: { full: med('full', 'oursSeconds'), clip: med('clip', 'oursSeconds') },
     heatledger_cpu_seconds: { full: med('full', 'oursCpuSeconds'), clip: med('clip', 'oursCpuSeconds') },
-    heatledger_without_extra_ca_certs: {
-      seconds: { full: med('full', 'oursCleanSeconds'), clip: med('clip', 'oursCleanSeconds') },
-      cpu_seconds: { full: med('full', 'oursCleanCpuSeconds'), clip: med('clip', 'oursCleanCpuSeconds') },
+    heatledger_as_node_cli_js: {
+      seconds: { full: med('full', 'oursPlainSeconds'), clip: med('clip', 'oursPlainSeconds') },
+      cpu_seconds: { full: med('full', 'oursPlainCpuSeconds'), clip: med('clip', 'oursPlainCpuSeconds') },
     },
     peer_cpu_seconds: { full: withPeer ? med('full', 'peerCpuSeconds') : null, clip: withPeer ? med('clip', 'peerCpuSeconds') : null },
     cpu_ratio_peer_over_ours: {

@@ -123,10 +123,14 @@ export interface CliResult {
 
 const children = new Set<ChildProcess>();
 
-/** Run `node dist/workers/cli.js <args>`; kills it (SIGKILL) after `timeoutMs` and says so. */
-export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000): Promise<CliResult> {
+/**
+ * Run `node dist/workers/cli.js <args>`, or with `how` 'bin' the file itself, by its
+ * first line, as the `heatledger` link runs it; kills it (SIGKILL) after `timeoutMs` and says so.
+ */
+export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000, how: 'node' | 'bin' = 'node'): Promise<CliResult> {
   const started = performance.now();
-  const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
+  const [command, argv] = how === 'bin' ? [cliPath, args] : [process.execPath, [cliPath, ...args]];
+  const child = spawn(command, argv, { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
   children.add(child);
   let stdout = '';
   let stderr = '';

@@ -5,7 +5,7 @@
  * (PostgreSQL refuses to run as root).
  */
 import { execFile } from 'node:child_process';
-import { chownSync, existsSync, mkdtempSync, readdirSync, readFileSync, rmSync } from 'node:fs';
+import { chownSync, existsSync, mkdtempSync, readdirSync, readFileSync, rmSync, writeFileSync } from 'node:fs';
 import net from 'node:net';
 import os from 'node:os';
 import path from 'node:path';
@@ -58,6 +58,8 @@ export interface PrivatePostgresOptions {
   ports?: readonly [number, number];
   /** Keep fsync and full-page writes on, as a production server has them (default off: fault tests need no durability on disk). */
   durable?: boolean;
+  /** Serve TLS with this certificate and key (PEM); plain connections are still accepted. */
+  tls?: { certPem: string; keyPem: string };
 }
 
 /** initdb a cluster in a temp folder and start it on a free port of the fault-test range. */
@@ -66,19 +68,31 @@ export async function startPrivatePostgres(tag: string, options: PrivatePostgres
   if (!bin) throw new Error('PostgreSQL server binaries (initdb, pg_ctl) are not installed');
   const dir = mkdtempSync(path.join(os.tmpdir(), `hl-pg-${tag}-`));
   const asRoot = process.getuid?.() === 0;
+  // as root, the server runs as the postgres user, whose the folder (and key file) must be
+  let owner: { uid: number; gid: number } | null = null;
   if (asRoot) {
     const { stdout } = await run('id', ['-u', 'postgres']);
     const { stdout: gid } = await run('id', ['-g', 'postgres']);
-    chownSync(dir, Number(stdout.trim()), Number(gid.trim()));
+    owner = { uid: Number(stdout.trim()), gid: Number(gid.trim()) };
+    chownSync(dir, owner.uid, owner.gid);
   }
   const cmd = (tool: string, args: string[]) =>
     asRoot ? run('runuser', ['-u', 'postgres', '--', path.join(bin, tool), ...args], { timeout: 120_000 }) : run(path.join(bin, tool), args, { timeout: 120_000 });
   const data = path.join(dir, 'data');
+  let tlsSettings = '';
+  if (options.tls) {
+    // the server refuses a key file others can read
+    const cert = path.join(dir, 'server.crt'), key = path.join(dir, 'server.key');
+    writeFileSync(cert, options.tls.certPem);
+    writeFileSync(key, options.tls.keyPem, { mode: 0o600 });
+    if (owner) for (const f of [cert, key]) chownSync(f, owner.uid, owner.gid);
+    tlsSettings = ` -c ssl=on -c ssl_cert_file=${cert} -c ssl_key_file=${key}`;
+  }
   await cmd('initdb', ['-D', data, '-A', 'trust', '-U', 'postgres', '--no-sync', '-E', 'UTF8']);
   let port = 0;
   const startOn = async () => {
     await cmd('pg_ctl', ['-D', data, '-l', path.join(dir, 'server.log'), '-w', '-t', '110',
-      '-o', `-p ${port} -k ${dir} -c listen_addresses=127.0.0.1${options.durable ? '' : ' -c fsync=off -c full_page_writes=off'}`, 'start']);
+      '-o', `-p ${port} -k ${dir} -c listen_addresses=127.0.0.1${options.durable ? '' : ' -c fsync=off -c full_page_writes=off'}${tlsSettings}`, 'start']);
   };
   // Another test may take the port between the check and the start: try a few.
   for (let tries = 0; ; tries++) {

@@ -19,6 +19,7 @@
 import { FlowProducer, Job, type MinimalJob, Queue, QueueEvents, UnrecoverableError, Worker, type FlowJob } from 'bullmq';
 import { Redis } from 'ioredis';
 import { InputError, isInputError, ServiceError } from '../core/errors.js';
+import { deferredCaList, tlsWithExtraCa } from '../extra-ca.js';
 import { loadProcessors, runAttempt, sortedRecord } from './execute.js';
 import {
   DEFAULT_ATTEMPTS, DEFAULT_BACKOFF_MS, DEFAULT_PREFIX, LOCK_DURATION_MS, MAX_STALLED_COUNT,
@@ -133,6 +134,9 @@ function settleWithin(p: Promise<unknown>, ms: number): Promise<void> {
 /** An ioredis connection as BullMQ needs it (commands wait through reconnects). */
 function connect(redisUrl: string, onError: (e: Error) => void): Redis {
   const r = new Redis(redisUrl, {
+    // rediss:// (TLS): also trust the NODE_EXTRA_CA_CERTS the bin deferred (extra-ca.ts); a tls
+    // option given here is used as ioredis would use its own `tls: true` for that scheme
+    ...(redisUrl.startsWith('rediss://') && deferredCaList() ? { tls: tlsWithExtraCa({}) } : {}),
     maxRetriesPerRequest: null,
     // Reconnect quickly but not in a tight loop while Redis is away.
     retryStrategy: (times) => Math.min(times * 200, 2_000),

@@ -9,7 +9,9 @@
  * (`npm run bench -- --big-store`, which prints both).
  */
 import pg from 'pg';
+import { parse as parseConnectionString } from 'pg-connection-string';
 import { ServiceError } from '../core/errors.js';
+import { tlsWithExtraCa, deferredCaList } from '../extra-ca.js';
 import { sha256Hex } from '../core/hash.js';
 import { TransactionGuard } from './guard.js';
 import { sqlHead } from './sql-head.js';
@@ -93,15 +95,14 @@ const typeParsers = {
  */
 export async function openPgStore(databaseUrl: string): Promise<Store> {
   const where = describeDatabaseUrl(databaseUrl);
-  const pool = new pg.Pool({
-    connectionString: databaseUrl,
+  const pool = new pg.Pool(poolSettings(databaseUrl, {
     max: 8,
     // A dead server must fail, never hang: pg's default connect timeout is none.
     connectionTimeoutMillis: 10_000,
     idleTimeoutMillis: 30_000,
     options: PG_SESSION_OPTIONS,
     types: typeParsers as pg.CustomTypesConfig,
-  });
+  }));
   // An idle client losing its server emits 'error' on the pool; without a
   // listener Node would crash. The next query reports the problem instead.
   // (Checked-out clients get their own listener: PgStore.connect.)
@@ -113,6 +114,26 @@ export async function openPgStore(databaseUrl: string): Promise<Store> {
     throw pgServiceError(e, where);
   }
   return new PgStore(pool, where);
+}
+
+/** PGSSLMODE values with which pg turns TLS on when the URL says nothing of it. */
+const TLS_SSLMODES = new Set(['prefer', 'require', 'verify-ca', 'verify-full']);
+
+/**
+ * A Pool's settings for `databaseUrl`. Normally pg parses the URL itself. In a
+ * process whose NODE_EXTRA_CA_CERTS was deferred (extra-ca.ts) the URL is parsed
+ * here, by pg's own parser and merged in pg's own order (the URL's settings over
+ * ours), so that TLS, whether the URL or PGSSLMODE asks for it, trusts those
+ * certificates as well.
+ */
+export function poolSettings(databaseUrl: string, ours: pg.PoolConfig, env: NodeJS.ProcessEnv = process.env): pg.PoolConfig {
+  if (!deferredCaList(env)) return { ...ours, connectionString: databaseUrl };
+  const merged = Object.assign({}, ours, parseConnectionString(databaseUrl)) as pg.PoolConfig & { ssl?: unknown };
+  let ssl = merged.ssl;
+  if (ssl === undefined && TLS_SSLMODES.has(env.PGSSLMODE ?? '')) ssl = true;
+  if (ssl === true) ssl = {};
+  if (ssl && typeof ssl === 'object') merged.ssl = tlsWithExtraCa(ssl as pg.PoolConfig['ssl'] & object, env);
+  return merged;
 }
 
 const statementNames = new Map<string, string>();

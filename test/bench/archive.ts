@@ -11,6 +11,7 @@
  *
  * Configurations, alternating order between repetitions:
  * - peer:            peer_archive.py into a fresh database of the private server;
+ * (Our processes start as the bin starts them: binStart() in pipeline.ts.)
  * - embedded:        `heatledger ingest --data-dir D` into an embedded store opened
  *                    once beforehand (an existing store, as for every ingest but the first);
  * - embedded_fresh:  the same into a new data directory (the first ingest of a store);
@@ -42,7 +43,7 @@ import pg from 'pg';
 import { from as copyFrom } from 'pg-copy-streams';
 import { ensurePipelineData, ruralRingCollection } from './pipeline-data.js';
 import {
-  REGISTER, RUN_TIMEOUT_MS, cleanEnv, configsFlag, describeExit, repetitionsFlag, runChild, startWorker, stopProcess, unionLength, type SummaryJson,
+  REGISTER, RUN_TIMEOUT_MS, binStart, cleanEnv, configsFlag, describeExit, repetitionsFlag, runChild, startWorker, stopProcess, unionLength, type SummaryJson,
 } from './pipeline.js';
 import { benchQueuePrefix, benchTempDir, createBenchDatabase, onCleanup } from './pipeline-services.js';
 import type { RepoTiming } from './pipeline-timing-repo.js';
@@ -239,9 +240,10 @@ async function embeddedRun(s: Setup, fresh: boolean): Promise<ArchiveRun> {
       if (prep.code !== 0) throw new Error(`preparing the embedded store failed: ${describeExit(prep)}`);
     }
     const c0 = reapedChildrenCpuSeconds();
+    const bin = binStart();
     const r = await runChild(
-      ['--import', REGISTER, CLI, 'ingest', s.archiveDir, '--districts', s.districts, '--rural', s.rural, '--json', '--no-progress', '--data-dir', dataDir],
-      cleanEnv({ BENCH_REPO_TIMING_FILE: timingFile }), RUN_TIMEOUT_MS,
+      [...bin.nodeArgs, '--import', REGISTER, CLI, 'ingest', s.archiveDir, '--districts', s.districts, '--rural', s.rural, '--json', '--no-progress', '--data-dir', dataDir],
+      bin.env(cleanEnv({ BENCH_REPO_TIMING_FILE: timingFile })), RUN_TIMEOUT_MS,
     ).done;
     const command = reapedChildrenCpuSeconds() - c0;
     if (r.code !== 0) throw new Error(`embedded ingest failed: ${describeExit(r)}`);
@@ -279,7 +281,8 @@ async function distributedRun(s: Setup, workers: number): Promise<ArchiveRun> {
     }
     const workerCpu = () => children.reduce((sum, c) => sum + (procTimes(c.pid!)?.self ?? NaN), 0);
     const pg0 = serverCpuSeconds(pgServer.postmasterPid()), r0 = serverCpuSeconds(redis.pid), w0 = workerCpu(), c0 = reapedChildrenCpuSeconds();
-    const ingest = runChild(['--import', REGISTER, CLI, 'ingest', s.archiveDir, '--districts', s.districts, '--rural', s.rural, '--json', '--no-progress'], cleanEnv(base), RUN_TIMEOUT_MS);
+    const bin = binStart();
+    const ingest = runChild([...bin.nodeArgs, '--import', REGISTER, CLI, 'ingest', s.archiveDir, '--districts', s.districts, '--rural', s.rural, '--json', '--no-progress'], bin.env(cleanEnv(base)), RUN_TIMEOUT_MS);
     const r = await ingest.done;
     const command = reapedChildrenCpuSeconds() - c0;
     const cpu: CpuSplit = { command, workers: workerCpu() - w0, postgres: serverCpuSeconds(pgServer.postmasterPid()) - pg0, redis: serverCpuSeconds(redis.pid) - r0 };

@@ -202,6 +202,39 @@ export function cleanEnv(extra: Record<string, string>): NodeJS.ProcessEnv {
   return { ...env, ...extra };
 }
 
+/**
+ * How the bin starts node, read from its first line (`#!/usr/bin/env -S ...`,
+ * workers/cli.ts): the node options and what `env` unsets and sets. The timed
+ * children of the benches load the timed repository with `--import`, so they
+ * run `node <these options> --import ... cli.js` in the environment the bin
+ * would give them, and start as `heatledger` does.
+ */
+export function binStart(): { nodeArgs: string[]; env(base: NodeJS.ProcessEnv): NodeJS.ProcessEnv } {
+  const first = readFileSync(CLI, 'utf8').split('\n', 1)[0];
+  const m = /^#!\/usr\/bin\/env -S (.*)$/.exec(first);
+  if (!m) throw new Error(`${CLI}: the first line is not \`#!/usr/bin/env -S ...\` (${first})`);
+  const tokens = m[1].trim().split(/\s+/);
+  const unset: string[] = [], set: [string, string][] = [];
+  let i = 0;
+  for (; i < tokens.length && tokens[i] !== 'node'; i++) {
+    if (tokens[i] === '-u') unset.push(tokens[++i]);
+    else if (/^[A-Z_][A-Z0-9_]*=/.test(tokens[i])) set.push([tokens[i].slice(0, tokens[i].indexOf('=')), tokens[i].slice(tokens[i].indexOf('=') + 1)]);
+    else throw new Error(`${CLI}: cannot read \`${tokens[i]}\` in the first line`);
+  }
+  if (i === tokens.length) throw new Error(`${CLI}: the first line does not start node`);
+  return {
+    nodeArgs: tokens.slice(i + 1),
+    env(base) {
+      const env = { ...base };
+      // env -S expands ${NAME} from the environment it was given, before -u takes effect
+      const expanded = set.map(([k, v]) => [k, v.replace(/\$\{([A-Za-z_][A-Za-z0-9_]*)\}/g, (_, name: string) => base[name] ?? '')] as const);
+      for (const k of unset) delete env[k];
+      for (const [k, v] of expanded) env[k] = v;
+      return env;
+    },
+  };
+}
+
 export interface ChildRun { code: number | null; signal: NodeJS.Signals | null; stdout: string; stderr: string; wallSeconds: number; timedOut: boolean }
 
 /** Spawn with an IPC channel (children end when the bench goes away) and collect the output; SIGKILL after `timeoutMs`. */
@@ -308,9 +341,11 @@ async function embeddedRun(data: PipelineBenchData, threads: number, cpuProfileD
   }
 }
 
-/** Start `heatledger worker` (timed repository) and wait for its "serving" line; `cpu` pins it to that processor (taskset). */
-export function startWorker(env: NodeJS.ProcessEnv, cpu?: number): Promise<ChildProcess> {
-  const argv = [NODE, '--import', REGISTER, CLI, 'worker'];
+/** Start `heatledger worker` (timed repository; node started as the bin starts it) and wait for its "serving" line; `cpu` pins it to that processor (taskset). */
+export function startWorker(workerEnv: NodeJS.ProcessEnv, cpu?: number): Promise<ChildProcess> {
+  const bin = binStart();
+  const argv = [NODE, ...bin.nodeArgs, '--import', REGISTER, CLI, 'worker'];
+  const env = bin.env(workerEnv);
   const child = cpu === undefined
     ? spawn(argv[0], argv.slice(1), { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe', 'ipc'] })
     : spawn('taskset', ['-c', String(cpu), ...argv], { cwd: ROOT, env, stdio: ['ignore', 'ignore', 'pipe', 'ipc'] });

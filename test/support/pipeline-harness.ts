@@ -169,13 +169,14 @@ export interface StartedCli {
 }
 
 /**
- * Start `node dist/workers/cli.js <args>` and wait until its standard error
+ * Start `node dist/workers/cli.js <args>` (`how` as for runCli) and wait until its standard error
  * matches `ready` (a condition, not a delay). Rejects when the child exits
  * first or when `startTimeoutMs` passes: generous, since a loaded machine
  * can take long to start a Node process.
  */
-export function startCliUntil(args: string[], env: NodeJS.ProcessEnv, ready: RegExp, startTimeoutMs = 180_000): Promise<StartedCli> {
-  const child = spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
+export function startCliUntil(args: string[], env: NodeJS.ProcessEnv, ready: RegExp, startTimeoutMs = 180_000, how: 'node' | 'bin' = 'node'): Promise<StartedCli> {
+  const [command, argv] = how === 'bin' ? [cliPath, args] : [process.execPath, [cliPath, ...args]];
+  const child = spawn(command, argv, { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
   children.add(child);
   child.once('exit', () => children.delete(child));
   let out = '';

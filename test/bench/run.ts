@@ -35,7 +35,7 @@ import { compareTables, type Agreement, type StatsRow } from './compare.js';
 import { ensureBenchData } from './generate.js';
 import { loadTargets, measureCoverage, measureDecode, measureStats, type PhaseProfile } from './profile.js';
 import { median, timeProcess } from './timing.js';
-import { pipelineFlags, runPipelineBench } from './pipeline.js';
+import { binStart, pipelineFlags, runPipelineBench } from './pipeline.js';
 import { runTrendsBench } from './trends.js';
 import { archiveFlags, runArchiveBench } from './archive.js';
 import { runApiBench } from './api.js';
@@ -185,8 +185,9 @@ interface ChildProfile {
 /** Phase profile in fresh processes: `runs` children, median of each figure. */
 function profileInChild(raster: string, districts: string, runs = 3): ChildProfile {
   const all: ChildProfile[] = [];
+  const bin = binStart(); // node started as the bin starts it
   for (let i = 0; i < runs; i++) {
-    const r = timeProcess(NODE, [CHILD, raster, districts, '2']);
+    const r = timeProcess(NODE, [...bin.nodeArgs, CHILD, raster, districts, '2'], 180, bin.env(process.env));
     if (r.status !== 0) throw new Error(`phase profile failed: ${r.stderr.trim()}`);
     all.push(JSON.parse(r.stdout.trim().split('\n').pop()!) as ChildProfile);
   }
@@ -200,7 +201,8 @@ async function cpuProfileCli(raster: string, districts: string, size: Size): Pro
   const dir = join(WORK_DIR, `cpuprofile-${size}`);
   rmSync(dir, { recursive: true, force: true });
   mkdirSync(dir, { recursive: true });
-  const r = timeProcess(NODE, ['--cpu-prof', '--cpu-prof-dir', dir, '--cpu-prof-interval', '250', CLI, 'zonal', raster, '--districts', districts, '--format', 'json']);
+  const bin = binStart();
+  const r = timeProcess(NODE, [...bin.nodeArgs, '--cpu-prof', '--cpu-prof-dir', dir, '--cpu-prof-interval', '250', CLI, 'zonal', raster, '--districts', districts, '--format', 'json'], 180, bin.env(process.env));
   if (r.status !== 0) throw new Error(`profiled heatledger zonal exited with ${r.status}: ${r.stderr.trim()}`);
   const file = readdirSync(dir).find((f) => f.endsWith('.cpuprofile'));
   if (!file) throw new Error(`node --cpu-prof wrote no profile in ${dir}`);
@@ -352,7 +354,7 @@ async function main(): Promise<void> {
   const startRuns = 9;
   const bareRun = medianRun(NODE, ['-e', ''], startRuns);
   const importRun = medianRun(NODE, ['-e', `import(${JSON.stringify(join(ROOT, 'dist/workers/commands/zonal-table.js'))})`], startRuns);
-  const versionRun = medianRun(NODE, [CLI, '--version'], startRuns);
+  const versionRun = medianRun(CLI, ['--version'], startRuns);
   const pythonRun = withPeer ? medianRun(PYTHON, ['-c', 'import numpy, rasterio, rasterio.features, rasterio.warp'], startRuns) : null;
   const both = (r: { wall: number; cpu: number | null }) => `${s3(r.wall)} / ${r.cpu === null ? 'n/a' : s2(r.cpu)} s`;
   say(`  node -e "" ${both(bareRun)}; node -e "import('zonal-table.js')" ${both(importRun)}; heatledger --version ${both(versionRun)}` +

@@ -17,7 +17,7 @@ import path from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { missingTool } from '../support/services.js';
 import { freeFaultPort, postgresBinDir, startPrivatePostgres, type PrivatePostgres } from '../support/private-postgres.js';
-import { cleanEnv, ensurePipelineBuild, runCli, startCliUntil, stopChild, waitFor } from '../support/pipeline-harness.js';
+import { cleanEnv, ensurePipelineBuild, killAllChildren, runCli, startCliUntil, stopChild, waitFor } from '../support/pipeline-harness.js';
 
 const hasOpenssl = spawnSync('openssl', ['version']).status === 0 || missingTool('bin and NODE_EXTRA_CA_CERTS', 'openssl (Debian package openssl)');
 const canRun = hasOpenssl && (postgresBinDir() !== null || missingTool('bin and NODE_EXTRA_CA_CERTS', 'initdb and pg_ctl (Debian package postgresql)'))
@@ -50,6 +50,7 @@ describe.skipIf(!canRun)('the bin and NODE_EXTRA_CA_CERTS: TLS to PostgreSQL wit
   }, 240_000);
 
   afterAll(async () => {
+    await killAllChildren(); // a worker left by a failed check
     if (redis) await stopChild(redis, 'SIGKILL');
     await server?.destroy();
     if (dir) rmSync(dir, { recursive: true, force: true });

@@ -123,15 +123,22 @@ export interface CliResult {
 
 const children = new Set<ChildProcess>();
 
+/** Spawn the CLI with piped output: `node dist/workers/cli.js <args>`, or ('bin') the file itself, by its first line. */
+function spawnCli(args: string[], env: NodeJS.ProcessEnv, how: 'node' | 'bin'): ChildProcess {
+  const child = how === 'bin'
+    ? spawn(cliPath, args, { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] })
+    : spawn(process.execPath, [cliPath, ...args], { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
+  children.add(child);
+  return child;
+}
+
 /**
  * Run `node dist/workers/cli.js <args>`, or with `how` 'bin' the file itself, by its
  * first line, as the `heatledger` link runs it; kills it (SIGKILL) after `timeoutMs` and says so.
  */
 export function runCli(args: string[], env: NodeJS.ProcessEnv, timeoutMs = 480_000, how: 'node' | 'bin' = 'node'): Promise<CliResult> {
   const started = performance.now();
-  const [command, argv] = how === 'bin' ? [cliPath, args] : [process.execPath, [cliPath, ...args]];
-  const child = spawn(command, argv, { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
-  children.add(child);
+  const child = spawnCli(args, env, how);
   let stdout = '';
   let stderr = '';
   child.stdout!.on('data', (d) => { stdout += d; });
@@ -175,9 +182,7 @@ export interface StartedCli {
  * can take long to start a Node process.
  */
 export function startCliUntil(args: string[], env: NodeJS.ProcessEnv, ready: RegExp, startTimeoutMs = 180_000, how: 'node' | 'bin' = 'node'): Promise<StartedCli> {
-  const [command, argv] = how === 'bin' ? [cliPath, args] : [process.execPath, [cliPath, ...args]];
-  const child = spawn(command, argv, { cwd: repoRoot, env, stdio: ['ignore', 'pipe', 'pipe'] });
-  children.add(child);
+  const child = spawnCli(args, env, how);
   child.once('exit', () => children.delete(child));
   let out = '';
   let err = '';

@@ -18,6 +18,7 @@ import { rename, rm, stat, writeFile } from 'node:fs/promises';
 import { basename, dirname, resolve } from 'node:path';
 import { parquetWriteBuffer } from 'hyparquet-writer';
 import { InputError } from '../core/errors.js';
+import { epochDayOf } from '../core/epoch-day.js';
 import { columnType, roundingOf, type DistrictFeatureCollection } from '../core/export/tidy.js';
 import { PRECISION, roundNumber, toCsv, type Row } from '../format.js';
 
@@ -70,11 +71,6 @@ export async function writeCsvFile(path: string, columns: readonly string[], row
   await writeAtomically(path, toCsv(roundRows(rows, columns) as Row[], columns));
 }
 
-/** Days since 1970-01-01 of a 'YYYY-MM-DD' date (Parquet DATE). */
-function epochDay(date: string): number {
-  return Math.round(Date.parse(`${date}T00:00:00Z`) / 86_400_000);
-}
-
 /**
  * Parquet with typed, nullable columns: text as UTF-8 strings, counts as INT32,
  * values as DOUBLE (rounded like the CSV), `date` as DATE and `acquired_at` as a
@@ -88,7 +84,7 @@ export async function writeParquetFile(
   const columnData = columns.map((name) => {
     const type = columnType(name);
     const values = rounded.map((r) => r[name]);
-    if (type === 'date') return { name, data: values.map((v) => (v === null ? null : epochDay(String(v)))) };
+    if (type === 'date') return { name, data: values.map((v) => (v === null ? null : epochDayOf(String(v)))) };
     if (type === 'timestamp') return { name, data: values.map((v) => (v === null ? null : new Date(String(v)))) };
     if (type === 'string') return { name, data: values.map((v) => (v === null ? null : String(v))) };
     return { name, data: values.map((v) => (v === null ? null : Number(v))) };

@@ -1,5 +1,6 @@
 /** The district tables: per district and date, and per district and year (named queries sql/queries/district_table_*.sql). */
 import type { Kelvin } from '../core/units.js';
+import { dateOfEpochDay } from '../core/epoch-day.js';
 import { namedQuery } from './queries.js';
 import { type Db, num, yearOrNull } from './db.js';
 
@@ -45,9 +46,8 @@ function tableParams(options: DistrictTableOptions): unknown[] {
 const PACKED = {
   bytes: 54, date: 0, nulls: 4, lstDay: 6, lstNight: 14, suhiDay: 22, suhiNight: 30, ati: 38, dayScenes: 46, nightScenes: 50,
 } as const;
-const MS_PER_DAY = 86_400_000;
 
-/** Unfold one district's packed days into rows, appending to `rows`; `dates` memoises day number → 'YYYY-MM-DD'. */
+/** Unfold one district's packed days into rows, appending to `rows`; `dates` memoises day number → 'YYYY-MM-DD' (366 dates for 366,000 rows). */
 function unpackDays(
   district: { district_id: string; district_name: string; role: DistrictDateRow['role'] },
   days: Uint8Array, dates: Map<number, string>, rows: DistrictDateRow[],
@@ -61,7 +61,7 @@ function unpackDays(
     const day = v.getInt32(o + PACKED.date);
     let date = dates.get(day);
     if (date === undefined) {
-      date = new Date(day * MS_PER_DAY).toISOString().slice(0, 10);
+      date = dateOfEpochDay(day);
       dates.set(day, date);
     }
     const nulls = v.getInt16(o + PACKED.nulls);

@@ -132,6 +132,21 @@ describe('in-process runner', () => {
     expect([...b.results]).toEqual([...a.results]);
   });
 
+  it('starts a job whose children are done before the next waiting leaf, on a busy thread', async () => {
+    // One thread; two chains root <- a1 <- a2 and root <- b1 <- b2. In order of arrival
+    // the thread would run a2, b2, a1, b1; nearest the root first it runs a1 as soon as
+    // a2 is done, then b2, then b1 (each job's lookup is recorded on the main thread).
+    const order: string[] = [];
+    const recorder = { async lookup(key: string) { order.push(key); return { key }; } };
+    const r = createInProcessRunner({ processorsModule, repo: recorder, threads: 1, threadedJobs: ['repoEcho'] });
+    const echo = (id: string, children?: JobSpec[]): JobSpec => ({ name: 'repoEcho', id: `order-${id}`, data: { key: id }, ...(children ? { children } : {}) });
+    try {
+      const out = await r.runFlow({ name: 'sum', id: 'order-root', data: null, children: [echo('a1', [echo('a2')]), echo('b1', [echo('b2')])] });
+      expect(out.failures).toEqual([]);
+      expect(order).toEqual(['a2', 'a1', 'b2', 'b1']);
+    } finally { await r.close(); }
+  });
+
   it('takes threads started ahead of it, which load their processors before the repository is known', async () => {
     const early = prestartThreads(processorsModule, 2);
     expect(early).toHaveLength(2);

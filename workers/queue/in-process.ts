@@ -114,16 +114,25 @@ interface Slot {
   dead: boolean;
 }
 
-/** A fixed-size pool of worker threads, each running one job at a time. */
+/**
+ * A fixed-size pool of worker threads, each running one job at a time. Waiting
+ * jobs start nearest-the-root first (by depth in their tree, then in order of
+ * arrival): a scene's zonal job, whose ingest is done, goes before the next
+ * scene's ingest. Scenes then finish one by one and their short ingest jobs,
+ * which mostly wait for the main thread's database, fall between long zonal
+ * jobs instead of all coming first, when both threads would wait together.
+ */
 class ThreadPool {
   private slots: Slot[] = [];
-  private waiting: { attempt: JobAttempt; settle(o: Outcome): void; log(line: string): void }[] = [];
+  private waiting: { attempt: JobAttempt; depth: number; settle(o: Outcome): void; log(line: string): void }[] = [];
   private closed = false;
   constructor(private size: number, private moduleHref: string, private repo: object) {}
 
-  run(attempt: JobAttempt, log: (line: string) => void): Promise<Outcome> {
+  run(attempt: JobAttempt, depth: number, log: (line: string) => void): Promise<Outcome> {
     return new Promise((settle) => {
-      this.waiting.push({ attempt, settle, log });
+      let at = this.waiting.length;
+      while (at > 0 && this.waiting[at - 1].depth > depth) at--;
+      this.waiting.splice(at, 0, { attempt, depth, settle, log });
       this.pump();
     });
   }
@@ -151,7 +160,9 @@ class ThreadPool {
         slot.busy = null;
         worker.unref();
         b.settle(msg.ok ? { ok: true, value: msg.value } : { ok: false, error: reviveError(msg.error!) });
-        this.pump();
+        // after the promise callbacks this settlement sets off, among them the
+        // runner queueing the parent whose last child this was
+        setImmediate(() => this.pump());
       }
     });
     const die = (err: Error) => {
@@ -284,10 +295,10 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
   // Main-thread jobs wait here for a free slot.
   const mainSlots = new Slots(concurrency);
 
-  async function attemptOnce(a: JobAttempt, log: (l: string) => void): Promise<Outcome> {
+  async function attemptOnce(a: JobAttempt, depth: number, log: (l: string) => void): Promise<Outcome> {
     if (threaded.has(a.name)) {
       pool ??= new ThreadPool(threads, href, repo);
-      return pool.run(a, log);
+      return pool.run(a, depth, log);
     }
     const mod = await (modPromise ??= loadProcessors(href));
     await mainSlots.acquire();
@@ -305,6 +316,8 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
     if (closed) throw new ServiceError('the in-process runner is closed');
     const nodes = flattenTree(root);
     const byId = new Map<string, FlatNode>(nodes.map((n) => [n.spec.id, n]));
+    const depth = new Map<string, number>();
+    for (const n of nodes) depth.set(n.spec.id, n.parentId === null ? 0 : depth.get(n.parentId)! + 1); // pre-order: parents first
     const reusable = reusableIds(nodes, (id) => completed.has(id));
     // Load the module up front so a broken registry fails the call, not every job.
     await (modPromise ??= loadProcessors(href));
@@ -346,7 +359,7 @@ export function createInProcessRunner(options: InProcessRunnerOptions): Runner {
         if (finished) return;
         const a = jobAttempt(n, values, attempt);
         if (attempt === 1) { running++; report(); }
-        attemptOnce(a, () => undefined).then((o) => {
+        attemptOnce(a, depth.get(n.spec.id)!, () => undefined).then((o) => {
           if (finished) return;
           if (o.ok) {
             running--;

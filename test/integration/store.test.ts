@@ -25,7 +25,10 @@ import {
   finishRun,
   getRun,
   listDerived,
+  countScenes,
   listDistricts,
+  listScenes,
+  listSceneTimes,
   markSceneFailed,
   registerScene,
   registerSceneReporting,
@@ -39,6 +42,7 @@ import {
   type DistrictInput,
   type SceneInput,
   type ZonalStatsInput,
+  zonalMeansForScenes,
 } from '../../workers/store/index.js';
 import { migrate } from '../../workers/store/migrate.js';
 import { namedQuery } from '../../workers/store/queries.js';
@@ -426,6 +430,28 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     expect(total[0].n).toBe(21); // 7 scenes × 3 districts
     expect(await sceneStatusCounts(store)).toEqual({ registered: 0, processed: 7, failed: 2, total: 9 });
     out.zonal = stable(twice.map((z) => ({ ...z, sceneId: 'ID', runId: 'ID' })));
+  });
+
+  it('gives the derive step its lean reads: scene times, the failed count, means of chosen districts', async () => {
+    // The 7 LST scenes processed above, in acquisition order; the 2 failed scenes are not listed.
+    const times = await listSceneTimes(store, ['lst', 'thermal', 'albedo'], 'processed');
+    const full = await listScenes(store, { kind: 'lst', status: 'processed' });
+    expect(times).toEqual(full.map((s) => ({ id: s.id, kind: s.kind, acquiredAt: s.acquiredAt, pass: s.pass })));
+    // acquisition order of the fixture's instants (day2 is 11:00 UTC, written as 13:00+02:00)
+    const keyOf = new Map(Object.entries(ids).map(([k, id]) => [id, k]));
+    expect(times.map((t) => keyOf.get(t.id))).toEqual(['day1', 'day2', 'night1', 'day3', 'night2', 'night3', 'day4']);
+    expect(await listSceneTimes(store, ['albedo'], 'processed')).toEqual([]);
+    expect(await countScenes(store, 'failed')).toBe(2);
+    expect(await countScenes(store, 'registered')).toBe(0);
+    // Only the districts asked for, in scene then byte order of district id.
+    const means = await zonalMeansForScenes(store, [ids.day2, ids.day1], ['rural-ring', 'old-town']);
+    expect(means.map((m) => [m.sceneId === ids.day1 ? 'day1' : 'day2', m.districtId, m.meanKelvin, m.validFraction])).toEqual([
+      // valid fraction = valid / pixels of the 968 pixels: round(968 × 0.8) = 774, round(968 × 0.95) = 920, 968 × 0.25 = 242
+      ['day1', 'old-town', 308.2, 774 / 968],
+      ['day1', 'rural-ring', 303.1, 920 / 968],
+      ['day2', 'old-town', 309.0, 242 / 968],
+      ['day2', 'rural-ring', 304.5, 920 / 968],
+    ]);
   });
 
   it('leaves the old zonal rows when a replacement fails part-way', async () => {

@@ -26,12 +26,10 @@ export interface DeriveResult {
 export async function derive(data: DeriveData, ctx: JobContext<PipelineRepo>): Promise<DeriveResult> {
   const { repo } = ctx;
   // thermal (Level-1 DN) scenes were turned into LST by the zonal step: they are LST passes here
-  const [lstScenes, thermal, albedo] = await Promise.all([
-    repo.listScenes({ kind: 'lst', status: 'processed' }),
-    repo.listScenes({ kind: 'thermal', status: 'processed' }),
-    repo.listScenes({ kind: 'albedo', status: 'processed' }),
-  ]);
-  const lst = [...lstScenes, ...thermal];
+  const processed = await repo.listSceneTimes(['lst', 'thermal', 'albedo'], 'processed');
+  const ofKind = (kind: string) => processed.filter((s) => s.kind === kind);
+  const lst = [...ofKind('lst'), ...ofKind('thermal')];
+  const albedo = ofKind('albedo');
   const dated = albedo.filter((s) => s.acquiredAt !== null);
   const archiveWide = albedo.filter((s) => s.acquiredAt === null);
   const scenes: SceneInfo[] = [
@@ -39,9 +37,7 @@ export async function derive(data: DeriveData, ctx: JobContext<PipelineRepo>): P
     ...dated.map((s) => ({ id: s.id, acquiredAt: s.acquiredAt!, kind: 'albedo' as const, pass: null })),
   ];
   const ids = [...scenes.map((s) => s.id), ...archiveWide.map((s) => s.id)];
-  const wanted = new Set([...data.districtIds, data.ruralId]);
-  const stats: StatInfo[] = (await repo.zonalStatsForScenes(ids))
-    .filter((z) => wanted.has(z.districtId))
+  const stats: StatInfo[] = (await repo.zonalMeansForScenes(ids, [...data.districtIds, data.ruralId]))
     .map((z) => ({ sceneId: z.sceneId, districtId: z.districtId, mean: z.meanKelvin, validFraction: z.validFraction }));
 
   // one albedo raster for the whole archive (no acquisition time): the newest such scene
@@ -68,6 +64,6 @@ export async function derive(data: DeriveData, ctx: JobContext<PipelineRepo>): P
     reason: r.status === 'ok' ? null : r.status,
     runId: data.runId,
   })));
-  const failed = (await repo.listScenes({ status: 'failed' })).length;
+  const failed = await repo.countScenes('failed');
   return { rows: rows.length, ok: rows.filter((r) => r.status === 'ok').length, scenes: { processed: lst.length + albedo.length, failed } };
 }

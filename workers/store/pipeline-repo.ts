@@ -19,8 +19,11 @@ function bindPipelineRepo(store: Store) {
     setSceneWarnings: (sceneId: number, warnings: string[]) => repo.setSceneWarnings(store, sceneId, warnings),
     markSceneFailed: (f: { contentHash?: string | null; path: string; error: string; runId?: number | null }) => repo.markSceneFailed(store, f),
     listDistricts: () => repo.listDistricts(store),
-    listScenes: (filter: { kind?: repo.SceneKind; status?: repo.SceneStatus }) => repo.listScenes(store, filter),
-    zonalStatsForScenes: (ids: number[]) => repo.zonalStatsForScenes(store, ids),
+    /** Id, kind, time and pass of the scenes of these kinds with this status, in acquisition order. */
+    listSceneTimes: (kinds: repo.SceneKind[], status: repo.SceneStatus) => repo.listSceneTimes(store, kinds, status),
+    countScenes: (status: repo.SceneStatus) => repo.countScenes(store, status),
+    /** Mean and valid fraction of these districts in these scenes. */
+    zonalMeansForScenes: (sceneIds: number[], districtIds: string[]) => repo.zonalMeansForScenes(store, sceneIds, districtIds),
     /** District ids with stored statistics for a scene under a coverage rule. */
     zonalDistrictsOfScene: (sceneId: number, coverageRule: string) => repo.zonalDistrictsOfScene(store, sceneId, coverageRule),
     replaceZonalStats: (sceneId: number, rows: repo.ZonalStatsInput[], runId: number | null) =>

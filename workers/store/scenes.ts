@@ -97,6 +97,33 @@ export function listScenes(db: Db, filter: { kind?: SceneKind; status?: SceneSta
   );
 }
 
+/** What pairing needs of a scene: when it was taken, and which pass. */
+export interface SceneTime {
+  id: number;
+  kind: SceneKind;
+  acquiredAt: UtcIso | null;
+  pass: ScenePass | null;
+}
+
+/**
+ * The id, kind, time and pass of every scene of these kinds with this status, in
+ * acquisition order (then id): {@link listScenes} for the derive step, without
+ * the header columns it does not read (the CRS definition alone is ~1 kB a scene).
+ */
+export function listSceneTimes(db: Db, kinds: readonly SceneKind[], status: SceneStatus): Promise<SceneTime[]> {
+  return db.query<SceneTime>(
+    `SELECT id, kind, acquired_at AS "acquiredAt", pass FROM scenes
+     WHERE kind = ANY($1::text[]) AND status = $2::text
+     ORDER BY acquired_at NULLS LAST, id`,
+    [kinds, status],
+  );
+}
+
+/** How many scenes have this status. */
+export async function countScenes(db: Db, status: SceneStatus): Promise<number> {
+  return (await db.query<{ n: number }>('SELECT count(*)::int AS n FROM scenes WHERE status = $1::text', [status]))[0].n;
+}
+
 /**
  * Register a readable scene, keyed by content hash; returns its id. Registering
  * the same content again updates path and header and keeps the id and a

@@ -125,6 +125,28 @@ export function zonalStatsForScenes(db: Db, sceneIds: number[]): Promise<ZonalSt
   );
 }
 
+/** What the derive step reads of a district's statistics in a scene. */
+export interface ZonalMean {
+  sceneId: number;
+  districtId: string;
+  meanKelvin: Kelvin | null;
+  validFraction: number | null;
+}
+
+/**
+ * Mean and valid fraction of these districts in these scenes, ordered as
+ * {@link zonalStatsForScenes}: what the derive step needs of every row, without
+ * the eleven other columns.
+ */
+export function zonalMeansForScenes(db: Db, sceneIds: readonly number[], districtIds: readonly string[]): Promise<ZonalMean[]> {
+  return db.query<ZonalMean>(
+    `SELECT scene_id AS "sceneId", district_id AS "districtId", mean_k AS "meanKelvin", valid_fraction AS "validFraction"
+     FROM zonal_stats WHERE scene_id = ANY($1::bigint[]) AND district_id = ANY($2::text[])
+     ORDER BY scene_id, district_id COLLATE "C"`,
+    [sceneIds, districtIds],
+  );
+}
+
 /**
  * District ids with statistics for a scene under a coverage rule that are still current: computed
  * in a run that started after the district (its geometry, e.g. a rural ring with water cut out)

@@ -2,7 +2,8 @@
  * workers/core is pure computation: its modules import only each other,
  * Node's built-ins and npm packages, never the store, queue, jobs, commands or
  * API (project layout, common practice, no source). crs does not import
- * raster, so the two never form a circle.
+ * raster, so the two never form a circle. The frozen EPSG tables (a 1.5 MB
+ * package) are loaded in one place, on first use.
  */
 import { readdirSync, readFileSync } from 'node:fs';
 import { dirname, join, relative, resolve } from 'node:path';
@@ -51,5 +52,14 @@ describe('imports of workers/core', () => {
       }
     }
     expect(found).toEqual([]);
+  });
+
+  it('reaches the frozen EPSG tables only through crs/frozen-epsg.ts, which loads them on first use', () => {
+    // a 1.5 MB module: a static import anywhere would load it in every process and worker thread
+    const users = files.filter((f) => /['"]geotiff-geokeys-to-proj4['"]/.test(readFileSync(f, 'utf8'))).map((f) => relative(CORE, f));
+    expect(users).toEqual(['crs/frozen-epsg.ts']);
+    const text = readFileSync(join(CORE, 'crs/frozen-epsg.ts'), 'utf8');
+    expect(text).not.toMatch(/^import[^;]*['"]geotiff-geokeys-to-proj4['"]/m);
+    expect(text).toMatch(/requireCjs\('geotiff-geokeys-to-proj4'\)/);
   });
 });

@@ -16,22 +16,10 @@
  * reprojected hundreds of metres off.
  */
 import { loadProj4 } from './proj4.js';
-import { createRequire } from 'node:module';
 import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import { datumShiftFor } from './datumShifts.js';
-
-// The frozen EPSG tables load on first use (~0.1-0.4 s): WGS 84, Web Mercator and
-// the UTM zones, the codes most scenes use, never need them.
-const requireCjs = createRequire(import.meta.url);
-type GeokeysLib = { toProj4(keys: never): { proj4: string; errors?: Record<string, unknown>; shouldConvertCoordinates?: boolean; coordinatesUnits?: string } };
-let geokeysLib: GeokeysLib | null = null;
-const geokeysToProj4 = {
-  toProj4(keys: never) {
-    geokeysLib ??= requireCjs('geotiff-geokeys-to-proj4') as GeokeysLib;
-    return geokeysLib.toProj4(keys);
-  },
-};
+import { geokeysToProj4 } from './frozen-epsg.js';
 
 const WGS84_A = 6378137;
 const WGS84_B = 6356752.314245179;
@@ -73,7 +61,7 @@ function lookUp(epsg: number): string {
     const zone = epsg % 100;
     return `+proj=utm +zone=${zone}${epsg > 32700 ? ' +south' : ''} +datum=WGS84 +units=m +no_defs`;
   }
-  const converted = geokeysToProj4.toProj4({ ProjectedCSTypeGeoKey: epsg, GTModelTypeGeoKey: 1 } as never);
+  const converted = geokeysToProj4({ ProjectedCSTypeGeoKey: epsg, GTModelTypeGeoKey: 1 });
   if (Object.keys(converted.errors ?? {}).length > 0) throw unknown(epsg);
   if (converted.shouldConvertCoordinates) {
     // e.g. geographic CRSs in grads: their numbers are not degrees.

@@ -2,19 +2,10 @@
  * GeoTIFF georeferencing: the affine geotransform from the model tags and the
  * CRS from the GeoKey directory (OGC GeoTIFF 1.1, OGC 19-008r4, 2019).
  */
-import { createRequire } from 'node:module';
 import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
-
-// Loaded on first use: the EPSG tables inside cost ~0.1-0.4 s of start-up, and only
-// user-defined CRSs (no EPSG code) need them here.
-const requireCjs = createRequire(import.meta.url);
-let toProj4Fn: ((keys: never) => { proj4: string }) | null = null;
-function toProj4(keys: never): { proj4: string } {
-  toProj4Fn ??= (requireCjs('geotiff-geokeys-to-proj4') as { toProj4: (keys: never) => { proj4: string } }).toProj4;
-  return toProj4Fn(keys);
-}
+import { geokeysToProj4 } from '../crs/frozen-epsg.js';
 
 /** GeoKey ids and names (GeoTIFF 1.1, OGC 19-008r4, section 7; the geotiff package's table, checked equal in a test). */
 export const GEOKEY_NAMES: Readonly<Record<number, string>> = {
@@ -196,7 +187,7 @@ export function crsDefinitionOf(keys: Map<number, GeoKeyValue> | null, path: str
   if (crsKeys === 0) return null;
   let def: string;
   try {
-    def = toProj4(named as never).proj4;
+    def = geokeysToProj4(named).proj4;
   } catch (e) {
     throw new InputError(`GeoKeys describe a CRS that cannot be converted (${(e as Error).message})`, path);
   }

@@ -18,7 +18,7 @@ import { writeFile } from 'node:fs/promises';
 import { endianness } from 'node:os';
 import { deflate, deflateSync } from 'node:zlib';
 import { promisify } from 'node:util';
-import geokeysToProj4 from 'geotiff-geokeys-to-proj4';
+import { geokeysToProj4 } from '../crs/frozen-epsg.js';
 import { InputError } from '../errors.js';
 import type { Epsg } from '../units.js';
 import type { Affine } from './affine.js';
@@ -348,7 +348,7 @@ function modelTypeOf(o: WriteGeoTiffOptions, where: string): 'projected' | 'geog
     if (o.modelType !== 'projected' && o.modelType !== 'geographic') throw new InputError(`modelType must be 'projected' or 'geographic'`, where);
     return o.modelType;
   }
-  const r = geokeysToProj4.toProj4({ ProjectedCSTypeGeoKey: epsg, GTModelTypeGeoKey: 1 } as never);
+  const r = geokeysToProj4({ ProjectedCSTypeGeoKey: epsg, GTModelTypeGeoKey: 1 });
   if (r.errors && Object.keys(r.errors).length > 0) {
     throw new InputError(`EPSG code ${epsg} is not in the bundled EPSG table; pass modelType 'projected' or 'geographic'`, where);
   }

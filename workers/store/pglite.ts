@@ -49,10 +49,15 @@ export interface PgliteStoreOptions {
 async function withWasmTier<T>(longRunning: boolean, start: () => Promise<T>): Promise<T> {
   if (longRunning) return start();
   v8.setFlagsFromString('--liftoff-only');
+  // Each function is validated when first compiled, as V8 already compiles lazily, instead of
+  // all of the module before it starts: most of PostgreSQL's code never runs in a command.
+  // Opening an existing store: 0.61-0.69 s of CPU -> 0.57-0.61 s (four alternating runs, 2026-12).
+  v8.setFlagsFromString('--wasm-lazy-validation');
   try {
     return await start();
   } finally {
     v8.setFlagsFromString('--no-liftoff-only');
+    v8.setFlagsFromString('--no-wasm-lazy-validation');
   }
 }
 

@@ -2,8 +2,9 @@
  * File hashes, the scenes' identity: checked against GNU coreutils' `sha256sum`
  * (FIPS 180-4 SHA-256), which shares no code with Node's crypto, on files
  * shorter than, equal to and longer than the read chunk, and on an empty file.
- * The archive's hashing reads several files at once; duplicates must still be
- * named in the order the files were given.
+ * The archive's hashing reads several files at once, on worker threads when
+ * there are many; outcomes and duplicates must still come in the order the
+ * files were given.
  */
 import { execFileSync } from 'node:child_process';
 import { mkdtemp, rm, writeFile } from 'node:fs/promises';
@@ -12,6 +13,7 @@ import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { hashFile, READ_CHUNK_BYTES } from '../../workers/core/hash.js';
 import { hashSceneFiles } from '../../workers/run/archive.js';
+import { hashFiles, hashHere, hashThreadEntry, THREAD_MIN_FILES } from '../../workers/run/hash-threads.js';
 import { mulberry32 } from '../../workers/core/prng.js';
 
 let dir: string;
@@ -68,5 +70,20 @@ describe('hashSceneFiles', () => {
       { path: paths[8], sameAs: paths[1] },
     ]);
     expect(r.unreadable).toEqual([{ path: join(dir, 'gone.tif'), reason: 'cannot read (ENOENT)' }]);
+  });
+});
+
+describe('hashFiles', () => {
+  it('hashes many files on worker threads with the outcomes of the calling thread, in the order given', async () => {
+    // the compiled module is the threads' entry (npm test builds first)
+    expect(hashThreadEntry()).toMatch(/dist\/workers\/run\/hash-threads\.js$/);
+    const paths = Array.from({ length: THREAD_MIN_FILES + 5 }, (_, i) => join(dir, `many-${i}.bin`));
+    await Promise.all(paths.map((p, i) => writeFile(p, bytes(1000 + 97_531 * i, 500 + i))));
+    const asked = [...paths.slice(0, 6), join(dir, 'no-such.tif'), dir, ...paths.slice(6)];
+    const threaded = await hashFiles(asked);
+    expect(threaded).toEqual(await hashHere(asked));
+    expect(threaded.filter((o) => o.ok).map((o) => (o as { hash: string }).hash)).toEqual(paths.map(sha256sum));
+    expect(threaded[6]).toEqual({ ok: false, message: `${join(dir, 'no-such.tif')}: cannot read (ENOENT)` });
+    expect(threaded[7]).toEqual({ ok: false, message: `${dir}: cannot read (EISDIR)` });
   });
 });

@@ -5,7 +5,7 @@
 import { lstat, readFile, readdir, readlink, stat } from 'node:fs/promises';
 import { basename, extname, join, resolve } from 'node:path';
 import { InputError } from '../core/errors.js';
-import { hashFile, READ_CHUNK_BYTES } from '../core/hash.js';
+import { hashFiles } from './hash-threads.js';
 import { checkAtmosphere, type SceneAtmosphere } from '../core/thermal/rte.js';
 import { thermalBandFromName } from '../core/thermal/metadata-file.js';
 import type { RasterHeader } from '../core/raster/index.js';
@@ -244,31 +244,18 @@ export interface HashedScene {
   contentHash: string;
 }
 
-/** Files hashed at once: their reads overlap each other's hashing (a few are enough; more only add buffers). */
-const HASH_CONCURRENCY = 4;
-
 /**
  * Hash every file; a file that cannot be read is reported, not thrown, and a
  * file whose bytes equal an earlier one's (in the order given) is the same
- * scene (listed as a duplicate). Files are read a few at a time.
+ * scene (listed as a duplicate). Files are hashed off this thread when there
+ * are many (see hash-threads.ts).
  */
 export async function hashSceneFiles(paths: readonly string[]): Promise<{
   scenes: HashedScene[];
   duplicates: { path: string; sameAs: string }[];
   unreadable: UnreadablePath[];
 }> {
-  const hashes: ({ ok: true; hash: string } | { ok: false; message: string })[] = new Array(paths.length);
-  let next = 0;
-  const reader = async (buffer: Buffer) => {
-    for (let i = next++; i < paths.length; i = next++) {
-      try {
-        hashes[i] = { ok: true, hash: await hashFile(paths[i], buffer) };
-      } catch (e) {
-        hashes[i] = { ok: false, message: (e as Error).message };
-      }
-    }
-  };
-  await Promise.all(Array.from({ length: Math.min(HASH_CONCURRENCY, paths.length) }, () => reader(Buffer.allocUnsafe(READ_CHUNK_BYTES))));
+  const hashes = await hashFiles(paths);
 
   const scenes: HashedScene[] = [];
   const duplicates: { path: string; sameAs: string }[] = [];

@@ -466,23 +466,32 @@ const SIGNAL_NUMBERS: Partial<Record<NodeJS.Signals, number>> = { SIGINT: 2, SIG
  * SIGINT / SIGTERM: run the registered stop handlers (a run in progress is
  * marked 'interrupted', stores close and release their lock), print their
  * lines, exit 128 + the signal number (130, 143) unless a handler says the stop
- * is the normal end (a server: 0). A second signal exits at once.
+ * is the normal end (a server: 0). When a handler says a worker thread is stuck
+ * in a read, Node's exit would wait for it for ever: the process ends by the
+ * signal itself (default action), which a shell reports as the same 130 or 143.
+ * A second signal stops at once, the same way.
  */
 export function installSignalHandlers(): void {
   let stopping = false;
+  const endBySignal = (signal: NodeJS.Signals) => {
+    process.removeAllListeners(signal);
+    process.kill(process.pid, signal);
+  };
   const onSignal = (signal: NodeJS.Signals) => {
     const code = 128 + (SIGNAL_NUMBERS[signal] ?? 0);
     if (stopping) {
       process.stderr.write(`heatledger: ${signal} again; stopping now\n`);
-      process.exit(code);
+      endBySignal(signal);
+      return;
     }
     stopping = true;
     void (async () => {
       const { runInterruptHandlers } = await import('./store/interrupt.js');
-      const { messages, exitCode } = await runInterruptHandlers(signal);
+      const { messages, exitCode, stuck } = await runInterruptHandlers(signal);
       if (messages.length === 0) messages.push(`interrupted by ${signal}`);
       for (const m of messages) process.stderr.write(`heatledger: ${m}\n`);
-      process.exit(exitCode ?? code);
+      if (stuck) endBySignal(signal);
+      else process.exit(exitCode ?? code);
     })();
   };
   process.on('SIGINT', onSignal);

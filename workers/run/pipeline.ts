@@ -40,6 +40,20 @@ import { VERSION } from '../version.js';
 
 export const RURAL_ID = 'rural';
 
+/**
+ * How long an interrupted run waits for its runner to stop: worker threads end
+ * within milliseconds unless a job is blocked in a read that never returns.
+ */
+const RUNNER_STOP_WAIT_MS = 10_000;
+
+/** `p`'s value, or `otherwise` if it has not settled within `ms`. */
+function settledWithin<T>(p: Promise<T>, ms: number, otherwise: T): Promise<T> {
+  return new Promise((resolve) => {
+    const t = setTimeout(() => resolve(otherwise), ms);
+    void p.then((v) => { clearTimeout(t); resolve(v); });
+  });
+}
+
 export interface PipelineOptions {
   /** Scene files and folders (searched recursively for .tif/.tiff). */
   inputs: string[];
@@ -264,12 +278,16 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
         return { message: `interrupted after run ${runId} had finished its jobs; its state is recorded` };
       }
       interrupted = true;
-      // stop handing out jobs (not awaited: a job blocked in a read must not hold up the exit)
-      if (runner) void runner.close().catch(() => undefined);
+      // stop handing out jobs; the run is recorded meanwhile (a job blocked in a read must not hold that up)
+      const closed = runner ? runner.close().then(() => true, () => true) : Promise.resolve(true);
       runner = null;
       const left = await scenesNotProcessed(store, files.map((f) => f.contentHash));
       await finishRun(store, runId, { status: 'interrupted', error: `stopped by ${signal}`, scenesLeft: left });
-      return { message: `interrupted; run ${runId} marked interrupted, ${left} scene(s) left — run the same ingest again to finish them` };
+      const stopped = await settledWithin(closed, RUNNER_STOP_WAIT_MS, false);
+      return {
+        message: `interrupted; run ${runId} marked interrupted, ${left} scene(s) left — run the same ingest again to finish them`,
+        ...(stopped ? {} : { stuck: true }),
+      };
     });
     const identity = await onServer(() => storeIdentity(store));
     const root = buildFlow({

@@ -9,6 +9,13 @@ export interface InterruptOutcome {
   message?: string;
   /** Exit code when the stop is the normal end of the command (a server: 0); default 128 + signal number. */
   exitCode?: number;
+  /**
+   * Something this handler started could not be stopped: a worker thread whose job
+   * is blocked in a read that never returns (a hung network mount, a pipe). Node's
+   * exit waits for every worker thread to end, so the process then ends by the
+   * signal's own default action instead (a shell reports the same 130 or 143).
+   */
+  stuck?: boolean;
 }
 
 export type InterruptHandler = (signal: NodeJS.Signals) => Promise<InterruptOutcome | void>;
@@ -25,19 +32,21 @@ export function onInterrupt(fn: InterruptHandler): () => void {
 }
 
 /** Run every handler, newest first; a failing handler becomes a message and does not stop the others. */
-export async function runInterruptHandlers(signal: NodeJS.Signals): Promise<{ messages: string[]; exitCode: number | null }> {
+export async function runInterruptHandlers(signal: NodeJS.Signals): Promise<{ messages: string[]; exitCode: number | null; stuck: boolean }> {
   const messages: string[] = [];
   let exitCode: number | null = null;
+  let stuck = false;
   for (const fn of [...handlers].reverse()) {
     try {
       const out = await fn(signal);
       if (out?.message) messages.push(out.message);
       if (out?.exitCode !== undefined) exitCode = exitCode === null ? out.exitCode : Math.max(exitCode, out.exitCode);
+      if (out?.stuck) stuck = true;
     } catch (e) {
       messages.push(`while stopping: ${(e as Error)?.message ?? String(e)}`);
     }
     const i = handlers.lastIndexOf(fn);
     if (i >= 0) handlers.splice(i, 1);
   }
-  return { messages, exitCode };
+  return { messages, exitCode, stuck };
 }

@@ -27,7 +27,7 @@ import { DEFAULT_SERVICE_RETRY_BUDGET_MS } from '../queue/settings.js';
 import { withServiceRetry } from '../queue/retry.js';
 import { createConfiguredRunner, prepareConfiguredRunner } from '../queue/configured.js';
 import type { Store } from '../store/index.js';
-import { openConfiguredStore } from '../store/configured.js';
+import { openConfiguredStore, prepareConfiguredStore } from '../store/configured.js';
 import { upsertDistricts } from '../store/districts.js';
 import { startRun, finishRun } from '../store/runs.js';
 import { markSceneFailed, scenesNotProcessed } from '../store/scenes.js';
@@ -246,13 +246,17 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
   // An embedded store takes about a second to open (PGlite's start): once the walk has found
   // scene files, it opens while they are hashed, and the worker threads load their modules
   // meanwhile (errors are the runner's to report). A server connection is quick, and is made
-  // only once the inputs are known good, so that a server that is away never delays an input error.
+  // only once the inputs are known good, so that a server that is away never delays an input
+  // error; only the modules of its client and of the queue's load while the files are hashed.
   const early: { store: Promise<Store> | null } = { store: null };
   const startEarly = () => {
-    if (config.databaseUrl) return;
+    void prepareConfiguredRunner(config, runnerParts(options.threads)).catch(() => undefined);
+    if (config.databaseUrl) {
+      void prepareConfiguredStore(config).catch(() => undefined);
+      return;
+    }
     early.store = openConfiguredStore(config);
     early.store.catch(() => undefined); // its error is met below, or the input error comes first
-    void prepareConfiguredRunner(config, runnerParts(options.threads)).catch(() => undefined);
   };
   const inputs = await runInputs(options, districts, ruralDescription, startEarly).catch(async (e: unknown) => {
     await early.store?.then((s) => s.close(), () => undefined);

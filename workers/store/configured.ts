@@ -32,3 +32,12 @@ export async function openConfiguredStore(config: StoreConfig & { mode?: 'embedd
   }
   return config.databaseUrl ? openStore({ databaseUrl: config.databaseUrl }) : openStore({ dataDir: config.dataDir, readOnly: options.readOnly });
 }
+
+/**
+ * Load ahead the modules the store of a configuration will need, while the
+ * caller does other work; nothing is opened or connected. Errors are left for
+ * {@link openConfiguredStore} to report.
+ */
+export async function prepareConfiguredStore(config: StoreConfig): Promise<void> {
+  if (config.databaseUrl) await import('./pg.js');
+}

@@ -163,19 +163,21 @@ function connect(redisUrl: string, onError: (e: Error) => void): Redis {
 }
 
 /** Reports a repeating connection error once until it changes (also to `logger`); `last()` is the latest message. */
-function quietErrors(prefix: string, logger?: WorkerLogger): ((e: Error) => void) & { last(): string } {
+function quietErrors(prefix: string, logger?: WorkerLogger): ((e: Error) => void) & { last(): string; silence(): void } {
   let last = '';
   let lastMessage = '';
+  let silent = false;
   const report = (e: Error) => {
     lastMessage = e.message || String(e);
     const text = `${prefix}: ${lastMessage}`;
-    if (text !== last) {
+    if (!silent && text !== last) {
       last = text;
       process.stderr.write(`${text}\n`);
       logger?.error({ error: lastMessage }, 'connection error');
     }
   };
-  return Object.assign(report, { last: () => lastMessage });
+  // silence(): the connections are being closed on purpose; their errors ("Connection is closed") are not news
+  return Object.assign(report, { last: () => lastMessage, silence: () => { silent = true; } });
 }
 
 function idFromKey(key: string): string {
@@ -446,6 +448,7 @@ export function createBullRunner(options: BullRunnerOptions): Runner {
     runFlow,
     async close() {
       closed = true;
+      onError.silence();
       if (connection.status !== 'ready') {
         // Redis is away: BullMQ's close() would wait for a reconnect; start the closes without waiting and drop the connections.
         for (const e of openEvents) void e.close().catch(() => undefined);

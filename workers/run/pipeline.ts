@@ -318,7 +318,8 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     try {
       result = await runner.runFlow(root, {
         onProgress: options.onProgress ? (p) => options.onProgress!({ ...p, elapsedSeconds: (performance.now() - started) / 1000 }) : undefined,
-        onNotice: options.onNotice,
+        // once interrupted, the runner's notices (while it stops) are not news
+        onNotice: options.onNotice ? (m) => { if (!interrupted) options.onNotice!(m); } : undefined,
       });
     } catch (e) {
       if (interrupted) result = null;

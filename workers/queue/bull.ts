@@ -21,6 +21,7 @@ import type * as BullMQ from 'bullmq';
 import type { FlowJob, MinimalJob } from 'bullmq';
 import type * as IORedis from 'ioredis';
 import { InputError, isInputError, ServiceError } from '../core/errors.js';
+import { settleWithin } from '../core/settle.js'; // closing connections must not hang while Redis is away
 import { deferredCaList, tlsWithExtraCa } from '../extra-ca.js';
 import { loadProcessors, runAttempt, sortedRecord } from './execute.js';
 import {
@@ -139,13 +140,6 @@ function watchRedis(connection: Redis, where: string, budgetMs: number, lastErro
       connection.off('ready', onReady);
     },
   };
-}
-
-/** `p`, or undefined after `ms` (closing connections must not hang while Redis is away). */
-function settleWithin(p: Promise<unknown>, ms: number): Promise<void> {
-  let t: NodeJS.Timeout | undefined;
-  return Promise.race([p.then(() => undefined, () => undefined), new Promise<void>((res) => { t = setTimeout(res, ms); })])
-    .finally(() => clearTimeout(t));
 }
 
 /** An ioredis connection as BullMQ needs it (commands wait through reconnects). */

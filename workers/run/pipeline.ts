@@ -8,6 +8,7 @@
 import os from 'node:os';
 import { resolve } from 'node:path';
 import { InputError, isServiceError } from '../core/errors.js';
+import { settleWithin } from '../core/settle.js';
 import { readDistricts, ruralRing, subtractPolygons, type District } from '../core/districts/index.js';
 import { writeRuralDescription } from '../core/districts/rural-description.js';
 import type { DeriveOptions } from '../core/derive/metrics.js';
@@ -45,14 +46,6 @@ export const RURAL_ID = 'rural';
  * within milliseconds unless a job is blocked in a read that never returns.
  */
 const RUNNER_STOP_WAIT_MS = 10_000;
-
-/** `p`'s value, or `otherwise` if it has not settled within `ms`. */
-function settledWithin<T>(p: Promise<T>, ms: number, otherwise: T): Promise<T> {
-  return new Promise((resolve) => {
-    const t = setTimeout(() => resolve(otherwise), ms);
-    void p.then((v) => { clearTimeout(t); resolve(v); });
-  });
-}
 
 export interface PipelineOptions {
   /** Scene files and folders (searched recursively for .tif/.tiff). */
@@ -283,14 +276,13 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       }
       interrupted = true;
       // stop handing out jobs; the run is recorded meanwhile (a job blocked in a read must not hold that up)
-      const closed = runner ? runner.close().then(() => true, () => true) : Promise.resolve(true);
+      const stopped = runner ? settleWithin(runner.close(), RUNNER_STOP_WAIT_MS) : Promise.resolve(true);
       runner = null;
       const left = await scenesNotProcessed(store, files.map((f) => f.contentHash));
       await finishRun(store, runId, { status: 'interrupted', error: `stopped by ${signal}`, scenesLeft: left });
-      const stopped = await settledWithin(closed, RUNNER_STOP_WAIT_MS, false);
       return {
         message: `interrupted; run ${runId} marked interrupted, ${left} scene(s) left — run the same ingest again to finish them`,
-        ...(stopped ? {} : { stuck: true }),
+        ...((await stopped) ? {} : { stuck: true }),
       };
     });
     const identity = await onServer(() => storeIdentity(store));

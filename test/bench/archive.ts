@@ -250,7 +250,7 @@ async function embeddedRun(s: Setup, fresh: boolean): Promise<ArchiveRun> {
     const summary = JSON.parse(r.stdout) as SummaryJson;
     const t = readTiming(timingFile);
     const busyMs = t ? unionLength(t.writeIntervals) : null;
-    const zonalRows = t?.methods.replaceZonalStats?.rows ?? 0;
+    const zonalRows = t?.methods.storeProcessedScene?.rows ?? 0;
     return {
       config: fresh ? 'embedded_fresh' : 'embedded', scenes: summary.scenes, wallSeconds: r.wallSeconds,
       scenesPerSecond: summary.scenes / r.wallSeconds, cpu: { command, workers: 0, postgres: 0, redis: 0 }, cpuPerScene: command / summary.scenes,

@@ -15,7 +15,7 @@ import type { PipelineRepo } from '../../workers/store/pipeline-repo.js';
 export interface MethodTiming {
   calls: number;
   totalMs: number;
-  /** Rows handed over (replaceZonalStats, replaceDerivedFor). */
+  /** Rows handed over (storeProcessedScene, replaceDerivedFor). */
   rows: number;
 }
 
@@ -23,7 +23,7 @@ export interface MethodTiming {
 export interface RepoTiming {
   pid: number;
   methods: Record<string, MethodTiming>;
-  /** [start, end] of every result write (replaceZonalStats, replaceDerivedFor), epoch milliseconds. */
+  /** [start, end] of every result write (storeProcessedScene, replaceDerivedFor), epoch milliseconds. */
   writeIntervals: [number, number][];
   /** Start of the first and end of the last repository call, epoch milliseconds (null before any call). */
   firstCallAt: number | null;
@@ -34,7 +34,7 @@ export interface RepoTiming {
 }
 
 /** Methods that write results: the storage share of a run is their time. */
-export const RESULT_WRITES = ['replaceZonalStats', 'replaceDerivedFor'];
+export const RESULT_WRITES = ['storeProcessedScene', 'replaceDerivedFor'];
 
 const timing: RepoTiming = { pid: process.pid, methods: {}, writeIntervals: [], firstCallAt: null, lastCallEnd: null, firstCallHrUs: null, lastCallEndHrUs: null };
 (globalThis as { __heatledgerBenchRepoTiming?: RepoTiming }).__heatledgerBenchRepoTiming = timing;
@@ -66,7 +66,7 @@ export function timePipelineRepo(real: PipelineRepo): PipelineRepo {
         m.totalMs += t1 - t0;
         if (isWrite) {
           timing.writeIntervals.push([t0, t1]);
-          // replaceZonalStats(sceneId, rows, runId) and replaceDerivedFor(districtIds, rows)
+          // storeProcessedScene(scene, rows, warnings) and replaceDerivedFor(districtIds, rows)
           if (Array.isArray(args[1])) m.rows += args[1].length;
         }
       }

@@ -1,7 +1,7 @@
 /**
  * Pipeline throughput: scenes per second for a 200-scene archive (1000 x 1000
  * pixels, 20 districts; pipeline-data.ts) through the whole job tree
- * (ingest, zonal per scene, derive), in four configurations:
+ * (a scene job per file, then derive), in four configurations:
  *
  * - embedded_1, embedded_2: runPipeline with 1 and 2 worker threads, PGlite in
  *   a temporary data dir, each run in a fresh `node` process;
@@ -14,7 +14,7 @@
  * start to its end: districts, hashing, store open, every job, derive); the
  * process wall time is printed beside it. Storage share: every process times
  * its repository (pipeline-register.ts, through `node --import`, registers the
- * wrapper of pipeline-timing-repo.ts), so the time inside replaceZonalStats / replaceDerivedFor
+ * wrapper of pipeline-timing-repo.ts), so the time inside storeProcessedScene / replaceDerivedFor
  * is measured, not estimated. Embedded: time with at least one write in
  * flight (PGlite runs them one at a time on the main thread) / run time.
  * Distributed: summed write time of all workers / (workers x run time).
@@ -73,7 +73,7 @@ export interface RunFigures {
   /** Embedded only: runPipeline's start to the first repository call, and the last one to its return, seconds. */
   startupSeconds: number | null;
   finishSeconds: number | null;
-  /** Summed time inside result writes (replaceZonalStats, replaceDerivedFor), ms, all processes. */
+  /** Summed time inside result writes (storeProcessedScene, replaceDerivedFor), ms, all processes. */
   writeMs: number;
   /** Time with at least one result write in flight, ms (union of the intervals, all processes). */
   writeBusyMs: number;
@@ -333,7 +333,7 @@ async function embeddedRun(data: PipelineBenchData, threads: number, cpuProfileD
     const out = JSON.parse(r.stdout.trim().split('\n').pop()!) as EmbeddedOutput;
     const t = out.timing;
     if (!t || t.firstCallAt === null || t.lastCallEnd === null) throw new Error('the embedded run did not load the timed repository (pipeline-register.js); storage time unknown');
-    const zonalRows = t.methods.replaceZonalStats?.rows ?? 0;
+    const zonalRows = t.methods.storeProcessedScene?.rows ?? 0;
     const f = figuresOf(threads === 1 ? 'embedded_1' : 'embedded_2', out.summary, r.wallSeconds, [t], 'main-thread', zonalRows);
     return { ...f, startupSeconds: (t.firstCallAt - out.startedAt) / 1000, finishSeconds: (out.endedAt - t.lastCallEnd) / 1000, clocks: out };
   } finally {
@@ -556,7 +556,7 @@ export async function runPipelineBench(options: PipelineBenchOptions = {}): Prom
     storage_fraction_by_config: storage,
     storage_measurement:
       'measured: every process times its repository (wrapper registered by a node --import preload); embedded = time with a result write ' +
-      '(replaceZonalStats/replaceDerivedFor) in flight on the PGlite main thread / run seconds; distributed = summed write time of the workers / (workers x run seconds)',
+      '(storeProcessedScene/replaceDerivedFor) in flight on the PGlite main thread / run seconds; distributed = summed write time of the workers / (workers x run seconds)',
     seconds: Object.fromEntries(CONFIGS.map((c) => [c, runs[c].map((f) => f.seconds)])) as Record<PipelineConfig, number[]>,
     wall_seconds: Object.fromEntries(CONFIGS.map((c) => [c, runs[c].map((f) => f.wallSeconds)])) as Record<PipelineConfig, number[]>,
     phase_seconds_median: Object.fromEntries(CONFIGS.map((c) => [c, runs[c].length ? {

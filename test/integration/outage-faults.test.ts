@@ -109,22 +109,22 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
       return cliOk(['table', '--format', 'json', '--data-dir', embeddedDir], cleanEnv());
     })();
 
-    const worker = await startCliWorker(env, 60_000);
-    const ingest = runCli(ingestArgs(archive), env, 400_000);
-
-    // Mid-run, for certain: hold the statistics table as soon as it exists, wait until a worker's
-    // zonal step is blocked on it (scenes registered, none stored), then crash the server.
+    // Mid-run, for certain: the store created (`status` migrates it), its statistics table held
+    // before the run starts; wait until a worker's scene job is blocked storing on it (nothing
+    // stored yet), then crash the server.
+    await cliOk(['status'], env);
     const lock = new pg.Client({ connectionString: server.url('heat') });
     lock.on('error', () => undefined);
     await lock.connect();
-    await waitFor(tolerant(async () => ((await lock.query(`SELECT to_regclass('zonal_stats') AS t`)).rows[0].t ? true : undefined)), 'the tables migrated', 200_000, 50);
     await lock.query('BEGIN');
     await lock.query('LOCK TABLE zonal_stats IN SHARE MODE');
+    const worker = await startCliWorker(env, 60_000);
+    const ingest = runCli(ingestArgs(archive), env, 400_000);
     // (Asked on a connection of its own: pg_stat_activity is a snapshot per transaction.)
     await waitFor(tolerant(() => withClient(server.url('heat'), async (c) => {
-      const n = Number((await c.query(`SELECT count(*) AS n FROM pg_stat_activity WHERE wait_event_type = 'Lock' AND query ILIKE '%zonal_stats%'`)).rows[0].n);
+      const n = Number((await c.query(`SELECT count(*) AS n FROM pg_locks WHERE relation = 'zonal_stats'::regclass AND NOT granted`)).rows[0].n);
       return n > 0 ? n : undefined;
-    })), 'a zonal step waiting on its transaction', 300_000, 200);
+    })), 'a scene job waiting to store', 300_000, 200);
     const storedAtStop = Number((await lock.query('SELECT count(DISTINCT scene_id) AS n FROM zonal_stats')).rows[0].n);
     await server.stop('immediate');
     await lock.end().catch(() => undefined);
@@ -283,7 +283,7 @@ describe.skipIf(!up)('distributed pipeline through service outages', { concurren
     const files = filesOf(TINY);
     const line = r.stderr.split('\n').find((l) => l.startsWith('heatledger: service error: ')) ?? '';
     // Only the ingest jobs (the leaves of the tree) are waiting in a queue; zonal and derive wait for their children.
-    expect(line).toMatch(new RegExp(`^heatledger: service error: run \\d+ is incomplete \\(${files} of ${files} scene\\(s\\) not finished, district table not derived\\): stalled: no heatledger worker made progress on this run for \\d+ s \\(${files} job\\(s\\) waiting in queue heatledger-ingest\\); is a \`heatledger worker\` running \\(same REDIS_URL and HEATLEDGER_QUEUE_PREFIX\\)\\? Nothing stored is lost; start \`heatledger worker\` and run the same command again$`));
+    expect(line).toMatch(new RegExp(`^heatledger: service error: run \\d+ is incomplete \\(${files} of ${files} scene\\(s\\) not finished, district table not derived\\): stalled: no heatledger worker made progress on this run for \\d+ s \\(${files} job\\(s\\) waiting in queue heatledger-scene\\); is a \`heatledger worker\` running \\(same REDIS_URL and HEATLEDGER_QUEUE_PREFIX\\)\\? Nothing stored is lost; start \`heatledger worker\` and run the same command again$`));
     expect(await lastRun(db.url)).toMatchObject({ status: 'incomplete', scenes_left: files });
   }, 300_000);
 });

@@ -72,7 +72,7 @@ describe.skipIf(!up)('distributed pipeline: 2 worker processes, Redis, PostgreSQ
     // both processes are connected to the queues they serve (waited for: a worker registers as it connects)
     const conn = new Redis(testRedisUrl, { maxRetriesPerRequest: 1 });
     try {
-      for (const name of ['ingest', 'zonal', 'derive']) {
+      for (const name of ['scene', 'derive']) {
         const q = new Queue(queueNameFor(name), { connection: conn, prefix });
         let count = 0;
         await waitFor(async () => (count = await q.getWorkersCount()) >= 2, `two workers on the ${name} queue`);

@@ -92,7 +92,7 @@ describe.skipIf(!up)('distributed pipeline: 8 worker processes store what 1 stor
     }
     const conn = new Redis(testRedisUrl, { maxRetriesPerRequest: 1 });
     try {
-      for (const name of ['ingest', 'zonal', 'derive']) {
+      for (const name of ['scene', 'derive']) {
         const q = new Queue(queueNameFor(name), { connection: conn, prefix });
         await waitFor(async () => (await q.getWorkersCount()) >= count, `${count} workers on the ${name} queue`);
         await q.close();

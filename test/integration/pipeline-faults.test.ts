@@ -2,7 +2,7 @@
  * The distributed pipeline under faults, with real `heatledger worker`
  * processes, Redis (a unique key prefix per test) and fresh PostgreSQL databases:
  *
- * - a worker killed with SIGKILL after some zonal jobs completed, and a new
+ * - a worker killed with SIGKILL after some scene jobs completed, and a new
  *   worker started: BullMQ's stalled-job check hands the killed worker's jobs
  *   to the new one, with the default stalled interval and lock
  *   (workers/queue/settings.ts); the recovery time is printed, not asserted. The final table must
@@ -88,11 +88,11 @@ describe.skipIf(!up)('distributed pipeline under faults', { concurrent: true }, 
           doneAtKill = 0; // tables not migrated yet
         }
         if (doneAtKill >= 3) break;
-        if (Date.now() > deadline) throw new Error('no zonal job completed within 10 minutes');
+        if (Date.now() > deadline) throw new Error('no scene job completed within 10 minutes');
         await sleep(25);
       }
       await stopChild(first.child, 'SIGKILL');
-      activeAtKill = (await redis.llen(`${prefix}:${queueNameFor('zonal')}:active`)) + (await redis.llen(`${prefix}:${queueNameFor('ingest')}:active`));
+      activeAtKill = await redis.llen(`${prefix}:${queueNameFor('scene')}:active`);
     } finally {
       redis.disconnect();
       await client.end().catch(() => undefined);

@@ -36,6 +36,9 @@ import {
   replaceZonalStats,
   sceneStatusCounts,
   startRun,
+  storedSceneState,
+  storeProcessedScene,
+  knownContentHashes,
   upsertDistricts,
   zonalStatsForScenes,
   type DerivedInput,
@@ -826,6 +829,52 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
     ]);
     out.tableOrder = dates;
     out.tableYearOrder = years;
+  });
+
+  it('stores a processed scene with its statistics in one statement, as registering then replacing does', async () => {
+    const twin = lstScene('x-2024-07-17-twin', '2024-07-17T10:30:00Z', 'day');
+    const extra = lstScene('x-2024-07-17', '2024-07-17T10:30:00Z', 'day');
+    const rows = [zonal('harbour', 311.5, 0.9), zonal('old-town', 308.75, 0.8), zonal('rural-ring', 303.25, 0.95)];
+    // the long way: register, then replace the statistics (which marks the scene processed)
+    const twinId = await registerScene(store, { ...twin, runId });
+    await replaceZonalStats(store, twinId, rows, { runId });
+    // an earlier failure of the same path, recorded before its bytes could be hashed, gives way
+    await markSceneFailed(store, { path: extra.path, error: 'permission denied' });
+    expect(await storedSceneState(store, extra.contentHash, 'centre')).toBeNull();
+    expect([...await knownContentHashes(store, [extra.contentHash, SCENES.day1.contentHash])]).toEqual([SCENES.day1.contentHash]);
+
+    const id = await storeProcessedScene(store, { ...extra, runId }, rows, { runId, warnings: ['metadata block unreadable'] });
+    const strip = (z: ZonalStatsInput & { sceneId: number }) => ({ ...z, sceneId: 'ID' });
+    expect((await zonalStatsForScenes(store, [id])).map(strip)).toEqual((await zonalStatsForScenes(store, [twinId])).map(strip));
+    const { status, error, runId: sceneRun, processedAt, kind, acquiredAt } = (await findSceneByHash(store, extra.contentHash))!;
+    expect({ status, error, sceneRun, kind, acquiredAt }).toEqual({ status: 'processed', error: null, sceneRun: runId, kind: 'lst', acquiredAt: '2024-07-17T10:30:00.000Z' });
+    expect(processedAt).toMatch(/Z$/);
+    const warningsOf = async (sceneId: number) => (await store.query<{ w: string[] }>('SELECT warnings AS w FROM scenes WHERE id = $1', [sceneId]))[0].w;
+    expect(await warningsOf(id)).toEqual(['metadata block unreadable']);
+    expect((await failures(store)).map((f) => f.path)).not.toContain(extra.path);
+    expect(await knownContentHashes(store, [extra.contentHash])).toEqual(new Set([extra.contentHash]));
+
+    // Stored again from another path with one district fewer: same scene, its rows replaced, no warnings left.
+    const moved = { ...extra, path: '/archive/velmora/moved/x-2024-07-17.tif', runId };
+    expect(await storeProcessedScene(store, moved, rows.slice(0, 2), { runId })).toBe(id);
+    expect((await zonalStatsForScenes(store, [id])).map((z) => [z.districtId, z.meanKelvin])).toEqual([['harbour', 311.5], ['old-town', 308.75]]);
+    expect((await findSceneByHash(store, extra.contentHash))!.path).toBe(moved.path);
+    expect(await warningsOf(id)).toEqual([]);
+    // what a scene job reads before computing: the districts with current statistics under the rule
+    expect(await storedSceneState(store, extra.contentHash, 'centre')).toEqual({ id, status: 'processed', districts: ['harbour', 'old-town'], lstInputsFingerprint: null });
+    expect((await storedSceneState(store, extra.contentHash, 'fraction'))!.districts).toEqual([]);
+
+    // A row the database refuses (unknown district) changes nothing: not the path, not the rows.
+    const before = await zonalStatsForScenes(store, [id]);
+    await expect(storeProcessedScene(store, { ...moved, path: '/elsewhere.tif' }, [zonal('harbour', 1, 1), zonal('nowhere', 2, 1)], { runId }))
+      .rejects.toBeInstanceOf(ServiceError);
+    expect(await zonalStatsForScenes(store, [id])).toEqual(before);
+    expect((await findSceneByHash(store, extra.contentHash))!.path).toBe(moved.path);
+    // A NaN never reaches the database.
+    await expect(storeProcessedScene(store, moved, [zonal('harbour', Number.NaN, 1)], { runId })).rejects.toThrow(/meanKelvin.*finite/);
+
+    // leave the store as the tests before this one left it
+    await store.query('DELETE FROM scenes WHERE id = ANY($1::bigint[])', [[id, twinId]]);
   });
 
   it('reads named queries from sql/queries and rejects unknown names', () => {

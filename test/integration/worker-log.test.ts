@@ -70,7 +70,7 @@ describe.skipIf(!available)('worker log lines', () => {
     expect(lines.at(-1)!.msg).toBe('worker stopped');
     expect(lines.some((l) => l.level === 20 && l.msg === 'job taken')).toBe(true);
     const done = lines.filter((l) => l.level === 30 && l.msg === 'job done');
-    expect(new Set(done.map((l) => l.job))).toEqual(new Set(['ingest', 'zonal', 'derive']));
+    expect(new Set(done.map((l) => l.job))).toEqual(new Set(['scene', 'derive']));
     for (const l of done) expect(l.ms).toBeTypeOf('number');
     const refused = lines.filter((l) => l.level === 50);
     expect(refused.length).toBeGreaterThanOrEqual(1);

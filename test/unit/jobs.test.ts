@@ -3,7 +3,8 @@ import { tmpdir } from 'node:os';
 import { join } from 'node:path';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { writeGeoTiff } from '../../workers/core/raster/write.js';
-import { ingest } from '../../workers/jobs/ingest.js';
+import { scene as sceneJob, type SceneData } from '../../workers/jobs/scene.js';
+import { crsDefinitionForEpsg, makeTransformer } from '../../workers/core/crs/index.js';
 import { hashFile } from '../../workers/core/hash.js';
 import { ruralRing, parseDistricts } from '../../workers/core/districts/index.js';
 import { buildFlow } from '../../workers/run/flow.js';
@@ -15,16 +16,29 @@ let dir: string;
 beforeAll(async () => { dir = await mkdtemp(join(tmpdir(), 'heatledger-jobs-')); });
 afterAll(async () => { await rm(dir, { recursive: true, force: true }); });
 
-/** A repository that records what ingest asks of it. */
-function fakeRepo() {
+/** A district over the whole 32 x 32 test scene (UTM 25N, 100 m pixels), in lon/lat. */
+const toLonLat = makeTransformer(crsDefinitionForEpsg(32625), crsDefinitionForEpsg(4326));
+const box = (x0: number, x1: number, y0 = 4896800, y1 = 4900000) => ({ type: 'Polygon', coordinates: [[[x0, y0], [x1, y0], [x1, y1], [x0, y1], [x0, y0]].map(([x, y]) => toLonLat(x, y))] });
+
+/** A repository that records what a scene job asks of it; `stored` answers the look-up for earlier results. */
+function fakeRepo(stored: { id: number; status: string; districts: string[]; lstInputsFingerprint: string | null } | null = null) {
   const calls: { method: string; args: unknown[] }[] = [];
+  const record = <T>(method: string, value: T) => async (...args: unknown[]) => { calls.push({ method, args }); return value; };
   const repo = {
-    findSceneByHash: async (...args: unknown[]) => { calls.push({ method: 'findSceneByHash', args }); return null; },
-    registerSceneReporting: async (...args: unknown[]) => { calls.push({ method: 'registerScene', args }); return { id: 7, previousStatus: null }; },
-    markSceneFailed: async (...args: unknown[]) => { calls.push({ method: 'markSceneFailed', args }); return 8; },
+    storedSceneState: record('storedSceneState', stored),
+    storeProcessedScene: record('storeProcessedScene', 7),
+    registerSceneReporting: record('registerSceneReporting', { id: 7, previousStatus: stored?.status ?? null }),
+    setSceneWarnings: record('setSceneWarnings', undefined),
+    markSceneFailed: record('markSceneFailed', 8),
+    listDistricts: record('listDistricts', [{ id: 'd', geometry: box(300000, 303200) }]),
   } as unknown as PipelineRepo;
-  const ctx: JobContext<PipelineRepo> = { jobId: 'j', name: 'ingest', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 };
+  const ctx: JobContext<PipelineRepo> = { jobId: 'j', name: 'scene', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 };
   return { calls, ctx };
+}
+
+/** A scene job's data for one file: the district `d`, pixel-centre rule, the usual plausible range. */
+function sceneData(path: string, contentHash: string, more: Partial<SceneData> = {}): SceneData {
+  return { path, contentHash, runId: 1, targetIds: ['d'], targetsKey: 'k', coverage: 'centre', plausibleKelvin: [170, 360], ...more };
 }
 
 async function scene(name: string, metadata: Record<string, string>, dateTime?: string): Promise<string> {
@@ -40,37 +54,41 @@ async function scene(name: string, metadata: Record<string, string>, dateTime?: 
   return path;
 }
 
-describe('ingest processor', () => {
+describe('scene processor', () => {
   it('registers a scene with its UTC time, day pass and timing rating from the sun at the scene centre', async () => {
     const path = await scene('day.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z', KIND: 'lst' });
     const { calls, ctx } = fakeRepo();
-    const r = await ingest({ path, contentHash: await hashFile(path), runId: 1 }, ctx);
-    expect(r).toMatchObject({ sceneId: 7, kind: 'lst', pass: 'day', acquiredAt: '2024-07-14T15:52:00Z', alreadyStored: false });
-    const reg = calls.find((c) => c.method === 'registerScene')!.args[0] as Record<string, unknown>;
+    const r = await sceneJob(sceneData(path, await hashFile(path)), ctx);
+    expect(r).toMatchObject({ sceneId: 7, kind: 'lst', pass: 'day', acquiredAt: '2024-07-14T15:52:00Z', alreadyStored: false, rows: 1 });
+    // one write: the registration with the statistics (DN 44000 x 0.00341802 + 149 = 299.39288 K, Landsat C2 ST scaling; derived)
+    expect(calls.map((c) => c.method)).toEqual(['storedSceneState', 'listDistricts', 'storeProcessedScene']);
+    const [reg, rows] = calls.find((c) => c.method === 'storeProcessedScene')!.args as [Record<string, unknown>, { districtId: string; meanKelvin: number; pixels: number }[]];
+    expect(rows.map((z) => [z.districtId, z.pixels])).toEqual([['d', 1024]]);
+    expect(rows[0].meanKelvin).toBeCloseTo(44000 * 0.00341802 + 149, 9);
     // 13:30 local solar time at about 35.6 W in July: near solar noon (SPA; derived)
     expect(reg).toMatchObject({ kind: 'lst', pass: 'day', timingRating: 'midday', epsg: 32625, width: 32, height: 32, scale: 0.00341802, offset: 149, nodata: 0, pixelSizeMetres: 100 });
   });
   it('takes the TIFF DateTime tag as UTC when there is no metadata item', async () => {
     const path = await scene('tagonly.tif', {}, '2024:07:15 03:52:00');
     const { ctx } = fakeRepo();
-    const r = await ingest({ path, contentHash: await hashFile(path), runId: 1 }, ctx);
+    const r = await sceneJob(sceneData(path, await hashFile(path)), ctx);
     expect(r).toMatchObject({ acquiredAt: '2024-07-15T03:52:00Z', pass: 'night' });
   });
   it('refuses an LST scene with no time anywhere, records it as failed with the reason, names the file', async () => {
     const path = await scene('notime.tif', {});
     const { calls, ctx } = fakeRepo();
     const hash = await hashFile(path);
-    const err = await ingest({ path, contentHash: hash, runId: 3 }, ctx).catch((e: unknown) => e as Error);
+    const err = await sceneJob(sceneData(path, hash, { runId: 3 }), ctx).catch((e: unknown) => e as Error);
     expect((err as Error).name).toBe('InputError');
     expect((err as Error).message).toMatch(/notime\.tif: has no acquisition time.*--manifest/);
     const failed = calls.find((c) => c.method === 'markSceneFailed')!.args[0] as Record<string, unknown>;
     expect(failed).toMatchObject({ contentHash: hash, path, runId: 3 });
-    expect(calls.some((c) => c.method === 'registerScene')).toBe(false);
+    expect(calls.map((c) => c.method)).toEqual(['markSceneFailed']);
   });
   it('lets a manifest give the time and the kind', async () => {
     const path = await scene('manifest.tif', {});
     const { ctx } = fakeRepo();
-    const r = await ingest({ path, contentHash: await hashFile(path), runId: 1, manifest: { path, kind: 'lst', acquiredAt: '2024-07-15T03:52:00Z' } }, ctx);
+    const r = await sceneJob(sceneData(path, await hashFile(path), { manifest: { path, kind: 'lst', acquiredAt: '2024-07-15T03:52:00Z' } }), ctx);
     expect(r).toMatchObject({ pass: 'night', acquiredAt: '2024-07-15T03:52:00Z' });
   });
   it('records a truncated file as failed', async () => {
@@ -80,10 +98,54 @@ describe('ingest processor', () => {
     const path = join(dir, 'cut.tif');
     await writeFile(path, bytes.subarray(0, Math.floor(bytes.length / 2)));
     const { calls, ctx } = fakeRepo();
-    const err = await ingest({ path, contentHash: await hashFile(path), runId: 1 }, ctx).catch((e: unknown) => e as Error);
+    const err = await sceneJob(sceneData(path, await hashFile(path)), ctx).catch((e: unknown) => e as Error);
     expect((err as Error).name).toBe('InputError');
     expect((err as Error).message).toContain('cut.tif');
     expect(calls.map((c) => c.method)).toContain('markSceneFailed');
+    expect(calls.map((c) => c.method)).not.toContain('storeProcessedScene');
+  });
+  it('computes nothing for a scene already processed for every district of the run, and takes its path and header as read now', async () => {
+    const path = await scene('again.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z' });
+    const { calls, ctx } = fakeRepo({ id: 7, status: 'processed', districts: ['d'], lstInputsFingerprint: null });
+    const r = await sceneJob(sceneData(path, await hashFile(path)), ctx);
+    expect(r).toMatchObject({ sceneId: 7, alreadyStored: true, rows: 0, skipped: 'already processed' });
+    expect(calls.map((c) => c.method)).toEqual(['storedSceneState', 'registerSceneReporting', 'setSceneWarnings']);
+    expect((calls[1].args[0] as { path: string }).path).toBe(path);
+    // a district of the run without current statistics: computed and stored again
+    const { calls: again } = await (async () => {
+      const f = fakeRepo({ id: 7, status: 'processed', districts: [], lstInputsFingerprint: null });
+      await sceneJob(sceneData(path, await hashFile(path)), f.ctx);
+      return f;
+    })();
+    expect(again.map((c) => c.method)).toEqual(['storedSceneState', 'storeProcessedScene']);
+  });
+  it('does not look for earlier results of a scene the store did not have when the run was built', async () => {
+    const path = await scene('new.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z' });
+    const { calls, ctx } = fakeRepo({ id: 7, status: 'processed', districts: ['d'], lstInputsFingerprint: null });
+    const r = await sceneJob(sceneData(path, await hashFile(path), { newToStore: true }), ctx);
+    expect(r).toMatchObject({ alreadyStored: false, rows: 1 });
+    expect(calls.map((c) => c.method)).toEqual(['storeProcessedScene']);
+  });
+  it('keeps what was read of a scene whose pixels cannot be decoded beside its failure', async () => {
+    const good = await scene('tiles.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z' });
+    const { readFile } = await import('node:fs/promises');
+    const bytes = Buffer.from(await readFile(good));
+    const { openRaster } = await import('../../workers/core/raster/index.js');
+    const r0 = await openRaster(good);
+    // the first tile's stored bytes overwritten (its offset read from the reader's block layout): no longer a zlib stream
+    const first = (r0 as unknown as { layout: { offsets: Float64Array } }).layout.offsets[0];
+    await r0.close();
+    expect(first).toBeGreaterThan(0);
+    bytes.fill(0xff, first, first! + 8);
+    const path = join(dir, 'badtile.tif');
+    await writeFile(path, bytes);
+    const { calls, ctx } = fakeRepo();
+    // a targets key of its own: the district geometries are fetched afresh (not from an earlier test's cache)
+    const err = await sceneJob(sceneData(path, await hashFile(path), { newToStore: true, targetsKey: 'badtile' }), ctx).catch((e: unknown) => e as Error);
+    expect((err as Error).name).toBe('InputError');
+    expect((err as Error).message).toContain('badtile.tif');
+    expect(calls.map((c) => c.method)).toEqual(['listDistricts', 'registerSceneReporting', 'markSceneFailed']);
+    expect(calls[1].args[0]).toMatchObject({ path, kind: 'lst', pass: 'day', width: 32 });
   });
 });
 
@@ -119,13 +181,20 @@ describe('job tree', () => {
     derive: { districtIds: ['d1'], ruralId: 'rural', options: { pairingWindowHours: 18, albedoWindowDays: 32, minValidFraction: 0.5, minDifferenceKelvin: 0.5 }, albedoProperties: {} },
     qaMaskBits: 24,
   };
-  it('is derive <- zonal per scene <- ingest, with the QA raster and bits on the scene that has one', () => {
+  it('is derive <- one scene job per file, with the QA raster and bits on the scene that has one', () => {
     const root = buildFlow(args);
     expect(root.name).toBe('derive');
-    expect(root.children!.map((c) => c.name)).toEqual(['zonal', 'zonal']);
-    expect(root.children!.map((c) => c.children![0].name)).toEqual(['ingest', 'ingest']);
+    expect(root.children!.map((c) => c.name)).toEqual(['scene', 'scene']);
+    expect(root.children!.every((c) => c.children === undefined)).toBe(true);
     expect((root.children![0].data as { qa?: unknown }).qa).toEqual({ path: '/a/day_qa.tif', maskBits: 24 });
     expect((root.children![1].data as { qa?: unknown }).qa).toBeUndefined();
+  });
+  it('marks the scenes the store did not have as new, without changing any job id', () => {
+    const known = buildFlow({ ...args, knownHashes: new Set(['a'.repeat(64)]) });
+    expect(known.children!.map((c) => (c.data as SceneData).newToStore)).toEqual([undefined, true]);
+    expect(buildFlow(args).children!.map((c) => (c.data as SceneData).newToStore)).toEqual([undefined, undefined]);
+    expect(known.id).toBe(buildFlow(args).id);
+    expect(known.children!.map((c) => c.id)).toEqual(buildFlow(args).children!.map((c) => c.id));
   });
   it('derives ids from content and parameters: same inputs give the same ids, another database or parameter other ids', () => {
     const a = buildFlow(args);
@@ -133,56 +202,53 @@ describe('job tree', () => {
     expect(buildFlow({ ...args, runId: 9 }).id).toBe(a.id); // the run number is not content
     expect(buildFlow({ ...args, identity: 'db2' }).id).not.toBe(a.id);
     expect(buildFlow({ ...args, params: { coverageRule: 'fraction' } }).children![0].id).not.toBe(a.children![0].id);
-    expect(buildFlow({ ...args, params: { coverageRule: 'fraction' } }).children![0].children![0].id).toBe(a.children![0].children![0].id);
+    expect(buildFlow({ ...args, files: [files[1], files[0]] }).children!.map((c) => c.id)).toEqual([a.children![1].id, a.children![0].id]);
   });
 });
 
 describe('progress in scenes', () => {
-  it('counts a scene once: done when its zonal job is, failed when its ingest or zonal job failed', async () => {
+  it('counts a scene once: done when its job is, failed when it failed', async () => {
     const { sceneProgress } = await import('../../workers/commands/ingest.js');
     const { NamedIdSet, progressOf, totalsByName } = await import('../../workers/queue/progress.js');
-    const names: Record<string, string> = { i1: 'ingest', i2: 'ingest', i3: 'ingest', z1: 'zonal', z2: 'zonal', z3: 'zonal', d: 'derive' };
+    const names: Record<string, string> = { s1: 'scene', s2: 'scene', s3: 'scene', d: 'derive' };
     const done = new NamedIdSet((id) => names[id]);
     const failed = new NamedIdSet((id) => names[id]);
     const totals = totalsByName(Object.values(names));
-    done.add('i1'); done.add('z1'); // scene 1 processed
-    failed.add('i2'); done.add('z2'); // scene 2: ingest failed, its zonal job completed as a skip
-    done.add('i3'); // scene 3 still running
-    done.add('i3'); // adding twice counts once
-    const p = progressOf(done, failed, totals, 1);
-    expect(p).toMatchObject({ done: 4, failed: 1, total: 7, running: 1 });
-    expect(p.byName).toEqual({ ingest: { done: 2, failed: 1, total: 3 }, zonal: { done: 2, failed: 0, total: 3 }, derive: { done: 0, failed: 0, total: 1 } });
+    done.add('s1'); // scene 1 processed
+    failed.add('s2'); // scene 2 refused
+    done.add('s1'); // adding twice counts once
+    const p = progressOf(done, failed, totals, 1); // scene 3 still running
+    expect(p).toMatchObject({ done: 1, failed: 1, total: 4, running: 1 });
+    expect(p.byName).toEqual({ scene: { done: 1, failed: 1, total: 3 }, derive: { done: 0, failed: 0, total: 1 } });
     expect(sceneProgress(p)).toEqual({ done: 1, failed: 1, total: 3 });
-    failed.delete('i2');
-    expect(progressOf(done, failed, totals, 0).byName!.ingest.failed).toBe(0);
+    failed.delete('s2');
+    expect(progressOf(done, failed, totals, 0).byName!.scene.failed).toBe(0);
   });
 });
 
-describe('zonal processor in a long-lived worker', () => {
+
+describe('scene processor in a long-lived worker', () => {
   it('uses the districts of the run at hand, not geometry cached from an earlier run', async () => {
-    const { zonal } = await import('../../workers/jobs/zonal.js');
-    const { crsDefinitionForEpsg, makeTransformer } = await import('../../workers/core/crs/index.js');
     const path = join(dir, 'halves.tif');
     // left half DN 40000, right half DN 50000 (x 0.00341802 + 149 K: 285.72 K and 319.90 K)
     const data = new Uint16Array(32 * 32).map((_, i) => (i % 32 < 16 ? 40000 : 50000));
     await writeGeoTiff(path, {
       width: 32, height: 32, data, epsg: 32625, transform: { a: 100, b: 0, c: 300000, d: 0, e: -100, f: 4900000 },
       nodata: 0, scale: 0.00341802, offset: 149, layout: { tiled: true, tileWidth: 16, tileHeight: 16 }, compression: 'deflate', predictor: 2,
+      metadata: { ACQUISITION_TIME: '2024-07-14T15:52:00Z' },
     });
-    const toLonLat = makeTransformer(crsDefinitionForEpsg(32625), crsDefinitionForEpsg(4326));
-    const box = (x0: number, x1: number) => ({ type: 'Polygon', coordinates: [[[x0, 4897000], [x1, 4897000], [x1, 4899500], [x0, 4899500], [x0, 4897000]].map(([x, y]) => toLonLat(x, y))] });
-    let geometry = box(300200, 301400); // inside the left half
+    let geometry = box(300200, 301400, 4897000, 4899500); // inside the left half
     const written: { rows: { districtId: string; meanKelvin: number | null }[] }[] = [];
     const repo = {
       listDistricts: async () => [{ id: 'd', geometry }],
-      replaceZonalStats: async (_id: number, rows: { districtId: string; meanKelvin: number | null }[]) => { written.push({ rows }); return rows.length; },
+      storeProcessedScene: async (_scene: unknown, rows: { districtId: string; meanKelvin: number | null }[]) => { written.push({ rows }); return 1; },
       markSceneFailed: async () => 0,
     } as unknown as PipelineRepo;
-    const ctx = (id: string): JobContext<PipelineRepo> => ({ jobId: id, name: 'zonal', childrenValues: { i: { sceneId: 1, kind: 'lst', pass: 'day', acquiredAt: null, alreadyStored: false } }, failedChildren: [], repo, log: () => undefined, attempt: 1 });
-    const base = { runId: 1, contentHash: 'c'.repeat(64), path, targetIds: ['d'], coverage: 'centre' as const, plausibleKelvin: [170, 360] as [number, number] };
-    await zonal({ ...base, targetsKey: 'run-1' }, ctx('z1'));
-    geometry = box(301800, 303000); // the district redrawn inside the right half
-    await zonal({ ...base, targetsKey: 'run-2' }, ctx('z2'));
+    const ctx = (id: string): JobContext<PipelineRepo> => ({ jobId: id, name: 'scene', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 });
+    const contentHash = await hashFile(path);
+    await sceneJob(sceneData(path, contentHash, { targetsKey: 'run-1', newToStore: true }), ctx('s1'));
+    geometry = box(301800, 303000, 4897000, 4899500); // the district redrawn inside the right half
+    await sceneJob(sceneData(path, contentHash, { targetsKey: 'run-2', newToStore: true }), ctx('s2'));
     // DN * 0.00341802 + 149 (Landsat C2 ST scaling): 40000 -> 285.7208 K, 50000 -> 319.901 K (derived)
     expect(written[0].rows[0].meanKelvin).toBeCloseTo(40000 * 0.00341802 + 149, 9);
     expect(written[1].rows[0].meanKelvin).toBeCloseTo(50000 * 0.00341802 + 149, 9);

@@ -22,7 +22,7 @@ import { parseGdalMetadata } from '../../workers/core/raster/gdalmeta.js';
 import { unsupportedCompression } from '../../workers/core/raster/decoders/index.js';
 import { zonalTable } from '../../workers/commands/zonal-table.js';
 import { snakeCaseKeys } from '../../workers/format.js';
-import { ingest } from '../../workers/jobs/ingest.js';
+import { scene as sceneJob, type SceneData } from '../../workers/jobs/scene.js';
 import { hashFile } from '../../workers/core/hash.js';
 import { createPipelineRepo, type PipelineRepo } from '../../workers/store/pipeline-repo.js';
 import { openStore } from '../../workers/store/store.js';
@@ -246,14 +246,16 @@ describe('corrupt GDAL_METADATA and sidecars: read, with a warning naming the fi
     expect(unsupportedCompression(7)).toMatch(/^compression JPEG \(7\) is not supported: .*lossy.*re-encode/);
     expect(unsupportedCompression(50001)).toMatch(/^compression WebP \(50001\) is not supported: .*browser.*re-encode/);
   });
-  it('ingest stores the warning with the scene (scenes.warnings, migration 004)', async () => {
+  it('a scene job stores the warning with the scene (scenes.warnings, migration 004)', async () => {
     const store = await openStore({ memory: true });
     try {
       const repo = createPipelineRepo(store);
-      const ctx: JobContext<PipelineRepo> = { jobId: 'j', name: 'ingest', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 };
+      const ctx: JobContext<PipelineRepo> = { jobId: 'j', name: 'scene', childrenValues: {}, failedChildren: [], repo, log: () => undefined, attempt: 1 };
+      // no districts: the scene is registered and marked processed with no statistics
+      const job = (d: Pick<SceneData, 'path' | 'contentHash' | 'runId' | 'manifest'>) => sceneJob({ ...d, targetIds: [], targetsKey: 'none', coverage: 'centre', plausibleKelvin: [170, 360] }, ctx);
       const path = fx('corrupt_meta_f32.tif');
       const run = await store.query<{ id: number }>(`INSERT INTO runs (software_version, mode) VALUES ('test', 'embedded') RETURNING id`);
-      const res = await ingest({ path, contentHash: await hashFile(path), runId: run[0].id, manifest: { path, kind: 'lst', acquiredAt: '2024-07-15T21:12:03Z' } }, ctx);
+      const res = await job({ path, contentHash: await hashFile(path), runId: run[0].id, manifest: { path, kind: 'lst', acquiredAt: '2024-07-15T21:12:03Z' } });
       expect(res.warnings).toHaveLength(1);
       const rows = await store.query<{ warnings: string[] }>('SELECT warnings FROM scenes WHERE id = $1', [res.sceneId]);
       expect(rows[0].warnings).toEqual(res.warnings);
@@ -264,11 +266,11 @@ describe('corrupt GDAL_METADATA and sidecars: read, with a warning naming the fi
       copyFileSync(fx('aux_u16.tif'), copy);
       writeFileSync(`${copy}.aux.xml`, '<PAMDataset><Metadata>');
       const manifest = { path: copy, kind: 'lst' as const, acquiredAt: '2024-07-15T21:12:03Z' };
-      const first = await ingest({ path: copy, contentHash: await hashFile(copy), runId: run[0].id, manifest }, ctx);
+      const first = await job({ path: copy, contentHash: await hashFile(copy), runId: run[0].id, manifest });
       const q = 'SELECT warnings FROM scenes WHERE id = $1';
       expect((await store.query<{ warnings: string[] }>(q, [first.sceneId]))[0].warnings).toHaveLength(1);
       rmSync(`${copy}.aux.xml`);
-      const again = await ingest({ path: copy, contentHash: await hashFile(copy), runId: run[0].id, manifest }, ctx);
+      const again = await job({ path: copy, contentHash: await hashFile(copy), runId: run[0].id, manifest });
       expect(again.sceneId).toBe(first.sceneId);
       expect((await store.query<{ warnings: string[] }>(q, [first.sceneId]))[0].warnings).toEqual([]);
     } finally {

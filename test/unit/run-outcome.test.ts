@@ -14,17 +14,14 @@ import { describe, expect, it } from 'vitest';
 import { runOutcome } from '../../workers/run/outcome.js';
 import type { FlowResult, JobFailure, JobSpec } from '../../workers/queue/types.js';
 
-/** derive ← zonal-i ← ingest-i for scenes 1..n. */
+/** derive ← scene-i for scenes 1..n. */
 function tree(n: number): JobSpec {
   return {
     name: 'derive', id: 'derive', data: null,
-    children: Array.from({ length: n }, (_, i) => ({
-      name: 'zonal', id: `zonal-${i + 1}`, data: null,
-      children: [{ name: 'ingest', id: `ingest-${i + 1}`, data: null }],
-    })),
+    children: Array.from({ length: n }, (_, i) => ({ name: 'scene', id: `scene-${i + 1}`, data: null })),
   };
 }
-const all = (n: number) => ['derive', ...Array.from({ length: n }, (_, i) => [`zonal-${i + 1}`, `ingest-${i + 1}`]).flat()];
+const all = (n: number) => ['derive', ...Array.from({ length: n }, (_, i) => `scene-${i + 1}`)];
 function result(n: number, failures: JobFailure[], stopped?: FlowResult['stopped']): FlowResult {
   const failed = new Set(failures.map((f) => f.id));
   return { results: new Map(all(n).filter((id) => !failed.has(id)).map((id) => [id, {}])), failures, ...(stopped ? { stopped } : {}) };
@@ -37,15 +34,15 @@ describe('run outcome', () => {
   });
 
   it('is incomplete with nothing left when a scene was refused as bad input or a path was unreadable (recorded; a re-run cannot fix it)', () => {
-    const r = result(3, [{ id: 'ingest-2', name: 'ingest', kind: 'input', error: 'b.tif: has no acquisition time' }]);
+    const r = result(3, [{ id: 'scene-2', name: 'scene', kind: 'input', error: 'b.tif: has no acquisition time' }]);
     expect(runOutcome(tree(3), r)).toMatchObject({ status: 'incomplete', scenesLeft: 0, refused: 1, derived: true, errorKind: 'input' });
     expect(runOutcome(tree(3), result(3, []), 2)).toMatchObject({ status: 'incomplete', scenesLeft: 0, refused: 2, derived: true });
   });
 
   it('is incomplete, with the scenes left and the service, when scenes failed on a service', () => {
     const r = result(4, [
-      { id: 'ingest-1', name: 'ingest', ...pgDown },
-      { id: 'zonal-3', name: 'zonal', ...pgDown },
+      { id: 'scene-1', name: 'scene', ...pgDown },
+      { id: 'scene-3', name: 'scene', ...pgDown },
     ]);
     expect(runOutcome(tree(4), r)).toEqual({ status: 'incomplete', scenesLeft: 2, refused: 0, derived: true, error: pgDown.error, errorKind: 'service', service: 'PostgreSQL', serviceFailingSeconds: 301 });
   });
@@ -62,7 +59,7 @@ describe('run outcome', () => {
 
   it('is incomplete when a scene failed on a bug (it may pass on a re-run), and failed when the derive step did', () => {
     const bug = { kind: 'bug' as const, error: 'x is undefined' };
-    expect(runOutcome(tree(2), result(2, [{ id: 'zonal-2', name: 'zonal', ...bug }]))).toEqual({ status: 'incomplete', scenesLeft: 1, refused: 0, derived: true, error: bug.error, errorKind: 'bug' });
+    expect(runOutcome(tree(2), result(2, [{ id: 'scene-2', name: 'scene', ...bug }]))).toEqual({ status: 'incomplete', scenesLeft: 1, refused: 0, derived: true, error: bug.error, errorKind: 'bug' });
     expect(runOutcome(tree(2), result(2, [{ id: 'derive', name: 'derive', ...bug }]))).toEqual({ status: 'failed', scenesLeft: 0, refused: 0, derived: false, error: bug.error, errorKind: 'bug' });
   });
 });

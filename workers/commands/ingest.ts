@@ -36,16 +36,10 @@ export interface IngestCommandOptions {
   progress: boolean;
 }
 
-/**
- * Scenes done / failed / total from job counts: a scene is one ingest and one
- * zonal job; it failed when either did (a zonal job whose ingest failed
- * completes as a skip, so it is not counted as done).
- */
+/** Scenes done / failed / total from job counts: a scene is one job. */
 export function sceneProgress(p: FlowProgress): { done: number; failed: number; total: number } {
-  const ingest = p.byName?.ingest ?? { done: 0, failed: 0, total: 0 };
-  const zonal = p.byName?.zonal ?? { done: 0, failed: 0, total: 0 };
-  const failed = ingest.failed + zonal.failed;
-  return { done: Math.max(0, zonal.done - ingest.failed), failed, total: zonal.total };
+  const scene = p.byName?.scene ?? { done: 0, failed: 0, total: 0 };
+  return { done: scene.done, failed: scene.failed, total: scene.total };
 }
 
 /**

@@ -34,7 +34,7 @@ export async function runWorkerCommand(options: { concurrency?: number; stalledI
     logger,
   });
   logger.info({ redis: redisHost, concurrency: opts.concurrency, stalled_interval_s: stalledInterval / 1000 }, 'worker ready');
-  process.stderr.write(`heatledger worker: serving ingest, zonal and derive jobs on ${redisHost} (concurrency ${opts.concurrency}, stalled check every ${stalledInterval / 1000} s); SIGTERM to stop\n`);
+  process.stderr.write(`heatledger worker: serving scene and derive jobs on ${redisHost} (concurrency ${opts.concurrency}, stalled check every ${stalledInterval / 1000} s); SIGTERM to stop\n`);
   await handle.closed;
   logger.info({}, 'worker stopped');
   process.stderr.write('heatledger worker: stopped\n');

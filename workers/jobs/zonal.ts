@@ -1,24 +1,22 @@
 /**
- * zonal: statistics of one scene for every district and the rural reference,
- * in one pass over the blocks under them; districts are reprojected once per
- * CRS (cached for the life of the process or thread). Stored in one
- * transaction per scene, replacing what the scene had.
+ * The zonal step of a scene job (jobs/scene.ts): statistics of one scene for
+ * every district and the rural reference, in one pass over the blocks under
+ * them; districts are reprojected once per CRS (cached for the life of the
+ * process or thread). Stores nothing: the scene job stores the rows with the
+ * scene's registration.
  */
-import { InputError, isInputError } from '../core/errors.js';
+import { InputError } from '../core/errors.js';
 import { fingerprint } from '../core/hash.js';
 import { openRaster, rasterCrs, type RasterFile } from '../core/raster/index.js';
+import type { ZonalStatsInput } from '../store/index.js';
 import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
 import { mkdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import { zonalScene, zonalThermalScene, openAtmosphere, openEmissivityField, type ThermalZonalResult, type ZonalSceneOptions, type ZonalTarget } from '../core/zonal/index.js';
 import { chooseSceneEmissivity, writeThermalLst, type NdviSource, type OwnEmissivityInputs, type SceneEmissivityInput } from '../core/thermal/index.js';
-import type { JobContext } from '../queue/types.js';
-import type { PipelineRepo } from '../store/pipeline-repo.js';
-import type { IngestResult } from './ingest.js';
+import type { SceneReading } from './ingest.js';
 
 export interface ZonalData {
-  runId: number;
-  contentHash: string;
   path: string;
   /** Ids of the districts (and rural reference) of this run. */
   targetIds: string[];
@@ -47,13 +45,13 @@ export interface ThermalZonalData {
 }
 
 /** A thermal scene's emissivity input, chosen once per scene (null: the district properties, then the fallback). */
-function sceneEmissivityOf(ingested: IngestResult, data: ZonalData): SceneEmissivityInput | null {
+export function sceneEmissivityOf(ingested: SceneReading, data: ZonalData): SceneEmissivityInput | null {
   const d = data.thermal;
   return d ? chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays) : null;
 }
 
 /** Fingerprint of what a thermal scene's statistics are computed from. */
-function thermalInputsKey(ingested: IngestResult, data: ZonalData, sceneEmissivity: SceneEmissivityInput | null): string {
+export function thermalInputsKey(ingested: SceneReading, data: ZonalData, sceneEmissivity: SceneEmissivityInput | null): string {
   const t = ingested.thermal, d = data.thermal;
   if (!t || !d) return fingerprint('incomplete thermal inputs');
   const districtEmissivity = Object.fromEntries(data.targetIds.filter((id) => id in d.districtEmissivity).map((id) => [id, d.districtEmissivity[id]]));
@@ -61,7 +59,7 @@ function thermalInputsKey(ingested: IngestResult, data: ZonalData, sceneEmissivi
 }
 
 /** Statistics of a thermal scene from its DN (and, with --write-lst, its LST as a COG). */
-async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options: ZonalSceneOptions, ingested: IngestResult, data: ZonalData,
+async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options: ZonalSceneOptions, ingested: SceneReading, data: ZonalData,
   sceneEmissivity: SceneEmissivityInput | null): Promise<ThermalZonalResult> {
   const t = ingested.thermal;
   const d = data.thermal;
@@ -92,14 +90,6 @@ async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options:
   return result;
 }
 
-export interface ZonalResult {
-  sceneId: number | null;
-  kind?: string;
-  rows: number;
-  /** Why nothing was computed, when nothing was. */
-  skipped?: string;
-}
-
 type Geometry = number[][][][];
 // Per process (or thread): a long-lived worker serves run after run, so the
 // caches hold one targets key at a time; a job with another key (districts
@@ -108,14 +98,14 @@ let cacheKey: string | null = null;
 const lonLatCache = new Map<string, Geometry>();
 const projectedCache = new Map<string, Map<string, Geometry>>();
 
-async function targetsFor(repo: PipelineRepo, ids: readonly string[], crs: string, key: string): Promise<ZonalTarget[]> {
+async function targetsFor(listDistricts: () => Promise<{ id: string; geometry: unknown }[]>, ids: readonly string[], crs: string, key: string): Promise<ZonalTarget[]> {
   if (key !== cacheKey) {
     clearDistrictCache();
     cacheKey = key;
   }
   const missing = ids.filter((id) => !lonLatCache.has(id));
   if (missing.length) {
-    for (const d of await repo.listDistricts()) {
+    for (const d of await listDistricts()) {
       const g = d.geometry as { type: string; coordinates: unknown };
       lonLatCache.set(d.id, g.type === 'Polygon' ? [g.coordinates as number[][][]] : (g.coordinates as Geometry));
     }
@@ -141,27 +131,23 @@ function clearDistrictCache(): void {
   projectedCache.clear();
 }
 
-export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Promise<ZonalResult> {
-  const { repo } = ctx;
-  const ingested = Object.values(ctx.childrenValues)[0] as IngestResult | undefined;
-  if (!ingested) return { sceneId: null, rows: 0, skipped: 'ingest failed' };
-  if (ingested.kind === 'qa') return { sceneId: ingested.sceneId, kind: 'qa', rows: 0, skipped: 'QA raster' };
-  // a thermal scene's statistics also depend on its constants, atmosphere and emissivity inputs
-  const sceneEmissivity = ingested.kind === 'thermal' ? sceneEmissivityOf(ingested, data) : null;
-  const thermalKey = ingested.kind === 'thermal' ? thermalInputsKey(ingested, data, sceneEmissivity) : null;
-  if (ingested.alreadyStored && !(ingested.kind === 'thermal' && data.thermal?.writeLstDir)) {
-    const have = new Set(await repo.zonalDistrictsOfScene(ingested.sceneId, data.coverage));
-    const same = thermalKey === null || (await repo.lstInputsFingerprint(ingested.sceneId)) === thermalKey;
-    if (same && data.targetIds.every((id) => have.has(id))) {
-      return { sceneId: ingested.sceneId, kind: ingested.kind, rows: 0, skipped: 'already processed' };
-    }
-  }
-  const raster = await openRaster(data.path);
+/** A scene's zonal rows, and for a thermal scene where its emissivity came from. */
+export interface SceneZonal {
+  rows: ZonalStatsInput[];
+  thermal: ThermalZonalResult | null;
+}
+
+/**
+ * The zonal step: statistics of an opened scene (kind lst, albedo or thermal)
+ * for the run's targets, as rows for the store. Districts come from the store
+ * (`listDistricts`) the first time a run's targets are met in this process.
+ */
+export async function zonalRows(raster: RasterFile, ingested: SceneReading, data: ZonalData, sceneEmissivity: SceneEmissivityInput | null,
+  listDistricts: () => Promise<{ id: string; geometry: unknown }[]>): Promise<SceneZonal> {
   let qa: RasterFile | null = null;
   try {
-    const h = raster.header;
-    const crs = rasterCrs(h);
-    const targets = await targetsFor(repo, data.targetIds, crs, data.targetsKey);
+    const crs = rasterCrs(raster.header);
+    const targets = await targetsFor(listDistricts, data.targetIds, crs, data.targetsKey);
     if (data.qa) qa = await openRaster(data.qa.path);
     const options: ZonalSceneOptions = {
       coverage: data.coverage,
@@ -188,16 +174,8 @@ export async function zonal(data: ZonalData, ctx: JobContext<PipelineRepo>): Pro
       implausibleCount: r.counts.implausible,
       coverageRule: data.coverage,
     }));
-    await repo.replaceZonalStats(ingested.sceneId, rows, data.runId);
-    if (thermal) await repo.setEmissivitySources(ingested.sceneId, thermal.sceneSource, thermal.byTarget, thermalKey);
-    return { sceneId: ingested.sceneId, kind: ingested.kind, rows: rows.length };
-  } catch (e) {
-    if (isInputError(e)) {
-      await repo.markSceneFailed({ contentHash: data.contentHash, path: data.path, error: (e as Error).message, runId: data.runId });
-    }
-    throw e;
+    return { rows, thermal };
   } finally {
-    await raster.close();
     if (qa) await qa.close();
   }
 }

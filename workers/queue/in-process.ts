@@ -117,10 +117,8 @@ interface Slot {
 /**
  * A fixed-size pool of worker threads, each running one job at a time. Waiting
  * jobs start nearest-the-root first (by depth in their tree, then in order of
- * arrival): a scene's zonal job, whose ingest is done, goes before the next
- * scene's ingest. Scenes then finish one by one and their short ingest jobs,
- * which mostly wait for the main thread's database, fall between long zonal
- * jobs instead of all coming first, when both threads would wait together.
+ * arrival): a job whose children are done goes before the next waiting leaf,
+ * so branches finish one by one instead of every leaf running first.
  */
 class ThreadPool {
   private slots: Slot[] = [];

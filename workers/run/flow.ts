@@ -1,6 +1,6 @@
-/** The job tree of a run: derive ← zonal (one per scene) ← ingest, with content-derived job ids. */
+/** The job tree of a run: derive ← scene (one per file), with content-derived job ids. */
 import { fingerprint } from '../core/hash.js';
-import type { IngestData } from '../jobs/ingest.js';
+import type { SceneData } from '../jobs/scene.js';
 import type { ThermalZonalData, ZonalData } from '../jobs/zonal.js';
 import type { OwnEmissivityInputs } from '../core/thermal/index.js';
 import type { DeriveData } from '../jobs/derive.js';
@@ -8,14 +8,19 @@ import { deriveJobId } from '../queue/tree.js';
 import type { JobSpec } from '../queue/types.js';
 import type { ManifestEntry, SceneKind } from './archive.js';
 
-/** Build the job tree: derive ← zonal (one per scene) ← ingest. */
+/**
+ * Build the job tree: derive ← scene (one per file). `knownHashes`: the content
+ * hashes the store had a scene for when the run was built (their jobs look for
+ * earlier results; the others need not).
+ */
 export function buildFlow(args: {
   identity: string;
   runId: number;
   files: { path: string; contentHash: string; kind?: SceneKind; manifest?: ManifestEntry }[];
   targetIds: string[];
   params: Record<string, unknown>;
-  zonal: Omit<ZonalData, 'runId' | 'contentHash' | 'path' | 'targetIds' | 'targetsKey' | 'qa'>;
+  zonal: Omit<ZonalData, 'path' | 'targetIds' | 'targetsKey' | 'qa'>;
+  knownHashes?: ReadonlySet<string>;
   derive: Omit<DeriveData, 'runId'>;
   qaMaskBits?: number;
   /** Emissivity inputs shared by every thermal scene of the run (each file adds its own manifest inputs). */
@@ -23,16 +28,14 @@ export function buildFlow(args: {
 }): JobSpec {
   const targetsKey = fingerprint(args.targetIds, args.params);
   const children: JobSpec[] = args.files.map((f) => {
-    const ingestData: IngestData = { path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind };
     const qa = f.manifest?.qa && args.qaMaskBits !== undefined ? { path: f.manifest.qa, maskBits: args.qaMaskBits } : undefined;
-    const zonalData: ZonalData = { ...args.zonal, runId: args.runId, contentHash: f.contentHash, path: f.path, targetIds: args.targetIds, targetsKey, qa };
-    if (args.thermal && mayBeThermal(f.manifest, f.kind)) zonalData.thermal = thermalDataOf(args.thermal, f.manifest);
-    return {
-      name: 'zonal',
-      id: deriveJobId('zonal', args.identity, f.contentHash, targetsKey),
-      data: zonalData,
-      children: [{ name: 'ingest', id: deriveJobId('ingest', args.identity, f.contentHash, f.manifest ?? null, f.kind ?? null), data: ingestData }],
+    const data: SceneData = {
+      ...args.zonal, path: f.path, contentHash: f.contentHash, runId: args.runId, manifest: f.manifest, defaultKind: f.kind,
+      targetIds: args.targetIds, targetsKey, qa,
     };
+    if (args.knownHashes && !args.knownHashes.has(f.contentHash)) data.newToStore = true;
+    if (args.thermal && mayBeThermal(f.manifest, f.kind)) data.thermal = thermalDataOf(args.thermal, f.manifest);
+    return { name: 'scene', id: deriveJobId('scene', args.identity, f.contentHash, targetsKey, f.manifest ?? null, f.kind ?? null), data };
   });
   return {
     name: 'derive',

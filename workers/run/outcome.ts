@@ -21,9 +21,9 @@ export interface RunOutcome {
 }
 
 /**
- * The outcome of a run from its job tree (derive ← zonal ← ingest) and what
- * the runner reported. A scene is finished when both its jobs completed or one
- * refused it as bad input (recorded as a failed scene); anything else —
+ * The outcome of a run from its job tree (derive ← scene) and what the runner
+ * reported. A scene is finished when its job completed or refused it as bad
+ * input (recorded as a failed scene); anything else —
  * a service that stayed away past the budget, a bug, a runner that stopped
  * waiting — leaves it for the next ingest. A derive step failing on a service
  * leaves the run incomplete; failing on anything else fails it. Files refused
@@ -43,11 +43,9 @@ export function runOutcome(root: JobSpec, result: FlowResult, unreadable = 0): R
   };
   let scenesLeft = 0;
   let refused = unreadable;
-  for (const zonalJob of root.children ?? []) {
-    const ingestDone = (zonalJob.children ?? []).every((c) => finished(c.id));
-    const zonalDone = finished(zonalJob.id);
-    if (!(ingestDone && zonalDone)) scenesLeft++;
-    else if ([zonalJob, ...(zonalJob.children ?? [])].some((j) => failures.get(j.id)?.kind === 'input')) refused++;
+  for (const sceneJob of root.children ?? []) {
+    if (!finished(sceneJob.id)) scenesLeft++;
+    else if (failures.get(sceneJob.id)?.kind === 'input') refused++;
   }
   const derived = result.results.has(root.id);
   const deriveFailure = failures.get(root.id);

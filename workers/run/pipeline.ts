@@ -22,7 +22,7 @@ import { readMergedPolygons, readRuralReference } from '../core/districts/merged
 import { registryModuleUrl, THREADED_JOBS } from './registry.js';
 import { createPipelineRepo } from '../store/pipeline-repo.js';
 import type { DeriveResult } from '../jobs/derive.js';
-import type { IngestResult } from '../jobs/ingest.js';
+import type { SceneResult } from '../jobs/scene.js';
 import type { FlowProgress, FlowResult, JobFailure, Runner } from '../queue/types.js';
 import { DEFAULT_SERVICE_RETRY_BUDGET_MS } from '../queue/settings.js';
 import { withServiceRetry } from '../queue/retry.js';
@@ -31,7 +31,7 @@ import type { Store } from '../store/index.js';
 import { openConfiguredStore, prepareConfiguredStore } from '../store/configured.js';
 import { upsertDistricts } from '../store/districts.js';
 import { startRun, finishRun } from '../store/runs.js';
-import { markSceneFailed, scenesNotProcessed } from '../store/scenes.js';
+import { knownContentHashes, markSceneFailed, scenesNotProcessed } from '../store/scenes.js';
 import { storeIdentity } from '../store/identity.js';
 import { onInterrupt } from '../store/interrupt.js';
 import { runtimeConfig, type RuntimeConfig } from './config.js';
@@ -286,6 +286,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       };
     });
     const identity = await onServer(() => storeIdentity(store));
+    const knownHashes = await onServer(() => knownContentHashes(store, files.map((f) => f.contentHash)));
     const root = buildFlow({
       identity,
       runId,
@@ -293,6 +294,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
       targetIds: [...districts.map((d) => d.id), RURAL_ID],
       params: { ...params, thermal: { ...thermal, ndviSources: thermal.ndviSources.map((n) => [n.scenePath, n.acquiredAt]) }, districtsFingerprint: fingerprint(districts.map((d) => [d.id, d.geometry])), ruralFingerprint: fingerprint(rural.geometry) },
       zonal: { coverage, plausibleKelvin },
+      knownHashes,
       qaMaskBits: options.qaMaskBits,
       thermal,
       derive: {
@@ -324,7 +326,7 @@ export async function runPipeline(options: PipelineOptions, config: RuntimeConfi
     const deriveResult = (result.results.get(root.id) as DeriveResult | undefined) ?? null;
     // thermal scenes converted with the built-in constants: say so (the warning is also stored with the scene)
     for (const r of result.results.values()) {
-      const ingested = r as Partial<IngestResult> | undefined;
+      const ingested = r as Partial<SceneResult> | undefined;
       if (ingested?.thermal && ingested.thermal.constantsSource.startsWith('built-in')) {
         for (const w of ingested.warnings ?? []) if (w.includes('built-in')) options.onNotice?.(w);
       }

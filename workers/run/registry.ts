@@ -6,22 +6,20 @@ import { existsSync } from 'node:fs';
 import { fileURLToPath } from 'node:url';
 import type { Processor } from '../queue/types.js';
 import { projectPath } from '../paths.js';
-import { ingest } from '../jobs/ingest.js';
-import { zonal } from '../jobs/zonal.js';
+import { scene } from '../jobs/scene.js';
 import { derive } from '../jobs/derive.js';
 
 export const processors: Record<string, Processor> = {
-  ingest: ingest as Processor,
-  zonal: zonal as Processor,
+  scene: scene as Processor,
   derive: derive as Processor,
 };
 
 /**
- * Jobs run on worker threads in embedded mode: zonal (decoding and statistics) and
- * ingest (header reading and sun-position maths); the main thread keeps only
- * the embedded database and the message passing.
+ * Jobs run on worker threads in embedded mode: scene (header reading, sun-position
+ * maths, decoding and statistics); the main thread keeps only the embedded
+ * database and the message passing.
  */
-export const THREADED_JOBS = ['ingest', 'zonal'];
+export const THREADED_JOBS = ['scene'];
 
 /** A repository for a worker process, opened by the store side from the environment (loaded only when asked: threads never need it). */
 export async function createRepo(env: Record<string, string | undefined>) {

@@ -24,17 +24,16 @@ function bindPipelineRepo(store: Store) {
     countScenes: (status: repo.SceneStatus) => repo.countScenes(store, status),
     /** Mean and valid fraction of these districts in these scenes. */
     zonalMeansForScenes: (sceneIds: number[], districtIds: string[]) => repo.zonalMeansForScenes(store, sceneIds, districtIds),
-    /** District ids with stored statistics for a scene under a coverage rule. */
-    zonalDistrictsOfScene: (sceneId: number, coverageRule: string) => repo.zonalDistrictsOfScene(store, sceneId, coverageRule),
-    replaceZonalStats: (sceneId: number, rows: repo.ZonalStatsInput[], runId: number | null) =>
-      repo.replaceZonalStats(store, sceneId, rows, { runId }),
+    /** The stored scene with this content, its districts with current statistics under a coverage rule, or null. */
+    storedSceneState: (contentHash: string, coverageRule: string) => repo.storedSceneState(store, contentHash, coverageRule),
+    /** Register a scene with its reading warnings and replace its statistics with `rows`, as processed, in one statement; its id. */
+    storeProcessedScene: (scene: repo.SceneInput, rows: repo.ZonalStatsInput[], warnings: string[]) =>
+      repo.storeProcessedScene(store, scene, rows, { runId: scene.runId ?? null, warnings }),
     /** Record how a thermal scene's LST is made (method, atmosphere, constants source). */
     setSceneThermal: (sceneId: number, t: repo.ThermalSceneInput) => repo.setSceneThermal(store, sceneId, t),
     /** Store a thermal scene's emissivity source, for the scene and per district. */
     setEmissivitySources: (sceneId: number, sceneSource: string, byDistrict: Record<string, string>, inputsFingerprint: string | null) =>
       repo.setEmissivitySources(store, sceneId, sceneSource, byDistrict, inputsFingerprint),
-    /** What a thermal scene's stored statistics were computed from (fingerprint), or null. */
-    lstInputsFingerprint: (sceneId: number) => repo.lstInputsFingerprint(store, sceneId),
     /** Replace every derived row of these districts with `rows`, in one transaction. */
     replaceDerivedFor: (districtIds: string[], rows: repo.DerivedInput[]) => repo.replaceDerivedFor(store, districtIds, rows),
   };

@@ -139,51 +139,75 @@ export async function registerScene(db: Db, scene: SceneInput): Promise<number> 
  * (null when it is new): one round trip where a look-up and a write were two.
  */
 export async function registerSceneReporting(db: Db, scene: SceneInput): Promise<{ id: number; previousStatus: SceneStatus | null }> {
-  checkHash(scene.contentHash);
   const rows = await db.query<{ id: number; previousStatus: SceneStatus | null }>(
     `WITH prev AS (SELECT status FROM scenes WHERE content_hash = $1),
      stale AS (DELETE FROM scenes WHERE content_hash IS NULL AND path = $2)
-     INSERT INTO scenes (content_hash, path, kind, sensor, product_notes, acquired_at, pass, sun_elevation_deg,
-                         solar_time_hours, timing_rating, epsg, crs_definition, width, height, pixel_size_m,
-                         scale, add_offset, nodata, status, run_id)
-     VALUES ($1, $2, $3, $4, $5, $6::timestamptz, $7, $8, $9, $10, $11, $12, $13, $14, $15, $16, $17, $18,
-             'registered', $19)
-     ON CONFLICT (content_hash) DO UPDATE SET
-       path = EXCLUDED.path, kind = EXCLUDED.kind, sensor = EXCLUDED.sensor, product_notes = EXCLUDED.product_notes,
-       acquired_at = EXCLUDED.acquired_at, pass = EXCLUDED.pass, sun_elevation_deg = EXCLUDED.sun_elevation_deg,
-       solar_time_hours = EXCLUDED.solar_time_hours, timing_rating = EXCLUDED.timing_rating, epsg = EXCLUDED.epsg,
-       crs_definition = EXCLUDED.crs_definition, width = EXCLUDED.width, height = EXCLUDED.height,
-       pixel_size_m = EXCLUDED.pixel_size_m, scale = EXCLUDED.scale, add_offset = EXCLUDED.add_offset,
-       nodata = EXCLUDED.nodata, run_id = coalesce(EXCLUDED.run_id, scenes.run_id),
+     INSERT INTO scenes (${SCENE_HEADER_COLUMNS}, status, run_id)
+     VALUES (${SCENE_HEADER_VALUES}, 'registered', $${SCENE_HEADER_PARAMS + 1})
+     ON CONFLICT (content_hash) DO UPDATE SET ${SCENE_HEADER_UPDATE},
+       run_id = coalesce(EXCLUDED.run_id, scenes.run_id),
        status = CASE WHEN scenes.status = 'failed' THEN 'registered' ELSE scenes.status END,
        error = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error END,
        error_kind = CASE WHEN scenes.status = 'failed' THEN NULL ELSE scenes.error_kind END
      RETURNING id, (SELECT status FROM prev) AS "previousStatus"`,
-    [
-      scene.contentHash,
-      scene.path,
-      scene.kind,
-      scene.sensor ?? null,
-      scene.productNotes ?? null,
-      scene.acquiredAt,
-      scene.pass,
-      num(scene.sunElevationDeg, 'sunElevationDeg'),
-      num(scene.solarTimeHours, 'solarTimeHours'),
-      scene.timingRating ?? null,
-      scene.epsg,
-      scene.crsDefinition,
-      scene.width,
-      scene.height,
-      num(scene.pixelSizeMetres, 'pixelSizeMetres'),
-      num(scene.scale, 'scale'),
-      num(scene.offset, 'offset'),
-      num(scene.nodata, 'nodata'),
-      scene.runId ?? null,
-    ],
+    [...sceneHeaderParams(scene), scene.runId ?? null],
     // once a scene, keyed by content hash (and path): kept planned on the server (QueryOptions)
     { prepared: true },
   );
   return { id: rows[0].id, previousStatus: rows[0].previousStatus ?? null };
+}
+
+/**
+ * The header columns a registration writes ($1 the content hash, $2 the path, ...):
+ * shared by {@link registerSceneReporting} and the one-statement store of a
+ * processed scene (zonal-stats.ts), so that both write a scene the same way.
+ */
+export const SCENE_HEADER_COLUMNS = `content_hash, path, kind, sensor, product_notes, acquired_at, pass, sun_elevation_deg,
+  solar_time_hours, timing_rating, epsg, crs_definition, width, height, pixel_size_m, scale, add_offset, nodata`;
+/** How many parameters {@link sceneHeaderParams} gives. */
+export const SCENE_HEADER_PARAMS = 18;
+/** The VALUES of {@link SCENE_HEADER_COLUMNS}: $1 ... $18. */
+export const SCENE_HEADER_VALUES = Array.from({ length: SCENE_HEADER_PARAMS }, (_, i) => (i === 5 ? `$${i + 1}::timestamptz` : `$${i + 1}`)).join(', ');
+/** ON CONFLICT (content_hash): the header as read now replaces the stored one. */
+export const SCENE_HEADER_UPDATE = `path = EXCLUDED.path, kind = EXCLUDED.kind, sensor = EXCLUDED.sensor, product_notes = EXCLUDED.product_notes,
+  acquired_at = EXCLUDED.acquired_at, pass = EXCLUDED.pass, sun_elevation_deg = EXCLUDED.sun_elevation_deg,
+  solar_time_hours = EXCLUDED.solar_time_hours, timing_rating = EXCLUDED.timing_rating, epsg = EXCLUDED.epsg,
+  crs_definition = EXCLUDED.crs_definition, width = EXCLUDED.width, height = EXCLUDED.height,
+  pixel_size_m = EXCLUDED.pixel_size_m, scale = EXCLUDED.scale, add_offset = EXCLUDED.add_offset,
+  nodata = EXCLUDED.nodata`;
+
+/** The parameters of {@link SCENE_HEADER_COLUMNS}, checked (hash form, finite numbers). */
+export function sceneHeaderParams(scene: SceneInput): unknown[] {
+  checkHash(scene.contentHash);
+  return [
+    scene.contentHash,
+    scene.path,
+    scene.kind,
+    scene.sensor ?? null,
+    scene.productNotes ?? null,
+    scene.acquiredAt,
+    scene.pass,
+    num(scene.sunElevationDeg, 'sunElevationDeg'),
+    num(scene.solarTimeHours, 'solarTimeHours'),
+    scene.timingRating ?? null,
+    scene.epsg,
+    scene.crsDefinition,
+    scene.width,
+    scene.height,
+    num(scene.pixelSizeMetres, 'pixelSizeMetres'),
+    num(scene.scale, 'scale'),
+    num(scene.offset, 'offset'),
+    num(scene.nodata, 'nodata'),
+  ];
+}
+
+/**
+ * Which of these content hashes the store has a scene for (any status): a
+ * run's scene jobs for the others need not look for earlier results.
+ */
+export async function knownContentHashes(db: Db, contentHashes: readonly string[]): Promise<Set<string>> {
+  const rows = await db.query<{ h: string }>('SELECT content_hash AS h FROM scenes WHERE content_hash = ANY($1::text[])', [contentHashes]);
+  return new Set(rows.map((r) => r.h));
 }
 
 /**

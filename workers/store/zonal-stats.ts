@@ -1,6 +1,7 @@
 /** The zonal_stats table: statistics of one district in one scene under one coverage rule. */
 import type { Kelvin } from '../core/units.js';
 import { type Db, BATCH_ROWS, inTransaction, num } from './db.js';
+import { SCENE_HEADER_COLUMNS, SCENE_HEADER_PARAMS, SCENE_HEADER_UPDATE, SCENE_HEADER_VALUES, registerSceneReporting, sceneHeaderParams, setSceneWarnings, type SceneInput, type SceneStatus } from './scenes.js';
 
 /** One district's statistics for one scene. Kelvin; counts in pixels (or summed coverage weights). */
 export interface ZonalStatsInput {
@@ -49,6 +50,11 @@ const ZONAL_INSERT = `INSERT INTO zonal_stats (scene_id, district_id, ${ZONAL_FI
                            $${ZONAL_FIELDS.length + 3}::text[], $${ZONAL_FIELDS.length + 4}::bigint[])`;
 
 const N_ZONAL = ZONAL_FIELDS.length;
+
+/** The rows' numeric columns in ZONAL_FIELDS order, each value checked (finite or null). */
+function zonalColumns(rows: readonly ZonalStatsInput[]): (number | null)[][] {
+  return ZONAL_FIELDS.map(([key]) => rows.map((r) => num(r[key] as number | null, `zonal ${key} of district ${r.districtId}`)));
+}
 const ZONAL_REPLACE_ONE = `WITH up AS (
     ${ZONAL_INSERT}
     ON CONFLICT (scene_id, district_id) DO UPDATE SET
@@ -73,9 +79,7 @@ export async function replaceZonalStats(
   options: { runId?: number | null } = {},
 ): Promise<number> {
   // Validate everything before the first statement, so a bad row changes nothing.
-  const columns = ZONAL_FIELDS.map(([key]) =>
-    rows.map((r) => num(r[key] as number | null, `zonal ${key} of district ${r.districtId}`)),
-  );
+  const columns = zonalColumns(rows);
   if (rows.length <= BATCH_ROWS) {
     // One statement (atomic on its own): upsert the rows, drop the scene's other
     // rows, mark the scene processed. One round trip instead of five.
@@ -109,6 +113,90 @@ export async function replaceZonalStats(
     );
     return rows.length;
   });
+}
+
+/** Parameters after the scene's header ($19 on): run id, warnings, then the zonal columns. */
+const S = SCENE_HEADER_PARAMS;
+const SCENE_STORE_ONE = `WITH stale AS (DELETE FROM scenes WHERE content_hash IS NULL AND path = $2),
+  reg AS (
+    INSERT INTO scenes (${SCENE_HEADER_COLUMNS}, status, run_id, processed_at, warnings)
+    VALUES (${SCENE_HEADER_VALUES}, 'processed', $${S + 1}::bigint, now(), $${S + 2}::jsonb)
+    ON CONFLICT (content_hash) DO UPDATE SET ${SCENE_HEADER_UPDATE},
+      run_id = coalesce(EXCLUDED.run_id, scenes.run_id), status = 'processed', error = NULL, error_kind = NULL,
+      processed_at = now(), warnings = EXCLUDED.warnings
+    RETURNING id),
+  up AS (
+    INSERT INTO zonal_stats (scene_id, district_id, ${ZONAL_FIELDS.map((f) => f[1]).join(', ')}, coverage_rule, run_id)
+    SELECT (SELECT id FROM reg), * FROM unnest($${S + 3}::text[], ${ZONAL_FIELDS.map((_, i) => `$${S + 4 + i}::double precision[]`).join(', ')},
+                                               $${S + N_ZONAL + 4}::text[], $${S + N_ZONAL + 5}::bigint[])
+    ON CONFLICT (scene_id, district_id) DO UPDATE SET
+      ${ZONAL_FIELDS.map((f) => `${f[1]} = EXCLUDED.${f[1]}`).join(', ')},
+      coverage_rule = EXCLUDED.coverage_rule, run_id = EXCLUDED.run_id
+    RETURNING district_id),
+  gone AS (DELETE FROM zonal_stats WHERE scene_id = (SELECT id FROM reg) AND NOT (district_id = ANY($${S + 3}::text[])))
+  SELECT (SELECT id FROM reg) AS id, (SELECT count(*) FROM up)::int AS n`;
+
+/**
+ * Store a processed scene: register it (as {@link registerSceneReporting} does,
+ * with these reading warnings) and replace its zonal statistics with `rows`,
+ * marking it 'processed' — one statement, so one round trip and one commit, and
+ * a reader sees the scene with all its new rows or as it was before. More rows
+ * than one statement takes: the registration, then {@link replaceZonalStats}.
+ * Returns the scene id.
+ */
+export async function storeProcessedScene(
+  db: Db,
+  scene: SceneInput,
+  rows: ZonalStatsInput[],
+  options: { runId?: number | null; warnings?: readonly string[] } = {},
+): Promise<number> {
+  const warnings = options.warnings ?? [];
+  if (!Array.isArray(warnings) || !warnings.every((w) => typeof w === 'string')) throw new Error('store: scene warnings must be a list of strings');
+  // Validate everything before the first statement, so a bad value changes nothing.
+  const header = sceneHeaderParams(scene);
+  const columns = zonalColumns(rows);
+  const runId = options.runId ?? scene.runId ?? null;
+  if (rows.length > BATCH_ROWS) {
+    const { id } = await registerSceneReporting(db, { ...scene, runId });
+    await setSceneWarnings(db, id, warnings);
+    await replaceZonalStats(db, id, rows, { runId });
+    return id;
+  }
+  const out = await db.query<{ id: number; n: number }>(SCENE_STORE_ONE, [
+    ...header,
+    runId,
+    JSON.stringify(warnings),
+    rows.map((r) => r.districtId),
+    ...columns,
+    rows.map((r) => r.coverageRule),
+    rows.map((r) => r.runId ?? runId),
+  ], { prepared: true }); // once a scene: kept planned on the server (QueryOptions)
+  return out[0].id;
+}
+
+/** What a scene job needs to know of a stored scene before it computes anything. */
+export interface StoredSceneState {
+  id: number;
+  status: SceneStatus;
+  /** Districts with current statistics under the coverage rule (see {@link zonalDistrictsOfScene}). */
+  districts: string[];
+  /** What a thermal scene's statistics were computed from (thermal-scenes.ts), or null. */
+  lstInputsFingerprint: string | null;
+}
+
+/** The stored scene with this content hash, its current districts under `coverageRule`, or null: one round trip. */
+export async function storedSceneState(db: Db, contentHash: string, coverageRule: string): Promise<StoredSceneState | null> {
+  const rows = await db.query<StoredSceneState>(
+    `SELECT s.id, s.status, s.lst_inputs_fingerprint AS "lstInputsFingerprint",
+            coalesce((SELECT array_agg(z.district_id ORDER BY z.district_id COLLATE "C")
+                      FROM zonal_stats z
+                      JOIN districts d ON d.id = z.district_id
+                      JOIN runs r ON r.id = z.run_id
+                      WHERE z.scene_id = s.id AND z.coverage_rule = $2 AND r.started_at >= d.updated_at), '{}') AS districts
+     FROM scenes s WHERE s.content_hash = $1`,
+    [contentHash, coverageRule],
+  );
+  return rows[0] ?? null;
 }
 
 /** Zonal statistics of the given scenes, ordered by scene id then district id (byte order). */

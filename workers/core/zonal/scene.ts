@@ -400,7 +400,7 @@ function dnClasses(h: RasterFile['header'], kind: IntegerKind | null, lo: number
 
 /** Each target's pixel mask on the raster grid, window, pixel count and (float path) accumulator. */
 /**
- * Masks kept per target geometry and grid. A worker's zonal job hands scene after
+ * Masks kept per target geometry and grid. A worker's scene job hands scene after
  * scene the same (cached, reprojected) geometry object per district, and the scenes
  * of an archive mostly share one grid, so their masks are made once, as a careful
  * script computes them once per grid. Masks are only read once made. Keyed weakly

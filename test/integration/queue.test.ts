@@ -135,17 +135,42 @@ describe('in-process runner', () => {
   it('starts a job whose children are done before the next waiting leaf, on a busy thread', async () => {
     // One thread; two chains root <- a1 <- a2 and root <- b1 <- b2. In order of arrival
     // the thread would run a2, b2, a1, b1; nearest the root first it runs a1 as soon as
-    // a2 is done, then b2, then b1 (each job's lookup is recorded on the main thread).
-    const order: string[] = [];
-    const recorder = { async lookup(key: string) { order.push(key); return { key }; } };
-    const r = createInProcessRunner({ processorsModule, repo: recorder, threads: 1, threadedJobs: ['repoEcho'] });
-    const echo = (id: string, children?: JobSpec[]): JobSpec => ({ name: 'repoEcho', id: `order-${id}`, data: { key: id }, ...(children ? { children } : {}) });
+    // a2 is done, then b2, then b1 (the thread numbers the jobs as it starts them).
+    const r = createInProcessRunner({ processorsModule, repo, threads: 1, threadedJobs: ['ordinal'] });
+    const job = (id: string, children?: JobSpec[]): JobSpec => ({ name: 'ordinal', id: `order-${id}`, data: { key: id }, ...(children ? { children } : {}) });
     try {
-      const out = await r.runFlow({ name: 'sum', id: 'order-root', data: null, children: [echo('a1', [echo('a2')]), echo('b1', [echo('b2')])] });
+      const out = await r.runFlow({ name: 'sum', id: 'order-root', data: null, children: [job('a1', [job('a2')]), job('b1', [job('b2')])] });
       expect(out.failures).toEqual([]);
-      expect(order).toEqual(['a2', 'a1', 'b2', 'b1']);
+      const n = (id: string) => (out.results.get(`order-${id}`) as { n: number }).n;
+      expect(['a2', 'a1', 'b2', 'b1'].map(n)).toEqual([1, 2, 3, 4].map((k) => k + n('a2') - 1));
     } finally { await r.close(); }
   });
+
+  it('hands a thread whose job waits for the repository the next job meanwhile', async () => {
+    // One thread, two jobs. The first one's lookup is answered only once the second job's
+    // lookup has arrived (or after 20 s, when the thread would have run the jobs one by one).
+    const seen: string[] = [];
+    let secondArrived!: () => void;
+    const second = new Promise<void>((res) => { secondArrived = res; });
+    const held = {
+      async lookup(key: string) {
+        seen.push(`${key} asked`);
+        if (key === 'first') await Promise.race([second, new Promise((res) => setTimeout(res, 20_000))]);
+        else secondArrived();
+        seen.push(`${key} answered`);
+        return { key };
+      },
+    };
+    const r = createInProcessRunner({ processorsModule, repo: held, threads: 1, threadedJobs: ['repoEcho'] });
+    try {
+      const out = await r.runFlow({ name: 'sum', id: 'park-root', data: null, children: [
+        { name: 'repoEcho', id: 'park-first', data: { key: 'first' } },
+        { name: 'repoEcho', id: 'park-second', data: { key: 'second' } },
+      ] });
+      expect(out.failures).toEqual([]);
+      expect(seen).toEqual(['first asked', 'second asked', 'second answered', 'first answered']);
+    } finally { await r.close(); }
+  }, 60_000);
 
   it('takes threads started ahead of it, which load their processors before the repository is known', async () => {
     const early = prestartThreads(processorsModule, 2);

@@ -12,6 +12,8 @@ import type { Processor } from '../../workers/queue/types.js';
 
 /** Runs per job id in this process (main thread / worker process). */
 export const runCounts = new Map<string, number>();
+/** Jobs of `ordinal` started in this thread or process. */
+let started = 0;
 
 /** sha256 applied `rounds` times to the UTF-8 seed (hex digest in, raw bytes hashed). */
 export function iteratedSha256(seed: string, rounds: number): string {
@@ -50,6 +52,10 @@ export const processors: Record<string, Processor<any, any, TestRepo>> = {
   async buggy(_data, ctx) {
     runCounts.set(ctx.jobId, (runCounts.get(ctx.jobId) ?? 0) + 1);
     throw new TypeError(`cannot read properties of undefined (attempt ${ctx.attempt})`);
+  },
+  /** The order in which this thread (or process) started its jobs: 1 for the first. */
+  async ordinal(data: { key: string }) {
+    return { value: 0, key: data.key, n: ++started };
   },
   /** Which thread ran the job (0: the main thread). */
   async whichThread() {

@@ -109,16 +109,25 @@ function takePrestarted(href: string, repoPort: MessagePort): Worker | null {
 interface Slot {
   worker: Worker;
   ready: Promise<void>;
-  busy: { jobId: string; settle(o: Outcome): void; log(line: string): void } | null;
+  /** The jobs the thread holds: one, or two while the first waits for the main thread (see ThreadPool). */
+  jobs: Map<string, { settle(o: Outcome): void; log(line: string): void }>;
+  /** Repository calls of this thread being answered on the main thread now. */
+  repoCalls: number;
   stopRepo: () => void;
   dead: boolean;
 }
 
+/** Most jobs a thread holds at once: a second only while the first waits for a repository call. */
+const JOBS_PER_THREAD = 2;
+
 /**
- * A fixed-size pool of worker threads, each running one job at a time. Waiting
- * jobs start nearest-the-root first (by depth in their tree, then in order of
- * arrival): a job whose children are done goes before the next waiting leaf,
- * so branches finish one by one instead of every leaf running first.
+ * A fixed-size pool of worker threads, each computing one job at a time. A
+ * thread whose job waits for a repository call (a scene job storing its rows:
+ * PGlite runs on the main thread) is handed the next waiting job meanwhile, so
+ * that it computes while the main thread stores, instead of waiting with it.
+ * Waiting jobs start nearest-the-root first (by depth in their tree, then in
+ * order of arrival): a job whose children are done goes before the next
+ * waiting leaf, so branches finish one by one instead of every leaf running first.
  */
 class ThreadPool {
   private slots: Slot[] = [];
@@ -142,21 +151,22 @@ class ThreadPool {
       transferList: [port2],
     });
     worker.unref();
-    const stopRepo = serveRepo(port1, this.repo);
     let markReady!: () => void;
     let failReady!: (e: Error) => void;
     const slot: Slot = {
-      worker, busy: null, stopRepo, dead: false,
+      worker, jobs: new Map(), repoCalls: 0, stopRepo: () => undefined, dead: false,
       ready: new Promise<void>((res, rej) => { markReady = res; failReady = rej; }),
     };
+    slot.stopRepo = serveRepo(port1, this.countedRepo(slot));
     slot.ready.catch(() => undefined);
     worker.on('message', (msg: { kind: string; jobId?: string; ok?: boolean; value?: unknown; error?: SerializedError; line?: string }) => {
       if (msg.kind === 'ready') markReady();
-      else if (msg.kind === 'log' && slot.busy) slot.busy.log(msg.line ?? '');
-      else if (msg.kind === 'done' && slot.busy) {
-        const b = slot.busy;
-        slot.busy = null;
-        worker.unref();
+      else if (msg.kind === 'log') slot.jobs.get(msg.jobId ?? '')?.log(msg.line ?? '');
+      else if (msg.kind === 'done') {
+        const b = slot.jobs.get(msg.jobId ?? '');
+        if (!b) return;
+        slot.jobs.delete(msg.jobId!);
+        if (slot.jobs.size === 0) worker.unref();
         b.settle(msg.ok ? { ok: true, value: msg.value } : { ok: false, error: reviveError(msg.error!) });
         // after the promise callbacks this settlement sets off, among them the
         // runner queueing the parent whose last child this was
@@ -166,14 +176,12 @@ class ThreadPool {
     const die = (err: Error) => {
       if (slot.dead) return;
       slot.dead = true;
-      stopRepo();
+      slot.stopRepo();
       failReady(err);
       this.slots = this.slots.filter((s) => s !== slot);
-      if (slot.busy) {
-        const b = slot.busy;
-        slot.busy = null;
-        b.settle({ ok: false, error: err });
-      }
+      const held = [...slot.jobs.values()];
+      slot.jobs.clear();
+      for (const b of held) b.settle({ ok: false, error: err });
       this.pump();
     };
     worker.on('error', (e) => die(e instanceof Error ? e : new Error(String(e))));
@@ -182,17 +190,45 @@ class ThreadPool {
     return slot;
   }
 
+  /**
+   * The repository as this slot's thread reaches it, counting the calls being
+   * answered: a thread whose every job waits for one may take another job.
+   */
+  private countedRepo(slot: Slot): object {
+    const repo = this.repo as Record<string, unknown>;
+    const counted: Record<string, unknown> = {};
+    for (const [name, fn] of Object.entries(repo)) {
+      if (typeof fn !== 'function') continue;
+      counted[name] = async (...args: unknown[]) => {
+        slot.repoCalls++;
+        this.pump();
+        try {
+          return await (fn as (...a: unknown[]) => unknown).apply(repo, args);
+        } finally {
+          slot.repoCalls--;
+        }
+      };
+    }
+    return counted;
+  }
+
+  /** A thread that can take a job now: an idle one first, else one whose every job waits for the main thread. */
+  private freeSlot(): Slot | undefined {
+    return this.slots.find((s) => !s.dead && s.jobs.size === 0)
+      ?? this.slots.find((s) => !s.dead && s.jobs.size < JOBS_PER_THREAD && s.repoCalls >= s.jobs.size);
+  }
+
   private pump(): void {
     if (this.closed) return;
     while (this.waiting.length > 0) {
-      let slot = this.slots.find((s) => !s.busy && !s.dead);
-      if (!slot) {
-        if (this.slots.length >= this.size) return;
-        slot = this.spawn();
+      let slot = this.freeSlot();
+      if (!slot || (slot.jobs.size > 0 && this.slots.length < this.size)) {
+        if (this.slots.length < this.size) slot = this.spawn();
+        else if (!slot) return;
       }
       const task = this.waiting.shift()!;
       const s = slot;
-      s.busy = { jobId: task.attempt.jobId, settle: task.settle, log: task.log };
+      s.jobs.set(task.attempt.jobId, { settle: task.settle, log: task.log });
       s.worker.ref();
       s.ready.then(
         () => { if (!s.dead) s.worker.postMessage({ kind: 'run', attempt: task.attempt }); },

@@ -31,7 +31,7 @@ import { cpus, loadavg } from 'node:os';
 import { dirname, join, resolve } from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { summariseCpuProfile, type ProfileSummary } from './cpuprofile.js';
-import { compareTables, type Agreement, type StatsRow } from './compare.js';
+import { compareTables, MEAN_TOLERANCE_KELVIN, type Agreement, type StatsRow } from './compare.js';
 import { ensureBenchData } from './generate.js';
 import { loadTargets, measureCoverage, measureDecode, measureStats, type PhaseProfile } from './profile.js';
 import { median, timeProcess } from './timing.js';
@@ -342,7 +342,7 @@ async function main(): Promise<void> {
       }
       const a = r.agreement!;
       if (a.agree) {
-        say(`  agree: yes, ${a.rows} districts: pixels and valid equal, worst |mean difference| ${a.worst.mean.difference.toExponential(2)} K (tolerance 1e-6 K)`);
+        say(`  agree: yes, ${a.rows} districts: pixels and valid equal, worst |mean difference| ${a.worst.mean.difference.toExponential(2)} K (tolerance ${MEAN_TOLERANCE_KELVIN.toExponential(2)} K: ours is printed to 0.0001 K)`);
       } else {
         say(`  agree: NO (${a.problems.length} problem(s)); first: ${a.problems.slice(0, 5).join('; ')}`);
       }

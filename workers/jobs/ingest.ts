@@ -73,13 +73,10 @@ async function thermalOf(h: RasterHeader, manifest: ManifestEntry | undefined, w
   };
 }
 
-/** What the ingest step reads of a scene: its registration and what the zonal step needs. */
+/** What the ingest step reads of a scene: its registration (kind, time, pass ...) and what the zonal step needs. */
 export interface SceneReading {
   /** The scene's row as registered (run id added by the caller). */
   scene: SceneInput;
-  kind: SceneKind;
-  pass: 'day' | 'night' | null;
-  acquiredAt: string | null;
   /** Problems found while reading the scene (stored with it). */
   warnings: string[];
   thermal?: IngestedThermal;
@@ -125,9 +122,6 @@ export async function readScene(raster: RasterFile, data: IngestData): Promise<S
       offset: h.offset,
       nodata: Number.isNaN(h.nodata) ? null : h.nodata,
     },
-    kind,
-    pass: timing.pass,
-    acquiredAt: acquiredAt ?? null,
     warnings,
     ...(thermal ? { thermal: thermal.thermal } : {}),
   };

@@ -52,19 +52,20 @@ export async function scene(data: SceneData, ctx: JobContext<PipelineRepo>): Pro
       reading = await readScene(raster, data);
       const r = reading;
       const registration = { ...r.scene, runId: data.runId };
+      const { kind } = r.scene;
       const result = (sceneId: number, rows: number, alreadyStored: boolean, skipped?: string): SceneResult => ({
-        sceneId, kind: r.kind, pass: r.pass, acquiredAt: r.acquiredAt, alreadyStored, warnings: r.warnings,
+        sceneId, kind, pass: r.scene.pass, acquiredAt: r.scene.acquiredAt, alreadyStored, warnings: r.warnings,
         ...(r.thermal ? { thermal: r.thermal } : {}), rows, ...(skipped ? { skipped } : {}),
       });
-      if (r.kind === 'qa') {
+      if (kind === 'qa') {
         const { id, previousStatus } = await repo.registerSceneReporting(registration);
         if (r.warnings.length > 0 || previousStatus !== null) await repo.setSceneWarnings(id, r.warnings);
         return result(id, 0, false, 'QA raster');
       }
       // a thermal scene's statistics also depend on its constants, atmosphere and emissivity inputs
-      const sceneEmissivity = r.kind === 'thermal' ? sceneEmissivityOf(r, data) : null;
-      const thermalKey = r.kind === 'thermal' ? thermalInputsKey(r, data, sceneEmissivity) : null;
-      const writesLst = r.kind === 'thermal' && data.thermal?.writeLstDir !== undefined;
+      const sceneEmissivity = kind === 'thermal' ? sceneEmissivityOf(r, data) : null;
+      const thermalKey = kind === 'thermal' ? thermalInputsKey(r, data, sceneEmissivity) : null;
+      const writesLst = kind === 'thermal' && data.thermal?.writeLstDir !== undefined;
       if (!data.newToStore && !writesLst) {
         const stored = await repo.storedSceneState(data.contentHash, data.coverage);
         if (stored?.status === 'processed' && (thermalKey === null || stored.lstInputsFingerprint === thermalKey)

@@ -47,7 +47,7 @@ export interface ThermalZonalData {
 /** A thermal scene's emissivity input, chosen once per scene (null: the district properties, then the fallback). */
 export function sceneEmissivityOf(ingested: SceneReading, data: ZonalData): SceneEmissivityInput | null {
   const d = data.thermal;
-  return d ? chooseSceneEmissivity(data.path, d.own, ingested.acquiredAt, d.ndviSources, d.windowDays) : null;
+  return d ? chooseSceneEmissivity(data.path, d.own, ingested.scene.acquiredAt, d.ndviSources, d.windowDays) : null;
 }
 
 /** Fingerprint of what a thermal scene's statistics are computed from. */
@@ -77,8 +77,8 @@ async function thermalZonal(raster: RasterFile, targets: ZonalTarget[], options:
       });
       await writeThermalLst(raster, { constants: t.constants, atmosphere, emissivity }, join(d.writeLstDir, `${basename(data.path).replace(/\.[^.]*$/, '')}_lst.tif`), {
         SOURCE_SCENE: basename(data.path),
-        ...(ingested.acquiredAt ? { ACQUISITION_TIME: ingested.acquiredAt } : {}),
-        ...(ingested.pass ? { PASS: ingested.pass } : {}),
+        ...(ingested.scene.acquiredAt ? { ACQUISITION_TIME: ingested.scene.acquiredAt } : {}),
+        ...(ingested.scene.pass ? { PASS: ingested.scene.pass } : {}),
         LST_METHOD: t.atmosphere ? 'radiative transfer equation inverted with the scene atmosphere' : 'emissivity correction alone (no atmospheric correction)',
         THERMAL_CONSTANTS_SOURCE: t.constantsSource,
         EMISSIVITY_SOURCE: sceneEmissivity ? sceneEmissivity.source : `${d.fallback.source} (district properties are not applied to this raster)`,
@@ -152,10 +152,10 @@ export async function zonalRows(raster: RasterFile, ingested: SceneReading, data
     const options: ZonalSceneOptions = {
       coverage: data.coverage,
       // albedo is a fraction, not a temperature: the LST plausibility window does not apply
-      plausibleKelvin: ingested.kind === 'lst' || ingested.kind === 'thermal' ? data.plausibleKelvin : [0, 1],
+      plausibleKelvin: ingested.scene.kind === 'lst' || ingested.scene.kind === 'thermal' ? data.plausibleKelvin : [0, 1],
       qa: qa ? { raster: qa, maskBits: data.qa?.maskBits, maskValues: data.qa?.maskValues } : undefined,
     };
-    const thermal = ingested.kind === 'thermal' ? await thermalZonal(raster, targets, options, ingested, data, sceneEmissivity) : null;
+    const thermal = ingested.scene.kind === 'thermal' ? await thermalZonal(raster, targets, options, ingested, data, sceneEmissivity) : null;
     const results = thermal ? thermal.results : await zonalScene(raster, targets, options);
     const rows = results.map((r) => ({
       districtId: r.id,

@@ -112,12 +112,9 @@ describe('scene processor', () => {
     expect(calls.map((c) => c.method)).toEqual(['storedSceneState', 'registerSceneReporting', 'setSceneWarnings']);
     expect((calls[1].args[0] as { path: string }).path).toBe(path);
     // a district of the run without current statistics: computed and stored again
-    const { calls: again } = await (async () => {
-      const f = fakeRepo({ id: 7, status: 'processed', districts: [], lstInputsFingerprint: null });
-      await sceneJob(sceneData(path, await hashFile(path)), f.ctx);
-      return f;
-    })();
-    expect(again.map((c) => c.method)).toEqual(['storedSceneState', 'storeProcessedScene']);
+    const again = fakeRepo({ id: 7, status: 'processed', districts: [], lstInputsFingerprint: null });
+    await sceneJob(sceneData(path, await hashFile(path)), again.ctx);
+    expect(again.calls.map((c) => c.method)).toEqual(['storedSceneState', 'storeProcessedScene']);
   });
   it('does not look for earlier results of a scene the store did not have when the run was built', async () => {
     const path = await scene('new.tif', { ACQUISITION_TIME: '2024-07-14T15:52:00Z' });

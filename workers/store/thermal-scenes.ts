@@ -95,9 +95,3 @@ export async function emissivitySourcesOfScene(db: Db, sceneId: number): Promise
   );
   return Object.fromEntries(rows.map((r) => [r.districtId, r.source]));
 }
-
-/** The fingerprint of the inputs a thermal scene's stored statistics were computed from, or null. */
-export async function lstInputsFingerprint(db: Db, sceneId: number): Promise<string | null> {
-  const rows = await db.query<{ f: string | null }>('SELECT lst_inputs_fingerprint AS f FROM scenes WHERE id = $1', [sceneId]);
-  return rows[0]?.f ?? null;
-}

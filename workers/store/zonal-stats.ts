@@ -45,23 +45,45 @@ const ZONAL_FIELDS = [
   ['implausibleCount', 'implausible_count'],
 ] as const;
 
-const ZONAL_INSERT = `INSERT INTO zonal_stats (scene_id, district_id, ${ZONAL_FIELDS.map((f) => f[1]).join(', ')}, coverage_rule, run_id)
-  SELECT $1::bigint, * FROM unnest($2::text[], ${ZONAL_FIELDS.map((_, i) => `$${i + 3}::double precision[]`).join(', ')},
-                           $${ZONAL_FIELDS.length + 3}::text[], $${ZONAL_FIELDS.length + 4}::bigint[])`;
-
 const N_ZONAL = ZONAL_FIELDS.length;
+
+/**
+ * The INSERT of a scene's rows: `sceneId` an SQL expression for the scene's id,
+ * the rows' columns as arrays from parameter $`first` on (see {@link zonalParams}).
+ */
+function zonalInsert(sceneId: string, first: number): string {
+  return `INSERT INTO zonal_stats (scene_id, district_id, ${ZONAL_FIELDS.map((f) => f[1]).join(', ')}, coverage_rule, run_id)
+  SELECT ${sceneId}, * FROM unnest($${first}::text[], ${ZONAL_FIELDS.map((_, i) => `$${first + 1 + i}::double precision[]`).join(', ')},
+                                   $${first + N_ZONAL + 1}::text[], $${first + N_ZONAL + 2}::bigint[])`;
+}
+
+/**
+ * The common table expressions that replace a scene's rows in one statement:
+ * `up` upserts them (returning their district ids), `gone` deletes the scene's
+ * rows of other districts.
+ */
+function zonalReplaceCtes(sceneId: string, first: number): string {
+  return `up AS (
+    ${zonalInsert(sceneId, first)}
+    ON CONFLICT (scene_id, district_id) DO UPDATE SET
+      ${ZONAL_FIELDS.map((f) => `${f[1]} = EXCLUDED.${f[1]}`).join(', ')},
+      coverage_rule = EXCLUDED.coverage_rule, run_id = EXCLUDED.run_id
+    RETURNING district_id),
+  gone AS (DELETE FROM zonal_stats WHERE scene_id = ${sceneId} AND NOT (district_id = ANY($${first}::text[])))`;
+}
 
 /** The rows' numeric columns in ZONAL_FIELDS order, each value checked (finite or null). */
 function zonalColumns(rows: readonly ZonalStatsInput[]): (number | null)[][] {
   return ZONAL_FIELDS.map(([key]) => rows.map((r) => num(r[key] as number | null, `zonal ${key} of district ${r.districtId}`)));
 }
-const ZONAL_REPLACE_ONE = `WITH up AS (
-    ${ZONAL_INSERT}
-    ON CONFLICT (scene_id, district_id) DO UPDATE SET
-      ${ZONAL_FIELDS.map((f) => `${f[1]} = EXCLUDED.${f[1]}`).join(', ')},
-      coverage_rule = EXCLUDED.coverage_rule, run_id = EXCLUDED.run_id
-    RETURNING district_id),
-  gone AS (DELETE FROM zonal_stats WHERE scene_id = $1::bigint AND NOT (district_id = ANY($2::text[]))),
+
+/** The parameters of {@link zonalInsert}: district ids, the checked numeric columns, rules, run ids (a row's own, else `runId`). */
+function zonalParams(rows: readonly ZonalStatsInput[], columns: (number | null)[][], runId: number | null): unknown[] {
+  return [rows.map((r) => r.districtId), ...columns, rows.map((r) => r.coverageRule), rows.map((r) => r.runId ?? runId)];
+}
+
+const ZONAL_INSERT = zonalInsert('$1::bigint', 2);
+const ZONAL_REPLACE_ONE = `WITH ${zonalReplaceCtes('$1::bigint', 2)},
   mark AS (UPDATE scenes SET status = 'processed', error = NULL, error_kind = NULL, processed_at = now(),
                              run_id = coalesce($${N_ZONAL + 5}::bigint, run_id)
            WHERE id = $1::bigint)
@@ -80,36 +102,23 @@ export async function replaceZonalStats(
 ): Promise<number> {
   // Validate everything before the first statement, so a bad row changes nothing.
   const columns = zonalColumns(rows);
+  const runId = options.runId ?? null;
   if (rows.length <= BATCH_ROWS) {
     // One statement (atomic on its own): upsert the rows, drop the scene's other
     // rows, mark the scene processed. One round trip instead of five.
-    const out = await db.query<{ n: number }>(ZONAL_REPLACE_ONE, [
-      sceneId,
-      rows.map((r) => r.districtId),
-      ...columns,
-      rows.map((r) => r.coverageRule),
-      rows.map((r) => r.runId ?? options.runId ?? null),
-      options.runId ?? null,
-    ], { prepared: true }); // once a scene, keyed by scene id: kept planned on the server (QueryOptions)
+    const out = await db.query<{ n: number }>(ZONAL_REPLACE_ONE, [sceneId, ...zonalParams(rows, columns, runId), runId], { prepared: true }); // once a scene, keyed by scene id: kept planned on the server (QueryOptions)
     return out[0].n;
   }
   return inTransaction(db, async (q) => {
     await q.query('DELETE FROM zonal_stats WHERE scene_id = $1', [sceneId]);
     for (let start = 0; start < rows.length; start += BATCH_ROWS) {
       const end = Math.min(rows.length, start + BATCH_ROWS);
-      const batch = rows.slice(start, end);
-      await q.query(ZONAL_INSERT, [
-        sceneId,
-        batch.map((r) => r.districtId),
-        ...columns.map((c) => c.slice(start, end)),
-        batch.map((r) => r.coverageRule),
-        batch.map((r) => r.runId ?? options.runId ?? null),
-      ]);
+      await q.query(ZONAL_INSERT, [sceneId, ...zonalParams(rows.slice(start, end), columns.map((c) => c.slice(start, end)), runId)]);
     }
     await q.query(
       `UPDATE scenes SET status = 'processed', error = NULL, error_kind = NULL, processed_at = now(), run_id = coalesce($2, run_id)
        WHERE id = $1`,
-      [sceneId, options.runId ?? null],
+      [sceneId, runId],
     );
     return rows.length;
   });
@@ -125,15 +134,7 @@ const SCENE_STORE_ONE = `WITH stale AS (DELETE FROM scenes WHERE content_hash IS
       run_id = coalesce(EXCLUDED.run_id, scenes.run_id), status = 'processed', error = NULL, error_kind = NULL,
       processed_at = now(), warnings = EXCLUDED.warnings
     RETURNING id),
-  up AS (
-    INSERT INTO zonal_stats (scene_id, district_id, ${ZONAL_FIELDS.map((f) => f[1]).join(', ')}, coverage_rule, run_id)
-    SELECT (SELECT id FROM reg), * FROM unnest($${S + 3}::text[], ${ZONAL_FIELDS.map((_, i) => `$${S + 4 + i}::double precision[]`).join(', ')},
-                                               $${S + N_ZONAL + 4}::text[], $${S + N_ZONAL + 5}::bigint[])
-    ON CONFLICT (scene_id, district_id) DO UPDATE SET
-      ${ZONAL_FIELDS.map((f) => `${f[1]} = EXCLUDED.${f[1]}`).join(', ')},
-      coverage_rule = EXCLUDED.coverage_rule, run_id = EXCLUDED.run_id
-    RETURNING district_id),
-  gone AS (DELETE FROM zonal_stats WHERE scene_id = (SELECT id FROM reg) AND NOT (district_id = ANY($${S + 3}::text[])))
+  ${zonalReplaceCtes('(SELECT id FROM reg)', S + 3)}
   SELECT (SELECT id FROM reg) AS id, (SELECT count(*) FROM up)::int AS n`;
 
 /**
@@ -162,15 +163,8 @@ export async function storeProcessedScene(
     await replaceZonalStats(db, id, rows, { runId });
     return id;
   }
-  const out = await db.query<{ id: number; n: number }>(SCENE_STORE_ONE, [
-    ...header,
-    runId,
-    JSON.stringify(warnings),
-    rows.map((r) => r.districtId),
-    ...columns,
-    rows.map((r) => r.coverageRule),
-    rows.map((r) => r.runId ?? runId),
-  ], { prepared: true }); // once a scene: kept planned on the server (QueryOptions)
+  const out = await db.query<{ id: number; n: number }>(SCENE_STORE_ONE, [...header, runId, JSON.stringify(warnings), ...zonalParams(rows, columns, runId)],
+    { prepared: true }); // once a scene: kept planned on the server (QueryOptions)
   return out[0].id;
 }
 
@@ -178,7 +172,11 @@ export async function storeProcessedScene(
 export interface StoredSceneState {
   id: number;
   status: SceneStatus;
-  /** Districts with current statistics under the coverage rule (see {@link zonalDistrictsOfScene}). */
+  /**
+   * Districts with statistics under the coverage rule that are still current: computed in a
+   * run that started after the district (its geometry, e.g. a rural ring with water cut out)
+   * was last changed. Statistics of a district changed since, or of an unknown run, are not counted.
+   */
   districts: string[];
   /** What a thermal scene's statistics were computed from (thermal-scenes.ts), or null. */
   lstInputsFingerprint: string | null;
@@ -233,21 +231,4 @@ export function zonalMeansForScenes(db: Db, sceneIds: readonly number[], distric
      ORDER BY scene_id, district_id COLLATE "C"`,
     [sceneIds, districtIds],
   );
-}
-
-/**
- * District ids with statistics for a scene under a coverage rule that are still current: computed
- * in a run that started after the district (its geometry, e.g. a rural ring with water cut out)
- * was last changed. Statistics of a district changed since, or of an unknown run, are not counted.
- */
-export async function zonalDistrictsOfScene(db: Db, sceneId: number, coverageRule: string): Promise<string[]> {
-  return (await db.query<{ id: string }>(
-    `SELECT z.district_id AS id
-     FROM zonal_stats z
-     JOIN districts d ON d.id = z.district_id
-     JOIN runs r ON r.id = z.run_id
-     WHERE z.scene_id = $1 AND z.coverage_rule = $2 AND r.started_at >= d.updated_at
-     ORDER BY z.district_id COLLATE "C"`,
-    [sceneId, coverageRule],
-  )).map((r) => r.id);
 }

@@ -899,6 +899,31 @@ describe('store on PGlite (in memory)', () => {
     // An in-memory engine cannot be reopened; migrate() on the same instance checks "applies none".
     async () => shared as Store,
   );
+
+  it('keeps the per-scene writes prepared in the engine, also across a write that failed', async () => {
+    const store = await openStore({ memory: true });
+    try {
+      await upsertDistricts(store, [DISTRICTS[0]]);
+      const scene = lstScene('prepared-embedded', '2024-08-01T10:30:00Z', 'day');
+      const id = await storeProcessedScene(store, scene, [zonal('harbour', 311.5, 0.9)]);
+      // The same text again: the same statement, executed with new values (a null among them).
+      expect(await storeProcessedScene(store, scene, [{ ...zonal('harbour', 312.25, 0.9), p10Kelvin: null }])).toBe(id);
+      const stored = async () => (await zonalStatsForScenes(store, [id])).map((z) => [z.districtId, z.meanKelvin, z.p10Kelvin]);
+      expect(await stored()).toEqual([['harbour', 312.25, null]]);
+      // An unknown district: the foreign key refuses the execution; the statement stays prepared
+      // and the engine takes the next statement, prepared or not.
+      await expect(storeProcessedScene(store, scene, [zonal('nowhere', 1, 1)])).rejects.toThrow(/zonal_stats_district_id_fkey/);
+      expect(await storeProcessedScene(store, scene, [zonal('harbour', 313, 0.9)])).toBe(id);
+      // pg_prepared_statements lists the session's prepared statements (PostgreSQL manual, "pg_prepared_statements").
+      const prepared = await store.query<{ head: string }>(
+        `SELECT left(regexp_replace(statement, '\\s+', ' ', 'g'), 20) AS head FROM pg_prepared_statements ORDER BY 1`,
+      );
+      expect(prepared.map((p) => p.head)).toEqual(['WITH stale AS (DELET']);
+      expect(await stored()).toEqual([['harbour', 313, 311.5]]);
+    } finally {
+      await store.close();
+    }
+  });
 });
 
 describe.skipIf(!pgAvailable)('store on the PostgreSQL server', () => {

@@ -7,11 +7,11 @@
 export interface QueryOptions {
   /**
    * The statement is run again and again, on every scene, with parameters that
-   * never call for another plan (a keyed write): the PostgreSQL server keeps it
-   * parsed and planned per connection (a named prepared statement) instead of
-   * parsing, analysing and planning its text at every call. Never for a query
-   * whose best plan depends on its parameters (a generic plan would serve them
-   * all). The embedded engine runs it as any other statement.
+   * never call for another plan (a keyed write): the database keeps it parsed
+   * and planned (a named prepared statement: per connection on the server, in
+   * the embedded engine's one session) instead of parsing, analysing and
+   * planning its text at every call. Never for a query whose best plan depends
+   * on its parameters (a generic plan would serve them all).
    */
   prepared?: boolean;
 }

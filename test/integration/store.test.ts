@@ -914,11 +914,16 @@ describe('store on PGlite (in memory)', () => {
       // and the engine takes the next statement, prepared or not.
       await expect(storeProcessedScene(store, scene, [zonal('nowhere', 1, 1)])).rejects.toThrow(/zonal_stats_district_id_fkey/);
       expect(await storeProcessedScene(store, scene, [zonal('harbour', 313, 0.9)])).toBe(id);
+      expect(typeof id).toBe('number');
+      // Values go in and rows come out as the unprepared path takes and gives them.
+      const sql = 'SELECT $1::bigint AS id, $2::float8[] AS xs, $3::timestamptz AS t, $4::jsonb AS j, $5::text AS none';
+      const params = [7, [1.5, null], '2024-08-01T10:30:00Z', JSON.stringify(['x']), null];
+      expect(await store.query(sql, params, { prepared: true })).toEqual(await store.query(sql, params));
       // pg_prepared_statements lists the session's prepared statements (PostgreSQL manual, "pg_prepared_statements").
       const prepared = await store.query<{ head: string }>(
         `SELECT left(regexp_replace(statement, '\\s+', ' ', 'g'), 20) AS head FROM pg_prepared_statements ORDER BY 1`,
       );
-      expect(prepared.map((p) => p.head)).toEqual(['WITH stale AS (DELET']);
+      expect(prepared.map((p) => p.head)).toEqual(['SELECT $1::bigint AS', 'WITH stale AS (DELET']);
       expect(await stored()).toEqual([['harbour', 313, 311.5]]);
     } finally {
       await store.close();

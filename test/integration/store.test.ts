@@ -47,6 +47,7 @@ import {
   type ZonalStatsInput,
   zonalMeansForScenes,
 } from '../../workers/store/index.js';
+import { BATCH_ROWS } from '../../workers/store/db.js';
 import { migrate } from '../../workers/store/migrate.js';
 import { namedQuery } from '../../workers/store/queries.js';
 import { openStore, type Store } from '../../workers/store/store.js';
@@ -875,6 +876,17 @@ function defineSuite(kind: 'pglite' | 'pg', open: () => Promise<Store>, reopen: 
 
     // leave the store as the tests before this one left it
     await store.query('DELETE FROM scenes WHERE id = ANY($1::bigint[])', [[id, twinId]]);
+  });
+
+  it('stores a scene with more rows than one statement takes all at once or not at all', async () => {
+    const big = lstScene('x-2024-07-18-big', '2024-07-18T10:30:00Z', 'day');
+    // Rows for districts the store does not have: the foreign key refuses the write (PostgreSQL
+    // manual, "Foreign Keys"); the registration before it, in the same transaction, is rolled back with it.
+    const rows = Array.from({ length: BATCH_ROWS + 1 }, (_, i) => zonal(`unknown-${i}`, 300, 1));
+    const refused = await storeProcessedScene(store, big, rows, { warnings: ['w'] }).catch((e: unknown) => e);
+    expect(refused).toBeInstanceOf(ServiceError);
+    expect((refused as Error).message).toMatch(/zonal_stats_district_id_fkey/);
+    expect(await findSceneByHash(store, big.contentHash)).toBeNull();
   });
 
   it('reads named queries from sql/queries and rejects unknown names', () => {

@@ -145,17 +145,6 @@ export async function writePgliteTemplate(outDir: string): Promise<TemplateRecor
   return record;
 }
 
-/** Protocol messages sent to the engine in one call. */
-function concatMessages(...parts: Uint8Array[]): Uint8Array {
-  const out = new Uint8Array(parts.reduce((n, p) => n + p.length, 0));
-  let at = 0;
-  for (const p of parts) {
-    out.set(p, at);
-    at += p.length;
-  }
-  return out;
-}
-
 /** A transaction's handle; QueryOptions.prepared does not apply (PGlite's handle runs query() only). */
 function wrapTx(tx: PgliteTransaction, where: string): Transaction {
   return {
@@ -219,7 +208,7 @@ class PgliteStore implements Store {
       if (statement === undefined) {
         const name = `hl_${this.statements.size + 1}`;
         const described = await db.execProtocolStream(
-          concatMessages(protocol.serialize.parse({ name, text: sql }), protocol.serialize.describe({ type: 'S', name }), protocol.serialize.sync()),
+          Buffer.concat([protocol.serialize.parse({ name, text: sql }), protocol.serialize.describe({ type: 'S', name }), protocol.serialize.sync()]),
           { syncToFs: false },
         );
         statement = { name, paramTypes: pgliteParse.parseDescribeStatementResults(described) };
@@ -232,8 +221,8 @@ class PgliteStore implements Store {
         return serialise ? serialise(v) : String(v);
       });
       const messages = await db.execProtocolStream(
-        concatMessages(protocol.serialize.bind({ statement: statement.name, values }), protocol.serialize.describe({ type: 'P' }),
-          protocol.serialize.execute({}), protocol.serialize.sync()),
+        Buffer.concat([protocol.serialize.bind({ statement: statement.name, values }), protocol.serialize.describe({ type: 'P' }),
+          protocol.serialize.execute({}), protocol.serialize.sync()]),
         { syncToFs: false },
       );
       await db.syncToFs(); // as query() does after a statement outside a transaction

@@ -142,7 +142,8 @@ const SCENE_STORE_ONE = `WITH stale AS (DELETE FROM scenes WHERE content_hash IS
  * with these reading warnings) and replace its zonal statistics with `rows`,
  * marking it 'processed' — one statement, so one round trip and one commit, and
  * a reader sees the scene with all its new rows or as it was before. More rows
- * than one statement takes: the registration, then {@link replaceZonalStats}.
+ * than one statement takes: the registration, then {@link replaceZonalStats},
+ * in one transaction (the same all-or-nothing, in more round trips).
  * Returns the scene id.
  */
 export async function storeProcessedScene(
@@ -158,10 +159,12 @@ export async function storeProcessedScene(
   const columns = zonalColumns(rows);
   const runId = options.runId ?? scene.runId ?? null;
   if (rows.length > BATCH_ROWS) {
-    const { id } = await registerSceneReporting(db, { ...scene, runId });
-    await setSceneWarnings(db, id, warnings);
-    await replaceZonalStats(db, id, rows, { runId });
-    return id;
+    return inTransaction(db, async (q) => {
+      const { id } = await registerSceneReporting(q, { ...scene, runId });
+      await setSceneWarnings(q, id, warnings);
+      await replaceZonalStats(q, id, rows, { runId });
+      return id;
+    });
   }
   const out = await db.query<{ id: number; n: number }>(SCENE_STORE_ONE, [...header, runId, JSON.stringify(warnings), ...zonalParams(rows, columns, runId)],
     { prepared: true }); // once a scene: kept planned on the server (QueryOptions)

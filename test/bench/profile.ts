@@ -11,7 +11,7 @@
 import { open } from 'node:fs/promises';
 import { inflateSync } from 'node:zlib';
 import { centreMask } from '../../workers/core/coverage/index.js';
-import { reprojectGeometry } from '../../workers/core/crs/index.js';
+import { reprojectFlat } from '../../workers/core/crs/index.js';
 import { readDistricts } from '../../workers/core/districts/index.js';
 import { unionWindows, intersectWindows, type Window } from '../../workers/core/raster/affine.js';
 import { readRasterHeader } from '../../workers/core/raster/header.js';
@@ -78,7 +78,7 @@ export async function profileZonalRun(rasterPath: string, districtsPath: string)
   const t2 = performance.now();
   try {
     const crs = rasterCrs(raster.header);
-    const targets = districts.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) }));
+    const targets = districts.map((d) => ({ id: d.id, geometry: reprojectFlat(d.geometry, GEOJSON_CRS, crs) }));
     const t3 = performance.now();
     const results = await zonalScene(raster, targets, { coverage: 'centre', plausibleKelvin: [170, 360] });
     const t4 = performance.now();
@@ -110,7 +110,7 @@ export async function loadTargets(rasterPath: string, districtsPath: string): Pr
   const districts = await readDistricts(districtsPath, { idField: 'id', nameField: 'name' });
   const raster = await openRaster(rasterPath);
   const crs = rasterCrs(raster.header);
-  return { targets: districts.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) })), raster };
+  return { targets: districts.map((d) => ({ id: d.id, geometry: reprojectFlat(d.geometry, GEOJSON_CRS, crs) })), raster };
 }
 
 export interface DecodeFigures {

@@ -25,7 +25,7 @@ import { fileURLToPath } from 'node:url';
 import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { runPipeline, type PipelineOptions } from '../../workers/run/pipeline.js';
 import { openRaster, rasterCrs } from '../../workers/core/raster/index.js';
-import { GEOJSON_CRS, reprojectGeometry } from '../../workers/core/crs/index.js';
+import { GEOJSON_CRS, reprojectFlat } from '../../workers/core/crs/index.js';
 import { zonalThermalScene } from '../../workers/core/zonal/index.js';
 import { TIRS_CONSTANTS } from '../../workers/core/thermal/index.js';
 import { runtimeConfig } from '../../workers/run/config.js';
@@ -307,7 +307,7 @@ describe('district emissivity properties (zonal step of a thermal scene)', () =>
       const doc = JSON.parse(await readFile(path.join(FIX, 'districts.geojson'), 'utf8'));
       const crs = rasterCrs(raster.header);
       const targets = doc.features.map((f: { properties: { id: string }; geometry: { coordinates: number[][][] } }) =>
-        ({ id: f.properties.id, geometry: reprojectGeometry([f.geometry.coordinates], GEOJSON_CRS, crs) }));
+        ({ id: f.properties.id, geometry: reprojectFlat([f.geometry.coordinates], GEOJSON_CRS, crs) }));
       const r = await zonalThermalScene(raster, targets, { coverage: 'centre' }, {
         constants: TIRS_CONSTANTS.LANDSAT_8.B10, atmosphere: null, sceneEmissivity: null,
         districtEmissivity: { T1: 0.95 }, fallback: { value: 0.97, source: 'constant 0.97 (--emissivity)' },

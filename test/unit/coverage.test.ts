@@ -7,6 +7,7 @@ import { featureCollection, polygon } from '@turf/helpers';
 import { centreMask, fractionMask, type CentreMask } from '../../workers/core/coverage/index.js';
 import { fromGdal, type Affine } from '../../workers/core/raster/affine.js';
 import { isInputError } from '../../workers/core/errors.js';
+import type { FlatMultiPolygon } from '../../workers/core/crs/index.js';
 
 const FIXTURES = join(dirname(fileURLToPath(import.meta.url)), '..', 'fixtures', 'coverage');
 
@@ -42,6 +43,16 @@ function shoelace(ring: number[][]): number {
 
 const unitGrid: Affine = { a: 1, b: 0, c: 0, d: 0, e: -1, f: 0 };
 
+/** The same coordinates as typed arrays, the form reprojectFlat gives zonal targets. */
+function flat(geometry: number[][][][]): FlatMultiPolygon {
+  const polygons = geometry.map((rings) => {
+    const ringStarts = new Uint32Array(rings.length + 1);
+    rings.forEach((r, k) => { ringStarts[k + 1] = ringStarts[k] + r.length; });
+    return { xs: Float64Array.from(rings.flat(), (p) => p[0]), ys: Float64Array.from(rings.flat(), (p) => p[1]), ringStarts };
+  });
+  return { polygons, bbox: [NaN, NaN, NaN, NaN] };
+}
+
 describe('centreMask vs GDAL rasterize', () => {
   test('fixtures are present', () => {
     expect(fixtures.length).toBeGreaterThanOrEqual(12);
@@ -65,8 +76,19 @@ describe('centreMask vs GDAL rasterize', () => {
         });
       }
       expect(m!.rowOffsets.length).toBe(m!.window.height + 1);
+      // the typed-array form of the same coordinates: the same cells, and the same fractions to the last bit
+      const mf = centreMask(flat(fx.geometry), fromGdal(fx.gdalTransform), fx.width, fx.height);
+      expect(spansOf(mf!)).toEqual(fx.spans);
+      expect(mf!.window).toEqual(m!.window);
+      const fr = fractionMask(fx.geometry, fromGdal(fx.gdalTransform), fx.width, fx.height);
+      expect(fractionMask(flat(fx.geometry), fromGdal(fx.gdalTransform), fx.width, fx.height)).toEqual(fr);
     });
   }
+
+  test('a coordinate that is not finite in the typed-array form is refused, naming its ring', () => {
+    const bad = flat([[[[1, -1], [4, -1], [4, -4], [1, -1]]], [[[1, -1], [4, -1], [NaN, -4], [1, -1]]]]);
+    expect(() => centreMask(bad, unitGrid, 10, 10, 'wards.geojson')).toThrow(/^wards\.geojson: position 3 of ring 1 of polygon 2 has a coordinate that is not a finite number/);
+  });
 });
 
 describe('centreMask behaviour', () => {

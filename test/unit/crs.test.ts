@@ -4,7 +4,7 @@ import {
   isGeographic,
   makeTransformer,
   reprojectBBox,
-  reprojectGeometry,
+  reprojectFlat,
 } from '../../workers/core/crs/index.js';
 import { InputError } from '../../workers/core/errors.js';
 
@@ -133,24 +133,39 @@ describe('crsDefinitionForEpsg coverage and refusals', () => {
   });
 });
 
-describe('reprojectGeometry and reprojectBBox', () => {
+describe('reprojectFlat and reprojectBBox', () => {
   const wgs = crsDefinitionForEpsg(4326);
   const utm = crsDefinitionForEpsg(32633);
 
-  it('maps every vertex of a MultiPolygon and leaves the input alone', () => {
-    const geometry = [[[[15, 52], [12.3456, 48.7654], [18.9, 60.1], [15, 52]]]];
-    const out = reprojectGeometry(geometry, wgs, utm);
+  it('maps every vertex of a MultiPolygon into typed arrays, with their bounding box, and leaves the input alone', () => {
+    const geometry = [[[[15, 52], [12.3456, 48.7654], [18.9, 60.1], [15, 52]]], [[[15, 52], [16, 52], [15, 53], [15, 52]]]];
+    const out = reprojectFlat(geometry, wgs, utm);
     expect(geometry[0][0][0]).toEqual([15, 52]);
-    expect(out[0][0]).toHaveLength(4);
+    expect(out.polygons).toHaveLength(2);
+    const [p] = out.polygons;
+    expect(Array.from(p.ringStarts)).toEqual([0, 4]);
     // GDAL values from the table above
-    expect(Math.abs(out[0][0][1][0] - 304949.3621)).toBeLessThan(1e-2);
-    expect(Math.abs(out[0][0][2][1] - 6668947.9576)).toBeLessThan(1e-2);
-    expect(out[0][0][3]).toEqual(out[0][0][0]);
+    expect(Math.abs(p.xs[1] - 304949.3621)).toBeLessThan(1e-2);
+    expect(Math.abs(p.ys[2] - 6668947.9576)).toBeLessThan(1e-2);
+    expect([p.xs[3], p.ys[3]]).toEqual([p.xs[0], p.ys[0]]);
+    const all = out.polygons.flatMap((q) => [...q.xs].map((x, i) => [x, q.ys[i]]));
+    expect(out.bbox).toEqual([Math.min(...all.map((v) => v[0])), Math.min(...all.map((v) => v[1])), Math.max(...all.map((v) => v[0])), Math.max(...all.map((v) => v[1]))]);
+  });
+
+  it('gives makeTransformer\'s points bit for bit: UTM series, a point far from the zone (the general path) and a projection through proj4', () => {
+    const rings = [[[15, 52], [14.2, 51.3], [-100, 10], [15.5, 52.4], [15, 52]], [[15.1, 52.1], [15.2, 52.1], [15.1, 52.2], [15.1, 52.1]]];
+    for (const target of [utm, crsDefinitionForEpsg(3035), crsDefinitionForEpsg(3857)]) {
+      const t = makeTransformer(wgs, target);
+      const flat = reprojectFlat([rings], wgs, target).polygons[0];
+      const expected = rings.flat().map(([x, y]) => t(x, y));
+      expect([...flat.xs].map((x, i) => [x, flat.ys[i]])).toEqual(expected);
+      expect(Array.from(flat.ringStarts)).toEqual([0, 5, 9]);
+    }
   });
 
   it('reports a point outside the projection domain as InputError naming the file', () => {
     const merc = crsDefinitionForEpsg(3857);
-    expect(() => reprojectGeometry([[[[0, 90], [1, 90], [1, 89], [0, 90]]]], wgs, merc, 'city.geojson')).toThrow(
+    expect(() => reprojectFlat([[[[0, 90], [1, 90], [1, 89], [0, 90]]]], wgs, merc, 'city.geojson')).toThrow(
       /^city\.geojson: point \(0, 90\) cannot be reprojected/,
     );
   });

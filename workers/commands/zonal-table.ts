@@ -10,9 +10,8 @@ import { rasterCrs } from '../core/raster/placement.js';
 // rural-ring and adjacency code and their geometry libraries, unused here).
 import { readDistricts } from '../core/districts/parse.js';
 import { readRuralReference } from '../core/districts/merged.js';
-import { geometryBBox } from '../core/districts/bbox.js';
 import { GEOJSON_CRS } from '../core/crs/geojson.js';
-import { reprojectGeometry } from '../core/crs/transform.js';
+import { reprojectFlat } from '../core/crs/transform.js';
 import { windowOfBounds } from '../core/raster/affine.js';
 import { zonalScene } from '../core/zonal/scene.js';
 import type { ZonalStats, ZonalCounts } from '../core/zonal/types.js';
@@ -97,9 +96,9 @@ export async function zonalTable(options: ZonalTableOptions): Promise<ZonalTable
     }
     const crs = rasterCrs(raster.header);
     const all = rural ? [...districts, rural] : districts;
-    const targets = all.map((d) => ({ id: d.id, geometry: reprojectGeometry(d.geometry, GEOJSON_CRS, crs) }));
+    const targets = all.map((d) => ({ id: d.id, geometry: reprojectFlat(d.geometry, GEOJSON_CRS, crs) }));
     const { width, height, transform } = raster.header;
-    if (targets.every((t) => windowOfBounds(transform, geometryBBox(t.geometry), width, height) === null)) {
+    if (targets.every((t) => windowOfBounds(transform, t.geometry.bbox, width, height) === null)) {
       throw new InputError(`does not overlap any district of ${options.districtsPath}`, options.rasterPath);
     }
     if (options.qaPath) qa = await openRaster(options.qaPath);

@@ -9,7 +9,7 @@ import { InputError } from '../core/errors.js';
 import { fingerprint } from '../core/hash.js';
 import { openRaster, rasterCrs, type RasterFile } from '../core/raster/index.js';
 import type { ZonalStatsInput } from '../store/index.js';
-import { GEOJSON_CRS, reprojectGeometry } from '../core/crs/index.js';
+import { GEOJSON_CRS, reprojectFlat, type FlatMultiPolygon } from '../core/crs/index.js';
 import { mkdir } from 'node:fs/promises';
 import { basename, join } from 'node:path';
 import { zonalScene, zonalThermalScene, openAtmosphere, openEmissivityField, type ThermalZonalResult, type ZonalSceneOptions, type ZonalTarget } from '../core/zonal/index.js';
@@ -96,7 +96,7 @@ type Geometry = number[][][][];
 // redrawn since) starts them afresh rather than using old geometry.
 let cacheKey: string | null = null;
 const lonLatCache = new Map<string, Geometry>();
-const projectedCache = new Map<string, Map<string, Geometry>>();
+const projectedCache = new Map<string, Map<string, FlatMultiPolygon>>();
 
 async function targetsFor(listDistricts: () => Promise<{ id: string; geometry: unknown }[]>, ids: readonly string[], crs: string, key: string): Promise<ZonalTarget[]> {
   if (key !== cacheKey) {
@@ -117,7 +117,7 @@ async function targetsFor(listDistricts: () => Promise<{ id: string; geometry: u
     if (!g) {
       const ll = lonLatCache.get(id);
       if (!ll) throw new Error(`district ${id} is not in the store`);
-      g = reprojectGeometry(ll, GEOJSON_CRS, crs);
+      g = reprojectFlat(ll, GEOJSON_CRS, crs);
       byId!.set(id, g);
     }
     return { id, geometry: g };

@@ -2,6 +2,7 @@
  * Centre rule: a cell belongs to a polygon when its centre is inside
  * (GDAL rasterize with ALL_TOUCHED=FALSE), computed by scanline fill.
  */
+import type { FlatMultiPolygon, MultiPolygonCoordinates } from '../crs/transform.js';
 import type { Affine, Window } from '../raster/affine.js';
 import type { CentreMask } from './types.js';
 import { checkRasterSize, ringTwiceArea, toPixelSpace, type PixelGeometry, type PixelPolygon } from './pixelspace.js';
@@ -115,7 +116,7 @@ function horizontalFills(poly: PixelPolygon, detSign: number, r0: number, r1: nu
  *   { a: 1, b: 0, c: 0, d: 0, e: -1, f: 0 }, 10, 10)!.count === 4
  */
 export function centreMask(
-  geometry: number[][][][],
+  geometry: MultiPolygonCoordinates | FlatMultiPolygon,
   transform: Affine,
   width: number,
   height: number,

@@ -2,6 +2,7 @@
  * Exact coverage fractions: the share of each cell's area inside a polygon,
  * for area-weighted zonal statistics.
  */
+import type { FlatMultiPolygon, MultiPolygonCoordinates } from '../crs/transform.js';
 import type { Affine } from '../raster/affine.js';
 import type { FractionMask } from './types.js';
 import { checkRasterSize, ringTwiceArea, toPixelSpace } from './pixelspace.js';
@@ -136,7 +137,7 @@ function addEdge(acc: Float64Array, stride: number, w: number, h: number, xa: nu
  *   { a: 1, b: 0, c: 0, d: 0, e: -1, f: 0 }, 4, 4)!.sum === 2.25
  */
 export function fractionMask(
-  geometry: number[][][][],
+  geometry: MultiPolygonCoordinates | FlatMultiPolygon,
   transform: Affine,
   width: number,
   height: number,

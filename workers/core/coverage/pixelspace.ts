@@ -6,6 +6,7 @@
  */
 import { invert, type Affine } from '../raster/affine.js';
 import { InputError } from '../errors.js';
+import { isFlatMultiPolygon, type FlatMultiPolygon, type FlatPolygon } from '../crs/transform.js';
 
 /** One polygon in pixel space: all rings' vertices back to back (closing vertex dropped). */
 export interface PixelPolygon {
@@ -37,29 +38,18 @@ function describe(p: number, r: number): string {
 }
 
 /**
- * Validates polygon/multipolygon coordinates (map units of the raster CRS)
- * and maps every vertex to pixel space with the inverse geotransform.
- *
- * Rings may be open or closed (a closing vertex equal to the first is
- * dropped); each needs at least 3 distinct positions. Throws InputError
- * naming `source` for anything that is not a list of polygons of rings of
- * finite [x, y] positions.
- *
- * @param geometry MultiPolygon coordinates: polygons -> rings -> positions -> [x, y]
- * @param transform raster geotransform (may be rotated)
- * @returns vertices in pixel units and their bounding box; null for an empty geometry
+ * Validates nested polygon/multipolygon coordinates and copies them into typed
+ * arrays (map units unchanged). Throws InputError naming `source` for anything
+ * that is not a list of polygons of rings of finite [x, y] positions.
  */
-export function toPixelSpace(geometry: unknown, transform: Affine, source?: string): PixelGeometry | null {
+function flattenChecked(geometry: unknown, source?: string): FlatMultiPolygon {
   if (!Array.isArray(geometry)) {
     throw new InputError('geometry coordinates are not a list of polygons', source);
   }
-  const inv = invert(transform, source);
-  const polygons: PixelPolygon[] = [];
-  let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
+  const polygons: FlatPolygon[] = [];
   for (let p = 0; p < geometry.length; p++) {
     const rings: unknown = geometry[p];
     if (!Array.isArray(rings)) throw new InputError(`polygon ${p + 1} is not a list of rings`, source);
-    if (rings.length === 0) continue;
     let total = 0;
     for (let r = 0; r < rings.length; r++) {
       const ring: unknown = rings[r];
@@ -73,15 +63,59 @@ export function toPixelSpace(geometry: unknown, transform: Affine, source?: stri
     for (let r = 0; r < rings.length; r++) {
       const ring = rings[r] as unknown[];
       ringStarts[r] = n;
-      const start = n;
-      for (let i = 0; i < ring.length; i++) {
+      for (let i = 0; i < ring.length; i++, n++) {
         const pos: unknown = ring[i];
         if (!Array.isArray(pos) || pos.length < 2) {
           throw new InputError(`position ${i + 1} of ${describe(p, r)} is not an [x, y] pair`, source);
         }
         const x = pos[0], y = pos[1];
-        if (typeof x !== 'number' || typeof y !== 'number' || !Number.isFinite(x) || !Number.isFinite(y)) {
+        if (typeof x !== 'number' || typeof y !== 'number') {
           throw new InputError(`position ${i + 1} of ${describe(p, r)} has a coordinate that is not a finite number`, source);
+        }
+        xs[n] = x;
+        ys[n] = y;
+      }
+    }
+    ringStarts[rings.length] = n;
+    polygons.push({ xs, ys, ringStarts });
+  }
+  return { polygons, bbox: [NaN, NaN, NaN, NaN] };
+}
+
+/**
+ * Validates polygon/multipolygon coordinates (map units of the raster CRS)
+ * and maps every vertex to pixel space with the inverse geotransform.
+ *
+ * Rings may be open or closed (a closing vertex equal to the first is
+ * dropped); each needs at least 3 distinct positions. Throws InputError
+ * naming `source` for anything that is not a list of polygons of rings of
+ * finite [x, y] positions.
+ *
+ * @param geometry MultiPolygon coordinates: polygons -> rings -> positions -> [x, y],
+ *   or the same as typed arrays (reprojectFlat), read without an array per position
+ * @param transform raster geotransform (may be rotated)
+ * @returns vertices in pixel units and their bounding box; null for an empty geometry
+ */
+export function toPixelSpace(geometry: unknown, transform: Affine, source?: string): PixelGeometry | null {
+  const flat = isFlatMultiPolygon(geometry) ? geometry : flattenChecked(geometry, source);
+  const inv = invert(transform, source);
+  const polygons: PixelPolygon[] = [];
+  let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
+  for (let p = 0; p < flat.polygons.length; p++) {
+    const { xs: mx, ys: my, ringStarts: from } = flat.polygons[p];
+    const rings = from.length - 1;
+    if (rings <= 0) continue;
+    const xs = new Float64Array(mx.length);
+    const ys = new Float64Array(mx.length);
+    const ringStarts = new Uint32Array(rings + 1);
+    let n = 0;
+    for (let r = 0; r < rings; r++) {
+      ringStarts[r] = n;
+      const start = n;
+      for (let i = from[r]; i < from[r + 1]; i++) {
+        const x = mx[i], y = my[i];
+        if (!Number.isFinite(x) || !Number.isFinite(y)) {
+          throw new InputError(`position ${i - from[r] + 1} of ${describe(p, r)} has a coordinate that is not a finite number`, source);
         }
         // Pixel space; same operation order as GDAL's GDALApplyGeoTransform.
         const px = inv.c + x * inv.a + y * inv.b;
@@ -103,7 +137,7 @@ export function toPixelSpace(geometry: unknown, transform: Affine, source?: stri
         if (ys[i] > maxY) maxY = ys[i];
       }
     }
-    ringStarts[rings.length] = n;
+    ringStarts[rings] = n;
     polygons.push({ xs: xs.subarray(0, n), ys: ys.subarray(0, n), ringStarts });
   }
   if (polygons.length === 0) return null;

@@ -5,8 +5,11 @@ export { DATUM_SHIFTS, datumShiftFor, type DatumShift } from './datumShifts.js';
 export {
   isGeographic,
   makeTransformer,
-  reprojectGeometry,
+  reprojectFlat,
+  isFlatMultiPolygon,
   reprojectBBox,
   type PointTransformer,
   type MultiPolygonCoordinates,
+  type FlatMultiPolygon,
+  type FlatPolygon,
 } from './transform.js';

@@ -14,6 +14,31 @@ export type PointTransformer = (x: number, y: number) => [number, number];
 export type MultiPolygonCoordinates = number[][][][];
 
 /**
+ * One polygon's rings as typed arrays: every ring's positions back to back,
+ * ring k at indices ringStarts[k] to ringStarts[k + 1] (exclusive), as given.
+ */
+export interface FlatPolygon {
+  readonly xs: Float64Array;
+  readonly ys: Float64Array;
+  /** Length rings + 1. */
+  readonly ringStarts: Uint32Array;
+}
+
+/** MultiPolygon coordinates as reprojectFlat writes them, with their bounding box [minX, minY, maxX, maxY]. */
+export interface FlatMultiPolygon {
+  readonly polygons: readonly FlatPolygon[];
+  readonly bbox: BBox;
+}
+
+/** True for a FlatMultiPolygon (not nested coordinate arrays). */
+export function isFlatMultiPolygon(g: unknown): g is FlatMultiPolygon {
+  return typeof g === 'object' && g !== null && !Array.isArray(g) && Array.isArray((g as FlatMultiPolygon).polygons);
+}
+
+/** A point transformer that writes [x, y] into `out` instead of making an array (rules as makeTransformer's). */
+type PointWriter = (x: number, y: number, out: Float64Array) => void;
+
+/**
  * True when a proj4 definition is geographic (degrees of longitude/latitude),
  * false for a projected CRS.
  * @example isGeographic('+proj=longlat +datum=WGS84 +no_defs') // true
@@ -22,7 +47,7 @@ export function isGeographic(def: string): boolean {
   return /\+proj=(longlat|latlong|lonlat|latlon)(\s|$)/.test(def);
 }
 
-const transformers = new Map<string, PointTransformer>();
+const transformers = new Map<string, { point: PointTransformer; write: PointWriter }>();
 
 /** Points a direct projection is checked on against proj4's full transformation before it is trusted. */
 const DIRECT_PROBES = 3;
@@ -62,27 +87,39 @@ function directProjection(fromDef: string, toDef: string): ((x: number, y: numbe
  * @example makeTransformer(crsDefinitionForEpsg(4326), crsDefinitionForEpsg(32633))(15, 0) // [500000, 0]
  */
 export function makeTransformer(fromDef: string, toDef: string): PointTransformer {
+  return transformersFor(fromDef, toDef).point;
+}
+
+/** makeTransformer's transformer and its writing twin, cached together. */
+function transformersFor(fromDef: string, toDef: string): { point: PointTransformer; write: PointWriter } {
   const key = `${fromDef}\u0000${toDef}`;
   const cached = transformers.get(key);
   if (cached) return cached;
+  let made: { point: PointTransformer; write: PointWriter };
   const utm = fromDef.trim() === WGS84_LONLAT ? utmZoneOf(toDef) : null;
   if (utm) {
     // WGS 84 lon/lat into a WGS 84 UTM zone without loading proj4 (utm.ts); points
     // the series does not take (far from the zone, non-finite) go the general way
     const forward = utmForward(utm.zone, utm.south);
     let general: PointTransformer | null = null;
-    const transform: PointTransformer = (x, y) => {
-      const out: [number, number] = [0, 0];
-      if (forward(x, y, out)) return out;
-      general ??= generalTransformer(fromDef, toDef);
-      return general(x, y);
+    const slow = (x: number, y: number) => (general ??= generalTransformer(fromDef, toDef))(x, y);
+    made = {
+      point: (x, y) => {
+        const out: [number, number] = [0, 0];
+        return forward(x, y, out) ? out : slow(x, y);
+      },
+      write: (x, y, out) => {
+        if (forward(x, y, out)) return;
+        const p = slow(x, y);
+        out[0] = p[0]; out[1] = p[1];
+      },
     };
-    transformers.set(key, transform);
-    return transform;
+  } else {
+    const point = generalTransformer(fromDef, toDef);
+    made = { point, write: (x, y, out) => { const p = point(x, y); out[0] = p[0]; out[1] = p[1]; } };
   }
-  const transform = generalTransformer(fromDef, toDef);
-  transformers.set(key, transform);
-  return transform;
+  transformers.set(key, made);
+  return made;
 }
 
 /** proj4's definition of WGS 84 lon/lat as crsDefinitionForEpsg(4326) writes it. */
@@ -131,21 +168,59 @@ function generalTransformer(fromDef: string, toDef: string): PointTransformer {
 
 /**
  * Reproject MultiPolygon coordinates vertex by vertex (no densification: edges
- * stay straight in the target CRS, fine for district-sized polygons).
+ * stay straight in the target CRS, fine for district-sized polygons) into
+ * typed arrays, with their bounding box. The points are makeTransformer's, bit
+ * for bit. Typed arrays rather than an array per position: the coordinates are
+ * only read afterwards (zonal targets: their masks are built from them), and
+ * on the bench's 60 districts of 600 positions one `zonal` run allocated
+ * ~2.3 MB less on the JavaScript heap, which its garbage collector had copied
+ * twice (with the districts file read in one call and indexed bounding-box
+ * loops, 0.93x the run's wall and 0.91x its CPU time; 15 paired runs on the
+ * bench's 1200 x 1200 clip).
  *
- * @param geometry polygons -> rings -> [x, y] in `fromDef` units
+ * @param geometry polygons -> rings -> [x, y] in `fromDef` units (not modified)
  * @param source optional file name for error messages
- * @returns a new array in `toDef` units; input is not modified.
+ * @throws InputError for a point outside the target projection's domain, naming `source`
+ * @example reprojectFlat([[[[15, 0], [15.1, 0], [15, 0.1], [15, 0]]]], wgs84, utm33).bbox // [500000, 0, 511132.., 11057..]
  */
-export function reprojectGeometry(
+export function reprojectFlat(
   geometry: MultiPolygonCoordinates,
   fromDef: string,
   toDef: string,
   source?: string,
-): MultiPolygonCoordinates {
-  const t = makeTransformer(fromDef, toDef);
+): FlatMultiPolygon {
+  const write = transformersFor(fromDef, toDef).write;
+  const out = new Float64Array(2);
+  let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
+  const polygons = naming(source, () => geometry.map((polygon): FlatPolygon => {
+    let total = 0;
+    for (let r = 0; r < polygon.length; r++) total += polygon[r].length;
+    const xs = new Float64Array(total), ys = new Float64Array(total);
+    const ringStarts = new Uint32Array(polygon.length + 1);
+    let n = 0;
+    for (let r = 0; r < polygon.length; r++) {
+      const ring = polygon[r];
+      ringStarts[r] = n;
+      for (let i = 0; i < ring.length; i++, n++) {
+        write(ring[i][0], ring[i][1], out);
+        const x = out[0], y = out[1];
+        xs[n] = x; ys[n] = y;
+        if (x < minX) minX = x;
+        if (x > maxX) maxX = x;
+        if (y < minY) minY = y;
+        if (y > maxY) maxY = y;
+      }
+    }
+    ringStarts[polygon.length] = n;
+    return { xs, ys, ringStarts };
+  }));
+  return { polygons, bbox: [minX, minY, maxX, maxY] };
+}
+
+/** Run `f`; an InputError it throws without a file gets `source`. */
+function naming<T>(source: string | undefined, f: () => T): T {
   try {
-    return geometry.map((polygon) => polygon.map((ring) => ring.map(([x, y]) => t(x, y))));
+    return f();
   } catch (e) {
     if (source && e instanceof InputError && e.source === undefined) throw new InputError(e.message, source);
     throw e;

@@ -22,7 +22,7 @@
  * Repairs made silently: ring orientation (outer counter-clockwise, holes
  * clockwise) and consecutive repeated positions; a third (altitude) coordinate is dropped.
  */
-import { readFile } from 'node:fs/promises';
+import { readFileSync } from 'node:fs';
 import { InputError } from '../errors.js';
 import { ellipsoidalAreaSquareMetres, planarSignedArea } from './area.js';
 import { orientPolygon } from './orient.js';
@@ -285,7 +285,7 @@ export function parseDistricts(text: string, source: string, options: ParseDistr
 export async function readDistricts(path: string, options: ParseDistrictsOptions = {}): Promise<District[]> {
   let text: string;
   try {
-    text = await readFile(path, 'utf8');
+    text = readFileSync(path, 'utf8');
   } catch (e) {
     const code = (e as NodeJS.ErrnoException).code;
     throw new InputError(`cannot read the district file (${code ?? (e as Error).message})`, path);

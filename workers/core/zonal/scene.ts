@@ -4,6 +4,7 @@
  * straight into per-target accumulators. No whole-raster array is made.
  */
 import { InputError } from '../errors.js';
+import type { FlatMultiPolygon, MultiPolygonCoordinates } from '../crs/transform.js';
 import { centreMask } from '../coverage/centre.js';
 import { inverseGeoTransform } from '../coverage/pixelspace.js';
 import type { CentreMask, FractionMask } from '../coverage/types.js';
@@ -19,8 +20,8 @@ export const DEFAULT_PLAUSIBLE_KELVIN: readonly [number, number] = [170, 360];
 /** A district (or any zone) with its geometry already in the raster's CRS. */
 export interface ZonalTarget {
   id: string;
-  /** MultiPolygon coordinates in the raster CRS, map units. */
-  geometry: number[][][][];
+  /** MultiPolygon coordinates in the raster CRS, map units: nested, or as typed arrays (reprojectFlat). */
+  geometry: MultiPolygonCoordinates | FlatMultiPolygon;
 }
 
 export interface ZonalSceneOptions {

@@ -11,7 +11,10 @@
  */
 export function lerp(a: number, b: number, t: number): number {
   const diff = b - a;
-  return t >= 0.5 ? b - diff * (1 - t) : a + diff * t;
+  // both ends computed, one kept: V8 then never meets an untried operation in optimised code
+  // that inlined this (it threw unitRunQuantiles' code away once a `zonal` run, --trace-deopt)
+  const fromLower = a + diff * t, fromUpper = b - diff * (1 - t);
+  return t >= 0.5 ? fromUpper : fromLower;
 }
 
 /**
@@ -131,18 +134,25 @@ export function unitRunQuantiles(values: ArrayLike<number>, counts: ArrayLike<nu
 
 /** Indices of `ts` by ascending value, NaN last, ties by index (insertion sort: a few probabilities). */
 function ascendingOrder(ts: Float64Array): Int32Array {
-  const before = (a: number, b: number): boolean => {
-    const x = ts[a], y = ts[b];
-    if (x !== x || y !== y) return x !== x && y !== y ? a < b : y !== y;
-    return x < y || (x === y && a < b);
-  };
   const order = new Int32Array(ts.length);
   for (let i = 0; i < ts.length; i++) {
     let j = i;
-    while (j > 0 && before(i, order[j - 1])) { order[j] = order[j - 1]; j--; }
+    while (j > 0 && rankedBefore(ts, i, order[j - 1])) { order[j] = order[j - 1]; j--; }
     order[j] = i;
   }
   return order;
+}
+
+/**
+ * Whether ts[a] goes before ts[b] (NaN last, ties by index). A function of its own, not a
+ * closure made per call: V8 optimised unitRunQuantiles with a fresh closure inlined that had
+ * no type feedback yet and threw the code away at its first call (a recompile of ~3 ms in a
+ * one-scene `zonal` run, --trace-deopt).
+ */
+function rankedBefore(ts: Float64Array, a: number, b: number): boolean {
+  const x = ts[a], y = ts[b];
+  if (x !== x || y !== y) return x !== x && y !== y ? a < b : y !== y;
+  return x < y || (x === y && a < b);
 }
 
 /** unitRunQuantiles' walk over the runs: out[order[i]] for each rank position ts[order[i]], in ascending order. */
@@ -153,9 +163,15 @@ function walkUnitRuns(values: ArrayLike<number>, counts: ArrayLike<number>, m: n
     const S = before + counts[j];
     while (next < order.length) {
       const t = ts[order[next]];
-      if (t < before && j > 0) out[order[next++]] = lerp(values[j - 1], values[j], t - (before - 1));
-      else if (t <= S - 1) out[order[next++]] = values[j];
-      else break;
+      // Every comparison and the interpolation made on every pass, used or not: an operation
+      // first met after V8 had optimised this loop threw the optimised code away (two
+      // recompiles in a one-scene `zonal` run, --trace-deopt).
+      const between = (t < before ? 1 : 0) & (j > 0 ? 1 : 0);
+      const inRun = t <= S - 1 ? 1 : 0;
+      if ((between | inRun) === 0) break;
+      const interpolated = lerp(values[j > 0 ? j - 1 : j], values[j], t - (before - 1));
+      out[order[next]] = between === 1 ? interpolated : values[j];
+      next++;
     }
     before = S;
   }

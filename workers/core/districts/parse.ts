@@ -147,7 +147,9 @@ function position(p: Json, ringWhere: string, i: number, source: string): number
 function ring(r: Json, where: string, source: string): number[][] {
   if (!Array.isArray(r)) throw new InputError(`${where} is not an array of positions (found ${kindOf(r)})`, source);
   if (r.length === 0) throw new InputError(`${where} is empty`, source);
-  const pts: number[][] = new Array(r.length);
+  // checked in place: the array is this parse's own (JSON.parse made it), so a position
+  // cut to [x, y] replaces its original there, and no copy of the ring is made
+  const pts = r as number[][];
   let repeats = 0;
   for (let i = 0; i < r.length; i++) {
     const p = position(r[i], where, i, source);

@@ -6,7 +6,7 @@
  */
 import { invert, type Affine } from '../raster/affine.js';
 import { InputError } from '../errors.js';
-import { isFlatMultiPolygon, type FlatMultiPolygon, type FlatPolygon } from '../crs/transform.js';
+import { isFlatMultiPolygon, type FlatPolygon } from '../crs/transform.js';
 
 /** One polygon in pixel space: all rings' vertices back to back (closing vertex dropped). */
 export interface PixelPolygon {
@@ -39,10 +39,10 @@ function describe(p: number, r: number): string {
 
 /**
  * Validates nested polygon/multipolygon coordinates and copies them into typed
- * arrays (map units unchanged). Throws InputError naming `source` for anything
+ * arrays, polygon by polygon (map units unchanged). Throws InputError naming `source` for anything
  * that is not a list of polygons of rings of finite [x, y] positions.
  */
-function flattenChecked(geometry: unknown, source?: string): FlatMultiPolygon {
+function flattenChecked(geometry: unknown, source?: string): FlatPolygon[] {
   if (!Array.isArray(geometry)) {
     throw new InputError('geometry coordinates are not a list of polygons', source);
   }
@@ -79,7 +79,7 @@ function flattenChecked(geometry: unknown, source?: string): FlatMultiPolygon {
     ringStarts[rings.length] = n;
     polygons.push({ xs, ys, ringStarts });
   }
-  return { polygons, bbox: [NaN, NaN, NaN, NaN] };
+  return polygons;
 }
 
 /**
@@ -97,12 +97,12 @@ function flattenChecked(geometry: unknown, source?: string): FlatMultiPolygon {
  * @returns vertices in pixel units and their bounding box; null for an empty geometry
  */
 export function toPixelSpace(geometry: unknown, transform: Affine, source?: string): PixelGeometry | null {
-  const flat = isFlatMultiPolygon(geometry) ? geometry : flattenChecked(geometry, source);
+  const given = isFlatMultiPolygon(geometry) ? geometry.polygons : flattenChecked(geometry, source);
   const inv = invert(transform, source);
   const polygons: PixelPolygon[] = [];
   let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
-  for (let p = 0; p < flat.polygons.length; p++) {
-    const { xs: mx, ys: my, ringStarts: from } = flat.polygons[p];
+  for (let p = 0; p < given.length; p++) {
+    const { xs: mx, ys: my, ringStarts: from } = given[p];
     const rings = from.length - 1;
     if (rings <= 0) continue;
     const xs = new Float64Array(mx.length);

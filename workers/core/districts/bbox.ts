@@ -22,23 +22,3 @@ export function districtsBBox(districts: readonly District[]): LonLatBBox {
   }
   return [minLon, minLat, maxLon, maxLat];
 }
-
-/**
- * Bounding box [x0, y0, x1, y1] of MultiPolygon coordinates in any CRS (every
- * ring, so it also holds for coordinates reprojected into a raster's CRS).
- */
-export function geometryBBox(geometry: number[][][][]): [number, number, number, number] {
-  let x0 = Infinity, y0 = Infinity, x1 = -Infinity, y1 = -Infinity;
-  // indexed loops: destructuring each position through the array iterator cost ~5 ms
-  // of a one-scene `zonal` run (60 districts x 600 positions, code not yet optimised)
-  for (const poly of geometry) for (const ring of poly) {
-    for (let i = 0; i < ring.length; i++) {
-      const x = ring[i][0], y = ring[i][1];
-      if (x < x0) x0 = x;
-      if (x > x1) x1 = x;
-      if (y < y0) y0 = y;
-      if (y > y1) y1 = y;
-    }
-  }
-  return [x0, y0, x1, y1];
-}

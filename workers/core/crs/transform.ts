@@ -181,7 +181,7 @@ function generalTransformer(fromDef: string, toDef: string): PointTransformer {
  * @param geometry polygons -> rings -> [x, y] in `fromDef` units (not modified)
  * @param source optional file name for error messages
  * @throws InputError for a point outside the target projection's domain, naming `source`
- * @example reprojectFlat([[[[15, 0], [15.1, 0], [15, 0.1], [15, 0]]]], wgs84, utm33).bbox // [500000, 0, 511132.., 11057..]
+ * @example reprojectFlat([[[[15, 0], [15.1, 0], [15, 0.1], [15, 0]]]], wgs84, utm33).bbox // [500000, 0, 511127.50.., 11053.00..]
  */
 export function reprojectFlat(
   geometry: MultiPolygonCoordinates,
@@ -192,39 +192,35 @@ export function reprojectFlat(
   const write = transformersFor(fromDef, toDef).write;
   const out = new Float64Array(2);
   let minX = Infinity, minY = Infinity, maxX = -Infinity, maxY = -Infinity;
-  const polygons = naming(source, () => geometry.map((polygon): FlatPolygon => {
-    let total = 0;
-    for (let r = 0; r < polygon.length; r++) total += polygon[r].length;
-    const xs = new Float64Array(total), ys = new Float64Array(total);
-    const ringStarts = new Uint32Array(polygon.length + 1);
-    let n = 0;
-    for (let r = 0; r < polygon.length; r++) {
-      const ring = polygon[r];
-      ringStarts[r] = n;
-      for (let i = 0; i < ring.length; i++, n++) {
-        write(ring[i][0], ring[i][1], out);
-        const x = out[0], y = out[1];
-        xs[n] = x; ys[n] = y;
-        if (x < minX) minX = x;
-        if (x > maxX) maxX = x;
-        if (y < minY) minY = y;
-        if (y > maxY) maxY = y;
-      }
-    }
-    ringStarts[polygon.length] = n;
-    return { xs, ys, ringStarts };
-  }));
-  return { polygons, bbox: [minX, minY, maxX, maxY] };
-}
-
-/** Run `f`; an InputError it throws without a file gets `source`. */
-function naming<T>(source: string | undefined, f: () => T): T {
+  let polygons: FlatPolygon[];
   try {
-    return f();
+    polygons = geometry.map((polygon): FlatPolygon => {
+      let total = 0;
+      for (let r = 0; r < polygon.length; r++) total += polygon[r].length;
+      const xs = new Float64Array(total), ys = new Float64Array(total);
+      const ringStarts = new Uint32Array(polygon.length + 1);
+      let n = 0;
+      for (let r = 0; r < polygon.length; r++) {
+        const ring = polygon[r];
+        ringStarts[r] = n;
+        for (let i = 0; i < ring.length; i++, n++) {
+          write(ring[i][0], ring[i][1], out);
+          const x = out[0], y = out[1];
+          xs[n] = x; ys[n] = y;
+          if (x < minX) minX = x;
+          if (x > maxX) maxX = x;
+          if (y < minY) minY = y;
+          if (y > maxY) maxY = y;
+        }
+      }
+      ringStarts[polygon.length] = n;
+      return { xs, ys, ringStarts };
+    });
   } catch (e) {
     if (source && e instanceof InputError && e.source === undefined) throw new InputError(e.message, source);
     throw e;
   }
+  return { polygons, bbox: [minX, minY, maxX, maxY] };
 }
 
 /**

@@ -42,9 +42,17 @@ export interface PgliteStoreOptions {
  * three runs each): `table --level year` 1.0 s and 1.5 s of CPU against 0.7 s and
  * 0.8 s baseline-only, `trend` 1.2 s / 1.8 s against 0.7 s / 0.85 s; an embedded
  * ingest of 200 scenes 44-54 ms of CPU a scene against 36-41 ms. A long-running
- * `serve` keeps V8's default. The flag takes effect for modules compiled while it
- * is set, so it is set around PGlite's start and cleared after, leaving other
- * WebAssembly (the LERC and Zstandard decoders) to V8's default.
+ * `serve` keeps V8's default. The flag is set around PGlite's start and cleared
+ * after, but two flags it turned off stay off for the rest of the process
+ * (`--wasm-tier-up`, `--wasm-dynamic-tiering`): PGlite's functions compiled
+ * later, on first call, also stay on the baseline compiler, and so does other
+ * WebAssembly the command loads (the LERC and Zstandard decoders). That is part
+ * of what was measured: turning the two back on after the start made `table
+ * --level year` on the demo's store 1.0 -> 1.6 s of wall time and 1.05 ->
+ * 1.87 s of CPU (farm-bench, 11 pairs, 2026-12-03). A side effect: V8 hashes
+ * its flags into every code cache, so the bin's code cache, when a store
+ * command has to write it (it was missing or refused at the start), is refused
+ * by later runs until a `zonal` run writes it again (DEVELOPERS.md).
  */
 async function withWasmTier<T>(longRunning: boolean, start: () => Promise<T>): Promise<T> {
   if (longRunning) return start();

@@ -15,10 +15,11 @@
  *   malloc heap and the zonal histograms' 16 MB buffers then fault in 2 MB at a
  *   time instead of 4 KB. A `zonal` run of the bench touches ~40 MB; on the
  *   2-core build machine each 4 KB first touch cost ~10 us of system time, and
- *   the run took 0.90x the wall and CPU time (farm-bench, 15 pairs on each of
- *   the bench's two rasters), for ~16 MB more peak memory. A value the user set
- *   comes after ours and wins; glibc of other versions and other C libraries
- *   ignore the name. The processes a command starts get the user's value back.
+ *   the run took 0.90x the wall and CPU time (paired whole-process runs, 15
+ *   pairs on each of the bench's two rasters), for ~16 MB more peak memory. A
+ *   value the user set comes after ours and wins; glibc of other versions and
+ *   other C libraries ignore the name. The processes a command starts get the
+ *   user's value back.
  * - V8 optimises hot functions on the thread that runs them instead of a
  *   background thread: a `zonal` run of the bench's 1200 x 1200 clip took
  *   0.34 s of CPU instead of 0.45 s with the same wall time (0.32 s against

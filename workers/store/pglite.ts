@@ -49,7 +49,7 @@ export interface PgliteStoreOptions {
  * WebAssembly the command loads (the LERC and Zstandard decoders). That is part
  * of what was measured: turning the two back on after the start made `table
  * --level year` on the demo's store 1.0 -> 1.6 s of wall time and 1.05 ->
- * 1.87 s of CPU (farm-bench, 11 pairs, 2026-12-03). A side effect: V8 hashes
+ * 1.87 s of CPU (paired whole-process runs, 11 pairs, 2026-12-03). A side effect: V8 hashes
  * its flags into every code cache, so the bin's code cache, when a store
  * command has to write it (it was missing or refused at the start), is refused
  * by later runs until a `zonal` run writes it again (DEVELOPERS.md).
@@ -203,7 +203,7 @@ class PgliteStore implements Store {
    * documentation, "Message Flow: Extended Query"). Values are serialised and
    * rows parsed by PGlite's own functions, under its locks, as its query() does.
    * An embedded ingest of the archive bench's 200 scenes (into a copy of one
-   * prepared store, farm-bench, 8 pairs, 2026-12): wall 0.95x, CPU 0.95x; the
+   * prepared store, paired whole-process runs, 8 pairs, 2026-12): wall 0.95x, CPU 0.95x; the
    * tables exported by scene, date and year are byte for byte the same.
    */
   private async preparedQuery<T>(sql: string, params: unknown[]): Promise<T[]> {

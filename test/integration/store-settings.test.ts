@@ -1,6 +1,6 @@
 /**
  * The embedded engine's settings by kind of process (workers/store/pglite.ts):
- * a command that opens the store and ends gets 64 MB of shared buffers (a
+ * a command that opens the store and ends gets 16 MB of shared buffers (a
  * quicker start), `serve` keeps PGlite's 128 MB. Read back with PostgreSQL's
  * own SHOW (PostgreSQL manual, "SHOW").
  */
@@ -8,7 +8,7 @@ import { describe, expect, it } from 'vitest';
 import { openPgliteStore } from '../../workers/store/pglite.js';
 
 describe('embedded store settings', () => {
-  for (const [longRunning, expected] of [[false, '64MB'], [true, '128MB']] as const) {
+  for (const [longRunning, expected] of [[false, '16MB'], [true, '128MB']] as const) {
     it(`longRunning ${longRunning}: shared_buffers ${expected}, and the store works`, async () => {
       const store = await openPgliteStore({ dataDir: '', memory: true, longRunning });
       try {

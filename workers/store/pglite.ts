@@ -71,15 +71,23 @@ async function withWasmTier<T>(longRunning: boolean, start: () => Promise<T>): P
 
 /**
  * PostgreSQL settings of a store opened by a command that works and ends (not
- * `serve`): 64 MB of shared buffers instead of PGlite's 128 MB. Setting up the
- * 128 MB took ~100-150 ms of PGlite's start (a new store from the template
- * 470-640 ms -> 330-500 ms, 64 MB as fast as 16 or 32 MB; three alternating runs
- * each, 2-core machine, 2026-12), and a process that opens the store once starts
- * with an empty buffer cache anyway, reading each page it needs once (large
- * scans use a small ring of buffers whatever the size). `serve` keeps the 128 MB:
- * it answers query after query from what it has read.
+ * `serve`): 16 MB of shared buffers instead of PGlite's 128 MB. The engine
+ * clears its whole shared memory at start (`memset`, one WebAssembly
+ * `memory.fill`), and every megabyte of it is fresh WebAssembly memory whose
+ * pages the kernel must fault in: ~3.5 ms of CPU a megabyte on a 2-core build
+ * machine (2026-12-03, profiles of `table --level year`: memset 238 ms at
+ * 64 MB, 79 ms at 16 MB, none to see at 1 MB). A process that opens the store
+ * once starts with an empty buffer cache anyway and reads each page it needs
+ * about once, from the operating system's file cache when not from its own
+ * (large scans use a small ring of buffers whatever the size). Five read
+ * commands on the demo's store, five alternating runs each: 64 MB -> 16 MB cut
+ * 0.15-0.18 s of wall and CPU from every one (table --level year 1.00 -> 0.83 s,
+ * export --level date 1.07 -> 0.90 s); 8 MB and 1 MB were within the noise of
+ * 16 MB, and so was an embedded ingest of 200 scenes (45-53 scenes/s each way).
+ * 16 MB keeps room for the index pages a query revisits. `serve` keeps the
+ * 128 MB: it answers query after query from what it has read.
  */
-const SHORT_RUN_SETTINGS = ['-c', 'shared_buffers=64MB'];
+const SHORT_RUN_SETTINGS = ['-c', 'shared_buffers=16MB'];
 
 function queryError(e: unknown, where: string, sql: string): ServiceError {
   if (e instanceof ServiceError) return e;

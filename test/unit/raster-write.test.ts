@@ -8,7 +8,7 @@ import { createHash } from 'node:crypto';
 import { mkdtempSync, readFileSync, rmSync } from 'node:fs';
 import { tmpdir } from 'node:os';
 import { join } from 'node:path';
-import { afterAll, describe, expect, it } from 'vitest';
+import { afterAll, beforeAll, describe, expect, it } from 'vitest';
 import { fromArrayBuffer } from 'geotiff';
 import { encodeGeoTiff, writeGeoTiff, type WritableRaster, type WriteGeoTiffOptions, type WriteLayout } from '../../workers/core/raster/write.js';
 import type { Affine } from '../../workers/core/raster/affine.js';
@@ -206,9 +206,11 @@ if (!HAVE_GDAL) {
 } else {
   describe('writeGeoTiff read back with GDAL (reference library)', () => {
     let views: Record<string, GdalView> = {};
-    it('GDAL opens every file', async () => {
+    beforeAll(async () => {
       await written;
       views = readWithGdal(CASES.map((c) => c.path));
+    });
+    it('GDAL opens every file', () => {
       expect(Object.keys(views).length).toBe(CASES.length);
     });
 

@@ -5,6 +5,13 @@
  */
 import { DEFERRED_CA_ENV } from './extra-ca.js';
 
+/**
+ * The glibc tunable the first line puts before the user's GLIBC_TUNABLES: malloc asks the kernel
+ * for transparent huge pages (cli.ts says why). The line writes it out itself (a `#!` line
+ * cannot import); test/unit/bin-env.test.ts checks that the two agree.
+ */
+export const HUGE_PAGES_TUNABLE = 'glibc.malloc.hugetlb=1';
+
 /** Where the first line keeps the user's GLIBC_TUNABLES (empty: none) while it sets its own. */
 export const DEFERRED_TUNABLES_ENV = 'HEATLEDGER_DEFERRED_GLIBC_TUNABLES';
 

@@ -11,7 +11,7 @@ import { chmodSync, mkdtempSync, readFileSync, rmSync, writeFileSync } from 'nod
 import os from 'node:os';
 import path from 'node:path';
 import { afterAll, describe, expect, it } from 'vitest';
-import { DEFERRED_TUNABLES_ENV, restoreUserEnv } from '../../workers/bin-env.js';
+import { DEFERRED_TUNABLES_ENV, HUGE_PAGES_TUNABLE, restoreUserEnv } from '../../workers/bin-env.js';
 import { DEFERRED_CA_ENV } from '../../workers/extra-ca.js';
 
 const CLI_SOURCE = path.resolve(import.meta.dirname, '../../workers/cli.ts');
@@ -26,6 +26,7 @@ chmodSync(path.join(dir, 'node'), 0o755);
 function runFirstLine(userEnv: Record<string, string>): string[] {
   const first = readFileSync(CLI_SOURCE, 'utf8').split('\n', 1)[0];
   expect(first.startsWith('#!/usr/bin/env ')).toBe(true);
+  expect(first).toContain(` GLIBC_TUNABLES=${HUGE_PAGES_TUNABLE}:${'${GLIBC_TUNABLES}'} `);
   const env = { PATH: `${dir}:/usr/bin:/bin`, ...userEnv };
   const r = spawnSync('/usr/bin/env', [first.slice('#!/usr/bin/env '.length), 'cli.js', '--version'], { env, encoding: 'utf8' });
   expect(r.status).toBe(0);
